@@ -1,0 +1,34 @@
+# Two set-up commands for a fresh machine: `make demo` and `make test`.
+PY ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test test-all bench lint clean
+
+$(BIN)/python:
+	$(PY) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(STAMP): $(BIN)/python pyproject.toml
+	$(BIN)/python -m pip install --quiet -e ".[test,lint,netcdf]"
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/eftsieve demo -o demo_output
+
+test: $(STAMP)
+	$(BIN)/python -m pytest
+
+test-all: $(STAMP)
+	$(BIN)/python -m pytest -m "slow or not slow"
+
+bench: $(STAMP)
+	$(BIN)/python benchmarks/run_all.py
+
+lint: $(STAMP)
+	$(BIN)/ruff check src tests benchmarks
+	$(BIN)/mypy
+
+clean:
+	rm -rf $(VENV) demo_output

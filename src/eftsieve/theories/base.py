@@ -1,0 +1,101 @@
+"""The interface every theory implements, and the map from a fit to region coordinates.
+
+A theory knows its physics: its parameters and conventions, how to build its region,
+and how to move a fit's parameters into the region's coordinates.  It never reaches
+into the statistics of ``check`` or ``impose``.
+"""
+
+from __future__ import annotations
+
+from abc import ABC, abstractmethod
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from eftsieve.fit import Fit
+    from eftsieve.region import Region
+
+
+@dataclass(frozen=True)
+class CoordinateMap:
+    """Map fit parameters (n, p) to region coordinates (n, k).
+
+    For affine maps, ``jacobian`` (k, p) and ``shift`` (k,) hold y = J x + c exactly, so
+    that a region's facets can be pulled back to the fit's own coordinates.
+
+    Attributes
+    ----------
+    jacobian
+        J, shape (k, p), or None for a nonlinear map.
+    shift
+        c, shape (k,), or None.
+    description
+        One line per coordinate saying where it came from.
+    """
+
+    jacobian: np.ndarray | None
+    shift: np.ndarray | None
+    description: tuple[str, ...] = ()
+    nonlinear: Any = None
+
+    @property
+    def is_affine(self) -> bool:
+        return self.jacobian is not None
+
+    def __call__(self, x: np.ndarray) -> np.ndarray:
+        if self.jacobian is not None and self.shift is not None:
+            return np.asarray(x, dtype=float) @ self.jacobian.T + self.shift
+        return np.asarray(self.nonlinear(np.asarray(x, dtype=float)))
+
+    def pull_back(self, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Facets A y >= b in region coordinates as A' x >= b' in fit coordinates."""
+        if self.jacobian is None or self.shift is None:
+            raise ValueError("facets can be pulled back only through an affine map")
+        return a @ self.jacobian, b - a @ self.shift
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"affine": self.is_affine, "description": list(self.description),
+                "jacobian": None if self.jacobian is None else self.jacobian.tolist(),
+                "shift": None if self.shift is None else self.shift.tolist()}
+
+
+class Theory(ABC):
+    """A named amplitude model with its parameter space."""
+
+    name: str = ""
+    summary: str = ""
+    #: every parameter name that a convention applies to
+    parameter_names: tuple[str, ...] = ()
+    #: the region's coordinates
+    coordinates: tuple[str, ...] = ()
+    conventions: tuple[str, ...] = ()
+    #: kinematic inputs: key -> (meaning, default or None)
+    kinematic_inputs: dict[str, tuple[str, float | None]] = {}
+    families: tuple[str, ...] = ()
+
+    def describe(self) -> dict[str, Any]:
+        """What ``eftsieve theories`` prints."""
+        return {"name": self.name, "summary": self.summary,
+                "parameters": list(self.parameter_names),
+                "region_coordinates": list(self.coordinates),
+                "conventions": list(self.conventions),
+                "kinematic_inputs": {k: {"meaning": m, "default": d}
+                                     for k, (m, d) in self.kinematic_inputs.items()},
+                "bound_families": list(self.families)}
+
+    def validate_fit(self, fit: Fit) -> None:
+        """Theory-specific semantic checks of a fit (raise InputError)."""
+
+    @abstractmethod
+    def build_region(self, settings: dict[str, Any]) -> Region:
+        """Build the region for the given settings."""
+
+    @abstractmethod
+    def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
+        """Default region settings matching a fit's kinematics."""
+
+    @abstractmethod
+    def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
+        """The map from the fit's parameters to the region's coordinates."""

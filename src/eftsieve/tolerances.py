@@ -1,0 +1,21 @@
+"""Numerical tolerances, defined once and by name.
+
+Every comparison against a bound or a matrix property uses one of these.  They are
+recorded in region files and reports so that a verdict can be reproduced.
+"""
+
+from __future__ import annotations
+
+#: Relative asymmetry allowed in a covariance, |C - C^T| / max|C|.
+SYMMETRY_TOL = 1e-10
+#: Smallest eigenvalue allowed in a covariance, relative to the largest (negative side).
+PSD_TOL = 1e-10
+#: Default marginal band: a point within this distance of a facet (in the region's
+#: coordinates, Euclidean distance along the facet normal) is ``marginal``.
+MARGINAL_BAND = 1e-3
+#: Feasibility tolerance of LP/QP solves, relative.
+FEASIBILITY_TOL = 1e-8
+#: Relative tolerance used when reducing facets to the irredundant set.
+REDUNDANCY_TOL = 1e-9
+#: Effective-sample-size floor below which `impose --mode reweight` refuses.
+MIN_ESS = 400.0
