@@ -35,7 +35,7 @@ DEFAULT_MU_MEV = 770.0
 #: gamma_i of Gasser & Leutwyler, Ann. Phys. 158 (1984) 142, Eq. (9.7), for l_1..l_4.
 GAMMA_SU2 = {1: 1.0 / 3.0, 2: 2.0 / 3.0, 3: -0.5, 4: 2.0}
 
-CONVENTION_NAMES = ("lbar", "lr", "none")
+CONVENTION_NAMES = ("lbar", "lr", "projective", "dimensionful", "none")
 
 
 @dataclass(frozen=True)
@@ -55,6 +55,7 @@ class Convention:
     name: str
     pion_mass_mev: float | None = None
     mu_mev: float | None = None
+    gap_mev: float | None = None
 
     def to_dict(self) -> dict[str, object]:
         out: dict[str, object] = {"name": self.name}
@@ -62,6 +63,8 @@ class Convention:
             out["pion_mass_mev"] = self.pion_mass_mev
         if self.mu_mev is not None:
             out["mu_mev"] = self.mu_mev
+        if self.gap_mev is not None:
+            out["gap_mev"] = self.gap_mev
         return out
 
     def describe(self) -> str:
@@ -69,6 +72,10 @@ class Convention:
             return f"lbar at M_pi = {self.pion_mass_mev:g} MeV"
         if self.name == "lr":
             return f"l^r(mu) at mu = {self.mu_mev:g} MeV"
+        if self.name == "dimensionful":
+            return f"dimensionful coefficients with mass gap M = {self.gap_mev:g} MeV"
+        if self.name == "projective":
+            return "projective dimensionless ratios (g_k M^(2k-4) / g2)"
         return "untransformed"
 
 

@@ -245,6 +245,14 @@ def parse_convention(raw: Any, kin: dict[str, float], path: Path | None, where: 
             raise InputError(path, where, "convention 'lr' needs its renormalisation scale",
                              "add kinematics.mu_mev (MeV)")
         return Convention("lr", mu_mev=_positive(mu, path, where + ".mu_mev"))
+    if raw == "dimensionful":
+        gap = extra.get("gap_mev", kin.get("gap_mev"))
+        if gap is None:
+            raise InputError(path, where, "convention 'dimensionful' needs the mass gap M",
+                             "add kinematics.gap_mev (MeV)")
+        return Convention("dimensionful", gap_mev=_positive(gap, path, where + ".gap_mev"))
+    if raw == "projective":
+        return Convention("projective")
     return Convention("none")
 
 

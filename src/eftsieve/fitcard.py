@@ -148,7 +148,11 @@ def _samples(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> Sample
     if not file.is_file():
         raise InputError(path, "samples.path", f"file not found: {file}",
                          "paths are relative to the card")
-    fmt = detect_format(file, spec.get("format"))
+    try:
+        fmt = detect_format(file, spec.get("format"))
+    except InputError as err:
+        raise InputError(path, "samples.format", f"{err.problem} in {file.name}",
+                         err.hint) from err
     mapping = spec.get("columns", {}) or {}
     if not isinstance(mapping, dict):
         raise InputError(path, "samples.columns", "must map parameter names to columns", "")

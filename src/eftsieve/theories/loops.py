@@ -68,15 +68,18 @@ def jbar(w: np.ndarray | float) -> np.ndarray:
 
 
 def _series_derivative(w: np.ndarray, n: int) -> np.ndarray:
-    """n-th derivative of the Taylor series of j at w (|w| < 4)."""
+    """n-th derivative of the Taylor series of j at w (|w| < 4), by Horner's rule."""
     k = np.arange(1, _N_SERIES + 1)
     coef = _SERIES.copy()
     for i in range(n):
         coef = coef * (k - i)
-    powers = np.clip(k - n, 0, None)
-    mask = k >= n
-    terms = coef[mask][None, :] * np.power(w[:, None], powers[mask][None, :])
-    return terms.sum(axis=1)
+    coef = coef[k >= n]          # coefficients of w^(k - n), k = max(n, 1) .. N
+    out = np.zeros_like(w, dtype=float)
+    for c in coef[::-1]:
+        out = out * w + c
+    if n == 0:                   # the series starts at w^1
+        out = out * w
+    return out
 
 
 def jbar_derivatives(w: np.ndarray | float, order: int) -> np.ndarray:

@@ -46,6 +46,10 @@ class Quadratic:
     lin: tuple[float, float, float]
     quad: tuple[tuple[float, float, float], ...]
 
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "_lin", np.asarray(self.lin, dtype=float))
+        object.__setattr__(self, "_q", np.asarray(self.quad, dtype=float))
+
     @staticmethod
     def from_terms(terms: dict[tuple[int, ...], float]) -> Quadratic:
         """From monomials: () const, (i,) linear, (i, j) quadratic x_i x_j."""
@@ -69,14 +73,14 @@ class Quadratic:
         return Quadratic(self.c0, tuple(lin), tuple(map(tuple, q)))  # type: ignore[arg-type]
 
     def value(self, x: np.ndarray) -> np.ndarray:
-        q = np.asarray(self.quad)
-        return self.c0 + x @ np.asarray(self.lin) + np.einsum("...i,ij,...j->...", x, q, x)
+        q: np.ndarray = self._q  # type: ignore[attr-defined]
+        return self.c0 + x @ self._lin + ((x @ q) * x).sum(axis=-1)  # type: ignore[attr-defined]
 
     def d1(self, x: np.ndarray, a: np.ndarray) -> np.ndarray:
-        return a @ np.asarray(self.lin) + 2 * x @ (np.asarray(self.quad) @ a)
+        return a @ self._lin + 2 * x @ (self._q @ a)  # type: ignore[attr-defined]
 
     def d2(self, a: np.ndarray, b: np.ndarray) -> float:
-        return float(2 * a @ np.asarray(self.quad) @ b)
+        return float(2 * a @ self._q @ b)  # type: ignore[attr-defined]
 
 
 @dataclass(frozen=True)
@@ -170,22 +174,35 @@ def evaluate(amp: Amplitude, x: np.ndarray) -> np.ndarray:
     return out
 
 
-def third_mixed(amp: Amplitude, x: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    """D^3 F[a, a, b] at points x (n, 3): exact (Leibniz rule, analytic Jbar derivatives)."""
-    out = np.full(len(x), amp.poly.d2(a, a) * 0.0)  # polynomial is quadratic: no 3rd derivative
+def loop_jets(amp: Amplitude, x: np.ndarray, order: int,
+              skip: tuple[int, ...] = ()) -> dict[int, np.ndarray]:
+    """LOOP * d^n j/dw^n (n = 0..order) for each Mandelstam variable that the loops use."""
+    used = sorted({t.var for t in amp.loops} - set(skip))
+    return {v: LOOP * jbar_derivatives(x[:, v], order) for v in used}
+
+
+def third_mixed(amp: Amplitude, x: np.ndarray, a: np.ndarray, b: np.ndarray,
+                jets: dict[int, np.ndarray] | None = None) -> np.ndarray:
+    """D^3 F[a, a, b] at points x (n, 3): exact (Leibniz rule, analytic Jbar derivatives).
+
+    Terms whose Jbar argument is constant along a and whose polynomial is linear along a
+    vanish identically and are skipped (so Jbar(t) at t = 4M^2 never enters).
+    """
+    out = np.zeros(len(x))  # the polynomial part is quadratic: no third derivative
     for term in amp.loops:
         p = term.poly
         av, bv = a[term.var], b[term.var]
         if av == 0 and p.d2(a, a) == 0:
-            continue  # the term is linear along a: its a-a derivative vanishes identically
-        j = LOOP * jbar_derivatives(x[:, term.var], 3)
+            continue
+        j = jets[term.var] if jets is not None else LOOP * jbar_derivatives(x[:, term.var], 3)
         pv, pa, pb = p.value(x), p.d1(x, a), p.d1(x, b)
         out = out + (2 * p.d2(a, b) * j[1] * av + p.d2(a, a) * j[1] * bv
                      + 2 * pa * j[2] * av * bv + pb * j[2] * av**2 + pv * j[3] * av**2 * bv)
     return out
 
 
-def second(amp: Amplitude, x: np.ndarray, a: np.ndarray) -> np.ndarray:
+def second(amp: Amplitude, x: np.ndarray, a: np.ndarray,
+           jets: dict[int, np.ndarray] | None = None) -> np.ndarray:
     """D^2 F[a, a] at points x (n, 3), exact."""
     out = np.full(len(x), amp.poly.d2(a, a))
     for term in amp.loops:
@@ -195,7 +212,7 @@ def second(amp: Amplitude, x: np.ndarray, a: np.ndarray) -> np.ndarray:
             if p.d2(a, a) != 0:
                 out = out + p.d2(a, a) * LOOP * _jbar_real(x[:, term.var])
             continue
-        j = LOOP * jbar_derivatives(x[:, term.var], 2)
+        j = jets[term.var] if jets is not None else LOOP * jbar_derivatives(x[:, term.var], 2)
         out = out + p.d2(a, a) * j[0] + 2 * p.d1(x, a) * j[1] * av + p.value(x) * j[2] * av**2
     return out
 

@@ -1,0 +1,1 @@
+"""Bound families: generic machinery that turns dispersion relations into linear constraints."""

@@ -1,0 +1,266 @@
+"""The ``check`` job: stream a fit through a region, collect statistics, write outputs.
+
+Use :func:`run_check` from scripts; ``eftsieve check`` calls it.  The fit's rows are
+read in chunks (or drawn from its Gaussian summary with an explicit seed), classified
+with :func:`eftsieve.check.classify`, and accounted for exactly: the counts always add up
+to the rows read.  Outputs are written atomically and never over an input.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+import tempfile
+from collections.abc import Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from eftsieve.check import VERDICT_NAMES, CheckSettings, Reservoir, classify
+from eftsieve.errors import InputError
+from eftsieve.fit import Fit
+from eftsieve.region import Region
+from eftsieve.samples import Chunk
+from eftsieve.stats import Accumulator, bayes_factor, tension
+from eftsieve.theories.base import CoordinateMap
+
+N_WORST = 20
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    """Everything a check produced.
+
+    Attributes
+    ----------
+    summary
+        The summary.json content.
+    region
+        The region used.
+    worst
+        The most violated points (dicts), most violated first.
+    plot_samples, plot_weights
+        A uniform subsample in the fit's coordinates for plots.
+    plot_region_coords
+        The same subsample in region coordinates.
+    """
+
+    summary: dict[str, Any]
+    region: Region
+    worst: tuple[dict[str, Any], ...]
+    plot_samples: np.ndarray
+    plot_weights: np.ndarray | None
+    plot_region_coords: np.ndarray
+
+    def to_dict(self) -> dict[str, Any]:
+        return dict(self.summary)
+
+
+def gaussian_chunks(fit: Fit, settings: CheckSettings) -> Iterator[Chunk]:
+    """Draws from the fit's Gaussian summary, in chunks, from one seeded generator."""
+    assert fit.mean is not None and fit.cov is not None
+    rng = np.random.default_rng(settings.seed)
+    chol = _psd_factor(fit.cov)
+    done = 0
+    while done < settings.draws:
+        n = min(settings.chunk_rows, settings.draws - done)
+        z = rng.standard_normal((n, len(fit.mean)))
+        yield Chunk(np.arange(done, done + n, dtype=np.int64), fit.mean + z @ chol.T, None)
+        done += n
+
+
+def _psd_factor(cov: np.ndarray) -> np.ndarray:
+    """A factor L with L L^T = cov, for positive semi-definite cov."""
+    w, v = np.linalg.eigh(cov)
+    return v * np.sqrt(np.clip(w, 0.0, None))
+
+
+class FlaggedWriter:
+    """Writes flagged rows to a temporary CSV, moved into place by :meth:`commit`."""
+
+    def __init__(self, path: Path, fit: Fit, region: Region) -> None:
+        self.path = path
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, self.tmp = tempfile.mkstemp(prefix=".flagged.", suffix=".csv", dir=path.parent)
+        self.fh = io.open(fd, "w", newline="", encoding="utf-8")
+        self.writer = csv.writer(self.fh)
+        self.region = region
+        head = ["row", "verdict", *fit.names, *[f"{c} (region)" for c in region.coordinates],
+                "min_margin", *[f"margin_{i}" for i in range(len(region.facets))],
+                "worst_facet", "family", "channel", "point"]
+        self.writer.writerow(head)
+        self.n = 0
+
+    def write(self, chunk: Chunk, y: np.ndarray, verdict: np.ndarray, min_margin: np.ndarray,
+              worst: np.ndarray) -> None:
+        sel = np.nonzero(verdict != 0)[0]
+        if not len(sel):
+            return
+        margins = self.region.margins(y[sel])
+        facets = self.region.facets
+        for k, i in enumerate(sel):
+            f = facets[int(worst[i])]
+            pt = ";".join(f"{a}={v:.6g}" for a, v in f.point.items())
+            self.writer.writerow([int(chunk.rows[i]), VERDICT_NAMES[verdict[i]],
+                                  *map(repr, chunk.values[i].tolist()),
+                                  *map(repr, y[i].tolist()), repr(float(min_margin[i])),
+                                  *map(repr, margins[k].tolist()), int(worst[i]), f.family,
+                                  f.channel, pt])
+        self.n += len(sel)
+
+    def commit(self) -> None:
+        self.fh.flush()
+        os.fsync(self.fh.fileno())
+        self.fh.close()
+        os.replace(self.tmp, self.path)
+
+    def abort(self) -> None:
+        if not self.fh.closed:
+            self.fh.close()
+        Path(self.tmp).unlink(missing_ok=True)
+
+
+class WorstKeeper:
+    """Keeps the N most violated points seen so far."""
+
+    def __init__(self, n: int = N_WORST) -> None:
+        self.n = n
+        self.rows: list[tuple[float, dict[str, Any]]] = []
+
+    def add(self, chunk: Chunk, y: np.ndarray, min_margin: np.ndarray, worst: np.ndarray,
+            region: Region) -> None:
+        k = min(self.n, len(y))
+        idx = np.argpartition(min_margin, k - 1)[:k] if k < len(y) else np.arange(len(y))
+        for i in idx:
+            if min_margin[i] >= 0:
+                continue
+            f = region.facets[int(worst[i])]
+            self.rows.append((float(min_margin[i]), {
+                "row": int(chunk.rows[i]), "region_point": y[i].tolist(),
+                "min_margin": float(min_margin[i]), "facet": f.label()}))
+        self.rows.sort(key=lambda r: r[0])
+        del self.rows[self.n:]
+
+
+def stream(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSettings,
+           flagged: FlaggedWriter | None) -> tuple[Accumulator, Reservoir, WorstKeeper]:
+    """Classify every row of the fit; returns the accumulated statistics."""
+    acc = Accumulator(region.dim)
+    res = Reservoir(settings.plot_points, np.random.default_rng(settings.seed + 1))
+    worst = WorstKeeper()
+    chunks = (gaussian_chunks(fit, settings) if fit.is_gaussian else
+              fit.samples.iter_chunks(settings.chunk_rows))  # type: ignore[union-attr]
+    for chunk in chunks:
+        y = cmap(chunk.values)
+        v = classify(y, region, settings.marginal_band)
+        acc.add(y, chunk.weights, v.verdict, v.satisfies)
+        res.add(np.hstack([chunk.values, y]), chunk.weights)
+        worst.add(chunk, y, v.min_margin, v.worst, region)
+        if flagged is not None:
+            flagged.write(chunk, y, v.verdict, v.min_margin, v.worst)
+    if acc.n_total == 0:
+        raise InputError(fit.source, "samples", "no rows to check", "supply samples")
+    if acc.sw <= 0:
+        raise InputError(fit.samples.path if fit.samples else fit.source,
+                         fit.samples.weight_column if fit.samples else "weights",
+                         "all weights are zero", "give at least one positive weight")
+    return acc, res, worst
+
+
+def gaussian_probability(fit: Fit, region: Region, cmap: CoordinateMap,
+                         seed: int) -> dict[str, Any] | None:
+    """P(inside) of a Gaussian summary by minimax tilting (Botev 2017, arXiv:1603.04166)."""
+    if not (fit.is_gaussian and cmap.is_affine):
+        return None
+    from eftsieve.impose.tmvn import polytope_probability
+
+    a, b = region.arrays()
+    ap, bp = cmap.pull_back(a, b)
+    res = polytope_probability(fit.mean, fit.cov, ap, bp, rng=np.random.default_rng(seed + 2))
+    return {"p_inside": res.probability, "p_inside_err": res.std_error, "method": res.method}
+
+
+def prior_probability(fit: Fit, region: Region, cmap: CoordinateMap,
+                      seed: int, n: int = 1_000_000) -> tuple[float | None, float | None, str]:
+    """P_prior(inside) for the fit card's stated prior (independent factors)."""
+    if fit.prior is None:
+        return None, None, "the fit card states no prior"
+    assert cmap.jacobian is not None or cmap.nonlinear is not None
+    used = (range(len(fit.names)) if cmap.jacobian is None
+            else np.nonzero(np.abs(cmap.jacobian).sum(axis=0) > 0)[0])
+    missing = [fit.names[i] for i in used if fit.names[i] not in fit.prior.kinds]
+    if missing:
+        return None, None, f"no prior stated for {', '.join(missing)}"
+    rng = np.random.default_rng(seed + 3)
+    x = np.zeros((n, len(fit.names)))
+    for i in used:
+        name = fit.names[i]
+        lo, hi = fit.prior.params[name]
+        if fit.prior.kinds[name] == "uniform":
+            x[:, i] = rng.uniform(lo, hi, n)
+        else:
+            x[:, i] = rng.normal(lo, hi, n)
+    inside = region.contains(cmap(x))
+    p = float(inside.mean())
+    return p, math.sqrt(max(p * (1 - p), 1.0 / n) / n), f"prior Monte Carlo, {n} draws"
+
+
+def run_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | None,
+              region_path: str | None = None) -> CheckResult:
+    """Classify the fit against the region and compute the statistics."""
+    from eftsieve.theories import get_theory
+
+    if fit.theory != region.theory:
+        raise InputError(region_path, "theory", f"region is for '{region.theory}' but the fit "
+                         f"is '{fit.theory}'", "build the region for the fit's theory")
+    cmap = get_theory(fit.theory).coordinate_map(fit, region)
+    flagged = FlaggedWriter(outdir / "flagged.csv", fit, region) if outdir else None
+    try:
+        acc, res, worst = stream(fit, region, cmap, settings, flagged)
+    except BaseException:
+        if flagged:
+            flagged.abort()
+        raise
+    if flagged:
+        flagged.commit()
+    summary = _summary(fit, region, cmap, settings, acc, region_path)
+    k = len(fit.names)
+    data = res.data if res.data is not None else np.empty((0, k + region.dim))
+    return CheckResult(summary, region, tuple(r for _, r in worst.rows), data[:, :k],
+                       res.weights, data[:, k:])
+
+
+def _summary(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSettings,
+             acc: Accumulator, region_path: str | None) -> dict[str, Any]:
+    p_mc, p_mc_err = acc.p_inside()
+    counts = dict(zip(("n_inside", "n_marginal", "n_outside"), map(int, acc.counts),
+                      strict=True))
+    out: dict[str, Any] = {"fit": fit.name, "theory": fit.theory, "region_hash": region.hash,
+                           "region_file": region_path, "n_total": acc.n_total, **counts,
+                           "ess": acc.ess(), "p_inside_mc": p_mc, "p_inside_mc_err": p_mc_err,
+                           "p_inside": p_mc, "p_inside_err": p_mc_err,
+                           "p_inside_method": "sample fraction (weighted)",
+                           "p_certainly_inside": acc.sw_in_inner / acc.sw,
+                           "settings": settings.to_dict(), "source": "gaussian" if fit.is_gaussian
+                           else "samples", "coordinate_map": cmap.to_dict()}
+    accurate = gaussian_probability(fit, region, cmap, settings.seed)
+    if accurate is not None:
+        out.update(p_inside=accurate["p_inside"], p_inside_err=accurate["p_inside_err"],
+                   p_inside_method=accurate["method"])
+    if fit.is_gaussian and cmap.is_affine:
+        assert cmap.jacobian is not None and cmap.shift is not None
+        mean = cmap.jacobian @ fit.mean + cmap.shift
+        cov = cmap.jacobian @ fit.cov @ cmap.jacobian.T
+    else:
+        mean, cov = acc.moments()
+    out["mean_region"], out["cov_region"] = mean.tolist(), cov.tolist()
+    out.update(tension(mean, cov, region, np.random.default_rng(settings.seed + 4)).to_dict())
+    pp, pe, why = prior_probability(fit, region, cmap, settings.seed)
+    out.update(bayes_factor(out["p_inside"], out["p_inside_err"], pp, pe, why).to_dict())
+    if out["n_inside"] + out["n_marginal"] + out["n_outside"] != out["n_total"]:
+        raise RuntimeError("row accounting failed: counts do not add up to the rows read")
+    return out

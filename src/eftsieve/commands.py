@@ -1,0 +1,176 @@
+"""Argument parsers and handlers of the verbs ``check``, ``impose`` and ``demo``.
+
+Each handler parses, calls the library, writes outputs and returns the exit code; no
+physics or statistics happen here.
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+from eftsieve.tolerances import MARGINAL_BAND
+
+EXIT_BELOW_THRESHOLD = 6
+
+
+def add_fit_args(p: argparse.ArgumentParser) -> None:
+    p.add_argument("fit", help="fit card (.yaml/.json) or a bare samples file (.csv/.parquet/.nc)")
+    p.add_argument("--region", default=None, help="region file (default: build from the fit)")
+    p.add_argument("-o", "--output", default=None, metavar="DIR", help="output directory")
+    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    p.add_argument("--theory", default=None, help="theory of a bare samples file")
+    p.add_argument("--convention", default=None, help="convention of a bare samples file")
+    p.add_argument("--pion-mass", type=float, default=None, metavar="MEV",
+                   help="pion mass of a bare samples file's lbar convention")
+    p.add_argument("--scale", type=float, default=None, metavar="MEV",
+                   help="scale mu of a bare samples file's lr convention")
+    p.add_argument("--weight-column", default=None, help="weight column of a bare samples file")
+
+
+def add_check_parser(sub: Any) -> None:
+    p = sub.add_parser("check", help="classify a fit against a region, with statistics")
+    add_fit_args(p)
+    p.add_argument("--draws", type=int, default=200_000,
+                   help="draws from a Gaussian summary (default 200000)")
+    p.add_argument("--band", type=float, default=MARGINAL_BAND,
+                   help=f"marginal band (default {MARGINAL_BAND:g})")
+    p.add_argument("--fail-below", type=float, default=None, metavar="P",
+                   help=f"exit with code {EXIT_BELOW_THRESHOLD} when p_inside < P")
+    p.add_argument("--chunk-rows", type=int, default=1_000_000, help="rows per chunk")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
+    p.set_defaults(func=cmd_check)
+
+
+def load_fit_arg(args: argparse.Namespace):
+    """A Fit from a card, or from a bare samples file with --theory/--convention."""
+    from eftsieve.conventions import Convention
+    from eftsieve.errors import InputError
+    from eftsieve.fit import fit_from_samples, load_fit
+
+    path = Path(args.fit)
+    if path.suffix.lower() in {".yaml", ".yml", ".json"}:
+        return load_fit(path)
+    if not args.theory or not args.convention:
+        raise InputError(path, None, "a bare samples file needs its theory and convention",
+                         "add --theory NAME --convention NAME (and --pion-mass or --scale)")
+    conv_name = args.convention
+    if conv_name == "lbar" and args.pion_mass is None:
+        raise InputError(None, "--pion-mass", "convention 'lbar' needs the pion mass",
+                         "add --pion-mass MEV")
+    if conv_name == "lr" and args.scale is None:
+        raise InputError(None, "--scale", "convention 'lr' needs its scale", "add --scale MEV")
+    conv = Convention(conv_name, pion_mass_mev=args.pion_mass if conv_name == "lbar" else None,
+                      mu_mev=args.scale if conv_name == "lr" else None)
+    kin = {}
+    if args.pion_mass is not None:
+        kin["pion_mass_mev"] = args.pion_mass
+    return fit_from_samples(path, args.theory, conv, weight_column=args.weight_column,
+                            kinematics=kin)
+
+
+def region_for(fit, args: argparse.Namespace, outdir: Path):
+    """The region from --region, or built from the fit and saved next to the outputs."""
+    from eftsieve.region import Region
+    from eftsieve.theories import get_theory
+
+    if args.region:
+        return Region.load(args.region), str(args.region)
+    th = get_theory(fit.theory)
+    region = th.build_region(th.region_settings_for_fit(fit))
+    path = outdir / "region.json"
+    region.save(path)
+    return region, str(path)
+
+
+def _inputs(fit, args) -> list:
+    ins = [fit.source, args.region]
+    if fit.samples is not None:
+        ins.append(fit.samples.path)
+    return ins
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from eftsieve.check import CheckSettings
+    from eftsieve.check_run import run_check
+    from eftsieve.io import atomic_write_json, atomic_write_text, guard_inputs
+    from eftsieve.report.check_report import check_document
+    from eftsieve.report.document import to_html, to_markdown
+
+    fit = load_fit_arg(args)
+    outdir = Path(args.output or f"{Path(args.fit).stem}_check")
+    names = ["summary.json", "flagged.csv", "report.md", "report.html", "corner.png",
+             "region.png", "region.json"]
+    guard_inputs([outdir / n for n in names], _inputs(fit, args))
+    outdir.mkdir(parents=True, exist_ok=True)
+    region, rpath = region_for(fit, args, outdir)
+    settings = CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
+                             chunk_rows=args.chunk_rows)
+    result = run_check(fit, region, settings, outdir, rpath)
+    images = {} if args.no_plots else check_plots(result, fit, outdir)
+    atomic_write_json(outdir / "summary.json", result.summary)
+    doc = check_document(fit, region, result.summary, result.worst, images)
+    atomic_write_text(outdir / "report.md", to_markdown(doc))
+    atomic_write_text(outdir / "report.html", to_html(doc))
+    s = result.summary
+    print(f"checked {s['n_total']} points of '{fit.name}' against {region.theory} "
+          f"({len(region.facets)} facets, region {rpath})")
+    print(f"  inside {s['n_inside']}, marginal {s['n_marginal']}, outside {s['n_outside']}")
+    print(f"  p_inside = {s['p_inside']:.4g} +- {s['p_inside_err']:.2g}; tension "
+          f"{s['tension_sigma']:.2f} sigma (p = {s['tension_p']:.3g})")
+    print(f"  report: {outdir / 'report.html'}")
+    if args.fail_below is not None and s["p_inside"] < args.fail_below:
+        print(f"  p_inside {s['p_inside']:.4g} < --fail-below {args.fail_below:g}")
+        return EXIT_BELOW_THRESHOLD
+    return 0
+
+
+def check_plots(result, fit, outdir: Path) -> dict[str, Path]:
+    """region.png and corner.png of a check; returns the written paths."""
+    from eftsieve.report.plots import save_corner, save_region_plot
+
+    region = result.region
+    images = {}
+    if region.dim in (1, 2) and len(result.plot_region_coords):
+        images["region"] = save_region_plot(region, outdir / "region.png",
+                                            samples=result.plot_region_coords,
+                                            weights=result.plot_weights)
+    # corner in region coordinates for the constrained parameters, the rest as they are
+    import numpy as np
+
+    cmap_cols = region_columns(result.summary["coordinate_map"]["jacobian"])
+    data = result.plot_samples.copy()
+    names = list(fit.names)
+    for k, col in cmap_cols.items():
+        data[:, col] = result.plot_region_coords[:, k]
+        names[col] = f"{region.coordinates[k]} (region)"
+    if len(data) > 1 and np.all(np.ptp(data, axis=0) > 0):
+        images["corner"] = save_corner(outdir / "corner.png", data, names,
+                                       weights=result.plot_weights, region=region,
+                                       region_coords=cmap_cols)
+    return images
+
+
+def region_columns(jac) -> dict[int, int]:
+    """Region coordinate k -> the single fit column it is made from (affine maps only)."""
+    if jac is None:
+        return {}
+    cols = {}
+    for k, row in enumerate(jac):
+        nz = [i for i, v in enumerate(row) if abs(v) > 0]
+        if len(nz) == 1:
+            cols[k] = nz[0]
+    return cols
+
+
+def add_impose_parser(sub: Any) -> None:
+    from eftsieve.impose.command import add_parser
+
+    add_parser(sub)
+
+
+def add_demo_parser(sub: Any) -> None:
+    from eftsieve.demo import add_parser
+
+    add_parser(sub)

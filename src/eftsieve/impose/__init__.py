@@ -1,0 +1,1 @@
+"""Imposing positivity regions on fitted EFT constants: truncation and refits."""

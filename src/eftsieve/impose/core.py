@@ -1,0 +1,195 @@
+"""Positivity imposed as a prior truncation: the ``reweight`` and ``exact`` modes.
+
+``reweight``
+    For posterior samples: keep the samples inside the region with their weights.  The
+    truncated posterior is the posterior times the indicator of the region, so this is
+    exact; the effective sample size (Kish) of what is kept must exceed a stated floor,
+    otherwise :class:`~eftsieve.errors.SamplingError` points to ``refit``.
+``exact``
+    For a Gaussian summary: i.i.d. draws from the Gaussian truncated to the polyhedral
+    region, by minimax exponential tilting (Botev, J. R. Stat. Soc. B 79 (2017) 125,
+    arXiv:1603.04166; see :mod:`eftsieve.impose.tmvn`), with the normalising probability
+    and its error.
+
+``refit`` lives in :mod:`eftsieve.impose.refit`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from eftsieve.errors import InputError, SamplingError
+from eftsieve.fit import Fit
+from eftsieve.region import Region
+from eftsieve.theories.base import CoordinateMap
+from eftsieve.tolerances import MIN_ESS
+
+MODES = ("reweight", "exact", "refit")
+
+
+@dataclass(frozen=True)
+class ImposeSettings:
+    """Settings of an impose run.
+
+    Attributes
+    ----------
+    mode
+        ``reweight``, ``exact`` or ``refit`` (None: chosen from the fit).
+    n_samples
+        Samples to draw (exact) or steps per walker (refit).
+    walkers
+        emcee walkers (refit).
+    seed
+        Seed of every random number used.
+    min_ess
+        Effective-sample-size floor of ``reweight``.
+    progress
+        Show a progress bar (refit).
+    """
+
+    mode: str | None = None
+    n_samples: int = 20_000
+    walkers: int = 32
+    seed: int = 0
+    min_ess: float = MIN_ESS
+    progress: bool = True
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"mode": self.mode, "n_samples": self.n_samples, "walkers": self.walkers,
+                "seed": self.seed, "min_ess": self.min_ess}
+
+
+@dataclass(frozen=True)
+class ImposeResult:
+    """The re-sampled fit.
+
+    Attributes
+    ----------
+    mode
+        The mode used.
+    names
+        Parameter names (the fit's, in its own conventions).
+    samples, weights
+        The new samples (n, p) and weights (None if unweighted).
+    before_samples, before_weights
+        The fit's own samples (or draws of its Gaussian), for comparisons.
+    summary
+        Mode-specific figures: ``n_samples``, ``ess``, ``acceptance``, ``tau``,
+        ``p_inside_before``, moments before and after, ...
+    rows
+        For ``reweight``, the original row index of each kept sample; else a draw index.
+    """
+
+    mode: str
+    names: tuple[str, ...]
+    samples: np.ndarray
+    weights: np.ndarray | None
+    before_samples: np.ndarray
+    before_weights: np.ndarray | None
+    summary: dict[str, Any] = field(default_factory=dict)
+    rows: np.ndarray | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        return dict(self.summary)
+
+
+def choose_mode(fit: Fit, requested: str | None, has_likelihood: bool) -> str:
+    """The mode: as requested, else ``exact`` for a Gaussian and ``reweight`` for samples."""
+    if requested is not None:
+        if requested not in MODES:
+            raise InputError(None, "--mode", f"unknown mode '{requested}'",
+                             f"use one of {', '.join(MODES)}")
+        if requested == "exact" and not fit.is_gaussian:
+            raise InputError(fit.source, "mean", "mode 'exact' needs a Gaussian summary",
+                             "use --mode reweight for samples, or refit")
+        if requested == "reweight" and fit.is_gaussian:
+            raise InputError(fit.source, "samples", "mode 'reweight' needs posterior samples",
+                             "use --mode exact for a Gaussian summary")
+        if requested == "refit" and not has_likelihood:
+            raise InputError(None, "--data/--likelihood", "mode 'refit' needs a likelihood",
+                             "give --data obs.yaml or --likelihood module:function")
+        return requested
+    if has_likelihood:
+        return "refit"
+    return "exact" if fit.is_gaussian else "reweight"
+
+
+def moments(x: np.ndarray, w: np.ndarray | None, names: tuple[str, ...]) -> dict[str, Any]:
+    """Weighted mean and standard deviation of each parameter."""
+    ww = np.ones(len(x)) if w is None else w
+    mean = ww @ x / ww.sum()
+    var = ww @ (x - mean) ** 2 / ww.sum()
+    return {n: {"mean": float(m), "std": float(np.sqrt(v))}
+            for n, m, v in zip(names, mean, var, strict=True)}
+
+
+def kish_ess(w: np.ndarray | None, n: int) -> float:
+    """Kish's effective sample size (sum w)^2 / sum w^2."""
+    if w is None:
+        return float(n)
+    s2 = float((w * w).sum())
+    return float(w.sum() ** 2 / s2) if s2 > 0 else 0.0
+
+
+def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
+             settings: ImposeSettings) -> ImposeResult:
+    """Keep the posterior samples inside the region (every row read is accounted for)."""
+    assert fit.samples is not None
+    chunk = fit.samples.read_all()
+    y = cmap(chunk.values)
+    keep = region.contains(y)
+    w = chunk.weights
+    if w is not None and w.sum() <= 0:
+        raise InputError(fit.samples.path, fit.samples.weight_column, "all weights are zero",
+                         "give at least one positive weight")
+    ess_before = kish_ess(w, len(y))
+    kw = None if w is None else w[keep]
+    ess = kish_ess(kw, int(keep.sum()))
+    wt = np.ones(len(y)) if w is None else w
+    p_in = float(wt[keep].sum() / wt.sum())
+    if ess < settings.min_ess:
+        raise SamplingError(
+            f"only {ess:.0f} effective samples remain inside the region (of {ess_before:.0f};"
+            f" P(inside) = {p_in:.3g}), below the floor {settings.min_ess:g}",
+            "use --mode refit with a likelihood (--data or --likelihood) to sample the "
+            "truncated posterior directly")
+    summary = {"mode": "reweight", "n_read": int(len(y)), "n_samples": int(keep.sum()),
+               "n_dropped": int((~keep).sum()), "ess": ess, "ess_before": ess_before,
+               "acceptance": float(keep.mean()), "tau": None, "p_inside_before": p_in,
+               "kept_rows": "original row indices are in samples.parquet column 'row'"}
+    res = ImposeResult("reweight", fit.names, chunk.values[keep], kw, chunk.values, w, summary)
+    return _with_moments(res, chunk.rows[keep])
+
+
+def exact(fit: Fit, region: Region, cmap: CoordinateMap,
+          settings: ImposeSettings) -> ImposeResult:
+    """I.i.d. draws from the fit's Gaussian truncated to the region (minimax tilting)."""
+    from eftsieve.impose.tmvn import sample_truncated_normal
+
+    if not cmap.is_affine:
+        raise InputError(fit.source, "parameters", "exact mode needs an affine map from the "
+                         "fit's conventions to the region's", "use --mode refit")
+    assert fit.mean is not None and fit.cov is not None
+    a, b = cmap.pull_back(*region.arrays())
+    rng = np.random.default_rng(settings.seed)
+    ts = sample_truncated_normal(fit.mean, fit.cov, a, b, settings.n_samples, rng=rng)
+    before = rng.multivariate_normal(fit.mean, fit.cov, size=settings.n_samples)
+    prob = ts.probability
+    summary = {"mode": "exact", "n_samples": int(len(ts.samples)), "ess": float(len(ts.samples)),
+               "acceptance": ts.acceptance_rate, "n_proposed": ts.n_proposed, "tau": None,
+               "p_inside_before": prob.probability, "p_inside_before_err": prob.std_error,
+               "normalisation_method": prob.method}
+    res = ImposeResult("exact", fit.names, ts.samples, None, before, None, summary)
+    return _with_moments(res, np.arange(len(ts.samples)))
+
+
+def _with_moments(res: ImposeResult, rows: np.ndarray) -> ImposeResult:
+    """Attach the moments before and after, and the row indices."""
+    s = dict(res.summary)
+    s["before"] = moments(res.before_samples, res.before_weights, res.names)
+    s["after"] = moments(res.samples, res.weights, res.names)
+    return ImposeResult(res.mode, res.names, res.samples, res.weights, res.before_samples,
+                        res.before_weights, s, rows)

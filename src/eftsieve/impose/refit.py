@@ -1,0 +1,269 @@
+"""The ``refit`` mode: an MCMC refit with emcee, the prior truncated by the region.
+
+The posterior is  prior(theta) * 1[theta in region] * L(theta).  The prior is the fit
+card's (independent uniform or normal factors); the likelihood is either
+
+- Gaussian observables from a data file (:class:`ObservableData`): values and a
+  covariance of threshold parameters of the built-in library, each at its own M_pi and
+  F_pi, so that lattice ensembles at several pion masses can be fitted together; or
+- a user's Python callable ``module:function`` returning the log-likelihood of one
+  parameter vector (in the fit's parameter order).  It runs the user's own code.
+
+Walkers start at the region's Chebyshev centre (an LP) plus a small ball, all inside
+the region and the prior support.  emcee: Foreman-Mackey et al., PASP 125 (2013) 306,
+arXiv:1202.3665; integrated autocorrelation times by its ``get_autocorr_time``
+(Goodman & Weare 2010; Sokal's window).  A chain shorter than 50 autocorrelation
+times is never called converged.
+"""
+
+from __future__ import annotations
+
+import importlib
+import math
+import warnings
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from eftsieve.errors import ConvergenceWarning, InputError, SamplingError
+from eftsieve.fit import Fit, check_covariance, read_card
+from eftsieve.impose.core import ImposeResult, ImposeSettings, _with_moments
+from eftsieve.region import Region
+from eftsieve.theories.base import CoordinateMap
+
+MIN_TAU_MULTIPLE = 50
+
+
+def log_prior_fn(fit: Fit) -> Callable[[np.ndarray], np.ndarray]:
+    """Vectorised log prior (up to a constant) of the fit card's prior."""
+    if fit.prior is None:
+        raise InputError(fit.source, "prior", "refit needs a prior",
+                         "add prior: {name: {uniform: [lo, hi]}} for every parameter")
+    missing = [n for n in fit.names if n not in fit.prior.kinds]
+    if missing:
+        raise InputError(fit.source, "prior", f"no prior for {', '.join(missing)}",
+                         "state a uniform or normal prior for every parameter")
+    kinds = [fit.prior.kinds[n] for n in fit.names]
+    pars = np.array([fit.prior.params[n] for n in fit.names])
+
+    def logp(x: np.ndarray) -> np.ndarray:
+        out = np.zeros(len(x))
+        for i, kind in enumerate(kinds):
+            a, b = pars[i]
+            if kind == "uniform":
+                out[(x[:, i] < a) | (x[:, i] > b)] = -np.inf
+            else:
+                out += -0.5 * ((x[:, i] - a) / b) ** 2
+        return out
+
+    return logp
+
+
+@dataclass(frozen=True)
+class ObservableData:
+    """Gaussian observables: values, covariance, and where each was measured.
+
+    Attributes
+    ----------
+    names
+        Observable names of the built-in library (``a2_0`` ...).
+    pion_mass_mev, fpi_mev
+        The M_pi and F_pi of each observable.
+    values, cov
+        The measured values and their covariance.
+    source
+        The data file.
+    """
+
+    names: tuple[str, ...]
+    pion_mass_mev: np.ndarray
+    fpi_mev: np.ndarray
+    values: np.ndarray
+    cov: np.ndarray
+    source: Path
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"names": list(self.names), "pion_mass_mev": self.pion_mass_mev.tolist(),
+                "fpi_mev": self.fpi_mev.tolist(), "values": self.values.tolist(),
+                "source": str(self.source)}
+
+
+def load_observables(path: str | Path) -> ObservableData:
+    """Read an observables file (YAML/JSON, ``format_version: 1``)."""
+    from eftsieve.observables import OBSERVABLES
+
+    p = Path(path)
+    card = read_card(p)
+    if card.get("format_version") != 1:
+        raise InputError(p, "format_version", "missing or unsupported", "use format_version: 1")
+    obs = card.get("observables")
+    if not isinstance(obs, list) or not obs:
+        raise InputError(p, "observables", "must be a non-empty list", "see docs/formats.md")
+    names, ms, fs = [], [], []
+    for i, o in enumerate(obs):
+        if not isinstance(o, dict) or o.get("name") not in OBSERVABLES:
+            raise InputError(p, f"observables[{i}].name", f"unknown observable {o!r}",
+                             f"accepted: {', '.join(OBSERVABLES)}")
+        for key in ("pion_mass_mev", "fpi_mev"):
+            if not isinstance(o.get(key), (int, float)) or o[key] <= 0:
+                raise InputError(p, f"observables[{i}].{key}", "missing or not positive",
+                                 "give the value in MeV")
+        names.append(o["name"])
+        ms.append(float(o["pion_mass_mev"]))
+        fs.append(float(o["fpi_mev"]))
+    n = len(names)
+    values = np.asarray(card.get("values", []), dtype=float)
+    if values.shape != (n,):
+        raise InputError(p, "values", f"needs {n} numbers, one per observable", "")
+    cov = np.asarray(card.get("covariance", []), dtype=float)
+    check_covariance(cov, n, p, "covariance")
+    if np.linalg.eigvalsh(cov)[0] <= 0:
+        raise InputError(p, "covariance", "must be positive definite for a likelihood",
+                         "give a full-rank covariance")
+    return ObservableData(tuple(names), np.array(ms), np.array(fs), values, cov, p)
+
+
+def observables_loglike(data: ObservableData, fit: Fit) -> Callable[[np.ndarray], np.ndarray]:
+    """Vectorised Gaussian log-likelihood of the observables as functions of lbar1..lbar4.
+
+    The fit's constants (in its conventions) are mapped to lbar at each observable's own
+    pion mass (exact affine maps of :mod:`eftsieve.conventions`).
+    """
+    from eftsieve.conventions import Convention, affine_map, lec_index
+    from eftsieve.observables import threshold_parameters
+
+    idx = {}
+    for i, p in enumerate(fit.parameters):
+        k = lec_index(p.name)
+        if k is not None and p.convention.name in ("lbar", "lr"):
+            idx[k] = i
+    if sorted(idx) != [1, 2, 3, 4]:
+        raise InputError(fit.source, "parameters", "the observables need lbar1..lbar4",
+                         "fit all four constants (lbar3, lbar4 may be spectators)")
+    cols = [idx[k] for k in (1, 2, 3, 4)]
+    convs = tuple(fit.parameters[c].convention for c in cols)
+    names4 = tuple(fit.parameters[c].name for c in cols)
+    groups = {}
+    for j, key in enumerate(zip(data.pion_mass_mev, data.fpi_mev, strict=True)):
+        groups.setdefault(key, []).append(j)
+    maps = {key: affine_map(names4, convs, tuple(Convention("lbar", pion_mass_mev=key[0])
+                                                 for _ in range(4))) for key in groups}
+    prec = np.linalg.inv(data.cov)
+
+    def loglike(x: np.ndarray) -> np.ndarray:
+        pred = np.empty((len(x), len(data.names)))
+        for key, js in groups.items():
+            lb = maps[key].apply_points(x[:, cols])
+            pred[:, js] = threshold_parameters([data.names[j] for j in js], lb, key[0], key[1])
+        r = pred - data.values
+        return -0.5 * np.einsum("ni,ij,nj->n", r, prec, r)
+
+    return loglike
+
+
+def load_callable(spec: str) -> Callable[[np.ndarray], np.ndarray]:
+    """Load ``module:function`` (the user's code) as a vectorised log-likelihood."""
+    if ":" not in spec:
+        raise InputError(None, "--likelihood", f"'{spec}' is not module:function",
+                         "write e.g. mylike:loglike")
+    mod_name, fn_name = spec.split(":", 1)
+    try:
+        fn = getattr(importlib.import_module(mod_name), fn_name)
+    except (ImportError, AttributeError) as err:
+        raise InputError(None, "--likelihood", f"cannot load '{spec}': {err}",
+                         "check that the module is importable (PYTHONPATH)") from err
+
+    def loglike(x: np.ndarray) -> np.ndarray:
+        return np.array([float(fn(row)) for row in x])
+
+    return loglike
+
+
+def start_point(fit: Fit, region: Region, cmap: CoordinateMap,
+                logprior: Callable[[np.ndarray], np.ndarray]) -> tuple[np.ndarray, float]:
+    """A point well inside the region (its Chebyshev centre) in the fit's coordinates."""
+    if not cmap.is_affine:
+        raise InputError(fit.source, "parameters", "refit needs an affine coordinate map", "")
+    assert cmap.jacobian is not None and cmap.shift is not None and fit.prior is not None
+    centre, radius = region.chebyshev_center()
+    x0 = np.array([float(np.mean(fit.prior.params[n])) if fit.prior.kinds[n] == "uniform"
+                   else fit.prior.params[n][0] for n in fit.names])
+    jp = np.linalg.pinv(cmap.jacobian)
+    x = x0 + jp @ (centre - (cmap.jacobian @ x0 + cmap.shift))
+    if not np.isfinite(logprior(x[None, :])[0]):
+        raise SamplingError("the region's Chebyshev centre lies outside the prior support",
+                            "widen the prior or check the conventions")
+    return x, radius / max(1.0, float(np.linalg.norm(cmap.jacobian, 2)))
+
+
+def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
+              loglike: Callable[[np.ndarray], np.ndarray], settings: ImposeSettings,
+              likelihood_label: str,
+              before: tuple[np.ndarray, np.ndarray | None] | None = None) -> ImposeResult:
+    """emcee refit with the truncated prior; reports acceptance, tau and ESS."""
+    import emcee
+
+    logprior = log_prior_fn(fit)
+    a, b = region.arrays()
+
+    def logpost(x: np.ndarray) -> np.ndarray:
+        lp = logprior(x)
+        inside = ((cmap(x) @ a.T - b) >= 0).all(axis=1)
+        lp[~inside] = -np.inf
+        ok = np.isfinite(lp)
+        out = np.full(len(x), -np.inf)
+        if ok.any():
+            out[ok] = lp[ok] + loglike(x[ok])
+        return out
+
+    rng = np.random.default_rng(settings.seed)
+    x0, r = start_point(fit, region, cmap, logprior)
+    p0 = _ball(x0, r, settings.walkers, rng, logpost)
+    sampler = emcee.EnsembleSampler(settings.walkers, len(x0), logpost, vectorize=True,
+                                    seed=int(rng.integers(2**31)))
+    sampler.run_mcmc(p0, settings.n_samples, progress=settings.progress)
+    return _refit_result(fit, sampler, settings, likelihood_label, before)
+
+
+def _ball(x0, r, n, rng, logpost) -> np.ndarray:
+    """n starting points in a small ball around x0, all with finite posterior."""
+    scale = 0.1 * max(r, 1e-6)
+    pts = x0 + scale * rng.standard_normal((n, len(x0)))
+    for _ in range(100):
+        bad = ~np.isfinite(logpost(pts))
+        if not bad.any():
+            return pts
+        pts[bad] = x0 + scale * rng.standard_normal((int(bad.sum()), len(x0)))
+        scale /= 2
+    raise SamplingError("could not start the walkers inside the region and the prior",
+                        "check the prior support and the region")
+
+
+def _refit_result(fit: Fit, sampler, settings: ImposeSettings, label: str,
+                  before: tuple[np.ndarray, np.ndarray | None] | None) -> ImposeResult:
+    n_steps = settings.n_samples
+    tau = np.asarray(sampler.get_autocorr_time(tol=0), dtype=float)
+    tau_max = float(np.nanmax(tau)) if np.isfinite(tau).any() else math.inf
+    converged = bool(np.isfinite(tau_max) and n_steps >= MIN_TAU_MULTIPLE * tau_max)
+    if not converged:
+        warnings.warn(f"chain of {n_steps} steps is shorter than {MIN_TAU_MULTIPLE} "
+                      f"autocorrelation times (tau_max = {tau_max:.1f}): not converged; "
+                      "run longer with --samples", ConvergenceWarning, stacklevel=2)
+    discard = int(min(n_steps // 2, math.ceil(2 * tau_max))) if np.isfinite(tau_max) else 0
+    thin = max(1, int(tau_max // 2)) if np.isfinite(tau_max) else 1
+    chain = sampler.get_chain(discard=discard, thin=thin, flat=True)
+    n_eff = settings.walkers * (n_steps - discard) / tau
+    summary = {"mode": "refit", "n_samples": int(len(chain)), "ess": float(np.min(n_eff)),
+               "ess_per_parameter": dict(zip(fit.names, map(float, n_eff), strict=True)),
+               "acceptance": float(np.mean(sampler.acceptance_fraction)),
+               "tau": dict(zip(fit.names, map(float, tau), strict=True)),
+               "converged": converged, "n_steps": n_steps, "walkers": settings.walkers,
+               "discard": discard, "thin": thin, "likelihood": label,
+               "convergence_rule": f"steps >= {MIN_TAU_MULTIPLE} x max tau",
+               "p_inside_before": None}
+    bx, bw = before if before is not None else (chain, None)
+    return _with_moments(ImposeResult("refit", fit.names, chain, None, bx, bw, summary),
+                         np.arange(len(chain)))

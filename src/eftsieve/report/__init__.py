@@ -1,0 +1,1 @@
+"""Reports: figures, cautions and the check report of a fit against a region."""

@@ -1,0 +1,108 @@
+"""The check report: the fit, the region with certificates, the statistics, the worst
+points, and the assumptions and cautions behind the bounds."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+from eftsieve.fit import Fit
+from eftsieve.region import Region
+from eftsieve.report.cautions import ASSUMPTIONS, cautions_for
+from eftsieve.report.document import Bullets, Document, Heading, Image, Para, Table
+
+
+def _g(x: Any, fmt: str = ".4g") -> str:
+    if x is None:
+        return "n/a"
+    try:
+        return format(float(x), fmt)
+    except (TypeError, ValueError):
+        return str(x)
+
+
+def fit_block(fit: Fit) -> list:
+    rows = tuple((p.name, p.convention.describe()) for p in fit.parameters)
+    kin = ", ".join(f"{k} = {v:g}" for k, v in fit.kinematics.items()) or "none stated"
+    src = "Gaussian summary (mean + covariance)" if fit.is_gaussian else (
+        f"samples file `{fit.samples.path.name}` ({fit.samples.fmt})" if fit.samples else "")
+    return [Heading("Fit"), Para(f"`{fit.name}`, theory `{fit.theory}`, {src}; kinematics: {kin}."),
+            Table(("parameter", "convention"), rows)]
+
+
+def region_block(region: Region) -> list:
+    conv = ", ".join(f"{k} = {v}" for k, v in region.convention.items())
+    rows = []
+    for i, f in enumerate(region.facets):
+        lhs = " + ".join(f"{c:g} {n}" for c, n in zip(f.normal, region.coordinates, strict=True)
+                         if abs(c) > 1e-12)
+        pt = ", ".join(f"{k} = {v:.4g}" for k, v in f.point.items())
+        rows.append((str(i), f"{lhs} >= {f.offset:.5g}", f.family, f.channel, pt, f.status))
+    blocks = [Heading("Region"),
+              Para(f"Theory `{region.theory}` in ({', '.join(region.coordinates)}); {conv}. "
+                   f"Content hash `{region.hash[:16]}`. Kinematic points s, t are in units "
+                   "of M_pi^2."),
+              Table(("facet", "inequality", "family", "channel", "point", "status"),
+                    tuple(rows))]
+    if region.inner_facets:
+        blocks.append(Para(f"The region also has an inner set of {len(region.inner_facets)} "
+                           "facets: points inside it are certainly allowed; points between it "
+                           "and the outer facets are numerically undecided (`marginal`)."))
+    if region.notes:
+        blocks.append(Bullets(tuple(region.notes)))
+    return blocks
+
+
+def stats_block(s: dict[str, Any]) -> list:
+    band = s["settings"]["marginal_band"]
+    rows = (("rows read (n_total)", str(s["n_total"])),
+            ("inside / marginal / outside",
+             f"{s['n_inside']} / {s['n_marginal']} / {s['n_outside']}"),
+            ("marginal band", f"{band:g} (distance to a facet, region coordinates)"),
+            ("p_inside", f"{_g(s['p_inside'], '.6g')} +- {_g(s['p_inside_err'], '.2g')} "
+                         f"({s['p_inside_method']})"),
+            ("p_inside (sample fraction)", f"{_g(s['p_inside_mc'], '.6g')} +- "
+                                           f"{_g(s['p_inside_mc_err'], '.2g')}"),
+            ("effective sample size", _g(s["ess"], ".6g")),
+            ("minimal Mahalanobis distance", _g(s["mahalanobis_min"])),
+            ("closest allowed point", ", ".join(_g(v, ".5g") for v in s["closest_point"])),
+            ("tension p-value (chi-bar-squared)", _g(s["tension_p"])),
+            ("tension (one-sided Gaussian sigma)", _g(s["tension_sigma"], ".3g")),
+            ("Bayes factor (truncated / untruncated prior)",
+             _g(s["bayes_factor"]) + (f" +- {_g(s['bayes_factor_err'], '.2g')}"
+                                      if s["bayes_factor"] is not None else "")
+             + f" ({s['bayes_factor_note']})"))
+    return [Heading("Statistics"), Table(("quantity", "value"), rows),
+            Para("The tension p-value uses the chi-bar-squared distribution of the minimal "
+                 "Mahalanobis distance squared, with the weights of the least favourable "
+                 "tangent cone of the region (Shapiro 1988; Silvapulle & Sen 2005, Sec. 3.4); "
+                 f"weights {', '.join(_g(w, '.3f') for w in s['chibar2_weights'])} "
+                 f"({s['tension_cone']}).")]
+
+
+def worst_block(worst: tuple[dict[str, Any], ...], limit: int = 10) -> list:
+    if not worst:
+        return [Heading("Flagged points"), Para("No point violates a facet.")]
+    rows = tuple((str(w["row"]), ", ".join(_g(v, ".5g") for v in w["region_point"]),
+                  _g(w["min_margin"], ".4g"), w["facet"]) for w in worst[:limit])
+    return [Heading("Most violated points"),
+            Para("All outside and marginal rows, with every margin and certificate, are in "
+                 "`flagged.csv`."),
+            Table(("row", "point (region coordinates)", "margin", "most violated facet"), rows)]
+
+
+def cautions_block(theory: str) -> list:
+    return [Heading("What the bounds assume"), Bullets(ASSUMPTIONS),
+            Heading("Cautions"), Bullets(cautions_for(theory))]
+
+
+def check_document(fit: Fit, region: Region, summary: dict[str, Any],
+                   worst: tuple[dict[str, Any], ...], images: dict[str, Path]) -> Document:
+    doc = Document(f"Positivity check: {fit.name}")
+    doc.add(*fit_block(fit), *region_block(region), *stats_block(summary), *worst_block(worst))
+    for name, alt in (("region", "region with posterior contours"),
+                      ("corner", "corner plot with region boundary")):
+        if name in images:
+            doc.add(Image(images[name], alt))
+    doc.add(*cautions_block(region.theory))
+    return doc
