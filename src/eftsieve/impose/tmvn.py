@@ -318,14 +318,6 @@ def _expected_coordinate(coef: FloatArray, shift: FloatArray) -> float:
     return float(alpha[0] - beta[0])
 
 
-def _linprog(cost: FloatArray, a_ub: FloatArray, b_ub: FloatArray, bounds: Any) -> Any:
-    """:func:`scipy.optimize.linprog` (HiGHS); raise on anything but optimal/unbounded."""
-    res = optimize.linprog(cost, A_ub=a_ub, b_ub=b_ub, bounds=bounds, method="highs")
-    if res.status not in (0, 3):
-        raise SolverError(str(res.status), f"linear programme of the polyhedron: {res.message}")
-    return res
-
-
 def _anchors(g: FloatArray, c: FloatArray) -> tuple[FloatArray, FloatArray]:
     """Interior start point and mode of ``N(0, I)`` on ``{g z >= c}``.
 
@@ -334,7 +326,7 @@ def _anchors(g: FloatArray, c: FloatArray) -> tuple[FloatArray, FloatArray]:
     """
     m, d = g.shape
     bounds = [(None, None)] * d + [(None, 1.0)]
-    res = _linprog(np.r_[np.zeros(d), -1.0], np.c_[-g, np.ones(m)], -c, bounds)
+    res = optimize.linprog(np.r_[np.zeros(d), -1.0], A_ub=np.c_[-g, np.ones(m)], b_ub=-c, bounds=bounds)
     if res.status != 0:
         raise SolverError(str(res.status), f"depth of the polyhedron: {res.message}")
     depth = float(res.x[d])
@@ -357,16 +349,21 @@ def _anchors(g: FloatArray, c: FloatArray) -> tuple[FloatArray, FloatArray]:
 
 
 def _box_rows(coef: FloatArray, c: FloatArray, k: int) -> tuple[list[float], list[bool]]:
-    """Implied bounds ``min/max y_k`` over the polyhedron (finite ones only)."""
+    """Implied bounds ``min/max y_k`` over the polyhedron, relaxed by ``1e-6`` (relative).
+
+    The rows are redundant, so any LP outcome but an optimum (unbounded, or HiGHS's
+    "infeasible" for an unbounded direction of a feasible set) just adds no row.
+    """
     r = coef.shape[1]
     offsets: list[float] = []
     lower: list[bool] = []
     for sign in (1.0, -1.0):
         cost = np.zeros(r)
         cost[k] = sign
-        res = _linprog(cost, -coef, -c, [(None, None)] * r)
+        res = optimize.linprog(cost, A_ub=-coef, b_ub=-c, bounds=[(None, None)] * r)
         if res.status == 0:
-            offsets.append(float(res.x[k]))
+            val = float(res.x[k])
+            offsets.append(val - sign * 1e-6 * (1.0 + abs(val)))
             lower.append(sign > 0)
     return offsets, lower
 

@@ -63,7 +63,7 @@ DEFAULT_DPI = 150
 
 _HIST_BINS = 60
 _CORNER_BINS = 30
-#: Below this effective sample size a corner panel shows points instead of contours.
+#: Below this effective sample size posteriors are shown as points, without contours.
 _MIN_ESS_CONTOURS = 30.0
 _LABEL_FRACTIONS = (0.5, 0.3, 0.7, 0.2, 0.8, 0.4, 0.6)
 _ZERO = 1e-12
@@ -368,15 +368,38 @@ def _tint(colour: str, alpha: float) -> tuple[float, float, float, float]:
     return to_rgba(colour, alpha)
 
 
-def _label_line(ax: Axes, seg: np.ndarray, text: str, colour: str, k: int, gid: str) -> None:
-    """Write ``text`` along a line segment, rotated with the line on screen."""
-    frac = _LABEL_FRACTIONS[k % len(_LABEL_FRACTIONS)]
-    pos = seg[0] + frac * (seg[1] - seg[0])
+def _active_edge(allowed: np.ndarray, normal: np.ndarray, offset: float) -> np.ndarray | None:
+    """The longest edge of the allowed polygon lying on the line, if any."""
+    if len(allowed) == 0:
+        return None
+    on = np.abs(allowed @ normal - offset) <= 1e-9 * max(1.0, float(np.abs(allowed).max()))
+    best, length = None, 0.0
+    for k in range(len(allowed)):
+        nxt = (k + 1) % len(allowed)
+        size = float(np.linalg.norm(allowed[nxt] - allowed[k]))
+        if on[k] and on[nxt] and size > length:
+            best, length = allowed[[k, nxt]], size
+    return best
+
+
+def _label_line(ax: Axes, seg: np.ndarray, normal: np.ndarray, box: np.ndarray, text: str,
+                colour: str, k: int, gid: str, active: np.ndarray | None = None) -> None:
+    """Write ``text`` along a line, just off it on the excluded side.
+
+    The label sits in the middle of the facet's stretch of the allowed boundary when
+    there is one (those stretches do not overlap), else somewhere along the segment.
+    """
+    frac = 0.5 if active is not None else _LABEL_FRACTIONS[k % len(_LABEL_FRACTIONS)]
+    where = active if active is not None else seg
+    span = box[:, 1] - box[:, 0]
+    away = normal / span  # the normal in axes-fraction units
+    away = away / max(float(np.linalg.norm(away)), _ZERO)
+    pos = where[0] + frac * (where[1] - where[0]) - 0.028 * away * span
     d = seg[1] - seg[0]
     angle = float(np.degrees(np.arctan2(d[1], d[0])))
     angle = angle - 180.0 if angle > 90.0 else (angle + 180.0 if angle <= -90.0 else angle)
     ax.text(pos[0], pos[1], text, rotation=angle, rotation_mode="anchor",
-            transform_rotates_text=True, ha="center", va="bottom", fontsize=7.5,
+            transform_rotates_text=True, ha="center", va="center", fontsize=7.5,
             color=colour, clip_on=True, gid=gid, zorder=6,
             bbox={"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none",
                   "alpha": 0.8})
@@ -419,6 +442,7 @@ def _draw_facets(ax: Axes, region: Region, plane: _Plane, box: np.ndarray,
     """Each facet's boundary line, label, tinted excluded side and optional bands."""
     from matplotlib.patches import Polygon
 
+    allowed = _allowed_polygon(plane, box)
     for row, fi in enumerate(int(i) for i in plane.index):
         colour, style = _facet_style(fi)
         n, c = plane.a[row], plane.b[row]
@@ -433,7 +457,8 @@ def _draw_facets(ax: Axes, region: Region, plane: _Plane, box: np.ndarray,
             continue
         ax.plot(seg[:, 0], seg[:, 1], color=colour, ls=style, lw=1.5, gid=f"facet-{fi}",
                 label=_facet_text(region, fi), zorder=4)
-        _label_line(ax, seg, _facet_text(region, fi), colour, row, f"facet-label-{fi}")
+        _label_line(ax, seg, n, box, _facet_text(region, fi), colour, row,
+                    f"facet-label-{fi}", _active_edge(allowed, n, c))
 
 
 def _draw_sets(ax: Axes, outer: _Plane, inner: _Plane | None, box: np.ndarray) -> bool:
@@ -472,7 +497,7 @@ def _draw_posterior_2d(ax: Axes, x: np.ndarray, w: np.ndarray | None) -> bool:
     yc = np.r_[ye[0] - (ye[1] - ye[0]) / 2, (ye[1:] + ye[:-1]) / 2, ye[-1] + (ye[1] - ye[0]) / 2]
     _scatter(ax, x, w)
     levels = _hpd_levels(h, HPD_LEVELS)
-    if levels is None:
+    if levels is None or _ess(w, len(x)) < _MIN_ESS_CONTOURS:
         return False
     ax.contourf(xc, yc, h.T, levels=[*levels, float(h.max()) * (1 + 1e-9)],
                 colors=[_tint(BLUE, 0.18), _tint(BLUE, 0.38)], zorder=2.5)
@@ -489,12 +514,17 @@ def _scatter(ax: Axes, x: np.ndarray, w: np.ndarray | None) -> None:
     if size < n:
         p = None if w is None else w / w.sum()
         x = x[np.random.default_rng(0).choice(n, size=size, replace=False, p=p)]
-    ax.scatter(x[:, 0], x[:, 1], s=3, color=_tint(BLUE, 0.25), linewidths=0,
+    few = len(x) < 200
+    ax.scatter(x[:, 0], x[:, 1], s=9 if few else 3, color=_tint(BLUE, 0.7 if few else 0.25),
+               linewidths=0,
                rasterized=True, gid="posterior-samples", zorder=2.2)
 
 
-def _legend_handles(*, inner: bool, bands: bool, posterior: bool) -> list[Any]:
-    """Proxy artists for the region figure legend."""
+def _legend_handles(*, inner: bool, bands: bool, posterior: str | None) -> list[Any]:
+    """Proxy artists for the region figure legend.
+
+    ``posterior`` is ``"hpd"`` (contours), ``"points"`` (scatter only), ``"hist"`` or None.
+    """
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
 
@@ -509,9 +539,14 @@ def _legend_handles(*, inner: bool, bands: bool, posterior: bool) -> list[Any]:
                     Line2D([], [], color="black", ls="--", label="inner set (certainly allowed)")]
     if bands:
         handles.append(Patch(facecolor=_tint(GREY, 0.25), label="boundary 1\u03c3 / 2\u03c3 band"))
-    if posterior:
+    if posterior == "hpd":
         handles.append(Patch(facecolor=_tint(BLUE, 0.3), edgecolor=BLUE,
                              label="posterior 68% / 95% HPD"))
+    elif posterior == "points":
+        handles.append(Line2D([], [], color=_tint(BLUE, 0.6), marker="o", ls="none", ms=3,
+                              label="posterior samples"))
+    elif posterior == "hist":
+        handles.append(Line2D([], [], color=BLUE, label="posterior (histogram)"))
     return handles
 
 
@@ -604,7 +639,9 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
     if not _draw_sets(ax, outer, inner, box):
         ax.text(0.5, 0.5, "no allowed point in view", transform=ax.transAxes, ha="center",
                 va="center", fontsize=9, color=GREY, gid="empty-note")
-    contours = _draw_posterior_2d(ax, x, w) if x is not None else False
+    posterior = None
+    if x is not None:
+        posterior = "hpd" if _draw_posterior_2d(ax, x, w) else "points"
     others = [k for k in range(region.dim) if k not in ij]
     where = ", ".join(f"{region.coordinates[k]}={fixed[k]:.4g}" for k in others)
     ax.set_xlim(*box[0])
@@ -614,7 +651,7 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
     ax.set_title(_title(region, title, f"\nslice at {where}" if where else ""), fontsize=10)
     ax.grid(True, color="#DDDDDD", lw=0.5, zorder=0)
     ax.legend(handles=_legend_handles(inner=inner is not None, bands=bool(band_map),
-                                      posterior=contours), loc="best", fontsize=7.5,
+                                      posterior=posterior), loc="best", fontsize=7.5,
               framealpha=0.9)
     return fig
 
@@ -660,6 +697,9 @@ def _draw_sets_1d(ax: Axes, outer: _Plane, inner: _Plane | None, xlim: np.ndarra
                        edgecolor=_tint(GREY, 0.6), hatch=EXCLUDED_HATCH, linewidth=0,
                        gid="excluded", zorder=0.8)
     _draw_interval(ax, lo, hi, xlim, y=0.05, gid="allowed-boundary", color="black", lw=5)
+    a, b = max(lo, xlim[0]), min(hi, xlim[1])
+    if b > a:
+        ax.axvspan(a, b, facecolor=_tint(GREEN, 0.08), linewidth=0, gid="allowed", zorder=0.6)
     if inner is None or lo > hi:
         return
     ilo, ihi = _interval(inner)
@@ -693,24 +733,25 @@ def _region_figure_1d(region: Region, samples: Any, weights: Any,
     outer = _restrict(*_region_arrays(region, False), (0,))
     inner = _restrict(*_region_arrays(region, True), (0,)) if region.inner_facets else None
     xlim = _check_limits(limits, 1)[0] if limits is not None else _limits_1d(outer, x, w)
-    fig = _new_figure((6.4, 3.0), "constrained")
+    fig = _new_figure((8.0, 3.0), "constrained")
     ax = fig.add_subplot()
     _draw_facets_1d(ax, region, outer, xlim, band_map)
     _draw_sets_1d(ax, outer, inner, xlim)
+    posterior = None
     if x is not None:
         counts, edges = np.histogram(x[:, 0], bins=40, range=tuple(
             _spread(*_sample_range(x, w, 0.998).T, 0.05)[0]), weights=w)
-        if counts.max() > 0:
-            ax.stairs(0.8 * counts / counts.max(), edges, color=BLUE, lw=1.4,
-                      gid="posterior-hist", zorder=3)
+        ax.stairs(0.8 * counts / max(float(counts.max()), _ZERO), edges, color=BLUE, lw=1.4,
+                  gid="posterior-hist", zorder=3)
+        posterior = "hist"
     ax.set_xlim(*xlim)
     ax.set_ylim(0.0, 1.0)
     ax.set_yticks([])
     ax.set_xlabel(region.coordinates[0])
     ax.set_title(_title(region, title), fontsize=10)
     ax.legend(handles=_legend_handles(inner=inner is not None, bands=bool(band_map),
-                                      posterior=False), loc="upper left", fontsize=7.5,
-              framealpha=0.9)
+                                      posterior=posterior), loc="upper left",
+              bbox_to_anchor=(1.01, 1.0), fontsize=7.5, frameon=False)
     return fig
 
 
@@ -756,7 +797,9 @@ def _corner_layer(fig: Figure, x: np.ndarray, w: np.ndarray | None, ranges: np.n
                   plot_density=False, plot_contours=contours, fill_contours=contours,
                   no_fill_contours=True, plot_datapoints=not contours, quiet=True,
                   data_kwargs={"alpha": 0.6, "ms": 3.0},
-                  contour_kwargs={"linewidths": 1.2}, max_n_ticks=4,
+                  contour_kwargs={"linewidths": 1.2},
+                  contourf_kwargs={"colors": [_tint(colour, 0.0), _tint(colour, 0.14),
+                                              _tint(colour, 0.32)]}, max_n_ticks=4,
                   hist_kwargs={"density": True, "color": colour, "linewidth": 1.4},
                   label_kwargs={"fontsize": 10})
 
@@ -853,7 +896,9 @@ def _corner_legend(fig: Figure, axes: np.ndarray, labels: Sequence[str] | None,
     if not handles:
         return
     if axes.shape[0] == 1:
-        axes[0, 0].legend(handles=handles, loc="upper right", fontsize=8, framealpha=0.9)
+        fig.subplots_adjust(right=0.58)
+        fig.legend(handles=handles, loc="center left", bbox_to_anchor=(0.6, 0.55),
+                   fontsize=8, frameon=False)
     else:
         fig.legend(handles=handles, loc="upper right", bbox_to_anchor=(0.97, 0.97),
                    fontsize=9, frameon=False)
@@ -917,7 +962,7 @@ def corner_figure(samples: Any, names: Sequence[str], *, weights: Any = None,
     columns = _region_columns(region, names, region_coords) if region is not None else {}
     ranges = _corner_ranges(sets)
     dim = 1.0 + 2.0 * k + 0.1 * (k - 1) + 0.4
-    fig = _new_figure((dim, dim))
+    fig = _new_figure((dim * (1.7 if k == 1 else 1.0), dim))
     for (xs, ws), colour in zip(sets, SAMPLE_COLOURS):
         _corner_layer(fig, xs, ws, ranges, names, colour)
     axes = np.array(fig.axes).reshape(k, k)

@@ -68,6 +68,29 @@ def _points(cube: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.stack([s, t, 4.0 - s - t], axis=-1), t
 
 
+def t_derivative_combination(second: np.ndarray, d_fixed_s: np.ndarray, d_s3: np.ndarray,
+                             s: np.ndarray, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """min over alpha in [0, 1] of S + D_alpha S / (3 m_alpha), which must be >= 0.
+
+    S = d^2T/ds^2 at fixed t, D_alpha = d/dt|_s - alpha d/ds|_t (the direction that
+    raises t by 1, lowers s by alpha and u by 1 - alpha), m_alpha = max(alpha/(4 - s),
+    (1 - alpha)/(4 - u)) in units of M^2.  The inequality D_alpha S + 3 m_alpha S >= 0
+    follows from the twice-subtracted fixed-t dispersion relation with positive s- and
+    u-channel absorptive parts whose t-derivatives are positive (P_l(x) >= 1 and
+    P_l'(x) >= 0 for x >= 1); docs/physics.md has the derivation.  On each side of the
+    kink alpha* = (4 - s)/(8 - s - u) the combination is monotonic in alpha, so the
+    minimum is at alpha = 0, alpha* or 1.  Returns the minimum and the alpha attaining it.
+    """
+    a, b = 4.0 - s, 4.0 - u
+    alphas = np.stack([np.zeros_like(s), a / (a + b), np.ones_like(s)])
+    d_alpha = d_fixed_s[None, :] - alphas * d_s3[None, :]
+    m = np.maximum(alphas / a, (1.0 - alphas) / b)
+    cand = second[None, :] + d_alpha / (3 * m)
+    best = np.argmin(cand, axis=0)
+    cols = np.arange(len(s))
+    return cand[best, cols], alphas[best, cols]
+
+
 class ChannelFunctionals:
     """The bound functionals of one channel, with the lbar-dependence precomputed.
 
@@ -105,16 +128,9 @@ class ChannelFunctionals:
         k0 = pipi.second(self.amp0, x, _E_S, jets)
         d_fixed_s = pipi.third_mixed(self.amp0, x, _E_S, np.array([0.0, 1.0, -1.0]), jets)
         d_s3 = pipi.third_mixed(self.amp0, x, _E_S, _E_S, jets)
-        a, b = 4.0 - x[:, 0], 4.0 - x[:, 2]
-        alphas = np.stack([np.zeros(len(x)), a / (a + b), np.ones(len(x))])
-        d_alpha = d_fixed_s[None, :] - alphas * d_s3[None, :]  # direction (-alpha, 1, alpha-1)
-        m = np.maximum(alphas / a, (1.0 - alphas) / b)
-        # D + 3 m (K0 + K.l) >= 0  <=>  K.l + K0 + D/(3m) >= 0; strongest: smallest K0 + D/3m
-        cand = k0[None, :] + d_alpha / (3 * m)
-        best = np.argmin(cand, axis=0)
-        cols = np.arange(len(x))
-        return (cand[best, cols] / pipi.CT, np.broadcast_to(self.k, (len(x), 2)),
-                {"s": x[:, 0], "t": t, "alpha": alphas[best, cols]})
+        cand, alpha = t_derivative_combination(k0, d_fixed_s, d_s3, x[:, 0], x[:, 2])
+        return (cand / pipi.CT, np.broadcast_to(self.k, (len(x), 2)),
+                {"s": x[:, 0], "t": t, "alpha": alpha})
 
 
 def lbar_facets(families: tuple[str, ...], scan: dict[str, ScanSettings]) -> list[Facet]:
@@ -138,9 +154,8 @@ def _map_facets(facets: list[Facet], src: Convention, dst: Convention, pion_mass
         n = np.asarray(f.normal)
         normal = n @ amap.jacobian
         offset = f.offset - n @ amap.shift
-        scale = smallest_entry_one(normal / np.linalg.norm(normal)) / (normal / np.linalg.norm(
-            normal))
-        k = float(scale[np.nonzero(normal)[0][0]])
+        unit = normal / np.linalg.norm(normal)
+        k = float(np.linalg.norm(smallest_entry_one(unit)) / np.linalg.norm(normal))
         out.append(Facet(tuple(normal * k), float(offset * k), f.family, f.channel,
                          {**f.point, "pion_mass_mev": pion_mass}, f.value, f.status, f.extra))
     return out
