@@ -162,6 +162,7 @@ def stream(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSetting
         worst.add(chunk, y, v.min_margin, v.worst, region)
         if flagged is not None:
             flagged.write(chunk, y, v.verdict, v.min_margin, v.worst)
+    acc.finish()
     if acc.n_total == 0:
         raise InputError(fit.source, "samples", "no rows to check", "supply samples")
     if acc.sw <= 0:

@@ -29,9 +29,16 @@ from eftsieve.region import Region
 from eftsieve.tolerances import FEASIBILITY_TOL
 
 
+BLOCK = 1 << 16
+
+
 @dataclass
 class Accumulator:
-    """Streaming weighted sums for the probability inside and the moments."""
+    """Streaming weighted sums for the probability inside and the moments.
+
+    Rows are summed in fixed blocks of :data:`BLOCK` consecutive rows, whatever the chunk
+    sizes of the input, so chunked and in-memory runs give bit-identical results.
+    """
 
     dim: int
     n_total: int = 0
@@ -40,16 +47,38 @@ class Accumulator:
     sw2: float = 0.0
     sw_in: float = 0.0
     sw_in_inner: float = 0.0
-    s_var: float = 0.0  # sum w^2 (I - p)^2, filled at the end
     sw2_in: float = 0.0
     mean_sum: np.ndarray | None = None
     outer_sum: np.ndarray | None = None
+    _pending: list = field(default_factory=list)
+    _n_pending: int = 0
 
     def add(self, y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
             satisfies: np.ndarray) -> None:
-        n = len(y)
-        ww = np.ones(n) if w is None else w
-        self.n_total += n
+        ww = np.ones(len(y)) if w is None else np.asarray(w, dtype=float)
+        self._pending.append((y, ww, verdict, satisfies))
+        self._n_pending += len(y)
+        if self._n_pending >= BLOCK:
+            self._drain(final=False)
+
+    def finish(self) -> None:
+        """Sum the last, partial block."""
+        self._drain(final=True)
+
+    def _drain(self, final: bool) -> None:
+        if not self._pending:
+            return
+        y, w, v, sat = (np.concatenate([p[i] for p in self._pending]) for i in range(4))
+        n_full = (len(y) // BLOCK) * BLOCK
+        stop = len(y) if final else n_full
+        for lo in range(0, stop, BLOCK):
+            self._block(y[lo:lo + BLOCK], w[lo:lo + BLOCK], v[lo:lo + BLOCK],
+                        sat[lo:lo + BLOCK])
+        self._pending = [] if stop == len(y) else [(y[stop:], w[stop:], v[stop:], sat[stop:])]
+        self._n_pending = len(y) - stop
+
+    def _block(self, y, ww, verdict, satisfies) -> None:
+        self.n_total += len(y)
         self.counts += np.bincount(verdict, minlength=3)
         self.sw += float(ww.sum())
         self.sw2 += float((ww * ww).sum())

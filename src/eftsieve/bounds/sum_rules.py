@@ -212,3 +212,427 @@ def evaluate(c: np.ndarray, y: np.ndarray, spin: np.ndarray, absolute: bool = Fa
             if cc[e, l] != 0.0:
                 out = out + cc[e, l] * y ** (e - l) * w**l
     return out
+
+
+# ---- verification of a dual functional over every heavy state --------------------------------
+@dataclass(frozen=True)
+class VerifySettings:
+    """How a dual functional is verified and how the cutting-plane loop runs.
+
+    Attributes
+    ----------
+    spin_exact_max
+        Even spins J <= this are checked one by one over all y in [0, 1]; larger spins
+        through the continuous relaxation (fixed-impact-parameter limit included).
+    tol
+        Relative slack: the functional must stay above ``lp_value - tol * max(1, |lp_value|)``.
+    max_rounds
+        Cutting-plane rounds (add violating states, re-solve) before giving up.
+    max_new_states
+        States added per round.
+    max_depth, max_cells
+        Branch-and-bound limits.
+    """
+
+    spin_exact_max: int = 2000
+    tol: float = 1e-6
+    max_rounds: int = 12
+    max_new_states: int = 64
+    max_depth: int = 60
+    max_cells: int = 400_000
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"spin_exact_max": self.spin_exact_max, "tol": self.tol,
+                "max_rounds": self.max_rounds, "max_new_states": self.max_new_states,
+                "max_depth": self.max_depth, "max_cells": self.max_cells}
+
+
+@dataclass(frozen=True)
+class Verification:
+    """A lower bound of a functional B(y, J) over every heavy state.
+
+    Attributes
+    ----------
+    passed
+        True when B >= ``target`` was proven everywhere.
+    lower
+        The proven lower bound of inf B (>= target when passed; -inf otherwise).
+    target
+        The value that B had to stay above.
+    best_value, best_state
+        The smallest value met and its state (y, J).
+    violations
+        States (y, J, B) found below the target (empty when passed).
+    extents
+        What was covered: spins checked exactly, the continuous tail, the w range.
+    """
+
+    passed: bool
+    lower: float
+    target: float
+    best_value: float
+    best_state: tuple[float, int]
+    violations: tuple[tuple[float, int, float], ...]
+    extents: dict[str, Any] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"passed": self.passed, "lower": self.lower, "target": self.target,
+                "min_value_found": self.best_value,
+                "argmin": {"y": self.best_state[0], "J": self.best_state[1]},
+                "n_violations": len(self.violations), **self.extents}
+
+
+def _powers(x: np.ndarray, n: int) -> np.ndarray:
+    return np.asarray(x, dtype=float)[:, None] ** np.arange(n)
+
+
+def _bnb(lower_fn: Any, value_fn: Any, lo: np.ndarray, hi: np.ndarray, owner: np.ndarray,
+         n_owner: int, target: float, s: VerifySettings) -> dict[str, Any]:
+    """Branch and bound on cells [lo, hi] (grouped by owner): prove f >= target or find f < target."""
+    best_val = np.full(n_owner, np.inf)
+    best_x = np.zeros(n_owner)
+    proven, unresolved = np.inf, False
+    for depth in range(s.max_depth + 1):
+        for pts in (lo, 0.5 * (lo + hi), hi) if depth == 0 else (0.5 * (lo + hi),):
+            val = value_fn(pts, owner)
+            order = np.lexsort((val, owner))
+            first = order[np.r_[True, owner[order][1:] != owner[order][:-1]]]
+            better = val[first] < best_val[owner[first]]
+            best_val[owner[first][better]] = val[first][better]
+            best_x[owner[first][better]] = pts[first][better]
+        lb = lower_fn(lo, hi, owner)
+        done = lb >= target
+        if done.any():
+            proven = min(proven, float(lb[done].min()))
+        keep = ~done & ~(best_val[owner] < target)
+        if not keep.any():
+            break
+        lo, hi, owner, lb = lo[keep], hi[keep], owner[keep], lb[keep]
+        if depth == s.max_depth or 2 * lo.size > s.max_cells:
+            unresolved = True
+            proven = min(proven, float(lb.min()))
+            break
+        mid = 0.5 * (lo + hi)
+        lo, hi, owner = np.r_[lo, mid], np.r_[mid, hi], np.r_[owner, owner]
+    return {"best_val": best_val, "best_x": best_x, "proven": proven, "unresolved": unresolved}
+
+
+def _spin_cells(j: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    base = np.linspace(0.0, 1.0, 17)
+    wgrid = np.logspace(-2, 4, 25)
+    lo, hi, owner = [], [], []
+    for i, jj in enumerate(j):
+        pts = np.unique(np.r_[base, wgrid[wgrid < jj] / jj] if jj > 0 else base)
+        lo.append(pts[:-1])
+        hi.append(pts[1:])
+        owner.append(np.full(pts.size - 1, i))
+    return np.concatenate(lo), np.concatenate(hi), np.concatenate(owner)
+
+
+def _polish_spin(a_row: np.ndarray, jj: float) -> tuple[float, float]:
+    """The minimum over y in [0, 1] of sum_e a_e y^e (roots of the derivative, rescaled)."""
+    sc = 1.0 / (1.0 + jj)
+    b = a_row * sc ** np.arange(a_row.size)
+    cands = [0.0, 1.0]
+    d = (np.arange(1, b.size) * b[1:])[::-1]
+    nz = np.flatnonzero(np.abs(d) > 0)
+    if nz.size and nz[0] < d.size - 1:
+        r = np.roots(d[nz[0]:])
+        r = r[np.abs(r.imag) <= 1e-9 * (1 + np.abs(r.real))].real * sc
+        cands += [float(v) for v in r if 0.0 < v < 1.0]
+    ys = np.array(cands)
+    vals = _powers(ys, a_row.size) @ a_row
+    k = int(np.argmin(vals))
+    return float(ys[k]), float(vals[k])
+
+
+def _scan_spins(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, Any]:
+    """Every even spin J <= spin_exact_max, all y in [0, 1]."""
+    spins = np.arange(0, s.spin_exact_max + 1, 2)
+    j = spins * (spins + 1.0)
+    n = c.shape[0]
+    jp = _powers(j, n)
+    a, aa = jp @ c.T, jp @ np.abs(c).T
+    err = 4.0 * (n + 2) * _EPS
+
+    def lower_fn(lo: np.ndarray, hi: np.ndarray, ow: np.ndarray) -> np.ndarray:
+        pl, ph = _powers(lo, n), _powers(hi, n)
+        ai = a[ow]
+        return ((np.maximum(ai, 0) * pl + np.minimum(ai, 0) * ph).sum(1)
+                - err * (aa[ow] * ph).sum(1))
+
+    def value_fn(x: np.ndarray, ow: np.ndarray) -> np.ndarray:
+        return (a[ow] * _powers(x, n)).sum(1)
+
+    lo, hi, owner = _spin_cells(j)
+    out = _bnb(lower_fn, value_fn, lo, hi, owner, spins.size, target, s)
+    viol = np.flatnonzero(out["best_val"] < target)
+    viol = viol[np.argsort(out["best_val"][viol])][: s.max_new_states]
+    states = []
+    for i in viol:
+        yv, fv = _polish_spin(a[i], j[i])
+        states.append((yv, int(spins[i]), min(fv, float(out["best_val"][i]))))
+    k = int(np.argmin(out["best_val"]))
+    out.update(states=states, best=(float(out["best_x"][k]), int(spins[k]),
+                                    float(out["best_val"][k])))
+    return out
+
+
+def _tail_terms(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Coefficients of the large-w polynomial bound (y <= 1): q_p = c[p,p] + sum_k min(c[p+k,p],0)."""
+    n = c.shape[0]
+    q = np.array([c[p, p] for p in range(n)])
+    for e in range(n):
+        for l in range(e):
+            q[l] += min(c[e, l], 0.0)
+    return q, np.flatnonzero(q)
+
+
+def _tail_cutoff(c: np.ndarray) -> float | None:
+    """W such that the bound polynomial is >= 0 for all w >= W, or None if it is not bounded below."""
+    q, nz = _tail_terms(c)
+    if nz.size == 0:
+        return 1.0
+    top = int(nz[-1])
+    if q[top] <= 0:
+        return None
+    cands = [(top * abs(q[p]) / q[top]) ** (1.0 / (top - p)) for p in range(top) if q[p] < 0]
+    return max([1.0] + cands)
+
+
+def _scan_tail(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, Any]:
+    """Every spin J > spin_exact_max: continuous j >= j', y <= min(1, w / j'), w in [0, inf)."""
+    j_next = s.spin_exact_max + 2
+    jt = j_next * (j_next + 1.0)
+    n = c.shape[0]
+    e_idx, l_idx = np.nonzero(np.tril(np.ones((n, n))))
+    cel = c[e_idx, l_idx]
+    k_idx = e_idx - l_idx
+    err = 4.0 * (n + 2) * _EPS
+
+    def lower_fn(lo: np.ndarray, hi: np.ndarray, ow: np.ndarray) -> np.ndarray:
+        ym = np.minimum(1.0, hi / jt)[:, None] ** k_idx
+        t_hi = hi[:, None] ** l_idx * ym
+        t_lo = np.where(k_idx == 0, lo[:, None] ** l_idx, 0.0)
+        pos = np.where(cel > 0, cel * t_lo, 0.0)
+        neg = np.where(cel < 0, cel * t_hi, 0.0)
+        return (pos + neg).sum(1) - err * (np.abs(cel) * t_hi).sum(1)
+
+    def value_fn(x: np.ndarray, ow: np.ndarray) -> np.ndarray:
+        return evaluate(c, np.minimum(1.0, x / jt), np.full(x.shape, float(j_next)))
+
+    w_cut = _tail_cutoff(c)
+    if w_cut is None:
+        ws = np.logspace(0, 30, 61)
+        vals = value_fn(ws, np.zeros(ws.size, dtype=int))
+        bad = np.flatnonzero(vals < target)
+        states = [(float(min(1.0, ws[bad[0]] / jt)), j_next, float(vals[bad[0]]))] if bad.size \
+            else []
+        return {"proven": -np.inf, "unresolved": not bad.size, "states": states,
+                "best": states[0] if states else (1.0, j_next, float(vals.min())), "w_max": None}
+    edges = np.r_[0.0, np.logspace(-3, np.log10(max(w_cut, 1e-2)) + 1e-9, 96)]
+    lo, hi = edges[:-1], edges[1:]
+    out = _bnb(lower_fn, value_fn, lo, hi, np.zeros(lo.size, dtype=int), 1, target, s)
+    w = float(out["best_x"][0])
+    best = (float(min(1.0, w / jt)), j_next, float(out["best_val"][0]))
+    out.update(states=[best] if best[2] < target else [], best=best, w_max=w_cut)
+    return out
+
+
+def verify_functional(c: np.ndarray, target: float, s: VerifySettings) -> Verification:
+    """Prove B(y, J) = sum c[e,l] y^(e-l) w^l >= target for every y in (0, 1] and even J >= 0.
+
+    Spins up to ``s.spin_exact_max`` are checked one by one, larger spins through the
+    continuous relaxation (see the module docstring); for w beyond the domination
+    cut-off W the large-w bound polynomial is non-negative, which needs target <= 0
+    (always the case here: B -> 0 as m -> infinity, so inf B <= 0).
+    """
+    spins = _scan_spins(c, target, s)
+    tail = _scan_tail(c, target, s)
+    states = tuple(spins["states"] + tail["states"])
+    unresolved = spins["unresolved"] or tail["unresolved"] or target > 0
+    passed = not states and not unresolved
+    lower = min(spins["proven"], tail["proven"]) if passed else -np.inf
+    best = min([spins["best"], tail["best"]], key=lambda b: b[2])
+    extents = {"spins_exact": [0, s.spin_exact_max], "spin_parity": "even",
+               "y_range": [0.0, 1.0], "tail": f"J > {s.spin_exact_max}, continuous",
+               "w_domination_cutoff": tail["w_max"], "impact_parameter_limit": True,
+               "unresolved": bool(unresolved)}
+    return Verification(passed, float(lower), float(target), best[2], (best[0], best[1]),
+                        states, extents)
+
+
+# ---- the cutting-plane solver ------------------------------------------------------------------
+@dataclass(frozen=True)
+class DirectionalBound:
+    """Inner and outer values of min d . x along one direction d of the coordinates.
+
+    Attributes
+    ----------
+    direction
+        d, in the order of ``names``.
+    names
+        The coordinate names.
+    lp_value
+        The LP optimum on the final grid.
+    outer
+        The verified bound: every allowed point has d . x >= outer (rigorous).
+    inner
+        d . x at ``inner_point``, a positive spectrum that satisfies every imposed sum
+        rule exactly (inner >= outer).
+    inner_point
+        The coordinates of that spectrum.
+    spectrum
+        Its states: ``y`` = M^2/m^2, ``J`` and normalised weights.
+    certificate
+        The dual functional: multipliers of the null constraints and of the normalisation.
+    verification
+        How the functional was verified.
+    rounds
+        Cutting-plane rounds used.
+    """
+
+    direction: tuple[float, ...]
+    names: tuple[str, ...]
+    lp_value: float
+    outer: float
+    inner: float
+    inner_point: tuple[float, ...]
+    spectrum: dict[str, list[float]]
+    certificate: dict[str, Any]
+    verification: Verification
+    rounds: int
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"direction": list(self.direction), "names": list(self.names),
+                "lp_value": self.lp_value, "outer": self.outer, "inner": self.inner,
+                "inner_point": list(self.inner_point), "spectrum": self.spectrum,
+                "certificate": self.certificate, "verification": self.verification.to_dict(),
+                "rounds": self.rounds}
+
+
+def exact_spectrum(nulls: tuple[StatePolynomial, ...], y: np.ndarray, spin: np.ndarray,
+                   x: np.ndarray, dps: int = 40) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Re-solve <1> = 1, <n_i> = 0 on the support of an LP solution in ``dps``-digit arithmetic.
+
+    Returns the states (y, J) and their weights, all strictly positive, with the residual
+    below 10^-(dps - 15) relative to the size of the rows.  Raises SolverError otherwise.
+    """
+    import mpmath
+
+    keep = np.flatnonzero(x > 1e-11 * x.max())
+    for _ in range(len(keep) + 1):
+        with mpmath.workdps(dps):
+            a = mpmath.matrix([[mpmath.mpf(1)] * len(keep)]
+                              + [[n.mp_value(y[i], spin[i], mpmath) for i in keep] for n in nulls])
+            b = mpmath.matrix([1] + [0] * len(nulls))
+            scale = max(mpmath.mpf(1), max(abs(v) for v in a))
+            if a.rows >= a.cols:
+                p, res = mpmath.qr_solve(a, b)
+            else:  # fewer constraints than states: minimum-norm solution
+                p = a.T * mpmath.lu_solve(a * a.T, b)
+                res = mpmath.norm(a * p - b)
+            pw = np.array([float(v) for v in p])
+            ok = res < mpmath.mpf(10) ** (15 - dps) * scale
+        if ok and (pw > 0).all():
+            return y[keep], spin[keep], pw
+        if not ok or (pw > 0).all():
+            break
+        keep = keep[pw > 0]
+    raise SolverError("inexact-primal", "re-solving the LP spectrum exactly on its support")
+
+
+class SumRuleSolver:
+    """Extremise linear combinations of coordinates over positive heavy spectra.
+
+    Parameters
+    ----------
+    coordinates
+        The coordinate polynomials (averages normalised by <1> = 1).
+    nulls
+        The null constraints, whose averages must vanish.
+    y, spin
+        The initial grid of states (y = M^2/m^2 in (0, 1], even J); it grows as the
+        cutting-plane loop adds states, and the added states are kept for later directions.
+    settings
+        Verification and cutting-plane settings.
+    """
+
+    def __init__(self, coordinates: tuple[StatePolynomial, ...],
+                 nulls: tuple[StatePolynomial, ...], y: np.ndarray, spin: np.ndarray,
+                 settings: VerifySettings) -> None:
+        self.coordinates, self.nulls, self.settings = coordinates, nulls, settings
+        self.size = max(p.degree for p in coordinates + nulls) + 1
+        self._cc = np.stack([p.coeffs(self.size) for p in coordinates])
+        self._nc = np.stack([p.coeffs(self.size) for p in nulls])
+        self.y, self.spin = np.zeros(0), np.zeros(0, dtype=int)
+        self._rows = np.zeros((len(nulls), 0))
+        self._crd = np.zeros((len(coordinates), 0))
+        self._keys: set[tuple[float, int]] = set()
+        self.add_states(y, spin)
+
+    def add_states(self, y: np.ndarray, spin: np.ndarray) -> int:
+        """Add states not yet on the grid; returns how many were new."""
+        new = [(float(a), int(b)) for a, b in zip(np.atleast_1d(y), np.atleast_1d(spin),
+                                                    strict=True)
+               if 0 < a <= 1 and (round(float(a), 14), int(b)) not in self._keys]
+        if not new:
+            return 0
+        ny, ns = np.array([a for a, _ in new]), np.array([b for _, b in new])
+        self._keys.update((round(a, 14), b) for a, b in new)
+        self.y, self.spin = np.r_[self.y, ny], np.r_[self.spin, ns]
+        self._rows = np.hstack([self._rows, np.stack([evaluate(c, ny, ns) for c in self._nc])])
+        self._crd = np.hstack([self._crd, np.stack([evaluate(c, ny, ns) for c in self._cc])])
+        return len(new)
+
+    def _solve_grid(self, d: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
+        obj = d @ self._crd
+        col = 1.0 / np.maximum(1.0, np.maximum(np.abs(self._rows).max(0), np.abs(obj)))
+        scaled = self._rows * col
+        row = 1.0 / np.maximum(np.abs(scaled).max(1), 1e-300)
+        a_eq = np.vstack([col, scaled * row[:, None]])
+        b_eq = np.r_[1.0, np.zeros(len(self.nulls))]
+        lp = solve_lp(obj * col, a_eq, b_eq, problem=f"sum-rule LP along {d.tolist()}")
+        mult = lp.dual_eq[1:] * row
+        return float(lp.dual_eq[0]), mult, lp.x * col
+
+    def extremize(self, direction: np.ndarray) -> DirectionalBound:
+        """Inner and verified outer values of min d . x; raises SolverError if unverified."""
+        d = np.asarray(direction, dtype=float)
+        s = self.settings
+        for rnd in range(1, s.max_rounds + 1):
+            lam, mult, weights = self._solve_grid(d)
+            func = np.tensordot(d, self._cc, 1) - np.tensordot(mult, self._nc, 1)
+            ver = verify_functional(func, lam - s.tol * max(1.0, abs(lam)), s)
+            if ver.passed:
+                break
+            if not self.add_states(np.array([v[0] for v in ver.violations]),
+                                   np.array([v[1] for v in ver.violations])):
+                raise SolverError("unverified", "dual functional: violating states are "
+                                  "already on the grid (LP tolerance above verify tol)")
+        else:
+            raise SolverError("unverified", f"dual functional along {d.tolist()} after "
+                              f"{s.max_rounds} cutting-plane rounds (min {ver.best_value:.6g} "
+                              f"< target {ver.target:.6g})")
+        return self._bound(d, lam, mult, weights, ver, rnd)
+
+    def _bound(self, d: np.ndarray, lam: float, mult: np.ndarray, weights: np.ndarray,
+               ver: Verification, rnd: int) -> DirectionalBound:
+        import mpmath
+
+        ys, js, pw = exact_spectrum(self.nulls, self.y, self.spin, weights)
+        with mpmath.workdps(40):
+            point = tuple(float(mpmath.fsum(mpmath.mpf(p) * c.mp_value(a, b, mpmath)
+                                            for a, b, p in zip(ys, js, pw, strict=True)))
+                          for c in self.coordinates)
+        inner = float(np.dot(d, point))
+        if inner < ver.lower - 1e-9 * max(1.0, abs(inner)):
+            raise SolverError("inconsistent", f"primal value {inner} below the verified dual "
+                              f"bound {ver.lower} along {d.tolist()}")
+        cert = {"normalisation_multiplier": lam,
+                "null_multipliers": {n.label: float(m) for n, m in zip(self.nulls, mult,
+                                                                      strict=True)}}
+        spec = {"y": ys.tolist(), "J": [int(v) for v in js], "weight": pw.tolist()}
+        return DirectionalBound(tuple(float(v) for v in d),
+                                tuple(c.label for c in self.coordinates), lam, ver.lower,
+                                inner, point, spec, cert, ver, rnd)

@@ -41,7 +41,7 @@ so intervals tens of standard deviations out keep full relative precision.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 from typing import Any
 
 import numpy as np
@@ -99,13 +99,7 @@ class PolytopeProbability:
 
     def to_dict(self) -> dict[str, Any]:
         """Plain-Python dictionary of the fields."""
-        return {
-            "probability": self.probability,
-            "std_error": self.std_error,
-            "n_draws": self.n_draws,
-            "method": self.method,
-            "log_probability": self.log_probability,
-        }
+        return asdict(self)
 
 
 @dataclass(frozen=True)
@@ -260,11 +254,13 @@ def _validate(
     if np.max(np.abs(sig - sig.T)) > SYMMETRY_TOL * scale:
         raise PolytopeInputError("cov is not symmetric")
     sig = 0.5 * (sig + sig.T)
-    eig = linalg.eigvalsh(sig)
-    if not eig[0] > PSD_TOL * max(eig[-1], 0.0) or eig[-1] <= 0:
+    diag = np.diag(sig)
+    # scale-free test on the correlation matrix, so very different variances are fine
+    corr = sig / np.sqrt(np.outer(diag, diag)) if np.all(diag > 0) else sig
+    if not np.all(diag > 0) or not linalg.eigvalsh(corr)[0] > PSD_TOL:
         raise PolytopeInputError(
-            f"cov is not positive definite: smallest eigenvalue {eig[0]:.6g} "
-            f"(largest {eig[-1]:.6g}); rank-deficient covariances are not supported"
+            f"cov is not positive definite: smallest eigenvalue {linalg.eigvalsh(sig)[0]:.6g}"
+            "; rank-deficient covariances are not supported"
         )
     return mu, sig, mat, rhs
 
@@ -325,8 +321,8 @@ def _anchors(g: FloatArray, c: FloatArray) -> tuple[FloatArray, FloatArray]:
     ``max t : g z - t >= c`` from :func:`scipy.optimize.linprog` is negative (zero).
     """
     m, d = g.shape
-    bounds = [(None, None)] * d + [(None, 1.0)]
-    res = optimize.linprog(np.r_[np.zeros(d), -1.0], A_ub=np.c_[-g, np.ones(m)], b_ub=-c, bounds=bounds)
+    cost, a_ub, bounds = np.r_[np.zeros(d), -1.0], np.c_[-g, np.ones(m)], [(None, None)] * d
+    res = optimize.linprog(cost, A_ub=a_ub, b_ub=-c, bounds=bounds + [(None, 1.0)])
     if res.status != 0:
         raise SolverError(str(res.status), f"depth of the polyhedron: {res.message}")
     depth = float(res.x[d])
@@ -343,9 +339,9 @@ def _anchors(g: FloatArray, c: FloatArray) -> tuple[FloatArray, FloatArray]:
         constraints=[{"type": "ineq", "fun": lambda z: g @ z - c, "jac": lambda z: g}],
         options={"ftol": 1e-12, "maxiter": 500},
     )
-    ok = opt.success and np.all(g @ opt.x - c > -1e-7)
-    mode = opt.x if ok else center
-    return mode + 0.2 * (center - mode), mode
+    mode = opt.x if opt.success and np.all(g @ opt.x - c > -1e-7) else center
+    start = mode + 0.2 * (center - mode)
+    return (start if np.all(g @ start > c) else center), mode
 
 
 def _box_rows(coef: FloatArray, c: FloatArray, k: int) -> tuple[list[float], list[bool]]:
@@ -509,7 +505,11 @@ def _maximise(system: tuple[Any, ...], x0: FloatArray) -> _Tilt:
 
 
 def _find_tilt(geom: _Geometry) -> _Tilt:
-    """Minimax tilting of the smooth majorant, refreshing representative rows."""
+    """Minimax tilting of the smooth majorant, refreshing the representative rows.
+
+    Every round gives a valid bound; the smallest (highest acceptance) is kept, and a
+    failed refresh after a successful round just ends the refreshes.
+    """
     r = len(geom.groups)
     if r == 0:
         return _Tilt(np.zeros(0), 0.0, np.zeros(0))
@@ -521,12 +521,16 @@ def _find_tilt(geom: _Geometry) -> _Tilt:
         if system[4] in seen:
             break
         seen.add(system[4])
-        tilt = _maximise(system, geom.start[: r - 1])
+        try:
+            tilt = _maximise(system, geom.start[: r - 1])
+        except SolverError:
+            if best is None:
+                raise
+            break
         if best is None or tilt.log_bound < best.log_bound:
             best = tilt
         ref = tilt.point
-    if best is None:  # pragma: no cover - the loop runs at least once
-        raise SolverError("no tilt", "minimax tilting")
+    assert best is not None  # the first round either succeeds or raises
     return best
 
 

@@ -61,6 +61,7 @@ HPD_LEVELS = (0.68, 0.95)
 MAX_SCATTER = 2000
 DEFAULT_DPI = 150
 
+#: Most bins per axis of the 2-D posterior histogram (fewer for small samples).
 _HIST_BINS = 60
 _CORNER_BINS = 30
 #: Below this effective sample size posteriors are shown as points, without contours.
@@ -387,15 +388,18 @@ def _label_line(ax: Axes, seg: np.ndarray, normal: np.ndarray, box: np.ndarray, 
     """Write ``text`` along a line, just off it on the excluded side.
 
     The label sits in the middle of the facet's stretch of the allowed boundary when
-    there is one (those stretches do not overlap), else somewhere along the segment.
+    that is long enough (those stretches do not overlap), else somewhere along the
+    segment, and never near the ends of the segment where it would be cut off.
     """
-    frac = 0.5 if active is not None else _LABEL_FRACTIONS[k % len(_LABEL_FRACTIONS)]
-    where = active if active is not None else seg
     span = box[:, 1] - box[:, 0]
+    d = seg[1] - seg[0]
+    t = _LABEL_FRACTIONS[k % len(_LABEL_FRACTIONS)]
+    if active is not None and np.linalg.norm((active[1] - active[0]) / span) >= 0.3:
+        t = float((active.mean(axis=0) - seg[0]) @ d / (d @ d))
+    t = min(max(t, 0.25), 0.75)
     away = normal / span  # the normal in axes-fraction units
     away = away / max(float(np.linalg.norm(away)), _ZERO)
-    pos = where[0] + frac * (where[1] - where[0]) - 0.028 * away * span
-    d = seg[1] - seg[0]
+    pos = seg[0] + t * d - 0.028 * away * span
     angle = float(np.degrees(np.arctan2(d[1], d[0])))
     angle = angle - 180.0 if angle > 90.0 else (angle + 180.0 if angle <= -90.0 else angle)
     ax.text(pos[0], pos[1], text, rotation=angle, rotation_mode="anchor",
@@ -491,8 +495,9 @@ def _draw_posterior_2d(ax: Axes, x: np.ndarray, w: np.ndarray | None) -> bool:
     from scipy.ndimage import gaussian_filter
 
     rng_ = _spread(*_sample_range(x, w, 0.998).T, 0.1)
-    h, xe, ye = np.histogram2d(x[:, 0], x[:, 1], bins=_HIST_BINS, range=rng_, weights=w)
-    h = np.pad(gaussian_filter(h, 1.0), 1)
+    bins = int(np.clip(np.sqrt(_ess(w, len(x))) / 1.5, 15, _HIST_BINS))
+    h, xe, ye = np.histogram2d(x[:, 0], x[:, 1], bins=bins, range=rng_, weights=w)
+    h = np.pad(gaussian_filter(h, 1.2), 1)
     xc = np.r_[xe[0] - (xe[1] - xe[0]) / 2, (xe[1:] + xe[:-1]) / 2, xe[-1] + (xe[1] - xe[0]) / 2]
     yc = np.r_[ye[0] - (ye[1] - ye[0]) / 2, (ye[1:] + ye[:-1]) / 2, ye[-1] + (ye[1] - ye[0]) / 2]
     _scatter(ax, x, w)
