@@ -1,8 +1,23 @@
 """eftsieve: positivity bounds on fitted effective-field-theory constants.
 
-The short public API.  Heavy libraries (cvxpy, matplotlib, emcee) load lazily.
+The short public API; heavy libraries (cvxpy, matplotlib, emcee, scipy.stats) load
+only when a function needs them.
 """
 
 from eftsieve._version import __version__
+from eftsieve.errors import EftsieveError, EftsieveWarning, InputError
+from eftsieve.fit import Fit, load_fit
+from eftsieve.region import Facet, Region
+from eftsieve.regions import build_region
 
-__all__ = ["__version__"]
+__all__ = [
+    "EftsieveError",
+    "EftsieveWarning",
+    "Facet",
+    "Fit",
+    "InputError",
+    "Region",
+    "__version__",
+    "build_region",
+    "load_fit",
+]

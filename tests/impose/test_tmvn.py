@@ -78,8 +78,13 @@ def _polygon_integral(
     total = 0.0
     for lo, hi in zip(cuts[:-1], cuts[1:], strict=True):
         val, _ = integrate.dblquad(
-            density, lo, hi, lambda t: limit(t, False), lambda t: limit(t, True),
-            epsabs=0.0, epsrel=1e-10,
+            density,
+            lo,
+            hi,
+            lambda t: limit(t, False),
+            lambda t: limit(t, True),
+            epsabs=0.0,
+            epsrel=1e-10,
         )
         total += val
     return total
@@ -243,8 +248,11 @@ POLYGONS = {
     "triangle-1e-6": [[4.0, 4.0], [5.5, 4.2], [4.5, 5.6]],
     "quadrilateral-1e-9": [[5.0, 5.0], [7.0, 5.5], [7.5, 7.0], [5.5, 8.0]],
     "pentagon-1e-10": [  # regular, radius 0.8 about (6.6, 5.0), rounded to 1e-6
-        [7.4, 5.0], [6.847214, 5.760845], [5.952786, 5.470228],
-        [5.952786, 4.529772], [6.847214, 4.239155],
+        [7.4, 5.0],
+        [6.847214, 5.760845],
+        [5.952786, 5.470228],
+        [5.952786, 4.529772],
+        [6.847214, 4.239155],
     ],
 }
 
@@ -324,7 +332,11 @@ def test_spectator_keeps_its_conditional_law() -> None:
     # the probability only involves the (x1, x2) marginal
     a2 = A[:, :2]
     ref = stats.multivariate_normal.cdf(
-        -b, mean=-a2 @ mean[:2], cov=a2 @ cov[:2, :2] @ a2.T, abseps=1e-14, releps=1e-8,
+        -b,
+        mean=-a2 @ mean[:2],
+        cov=a2 @ cov[:2, :2] @ a2.T,
+        abseps=1e-14,
+        releps=1e-8,
         rng=_rng(0),
     )
     prob = polytope_probability(mean, cov, A, b, rng=_rng(17))

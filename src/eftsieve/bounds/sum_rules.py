@@ -591,6 +591,9 @@ class SumRuleSolver:
         scaled = self._rows * col
         row = 1.0 / np.maximum(np.abs(scaled).max(1), 1e-300)
         a_eq = np.vstack([col, scaled * row[:, None]])
+        # entries this small only slow HiGHS down; the LP is a search heuristic (the
+        # primal is re-solved exactly and the dual verified), so dropping them is safe
+        a_eq[np.abs(a_eq) < 1e-13] = 0.0
         b_eq = np.r_[1.0, np.zeros(len(self.nulls))]
         lp = solve_lp(obj * col, a_eq, b_eq, problem=f"sum-rule LP along {d.tolist()}")
         mult = lp.dual_eq[1:] * row

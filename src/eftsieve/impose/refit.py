@@ -182,21 +182,47 @@ def load_callable(spec: str) -> Callable[[np.ndarray], np.ndarray]:
     return loglike
 
 
+def prior_box(fit: Fit) -> list[tuple[float, float]]:
+    """The prior's support as a box (normal priors: mean +- 5 sigma)."""
+    assert fit.prior is not None
+    box = []
+    for n in fit.names:
+        a, b = fit.prior.params[n]
+        box.append((a, b) if fit.prior.kinds[n] == "uniform" else (a - 5 * b, a + 5 * b))
+    return box
+
+
 def start_point(fit: Fit, region: Region, cmap: CoordinateMap,
                 logprior: Callable[[np.ndarray], np.ndarray]) -> tuple[np.ndarray, float]:
-    """A point well inside the region (its Chebyshev centre) in the fit's coordinates."""
+    """The Chebyshev centre of region x prior box, in the fit's coordinates (an LP)."""
+    from scipy.optimize import linprog
+
+    from eftsieve.errors import SolverError
+
     if not cmap.is_affine:
         raise InputError(fit.source, "parameters", "refit needs an affine coordinate map", "")
-    assert cmap.jacobian is not None and cmap.shift is not None and fit.prior is not None
-    centre, radius = region.chebyshev_center()
-    x0 = np.array([float(np.mean(fit.prior.params[n])) if fit.prior.kinds[n] == "uniform"
-                   else fit.prior.params[n][0] for n in fit.names])
-    jp = np.linalg.pinv(cmap.jacobian)
-    x = x0 + jp @ (centre - (cmap.jacobian @ x0 + cmap.shift))
-    if not np.isfinite(logprior(x[None, :])[0]):
-        raise SamplingError("the region's Chebyshev centre lies outside the prior support",
+    a, b = cmap.pull_back(*region.arrays())
+    box = prior_box(fit)
+    lo, hi = np.array(box).T
+    k = len(box)
+    # rows: a x - r |a| >= b, and x_i - r >= lo_i, -x_i - r >= -hi_i
+    rows = np.vstack([np.hstack([a, -np.linalg.norm(a, axis=1)[:, None]]),
+                      np.hstack([np.eye(k), -np.ones((k, 1))]),
+                      np.hstack([-np.eye(k), -np.ones((k, 1))])]) if len(a) else np.vstack([
+                          np.hstack([np.eye(k), -np.ones((k, 1))]),
+                          np.hstack([-np.eye(k), -np.ones((k, 1))])])
+    rhs = np.concatenate([b, lo, -hi]) if len(a) else np.concatenate([lo, -hi])
+    c = np.zeros(k + 1)
+    c[-1] = -1.0
+    res = linprog(c, A_ub=-rows, b_ub=-rhs, bounds=[(None, None)] * k + [(0, None)],
+                  method="highs")
+    if res.status != 0:
+        raise SolverError(res.message, "Chebyshev centre LP of region x prior")
+    x, r = res.x[:k], float(res.x[-1])
+    if r <= 0 or not np.isfinite(logprior(x[None, :])[0]):
+        raise SamplingError("the region and the prior support do not overlap",
                             "widen the prior or check the conventions")
-    return x, radius / max(1.0, float(np.linalg.norm(cmap.jacobian, 2)))
+    return x, r
 
 
 def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
@@ -222,8 +248,9 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
     rng = np.random.default_rng(settings.seed)
     x0, r = start_point(fit, region, cmap, logprior)
     p0 = _ball(x0, r, settings.walkers, rng, logpost)
-    sampler = emcee.EnsembleSampler(settings.walkers, len(x0), logpost, vectorize=True,
-                                    seed=int(rng.integers(2**31)))
+    sampler = emcee.EnsembleSampler(settings.walkers, len(x0), logpost, vectorize=True)
+    # emcee draws its moves from a legacy RandomState: seed it from our generator
+    sampler.random_state = np.random.RandomState(int(rng.integers(2**31))).get_state()
     sampler.run_mcmc(p0, settings.n_samples, progress=settings.progress)
     return _refit_result(fit, sampler, settings, likelihood_label, before)
 

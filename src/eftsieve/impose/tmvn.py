@@ -624,9 +624,9 @@ def polytope_probability(
     ------
     PolytopeInputError
         Bad shapes, non-finite input, or a covariance that is not positive definite.
-    EmptyPolytopeError
+    DegeneratePolytopeError
         The polyhedron is non-empty but has no interior.
-    SolverError
+    eftsieve.errors.SolverError
         The tilting problem could not be solved to full accuracy.
     """
     _check_args(rng, n_draws=n_draws)
@@ -678,6 +678,8 @@ def sample_truncated_normal(
     ------
     EmptyPolytopeError
         The polyhedron is empty (checked with :func:`scipy.optimize.linprog`).
+    DegeneratePolytopeError
+        The polyhedron is non-empty but has no interior.
     PolytopeInputError
         Bad shapes, non-finite input, or a covariance that is not positive definite.
     eftsieve.errors.SamplingError

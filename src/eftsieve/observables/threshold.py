@@ -19,19 +19,26 @@ b_1^1.  Bose symmetry allows (I, l) = (0, 0), (0, 2), (1, 1), (2, 0), (2, 2) onl
 
 Method.  For fixed q^2 the projection is done by Gauss-Legendre quadrature in z (the
 integrand is analytic in z: its nearest singularity, Jbar(t) at t = 4 M^2, lies at
-z = 1 + 2/q^2).  The function g(q^2) = Re t_l / q^{2l} is analytic in q^2 on the disc
-|q^2| < M^2: the t- and u-channel loops are analytic for |t|, |u| < 4 M^2, and the
-s-channel loop enters as Re Jbar(s) = (2 - 2 sigma artanh sigma) / (16 pi^2),
+|z| = 1 + 2/|q^2|).  The function g(q^2) = Re t_l / q^{2l} is analytic in q^2 on the
+disc |q^2| < M^2: the t- and u-channel loops are analytic for |t|, |u| < 4 M^2, and the
+s-channel loop enters through Re Jbar(s) = (2 - 2 sigma artanh sigma) / (16 pi^2),
 sigma^2 = q^2 / (M^2 + q^2), which is even in sigma; its sqrt(q^2) piece i pi sigma is
-purely imaginary and dropped by taking the real part.  The values g(q_k^2) at
-``N_Q`` Chebyshev points on (0, Q2_MAX] are interpolated by a polynomial, and a_l, b_l
-are its value and slope at q^2 = 0 (fixed linear weights).  The extrapolation error
-falls like rho^{-N_Q}, rho = 9 + sqrt(80) ~ 17.9 for Q2_MAX = 0.25 M^2; with the
-defaults it is far below the rounding floor.  Verified accuracy (see the tests and
-the module report): a_2^0 and a_2^2 agree with the closed forms of Gasser & Leutwyler
-(1984) to <= 1e-10 relative, a_0 and a_1 with the threshold values / t-derivatives of
-the amplitude to ~1e-11, and every a, b is stable to < 1e-9 relative (b_2: < 1e-8)
-under changes of the grid.
+purely imaginary above threshold and dropped by taking the real part.  Below threshold
+(q^2 < 0, where t_l is real) that piece becomes -pi tau, tau^2 = -q^2 / (M^2 + q^2);
+its polynomial coefficient is Im t_l / sigma, a quadratic in q^2 read off above
+threshold, so g is known on both sides of q^2 = 0.  g is then fitted (least squares,
+``N_BASIS`` Chebyshev polynomials on ``N_POINTS`` Chebyshev points of [-h, h],
+h = ``Q2_HALF_WIDTH``) and a_l = g(0), b_l = g'(0) are read off at the centre of the
+interval, where the fit is best conditioned; the truncation error falls like
+(1/h + sqrt(1/h^2 - 1))^{-N_BASIS} ~ 1e-14.  Working on both sides of threshold avoids
+dividing by tiny q^{2l} (one-sided extrapolation lost ~1e-7 on the D waves), and the
+projection weights are corrected so that they annihilate z^k, k < l, to rounding.
+
+Accuracy verified (tests/observables/test_threshold.py): a_2^0 and a_2^2 agree with
+the closed forms of Gasser & Leutwyler (1984) to ~1e-11 relative; a_0^0, b_0^0, a_0^2,
+b_0^2, a_1^1, b_1^1 agree with closed forms derived from Gasser & Leutwyler (1984)
+Eq. (17.5) at threshold to ~1e-12 relative; b_2^0 and b_2^2 (for which no closed form
+is used) change by < 1e-10 relative when the grid (h, N_POINTS, N_BASIS, N_Z) changes.
 
 Speed.  The amplitude is exactly tree / F^2 + (P0 + sum_i lbar_i P_i) / F^4 (F in units
 of M), so each parameter is c_tree / F^2 + (c_0 + c . lbar) / F^4 with six constants
@@ -57,9 +64,11 @@ ALLOWED_WAVES: tuple[tuple[int, int], ...] = ((0, 0), (0, 2), (1, 1), (2, 0), (2
 OBSERVABLES: tuple[str, ...] = tuple(
     f"{kind}{iso}_{ell}" for iso, ell in ALLOWED_WAVES for kind in ("a", "b"))
 
-#: Upper end of the q^2 interval (units M^2) and number of Chebyshev points on it.
-Q2_MAX = 0.25
-N_Q = 12
+#: Half-width h of the q^2 interval [-h, h] (units M^2), number of Chebyshev points on
+#: it, and number of Chebyshev polynomials fitted to Re t_l / q^{2l}.
+Q2_HALF_WIDTH = 0.5
+N_POINTS = 48
+N_BASIS = 24
 #: Gauss-Legendre points in z = cos(theta).
 N_Z = 24
 
@@ -136,55 +145,96 @@ class ThresholdParameter:
                 "kind": self.kind, "value": float(self.value), "units": self.units}
 
 
-@lru_cache(maxsize=None)
-def _grid(q2_max: float = Q2_MAX, n_q: int = N_Q,
-          n_z: int = N_Z) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Chebyshev q^2 points, Gauss-Legendre (z, w), and the (2, n_q) value/slope weights.
+@dataclass(frozen=True)
+class _Grid:
+    """Quadrature and extraction weights for one partial wave l.
 
-    The weights map g(q_k^2) to (p(0), p'(0)) of the interpolating polynomial p.
+    Attributes
+    ----------
+    q2
+        The q^2 points (M^2 units), Chebyshev points of [-h, h].
+    z
+        Gauss-Legendre points in z.
+    proj
+        w_i P_l(z_i) / (64 pi), with the moments of z^k, k < l, removed (see
+        :func:`_projection_weights`).
+    re_rows, im_rows
+        (2, n) weights: (a, b) = re_rows @ Re t_l(q2) + im_rows @ Im t_l(q2).
     """
-    k = np.arange(n_q)
-    xi = np.cos(np.pi * (2 * k + 1) / (2 * n_q))          # Chebyshev points in (-1, 1)
-    q2 = 0.5 * q2_max * (xi + 1.0)
-    vander = np.polynomial.chebyshev.chebvander(xi, n_q - 1)   # (n_q, n_q)
-    j = np.arange(n_q)
-    at_zero = (-1.0) ** j                                   # T_j(-1)
-    slope = (-1.0) ** (j + 1) * j**2 * (2.0 / q2_max)       # d T_j / d q^2 at xi = -1
-    weights = np.linalg.solve(vander.T, np.stack([at_zero, slope], axis=1)).T
-    z, w = np.polynomial.legendre.leggauss(n_z)
-    return q2, z, w, weights
+
+    q2: np.ndarray
+    z: np.ndarray
+    proj: np.ndarray
+    re_rows: np.ndarray
+    im_rows: np.ndarray
 
 
 def _legendre(ell: int, z: np.ndarray) -> np.ndarray:
-    if ell == 0:
-        return np.ones_like(z)
-    if ell == 1:
-        return z
-    if ell == 2:
-        return 0.5 * (3 * z**2 - 1)
-    raise ValueError(f"l = {ell} is not provided")
+    """Legendre polynomial P_l(z) for l = 0, 1, 2."""
+    return (np.ones_like(z), z, 0.5 * (3 * z**2 - 1))[ell]
 
 
-def _reduced_wave(values: np.ndarray, ell: int, q2: np.ndarray, z: np.ndarray,
-                  w: np.ndarray) -> np.ndarray:
-    """g(q^2) = Re t_l / q^{2l} from amplitude values on the (q^2, z) grid (..., n_q, n_z)."""
-    proj = (np.real(values) * (w * _legendre(ell, z))).sum(axis=-1) / (64 * math.pi)
-    return proj / q2**ell
+def _projection_weights(ell: int, n_z: int) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss-Legendre points and weights v_i = w_i P_l(z_i) / (64 pi).
+
+    In floating point sum_i w_i P_l(z_i) z_i^k (k < l) is ~1e-15 rather than 0, which
+    would leak the O(1) constant part of T into the O(q^4) D wave; the component of v
+    along z^k, k < l, is therefore projected out (a change of ~1e-16 per weight).
+    """
+    z, w = np.polynomial.legendre.leggauss(n_z)
+    v = w * _legendre(ell, z)
+    if ell > 0:
+        powers = np.vander(z, ell, increasing=True)
+        v = v - powers @ np.linalg.solve(powers.T @ powers, powers.T @ v)
+    return z, v / (64 * math.pi)
 
 
-def _mandelstam(q2: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    s = 4.0 * (1.0 + q2)[:, None] + 0.0 * z[None, :]
-    t = -2.0 * q2[:, None] * (1.0 - z[None, :])
-    return s, t
+def _extraction_rows(ell: int, h: float, n_points: int,
+                     n_basis: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """q^2 points and the linear maps (Re t_l, Im t_l) -> (a_l, b_l).
+
+    Above threshold (q^2 > 0) g = Re t_l / q^{2l}.  Below (q^2 < 0) t_l is real and
+    equals g q^{2l} - tau Pi(q^2), tau = sqrt(-q^2 / (1 + q^2)), where
+    Pi(q^2) = Im t_l / sigma (q^2 > 0) is a polynomial of degree <= 2 (the s-channel
+    polynomial times pi / (16 pi^2)), fitted on the points above threshold.  Then
+    q^{2l} g is fitted by least squares with q^{2l} T_j(q^2 / h), j < n_basis, and
+    a_l = g(0), b_l = g'(0) are read off at the centre of the interval.
+    """
+    k = np.arange(n_points)
+    xi = np.cos(np.pi * (2 * k + 1) / (2 * n_points))
+    q2 = h * xi
+    pos, neg = q2 > 0, q2 < 0
+    sigma = np.sqrt(q2[pos] / (1 + q2[pos]))
+    tau = np.sqrt(-q2[neg] / (1 + q2[neg]))
+    cheb2 = np.polynomial.chebyshev.chebvander
+    # Im t_l (pos) -> tau Pi (neg): quadratic least-squares fit of Pi = Im t_l / sigma
+    extend = cheb2(xi[neg], 2) @ np.linalg.pinv(cheb2(xi[pos], 2)) / sigma[None, :]
+    correction = np.zeros((n_points, n_points))
+    correction[np.ix_(neg, pos)] = tau[:, None] * extend
+    design = cheb2(xi, n_basis - 1) * (q2**ell)[:, None]
+    j = np.arange(n_basis)
+    at_centre = np.stack([np.cos(j * np.pi / 2), j * np.sin(j * np.pi / 2) / h])
+    re_rows = at_centre @ np.linalg.pinv(design)
+    return q2, re_rows, re_rows @ correction
+
+
+@lru_cache(maxsize=None)
+def _grid(ell: int, h: float = Q2_HALF_WIDTH, n_points: int = N_POINTS,
+          n_basis: int = N_BASIS, n_z: int = N_Z) -> _Grid:
+    """The (cached) quadrature and extraction weights of partial wave l."""
+    z, proj = _projection_weights(ell, n_z)
+    q2, re_rows, im_rows = _extraction_rows(ell, h, n_points, n_basis)
+    return _Grid(q2=q2, z=z, proj=proj, re_rows=re_rows, im_rows=im_rows)
 
 
 def _projected(iso: int, ell: int, lbar: tuple[float, float, float, float],
-               f: float, grid: tuple[np.ndarray, ...]) -> np.ndarray:
-    """(a, b) of the full amplitude at one lbar and F/M, by projection and extrapolation."""
-    q2, z, w, weights = grid
-    s, t = _mandelstam(q2, z)
-    g = _reduced_wave(full_amplitude(s, t, lbar, f, isospin=iso), ell, q2, z, w)
-    return weights @ g
+               f: float, grid: _Grid | None = None) -> np.ndarray:
+    """(a_l, b_l) of the full amplitude T^I at one lbar and F/M."""
+    grid = _grid(ell) if grid is None else grid
+    s = np.broadcast_to(4.0 * (1.0 + grid.q2)[:, None], (grid.q2.size, grid.z.size))
+    t = -2.0 * grid.q2[:, None] * (1.0 - grid.z[None, :])
+    wave = full_amplitude(s, t, lbar, f, isospin=iso) @ grid.proj
+    return grid.re_rows @ wave.real + grid.im_rows @ wave.imag
 
 
 @lru_cache(maxsize=None)
@@ -195,13 +245,12 @@ def _affine(iso: int, ell: int) -> np.ndarray:
     loop parts are separated from the exact F dependence of the amplitude,
     T(F) = T_tree / F^2 + T_loop / F^4, evaluated at F^2 = 1 and F^2 = 2.
     """
-    grid = _grid()
     points = [(0.0, 0.0, 0.0, 0.0)] + [tuple(float(i == k) for i in range(4))
                                        for k in range(4)]
     cols = []
     for lb in points:
-        one = _projected(iso, ell, lb, 1.0, grid)
-        two = _projected(iso, ell, lb, math.sqrt(2.0), grid)
+        one = _projected(iso, ell, lb, 1.0)
+        two = _projected(iso, ell, lb, math.sqrt(2.0))
         loop = 2.0 * (one - 2.0 * two)
         cols.append((one - loop, loop))
     tree = cols[0][0]
@@ -248,7 +297,7 @@ def threshold_parameter(name: str, lbar, pion_mass_mev: float, fpi_mev: float) -
     """
     kind, iso, ell = parse_name(name)
     f = _fpi_over_m(pion_mass_mev, fpi_mev)
-    ab = _projected(iso, ell, _as_lbar(lbar), f, _grid())
+    ab = _projected(iso, ell, _as_lbar(lbar), f)
     return float(ab[0] if kind == "a" else ab[1])
 
 

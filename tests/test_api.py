@@ -1,0 +1,21 @@
+"""The public surface is frozen: changing it is a deliberate act."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import eftsieve
+
+
+def test_all_is_exact():
+    assert eftsieve.__all__ == ["EftsieveError", "EftsieveWarning", "Facet", "Fit", "InputError",
+                                "Region", "__version__", "build_region", "load_fit"]
+
+
+def test_import_does_not_load_heavy_libraries():
+    code = ("import sys, eftsieve, eftsieve.cli; "
+            "print(','.join(m for m in ('cvxpy', 'matplotlib', 'emcee', 'scipy.stats') "
+            "if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == ""

@@ -1,0 +1,101 @@
+"""The command line: verbs, one-line errors with exit codes, --debug tracebacks."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from eftsieve.cli import main
+
+DATA = Path(__file__).parent / "fit"
+
+
+def run_cli(*args: str) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "eftsieve.cli", *args], capture_output=True,
+                          text=True, timeout=300)
+
+
+def test_version_is_fast_and_printed():
+    out = run_cli("--version")
+    assert out.returncode == 0 and out.stdout.startswith("eftsieve ")
+
+
+def test_theories_lists_parameters_conventions_and_kinematics(capsys):
+    assert main(["theories"]) == 0
+    text = capsys.readouterr().out
+    assert "chpt-su2" in text and "lbar1" in text and "pion_mass_mev" in text
+    assert main(["theories", "--json"]) == 0
+    info = json.loads(capsys.readouterr().out)
+    su2 = next(i for i in info if i["name"] == "chpt-su2")
+    assert su2["kinematic_inputs"]["mu_mev"]["default"] == 770.0
+
+
+def test_region_writes_file_and_json(tmp_path, capsys):
+    out = tmp_path / "r.json"
+    assert main(["region", "--theory", "chpt-su2", "--family", "second-derivative", "-o",
+                 str(out), "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["n_facets"] == 3
+    stored = json.loads(out.read_text())
+    assert stored["hash"] == summary["hash"]
+    assert {f["channel"] for f in stored["facets"]} >= {"pi0 pi0", "pi+ pi0"}
+
+
+@pytest.mark.parametrize("card, code, words", [
+    ("bad_nonpsd_cov.yaml", 2, "smallest eigenvalue"),
+    ("bad_unknown_param.yaml", 2, "unknown parameter 'lbar7'"),
+    ("nope.yaml", 2, "file not found"),
+])
+def test_bad_input_is_one_line_without_traceback(tmp_path, card, code, words):
+    out = run_cli("check", str(DATA / card), "-o", str(tmp_path / "o"), "--no-plots")
+    assert out.returncode == code
+    lines = [ln for ln in out.stderr.splitlines() if ln.strip()]
+    assert len(lines) == 1 and words in lines[0] and "Traceback" not in out.stderr
+    assert card in lines[0]
+
+
+def test_debug_shows_the_traceback(tmp_path):
+    out = run_cli("--debug", "check", str(DATA / "bad_nonpsd_cov.yaml"), "-o", str(tmp_path))
+    assert out.returncode != 0 and "Traceback" in out.stderr
+
+
+def test_tampered_region_file_is_refused(tmp_path, capsys):
+    out = tmp_path / "r.json"
+    assert main(["region", "--family", "second-derivative", "-o", str(out)]) == 0
+    data = json.loads(out.read_text())
+    data["facets"][0]["offset"] = -100.0
+    out.write_text(json.dumps(data))
+    code = main(["check", str(DATA / "good_gaussian.yaml"), "--region", str(out), "-o",
+                 str(tmp_path / "c"), "--no-plots"])
+    assert code == 3
+    assert "hash mismatch" in capsys.readouterr().err
+
+
+def test_check_fail_below_gates(tmp_path, capsys):
+    args = ["check", str(DATA / "good_gaussian.yaml"), "-o", str(tmp_path / "c"), "--no-plots",
+            "--draws", "20000"]
+    assert main(args) == 0
+    summary = json.loads((tmp_path / "c" / "summary.json").read_text())
+    assert main(args + ["--fail-below", str(summary["p_inside"] + 0.01)]) == 6
+    for name in ("summary.json", "flagged.csv", "report.md", "report.html", "region.json"):
+        assert (tmp_path / "c" / name).is_file()
+
+
+def test_outputs_never_overwrite_inputs(tmp_path, capsys):
+    card = tmp_path / "summary.json"
+    card.write_text((DATA / "good_errors.json").read_text())
+    assert main(["check", str(card), "-o", str(tmp_path), "--no-plots"]) == 2
+    assert "overwrite an input" in capsys.readouterr().err
+
+
+def test_bare_samples_file_with_flags(tmp_path, capsys):
+    code = main(["check", str(DATA / "samples.csv"), "--theory", "chpt-su2", "--convention",
+                 "lbar", "--pion-mass", "139.57", "--weight-column", "w", "-o",
+                 str(tmp_path / "b"), "--no-plots"])
+    # l1bar is not a known name: only lbar2 is constrained, so the region needs lbar1
+    assert code == 2
+    assert "needs l1" in capsys.readouterr().err
