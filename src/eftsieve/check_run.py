@@ -116,6 +116,9 @@ class FlaggedWriter:
         self.fh.flush()
         os.fsync(self.fh.fileno())
         self.fh.close()
+        from eftsieve.io import _umask_mode
+
+        os.chmod(self.tmp, _umask_mode())
         os.replace(self.tmp, self.path)
 
     def abort(self) -> None:

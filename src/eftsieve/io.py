@@ -16,6 +16,13 @@ from typing import Any
 from eftsieve.errors import InputError
 
 
+def _umask_mode() -> int:
+    """The mode a plain open() would give a new file (0o666 minus the umask)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
     """Write bytes to ``path`` atomically (temporary file + rename)."""
     p = Path(path)
@@ -26,6 +33,7 @@ def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, _umask_mode())
         os.replace(tmp, p)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -52,6 +60,7 @@ def atomic_write_with(path: str | Path, writer) -> Path:
     os.close(fd)
     try:
         writer(Path(tmp))
+        os.chmod(tmp, _umask_mode())
         os.replace(tmp, p)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

@@ -59,7 +59,7 @@ def _legend_texts(fig: Figure) -> list[str]:
 def _ring_areas(path: MplPath) -> list[float]:
     """Signed (shoelace) areas of the closed rings of a compound path."""
     areas, ring = [], []
-    for vertex, code in zip(path.vertices, path.codes):
+    for vertex, code in zip(path.vertices, path.codes, strict=True):
         if code == MplPath.CLOSEPOLY:
             xy = np.array(ring)
             areas.append(0.5 * float(np.sum(xy[:, 0] * np.roll(xy[:, 1], -1)

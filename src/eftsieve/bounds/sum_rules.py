@@ -586,17 +586,27 @@ class SumRuleSolver:
         return len(new)
 
     def _solve_grid(self, d: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
+        """One LP on the grid: (normalisation multiplier, null multipliers, weights).
+
+        Rows, then columns, are scaled to unit size and the null rows replaced by an
+        orthonormal basis of their span (QR), which HiGHS needs: the entries span many
+        orders of magnitude.
+        The multipliers are mapped back to the original null constraints.
+        """
         obj = d @ self._crd
-        col = 1.0 / np.maximum(1.0, np.maximum(np.abs(self._rows).max(0), np.abs(obj)))
-        scaled = self._rows * col
-        row = 1.0 / np.maximum(np.abs(scaled).max(1), 1e-300)
-        a_eq = np.vstack([col, scaled * row[:, None]])
-        # entries this small only slow HiGHS down; the LP is a search heuristic (the
-        # primal is re-solved exactly and the dual verified), so dropping them is safe
-        a_eq[np.abs(a_eq) < 1e-13] = 0.0
+        size = np.maximum(np.abs(self._rows).max(1), 1e-300)
+        rows = self._rows / size[:, None]
+        col = 1.0 / np.maximum(1.0, np.maximum(np.abs(rows).max(0), np.abs(obj)))
+        q, r = np.linalg.qr((rows * col).T)
+        a_eq = np.vstack([col, q.T])
+        # entries this small only upset HiGHS; the LP is a search step (the primal is
+        # re-solved exactly and the dual verified), so dropping them is safe
+        a_eq[np.abs(a_eq) < 1e-14] = 0.0
         b_eq = np.r_[1.0, np.zeros(len(self.nulls))]
         lp = solve_lp(obj * col, a_eq, b_eq, problem=f"sum-rule LP along {d.tolist()}")
-        mult = lp.dual_eq[1:] * row
+        from scipy.linalg import solve_triangular
+
+        mult = solve_triangular(r, lp.dual_eq[1:], lower=False) / size
         return float(lp.dual_eq[0]), mult, lp.x * col
 
     def extremize(self, direction: np.ndarray) -> DirectionalBound:

@@ -51,14 +51,14 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 
 from eftsieve.theories.pipi import full_amplitude
 
 #: The allowed (isospin, l) pairs (Bose symmetry: even l for I = 0, 2, odd l for I = 1).
-ALLOWED_WAVES: tuple[tuple[int, int], ...] = ((0, 0), (0, 2), (1, 1), (2, 0), (2, 2))
+ALLOWED_WAVES: tuple[tuple[int, int], ...] = ((0, 0), (1, 1), (0, 2), (2, 0), (2, 2))
 
 #: Every observable name, ``f"{kind}{I}_{l}"`` (kind ``a`` or ``b``, isospin I, wave l).
 OBSERVABLES: tuple[str, ...] = tuple(
@@ -100,8 +100,9 @@ def parse_name(name: str) -> tuple[str, int, int]:
                          f"e.g. 'a0_0'; known names: {', '.join(OBSERVABLES)}")
     kind, iso, ell = match.group(1), int(match.group(2)), int(match.group(3))
     if (iso, ell) not in ALLOWED_WAVES:
+        bose = iso <= 2 and (iso + ell) % 2 == 1
         why = ("forbidden by Bose symmetry (I = 0, 2 need even l, I = 1 needs odd l)"
-               if iso <= 2 and (iso + ell) % 2 == 1 else "not provided (I <= 2, l <= 2)")
+               if bose else "not provided (only I = 0, 1, 2 and l = 0, 1, 2)")
         raise ValueError(f"observable {name!r} (I = {iso}, l = {ell}) is {why}; "
                          f"known names: {', '.join(OBSERVABLES)}")
     return kind, iso, ell
@@ -218,7 +219,7 @@ def _extraction_rows(ell: int, h: float, n_points: int,
     return q2, re_rows, re_rows @ correction
 
 
-@lru_cache(maxsize=None)
+@cache
 def _grid(ell: int, h: float = Q2_HALF_WIDTH, n_points: int = N_POINTS,
           n_basis: int = N_BASIS, n_z: int = N_Z) -> _Grid:
     """The (cached) quadrature and extraction weights of partial wave l."""
@@ -237,26 +238,36 @@ def _projected(iso: int, ell: int, lbar: tuple[float, float, float, float],
     return grid.re_rows @ wave.real + grid.im_rows @ wave.imag
 
 
-@lru_cache(maxsize=None)
+def _split(iso: int, ell: int,
+           lbar: tuple[float, float, float, float]) -> tuple[np.ndarray, np.ndarray]:
+    """(a, b) of T_tree and of T_loop, where T = T_tree / F^2 + T_loop / F^4 (units M = 1).
+
+    With F = 2^k (so that every rescaling is exact), F^2 T = T_tree + T_loop / F^2 at
+    F^2 = 2^20, 2^22 gives T_tree, and F^4 T = T_loop + F^2 T_tree at F^2 = 2^-20, 2^-22
+    gives T_loop, each free of the rounding of the other (a split at F ~ 1 would mix
+    the O(1) tree rounding into the small D waves).
+    """
+    big = [4.0**k * _projected(iso, ell, lbar, 2.0**k) for k in (10, 11)]
+    small = [4.0**(-2 * k) * _projected(iso, ell, lbar, 2.0**-k) for k in (10, 11)]
+    return (4 * big[1] - big[0]) / 3, (4 * small[1] - small[0]) / 3
+
+
+@cache
 def _affine(iso: int, ell: int) -> np.ndarray:
     """Coefficients (2, 6): rows (a, b); columns (c_tree, c_0, c_1..c_4).
 
-    x = c_tree / F^2 + (c_0 + sum_i c_i lbar_i) / F^4 with F = F_pi / M_pi.  The tree and
-    loop parts are separated from the exact F dependence of the amplitude,
-    T(F) = T_tree / F^2 + T_loop / F^4, evaluated at F^2 = 1 and F^2 = 2.
+    x = c_tree / F^2 + (c_0 + sum_i c_i lbar_i) / F^4 with F = F_pi / M_pi; the six
+    constants depend on nothing else.
     """
-    points = [(0.0, 0.0, 0.0, 0.0)] + [tuple(float(i == k) for i in range(4))
-                                       for k in range(4)]
-    cols = []
-    for lb in points:
-        one = _projected(iso, ell, lb, 1.0)
-        two = _projected(iso, ell, lb, math.sqrt(2.0))
-        loop = 2.0 * (one - 2.0 * two)
-        cols.append((one - loop, loop))
-    tree = cols[0][0]
-    loop0 = cols[0][1]
-    slopes = [c[1] - loop0 for c in cols[1:]]
-    return np.column_stack([tree, loop0, *slopes])
+    zero = (0.0, 0.0, 0.0, 0.0)
+    tree, loop0 = _split(iso, ell, zero)
+    slopes = []
+    for k in range(4):
+        unit = tuple(float(i == k) for i in range(4))
+        slopes.append(_split(iso, ell, unit)[1] - loop0)  # type: ignore[arg-type]
+    coef = np.column_stack([tree, loop0, *slopes])
+    coef.setflags(write=False)
+    return coef
 
 
 def _fpi_over_m(pion_mass_mev: float, fpi_mev: float) -> float:
@@ -327,7 +338,8 @@ def threshold_parameters(names, lbar: np.ndarray, pion_mass_mev: float,
     Parameters
     ----------
     names
-        Sequence of observable names (see :data:`OBSERVABLES`).
+        Sequence of observable names (see :data:`OBSERVABLES`); a single string is one
+        name.
     lbar
         Array (n, 4) of (lbar1..lbar4) at ``pion_mass_mev``; a single point (4,) gives a
         result of shape (len(names),).
@@ -340,7 +352,7 @@ def threshold_parameters(names, lbar: np.ndarray, pion_mass_mev: float,
         Shape (n, len(names)) (or (len(names),) for one point), units as in
         :func:`units`.
     """
-    names = tuple(names)
+    names = (names,) if isinstance(names, str) else tuple(names)
     arr = np.asarray(lbar, dtype=float)
     if arr.ndim not in (1, 2) or arr.shape[-1] != 4:
         raise ValueError(f"lbar must have shape (n, 4) or (4,), not {arr.shape}")

@@ -102,6 +102,17 @@ def _check_samples(samples: Any, weights: Any,
     return x, _check_weights(weights, x.shape[0])
 
 
+def _sample_set(samples: Any, weights: Any, ncols: int,
+                what: str = "samples") -> tuple[np.ndarray, np.ndarray | None]:
+    """Like :func:`_check_samples` for a set that must be given."""
+    if samples is None:
+        raise ValueError(f"{what} must be given")
+    x, w = _check_samples(samples, weights, ncols)
+    if x is None:
+        raise ValueError(f"{what} must be given")
+    return x, w
+
+
 def _check_coords(region: Region, coords: Sequence[int]) -> tuple[int, int]:
     """Two distinct coordinate indices of ``region``."""
     ij = tuple(int(c) for c in coords)
@@ -197,7 +208,7 @@ def _clip(poly: np.ndarray, normal: np.ndarray, offset: float) -> np.ndarray:
 def _allowed_polygon(plane: _Plane, box: np.ndarray) -> np.ndarray:
     """The allowed set inside the box, as polygon vertices (possibly none)."""
     poly = _box_polygon(box)
-    for normal, offset in zip(plane.a, plane.b):
+    for normal, offset in zip(plane.a, plane.b, strict=True):
         poly = _clip(poly, normal, offset)
     return poly
 
@@ -307,9 +318,9 @@ def _hpd_levels(h: np.ndarray, fractions: Sequence[float]) -> list[float] | None
     if cum[-1] <= 0:
         return None
     cum /= cum[-1]
-    levels = sorted(float(flat[min(np.searchsorted(cum, f), len(flat) - 1)])
+    levels = sorted(float(flat[min(int(np.searchsorted(cum, f)), len(flat) - 1)])
                     for f in fractions)
-    ok = levels[0] > 0 and all(b > a for a, b in zip(levels, levels[1:]))
+    ok = levels[0] > 0 and all(b > a for a, b in zip(levels, levels[1:], strict=False))
     return levels if ok and levels[-1] < flat[0] else None
 
 
@@ -342,7 +353,7 @@ def _auto_limits(plane: _Plane, x: np.ndarray | None, w: np.ndarray | None) -> n
 
 
 # ---- drawing helpers -------------------------------------------------------------------
-def _new_figure(figsize: tuple[float, float], layout: str | None = None) -> Figure:
+def _new_figure(figsize: tuple[float, float], layout: Any = None) -> Figure:
     """A pyplot-free figure on an Agg canvas."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
@@ -494,7 +505,8 @@ def _draw_posterior_2d(ax: Axes, x: np.ndarray, w: np.ndarray | None) -> bool:
     """HPD contours of a smoothed weighted histogram and a light scatter; True if contours."""
     from scipy.ndimage import gaussian_filter
 
-    rng_ = _spread(*_sample_range(x, w, 0.998).T, 0.1)
+    central = _sample_range(x, w, 0.998)
+    rng_ = _spread(central[:, 0], central[:, 1], 0.1)
     bins = int(np.clip(np.sqrt(_ess(w, len(x))) / 1.5, 15, _HIST_BINS))
     h, xe, ye = np.histogram2d(x[:, 0], x[:, 1], bins=bins, range=rng_, weights=w)
     h = np.pad(gaussian_filter(h, 1.2), 1)
@@ -647,6 +659,16 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
     posterior = None
     if x is not None:
         posterior = "hpd" if _draw_posterior_2d(ax, x, w) else "points"
+    _finish_plane(ax, region, ij, fixed, box, title)
+    ax.legend(handles=_legend_handles(inner=inner is not None, bands=bool(band_map),
+                                      posterior=posterior), loc="best", fontsize=7.5,
+              framealpha=0.9)
+    return fig
+
+
+def _finish_plane(ax: Axes, region: Region, ij: tuple[int, int], fixed: np.ndarray,
+                  box: np.ndarray, title: str | None) -> None:
+    """Limits, axis labels, title (with the slice, if any) and grid of a plane figure."""
     others = [k for k in range(region.dim) if k not in ij]
     where = ", ".join(f"{region.coordinates[k]}={fixed[k]:.4g}" for k in others)
     ax.set_xlim(*box[0])
@@ -655,10 +677,6 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
     ax.set_ylabel(region.coordinates[ij[1]])
     ax.set_title(_title(region, title, f"\nslice at {where}" if where else ""), fontsize=10)
     ax.grid(True, color="#DDDDDD", lw=0.5, zorder=0)
-    ax.legend(handles=_legend_handles(inner=inner is not None, bands=bool(band_map),
-                                      posterior=posterior), loc="best", fontsize=7.5,
-              framealpha=0.9)
-    return fig
 
 
 def _draw_facets_1d(ax: Axes, region: Region, plane: _Plane, xlim: np.ndarray,
@@ -744,8 +762,9 @@ def _region_figure_1d(region: Region, samples: Any, weights: Any,
     _draw_sets_1d(ax, outer, inner, xlim)
     posterior = None
     if x is not None:
-        counts, edges = np.histogram(x[:, 0], bins=40, range=tuple(
-            _spread(*_sample_range(x, w, 0.998).T, 0.05)[0]), weights=w)
+        central = _sample_range(x, w, 0.998)
+        lo, hi = _spread(central[:, 0], central[:, 1], 0.05)[0]
+        counts, edges = np.histogram(x[:, 0], bins=40, range=(lo, hi), weights=w)
         ax.stairs(0.8 * counts / max(float(counts.max()), _ZERO), edges, color=BLUE, lw=1.4,
                   gid="posterior-hist", zorder=3)
         posterior = "hist"
@@ -894,7 +913,7 @@ def _corner_legend(fig: Figure, axes: np.ndarray, labels: Sequence[str] | None,
     handles: list[Any] = []
     if labels is not None:
         handles += [Patch(facecolor=_tint(c, 0.35), edgecolor=c, label=str(t))
-                    for c, t in zip(SAMPLE_COLOURS, labels)]
+                    for c, t in zip(SAMPLE_COLOURS, labels, strict=True)]
     if region:
         handles.append(Patch(facecolor=_tint(GREY, 0.18), edgecolor=_tint(GREY, 0.8),
                              hatch=EXCLUDED_HATCH, label="excluded by the bounds"))
@@ -954,10 +973,9 @@ def corner_figure(samples: Any, names: Sequence[str], *, weights: Any = None,
     k = len(names)
     if k == 0:
         raise ValueError("names must not be empty")
-    x, w = _check_samples(samples, weights, k)
-    sets = [(x, w)]
+    sets = [_sample_set(samples, weights, k)]
     if overlay is not None:
-        sets.append(_check_samples(overlay, overlay_weights, k))
+        sets.append(_sample_set(overlay, overlay_weights, k, "overlay"))
         if len(labels) != 2:
             raise ValueError(f"labels must be two texts, got {labels!r}")
     elif overlay_weights is not None:
@@ -968,7 +986,7 @@ def corner_figure(samples: Any, names: Sequence[str], *, weights: Any = None,
     ranges = _corner_ranges(sets)
     dim = 1.0 + 2.0 * k + 0.1 * (k - 1) + 0.4
     fig = _new_figure((dim * (1.7 if k == 1 else 1.0), dim))
-    for (xs, ws), colour in zip(sets, SAMPLE_COLOURS):
+    for (xs, ws), colour in zip(sets, SAMPLE_COLOURS, strict=False):
         _corner_layer(fig, xs, ws, ranges, names, colour)
     axes = np.array(fig.axes).reshape(k, k)
     _fix_diagonal(axes)
