@@ -81,6 +81,8 @@ def _report(out: Path) -> None:
           f"report {out / 'check_gaussian' / 'report.html'}")
     print(f"  posterior:     p_inside = {p['p_inside']:.3f} +- {p['p_inside_err']:.1g} "
           f"of {p['n_total']} samples; report {out / 'check_posterior' / 'report.html'}")
-    moves = ", ".join(f"{n} {ig['before'][n]['mean']:.2f} -> {ig['after'][n]['mean']:.2f}"
-                      for n in ("lbar1", "lbar2"))
-    print(f"  under positivity (exact truncation): {moves}")
+    ip = json.loads((out / "impose_posterior" / "summary.json").read_text())
+    for label, s in (("Gaussian, exact truncation", ig), ("posterior, reweighted", ip)):
+        moves = ", ".join(f"{n} {s['before'][n]['mean']:.2f} -> {s['after'][n]['mean']:.2f}"
+                          for n in ("lbar1", "lbar2"))
+        print(f"  means under positivity ({label}): {moves}")

@@ -115,18 +115,18 @@ def test_tree_projection_gives_weinberg_values():
 def test_one_loop_approaches_weinberg_as_f_grows(name):
     lbar, mpi = LBARS[0], 139.57
     rel = []
-    for fpi in (1e3 * mpi, 2e3 * mpi):
+    for fpi in (10 * mpi, 20 * mpi):
         lo = LEADING_ORDER[name] / (fpi / mpi) ** 2
         rel.append((threshold_parameter(name, lbar, mpi, fpi) - lo) / lo)
-    assert abs(rel[0]) < 1e-4                          # O(M^2/F^2) correction
-    assert rel[0] / rel[1] == pytest.approx(4.0, rel=1e-5)   # it scales like 1/F^2
+    assert 1e-5 < abs(rel[0]) < 0.05                   # a small O(M^2/F^2) correction
+    assert rel[0] / rel[1] == pytest.approx(4.0, rel=1e-7)   # that scales like 1/F^2
 
 
 def test_d_wave_slopes_do_not_depend_on_lbar_and_are_grid_stable():
     # the O(p^4) polynomial is quadratic in s, t: it gives a_2 but no b_2
     for iso in (0, 2):
         b_row = th._affine(iso, 2)[1]
-        assert np.all(np.abs(b_row[2:]) < 1e-12 * abs(b_row[1]) / 1e-3)
+        assert np.all(np.abs(b_row[2:]) < 1e-9 * abs(b_row[1]))
     # b_2 has no closed form here: check it is stable under a different grid
     alt = {2: th._grid(2, 0.3, 32, 16, 16)}
     for iso in (0, 2):
@@ -148,7 +148,7 @@ def test_vectorised_equals_scalar(mpi, fpi, rng):
     assert np.all(np.abs(vec - scalar) <= 1e-9 * scale)
     one = threshold_parameters(OBSERVABLES, lbars[0], mpi, fpi)
     assert one.shape == (len(OBSERVABLES),)
-    np.testing.assert_array_equal(one, vec[0])
+    np.testing.assert_allclose(one, vec[0], rtol=1e-14, atol=1e-18)
 
 
 def test_direct_projection_is_affine_in_lbar(rng):
