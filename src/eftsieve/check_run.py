@@ -80,36 +80,42 @@ def _psd_factor(cov: np.ndarray) -> np.ndarray:
 
 
 class FlaggedWriter:
-    """Writes flagged rows to a temporary CSV, moved into place by :meth:`commit`."""
+    """Writes flagged rows to a temporary CSV (vectorised per chunk), moved into place by
+    :meth:`commit`."""
 
     def __init__(self, path: Path, fit: Fit, region: Region) -> None:
         self.path = path
         path.parent.mkdir(parents=True, exist_ok=True)
         fd, self.tmp = tempfile.mkstemp(prefix=".flagged.", suffix=".csv", dir=path.parent)
         self.fh = io.open(fd, "w", newline="", encoding="utf-8")
-        self.writer = csv.writer(self.fh)
         self.region = region
-        head = ["row", "verdict", *fit.names, *[f"{c} (region)" for c in region.coordinates],
-                "min_margin", *[f"margin_{i}" for i in range(len(region.facets))],
-                "worst_facet", "family", "channel", "point"]
-        self.writer.writerow(head)
+        self.columns = ["row", "verdict", *fit.names,
+                        *[f"{c} (region)" for c in region.coordinates], "min_margin",
+                        *[f"margin_{i}" for i in range(len(region.facets))],
+                        "worst_facet", "family", "channel", "point"]
+        csv.writer(self.fh).writerow(self.columns)
+        self.facet_text = [(f.family, f.channel,
+                            ";".join(f"{a}={v:.6g}" for a, v in f.point.items()))
+                           for f in region.facets]
         self.n = 0
 
     def write(self, chunk: Chunk, y: np.ndarray, verdict: np.ndarray, min_margin: np.ndarray,
               worst: np.ndarray) -> None:
+        import pandas as pd
+
         sel = np.nonzero(verdict != 0)[0]
         if not len(sel):
             return
         margins = self.region.margins(y[sel])
-        facets = self.region.facets
-        for k, i in enumerate(sel):
-            f = facets[int(worst[i])]
-            pt = ";".join(f"{a}={v:.6g}" for a, v in f.point.items())
-            self.writer.writerow([int(chunk.rows[i]), VERDICT_NAMES[verdict[i]],
-                                  *map(repr, chunk.values[i].tolist()),
-                                  *map(repr, y[i].tolist()), repr(float(min_margin[i])),
-                                  *map(repr, margins[k].tolist()), int(worst[i]), f.family,
-                                  f.channel, pt])
+        w = worst[sel]
+        text = np.array(self.facet_text, dtype=object).reshape(len(self.facet_text), 3)[w]
+        data = np.hstack([chunk.values[sel], y[sel], min_margin[sel, None], margins])
+        frame = pd.DataFrame(data, columns=self.columns[2:-4])
+        frame.insert(0, "verdict", np.array(VERDICT_NAMES, dtype=object)[verdict[sel]])
+        frame.insert(0, "row", chunk.rows[sel])
+        frame["worst_facet"] = w
+        frame["family"], frame["channel"], frame["point"] = text[:, 0], text[:, 1], text[:, 2]
+        frame.to_csv(self.fh, header=False, index=False, float_format="%.17g")
         self.n += len(sel)
 
     def commit(self) -> None:

@@ -125,8 +125,10 @@ class SamplesSource:
         elif self.fmt == "parquet":
             import pyarrow.parquet as pq
 
-            pf = pq.ParquetFile(self.path)
-            for batch in pf.iter_batches(batch_size=chunk_rows, columns=wanted):
+            # no pre-buffering: pyarrow would otherwise hold the whole file in memory
+            pf = pq.ParquetFile(self.path, pre_buffer=False, buffer_size=1 << 20)
+            for batch in pf.iter_batches(batch_size=chunk_rows, columns=wanted,
+                                         use_threads=False):
                 yield batch.to_pandas()
         else:
             frame = _netcdf_frame(self.path)

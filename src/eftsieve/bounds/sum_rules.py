@@ -41,6 +41,7 @@ Sec. 3 (there solved as a semi-definite programme over continuous m).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any
@@ -292,6 +293,27 @@ def _powers(x: np.ndarray, n: int) -> np.ndarray:
     return np.asarray(x, dtype=float)[:, None] ** np.arange(n)
 
 
+def _lower_poly(a: np.ndarray, aa: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Rigorous lower bounds of p(x) = sum_e a[:, e] x^e over cells [lo, hi] with 0 <= lo.
+
+    The better of two enclosures: monotone terms (positive terms at lo, negative ones at
+    hi) and the exact Taylor form about the midpoint, p >= T0 - sum_k |T_k| r^k.  The
+    floating-point error, at most ~(n+2) eps sum_e aa_e hi^e with aa >= |a| the sum of
+    the absolute values that formed a, is subtracted.
+    """
+    n = a.shape[1]
+    ph = _powers(hi, n)
+    mono = (np.maximum(a, 0) * _powers(lo, n) + np.minimum(a, 0) * ph).sum(1)
+    m, r = 0.5 * (lo + hi), 0.5 * (hi - lo)
+    pm, pr = _powers(m, n), _powers(r, n)
+    tay = np.zeros(m.shape)
+    for k in range(n):
+        binom = np.array([float(math.comb(e, k)) for e in range(k, n)])
+        tk = (a[:, k:] * binom * pm[:, : n - k]).sum(1)
+        tay = tay + (tk if k == 0 else -np.abs(tk) * pr[:, k])
+    return np.maximum(mono, tay) - 8.0 * (n + 2) * _EPS * (aa * ph).sum(1)
+
+
 def _bnb(lower_fn: Any, value_fn: Any, lo: np.ndarray, hi: np.ndarray, owner: np.ndarray,
          n_owner: int, target: float, s: VerifySettings) -> dict[str, Any]:
     """Branch and bound on cells [lo, hi] (grouped by owner): prove f >= target or find f < target."""
@@ -362,13 +384,9 @@ def _scan_spins(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, An
     n = c.shape[0]
     jp = _powers(j, n)
     a, aa = jp @ c.T, jp @ np.abs(c).T
-    err = 4.0 * (n + 2) * _EPS
 
     def lower_fn(lo: np.ndarray, hi: np.ndarray, ow: np.ndarray) -> np.ndarray:
-        pl, ph = _powers(lo, n), _powers(hi, n)
-        ai = a[ow]
-        return ((np.maximum(ai, 0) * pl + np.minimum(ai, 0) * ph).sum(1)
-                - err * (aa[ow] * ph).sum(1))
+        return _lower_poly(a[ow], aa[ow], lo, hi)
 
     def value_fn(x: np.ndarray, ow: np.ndarray) -> np.ndarray:
         return (a[ow] * _powers(x, n)).sum(1)
@@ -414,18 +432,21 @@ def _scan_tail(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, Any
     j_next = s.spin_exact_max + 2
     jt = j_next * (j_next + 1.0)
     n = c.shape[0]
-    e_idx, l_idx = np.nonzero(np.tril(np.ones((n, n))))
-    cel = c[e_idx, l_idx]
-    k_idx = e_idx - l_idx
-    err = 4.0 * (n + 2) * _EPS
+    # f = sum_k y^k F_k(w), F_k(w) = sum_p c[p+k, p] w^p, with 0 <= y <= min(1, w/j')
+    fk = np.zeros((n, n))
+    for k in range(n):
+        for p in range(n - k):
+            fk[k, p] = c[p + k, p]
 
     def lower_fn(lo: np.ndarray, hi: np.ndarray, ow: np.ndarray) -> np.ndarray:
-        ym = np.minimum(1.0, hi / jt)[:, None] ** k_idx
-        t_hi = hi[:, None] ** l_idx * ym
-        t_lo = np.where(k_idx == 0, lo[:, None] ** l_idx, 0.0)
-        pos = np.where(cel > 0, cel * t_lo, 0.0)
-        neg = np.where(cel < 0, cel * t_hi, 0.0)
-        return (pos + neg).sum(1) - err * (np.abs(cel) * t_hi).sum(1)
+        ones = np.ones((lo.size, 1))
+        ymax = np.minimum(1.0, hi / jt)
+        out = _lower_poly(fk[0] * ones, np.abs(fk[0]) * ones, lo, hi)
+        for k in range(1, n):
+            if fk[k].any():
+                low = _lower_poly(fk[k] * ones, np.abs(fk[k]) * ones, lo, hi)
+                out = out + np.minimum(low, 0.0) * ymax**k
+        return out
 
     def value_fn(x: np.ndarray, ow: np.ndarray) -> np.ndarray:
         return evaluate(c, np.minimum(1.0, x / jt), np.full(x.shape, float(j_next)))
@@ -538,8 +559,9 @@ def exact_spectrum(nulls: tuple[StatePolynomial, ...], y: np.ndarray, spin: np.n
             scale = max(mpmath.mpf(1), max(abs(v) for v in a))
             if a.rows >= a.cols:
                 p, res = mpmath.qr_solve(a, b)
-            else:  # fewer constraints than states: minimum-norm solution
-                p = a.T * mpmath.lu_solve(a * a.T, b)
+            else:  # more states than constraints: the nearest exact solution to the LP's
+                p0 = mpmath.matrix([mpmath.mpf(float(x[i])) for i in keep])
+                p = p0 + a.T * mpmath.lu_solve(a * a.T, b - a * p0)
                 res = mpmath.norm(a * p - b)
             pw = np.array([float(v) for v in p])
             ok = res < mpmath.mpf(10) ** (15 - dps) * scale
@@ -575,6 +597,7 @@ class SumRuleSolver:
         self._cc = np.stack([p.coeffs(self.size) for p in coordinates])
         self._nc = np.stack([p.coeffs(self.size) for p in nulls])
         self.y, self.spin = np.zeros(0), np.zeros(0, dtype=int)
+        self.w_scale = 16.0
         self._rows = np.zeros((len(nulls), 0))
         self._crd = np.zeros((len(coordinates), 0))
         self._keys: set[tuple[float, int]] = set()
@@ -603,14 +626,14 @@ class SumRuleSolver:
         The multipliers are mapped back to the original null constraints.
         """
         obj = d @ self._crd
-        size = np.maximum(np.abs(self._rows).max(1), 1e-300)
+        w = self.y * self.spin * (self.spin + 1.0)
+        col = (1.0 + w / self.w_scale) ** -(self.size - 1.0)
+        col = col / np.maximum(1.0, np.abs(obj) * col)
+        size = np.maximum(np.abs(self._rows * col).max(1), 1e-300)
         rows = self._rows / size[:, None]
-        col = 1.0 / np.maximum(1.0, np.maximum(np.abs(rows).max(0), np.abs(obj)))
         q, r = np.linalg.qr((rows * col).T)
         a_eq = np.vstack([col, q.T])
-        # entries this small only upset HiGHS; the LP is a search step (the primal is
-        # re-solved exactly and the dual verified), so dropping them is safe
-        a_eq[np.abs(a_eq) < 1e-14] = 0.0
+        a_eq[np.abs(a_eq) < 1e-9] = 0.0  # HiGHS ignores these anyway (small_matrix_value)
         b_eq = np.r_[1.0, np.zeros(len(self.nulls))]
         name = f"sum-rule LP along {d.tolist()}"
         try:

@@ -331,14 +331,25 @@ DEFAULTS: dict[str, Any] = {
 }
 
 
-def state_grid(spins: int, mass_points: int, y_min: float) -> tuple[np.ndarray, np.ndarray]:
-    """The LP grid: y = M^2/m^2 (dense near the gap, geometric towards y_min) x even J <= spins."""
+def state_grid(spins: int, mass_points: int, y_min: float, spin_max: int = 2000
+               ) -> tuple[np.ndarray, np.ndarray]:
+    """The LP grid: y = M^2/m^2 x even J <= spins, plus sparse spins up to ``spin_max``.
+
+    y is dense near the gap and geometric towards ``y_min``.  The sparse spins carry
+    states on a log grid of w = y J(J+1) = (b M/2)^2 in [0.1, 1000], which resolve the
+    fixed-impact-parameter regime where extremal functionals also touch zero.
+    """
     half = mass_points // 2
     near = 1.0 - 0.5 * (np.arange(half) / half) ** 2
     far = np.geomspace(0.5, y_min, mass_points - half + 1)[1:]
     ys = np.unique(np.r_[near, far])
     yy, jj = np.meshgrid(ys, np.arange(0, spins + 1, 2), indexing="ij")
-    return yy.ravel(), jj.ravel()
+    y_out, j_out = [yy.ravel()], [jj.ravel()]
+    for spin in np.unique(2 * np.round(np.geomspace(spins + 2, spin_max, 12) / 2)).astype(int):
+        w = np.geomspace(0.1, min(1e3, spin * (spin + 1.0)), 40)
+        y_out.append(w / (spin * (spin + 1.0)))
+        j_out.append(np.full(w.size, spin))
+    return np.concatenate(y_out), np.concatenate(j_out)
 
 
 def _settings(settings: dict[str, Any]) -> dict[str, Any]:
@@ -444,7 +455,8 @@ class ScalarEFT(Theory):
         """Outer (verified dual) and inner (exact primal) sets; see :data:`DEFAULTS`."""
         s = _settings(settings)
         rules = derive_sum_rules(s["order"])
-        y, spin = state_grid(s["spins"], s["mass_points"], float(s["y_min"]))
+        y, spin = state_grid(s["spins"], s["mass_points"], float(s["y_min"]),
+                             s["spin_exact_max"])
         ver = VerifySettings(spin_exact_max=s["spin_exact_max"], tol=float(s["verify_tol"]),
                              max_rounds=s["max_rounds"])
         solver = SumRuleSolver(tuple(rules.projective(c) for c in s["coordinates"]),
