@@ -9,7 +9,6 @@ to the rows read.  Outputs are written atomically and never over an input.
 from __future__ import annotations
 
 import csv
-import io
 import math
 import os
 import tempfile
@@ -87,7 +86,7 @@ class FlaggedWriter:
         self.path = path
         path.parent.mkdir(parents=True, exist_ok=True)
         fd, self.tmp = tempfile.mkstemp(prefix=".flagged.", suffix=".csv", dir=path.parent)
-        self.fh = io.open(fd, "w", newline="", encoding="utf-8")
+        self.fh = open(fd, "w", newline="", encoding="utf-8")
         self.region = region
         self.columns = ["row", "verdict", *fit.names,
                         *[f"{c} (region)" for c in region.coordinates], "min_margin",
@@ -184,7 +183,7 @@ def stream(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSetting
 def gaussian_probability(fit: Fit, region: Region, cmap: CoordinateMap,
                          seed: int) -> dict[str, Any] | None:
     """P(inside) of a Gaussian summary by minimax tilting (Botev 2017, arXiv:1603.04166)."""
-    if not (fit.is_gaussian and cmap.is_affine):
+    if fit.mean is None or fit.cov is None or not cmap.is_affine:
         return None
     from eftsieve.impose.tmvn import polytope_probability
 

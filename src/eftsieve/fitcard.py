@@ -15,7 +15,13 @@ import numpy as np
 
 from eftsieve.errors import InputError
 from eftsieve.fit import (
-    FORMAT_VERSION, KINEMATIC_KEYS, Fit, Parameter, Prior, check_covariance, parse_convention,
+    FORMAT_VERSION,
+    KINEMATIC_KEYS,
+    Fit,
+    Parameter,
+    Prior,
+    check_covariance,
+    parse_convention,
 )
 from eftsieve.samples import SamplesSource, detect_format
 
@@ -178,7 +184,8 @@ def _prior(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> Prior | 
             raise InputError(path, where, "not a parameter of this card",
                              f"parameters: {', '.join(names)}")
         if not isinstance(v, dict) or len(v) != 1 or next(iter(v)) not in ("uniform", "normal"):
-            raise InputError(path, where, "must be {uniform: [lo, hi]} or {normal: [mu, sigma]}", "")
+            raise InputError(path, where, "must be one mapping entry",
+                             "write {uniform: [lo, hi]} or {normal: [mu, sigma]}")
         kind, vals = next(iter(v.items()))
         a, b = _num_list(vals, path, f"{where}.{kind}", 2)
         if (kind == "uniform" and not a < b) or (kind == "normal" and not b > 0):

@@ -143,7 +143,7 @@ class Region:
 
     def contains(self, x: np.ndarray) -> np.ndarray:
         """Boolean mask of points satisfying every outer facet."""
-        return (self.margins(x) >= 0).all(axis=1)
+        return np.asarray((self.margins(x) >= 0).all(axis=1))
 
     def chebyshev_center(self, box: float = 1e3) -> tuple[np.ndarray, float]:
         """The centre and radius of the largest ball inside the region (LP), clipped to a box."""
@@ -260,7 +260,8 @@ def irredundant(facets: list[Facet], box: float = 1e4) -> list[Facet]:
             continue
         if res.status != 0:
             raise SolverError(res.message, f"redundancy LP for facet {i}")
-        if res.fun >= units[i][1] - REDUNDANCY_TOL * max(1.0, abs(units[i][1])):
+        bi = float(units[i][1])
+        if res.fun >= bi - REDUNDANCY_TOL * max(1.0, abs(bi)):
             keep.remove(i)
     return [facets[i] for i in keep]
 

@@ -153,9 +153,10 @@ class SamplesSource:
             weights = frame[self.weight_column].to_numpy(dtype=float)
             badw = ~np.isfinite(weights) | (weights < 0)
             if badw.any():
-                raise InputError(self.path, self.weight_column,
-                                 f"negative or non-finite weight in row(s) {_rows_text(rows[badw])}",
-                                 "weights must be finite and >= 0")
+                raise InputError(
+                    self.path, self.weight_column,
+                    f"negative or non-finite weight in row(s) {_rows_text(rows[badw])}",
+                    "weights must be finite and >= 0")
         return Chunk(rows, values, weights)
 
 

@@ -28,7 +28,6 @@ from eftsieve.errors import SolverError
 from eftsieve.region import Region
 from eftsieve.tolerances import FEASIBILITY_TOL
 
-
 BLOCK = 1 << 16
 
 
@@ -173,7 +172,8 @@ def closest_point(mean: np.ndarray, cov: np.ndarray, a: np.ndarray, b: np.ndarra
         raise SolverError("infeasible-solution", "tension QP: the solution violates a facet")
     grad = 2 * np.linalg.solve(cov, xv - mean)
     resid = grad - a.T @ lam
-    if np.linalg.norm(resid) > 1e-5 * max(1.0, np.linalg.norm(grad)) or (lam < -1e-7).any():
+    gnorm = float(np.linalg.norm(grad))
+    if float(np.linalg.norm(resid)) > 1e-5 * max(1.0, gnorm) or (lam < -1e-7).any():
         raise SolverError("kkt-failed", "tension QP: KKT conditions not met to 1e-5")
     # polish: project onto the active set exactly
     active = np.nonzero((a @ xv - b) < 1e-7 * scale)[0]

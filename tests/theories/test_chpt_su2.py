@@ -12,7 +12,12 @@ from eftsieve.conventions import Convention, affine_map
 from eftsieve.theories import get_theory, pipi
 from eftsieve.theories.chpt_su2 import CHANNELS, ChannelFunctionals, t_derivative_combination
 from tests.check_values import (
-    A20_CONST, A22_CONST, MM_L1_PLUS_2L2_MIN, MM_L1_PLUS_3L2_MIN, MM_LBAR2_MIN, MU_MEV,
+    A20_CONST,
+    A22_CONST,
+    MM_L1_PLUS_2L2_MIN,
+    MM_L1_PLUS_3L2_MIN,
+    MM_LBAR2_MIN,
+    MU_MEV,
 )
 
 THEORY = get_theory("chpt-su2")

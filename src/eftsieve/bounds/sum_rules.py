@@ -52,6 +52,8 @@ from eftsieve.errors import SolverError
 from eftsieve.tolerances import FEASIBILITY_TOL
 
 _EPS = float(np.finfo(float).eps)
+#: domination cut-off in w above which a functional is regularised (see SumRuleSolver._regularise)
+W_REGULAR = 1e5
 _TIGHT = {"primal_feasibility_tolerance": 1e-9, "dual_feasibility_tolerance": 1e-9}
 _LP_STATUS = {0: "optimal", 1: "iteration_limit", 2: "infeasible", 3: "unbounded",
               4: "numerical_difficulties"}
@@ -659,6 +661,7 @@ class SumRuleSolver:
         s = self.settings
         for rnd in range(1, s.max_rounds + 1):
             lam, mult, weights = self._solve_grid(d)
+            mult = self._regularise(np.tensordot(d, self._cc, 1), mult)
             func = np.tensordot(d, self._cc, 1) - np.tensordot(mult, self._nc, 1)
             ver = verify_functional(func, lam - s.tol * max(1.0, abs(lam)), s)
             import os
@@ -679,6 +682,31 @@ class SumRuleSolver:
             raise SolverError("unverified", f"dual functional along {d.tolist()} after {rnd} "
                               f"rounds: min {ver.best_value:.8g}, LP value {lam:.8g}")
         return self._bound(d, lam, mult, weights, ver, rnd)
+
+    def _regularise(self, obj: np.ndarray, mult: np.ndarray) -> np.ndarray:
+        """Make the functional grow at large w (J -> infinity) if the LP left it flat there.
+
+        The LP cannot resolve the sign of the leading large-w coefficient in double
+        precision when its multiplier is ~0.  Subtracting eps times the null constraint
+        with the highest power of w (positive leading coefficient) from the multipliers,
+        with the smallest eps = 10^k that puts the domination cut-off below
+        ``W_REGULAR``, fixes the sign; its effect at w <= 10^3 is negligible and the
+        verification accounts for it exactly.
+        """
+        func = obj - np.tensordot(mult, self._nc, 1)
+        cut = _tail_cutoff(func)
+        if cut is not None and cut <= W_REGULAR:
+            return mult
+        reg = int(np.argmax([np.abs(c.diagonal()).max() * 0 + np.flatnonzero(c.diagonal())[-1]
+                             if c.diagonal().any() else -1 for c in self._nc]))
+        unit = np.zeros(len(self.nulls))
+        unit[reg] = 1.0 / self._nc[reg].diagonal()[np.flatnonzero(self._nc[reg].diagonal())[-1]]
+        for k in range(-60, 10):
+            trial = mult - 10.0**k * unit
+            cut = _tail_cutoff(obj - np.tensordot(trial, self._nc, 1))
+            if cut is not None and cut <= W_REGULAR:
+                return trial
+        return mult
 
     def _bound(self, d: np.ndarray, lam: float, mult: np.ndarray, weights: np.ndarray,
                ver: Verification, rnd: int) -> DirectionalBound:

@@ -146,7 +146,7 @@ def observables_loglike(data: ObservableData, fit: Fit) -> Callable[[np.ndarray]
     cols = [idx[k] for k in (1, 2, 3, 4)]
     convs = tuple(fit.parameters[c].convention for c in cols)
     names4 = tuple(fit.parameters[c].name for c in cols)
-    groups = {}
+    groups: dict[tuple[float, float], list[int]] = {}
     for j, key in enumerate(zip(data.pion_mass_mev, data.fpi_mev, strict=True)):
         groups.setdefault(key, []).append(j)
     maps = {key: affine_map(names4, convs, tuple(Convention("lbar", pion_mass_mev=key[0])

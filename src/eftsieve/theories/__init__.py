@@ -32,7 +32,8 @@ def get_theory(name: str) -> Theory:
     """The theory called ``name``; KeyError with the accepted names otherwise."""
     if name not in _REGISTRY:
         raise KeyError(f"unknown theory '{name}'; accepted: {', '.join(available_theories())}")
-    return import_module(_REGISTRY[name]).THEORY  # type: ignore[no-any-return]
+    theory: Theory = import_module(_REGISTRY[name]).THEORY
+    return theory
 
 
 __all__ = ["Theory", "available_theories", "get_theory"]

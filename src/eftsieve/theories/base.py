@@ -85,8 +85,8 @@ class Theory(ABC):
                                      for k, (m, d) in self.kinematic_inputs.items()},
                 "bound_families": list(self.families)}
 
-    def validate_fit(self, fit: Fit) -> None:
-        """Theory-specific semantic checks of a fit (raise InputError)."""
+    def validate_fit(self, fit: Fit) -> None:  # noqa: B027 - optional hook, default no-op
+        """Theory-specific semantic checks of a fit (raise InputError); none by default."""
 
     @abstractmethod
     def build_region(self, settings: dict[str, Any]) -> Region:

@@ -36,7 +36,11 @@ import numpy as np
 
 from eftsieve.bounds.fixed_t import ScanSettings, best_facet, smallest_entry_one
 from eftsieve.conventions import (
-    DEFAULT_FPI_MEV, DEFAULT_MU_MEV, DEFAULT_PION_MASS_MEV, Convention, affine_map,
+    DEFAULT_FPI_MEV,
+    DEFAULT_MU_MEV,
+    DEFAULT_PION_MASS_MEV,
+    Convention,
+    affine_map,
 )
 from eftsieve.errors import InputError, KinematicsWarning
 from eftsieve.region import Facet, Region, irredundant
@@ -251,7 +255,7 @@ class ChptSU2(Theory):
                                fpi_mev=fit.kinematics.get("fpi_mev", DEFAULT_FPI_MEV))
 
     def validate_fit(self, fit: Fit) -> None:
-        found = {}
+        found: dict[int | None, str] = {}
         from eftsieve.conventions import lec_index
 
         for i, p in enumerate(fit.parameters):

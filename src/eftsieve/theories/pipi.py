@@ -21,7 +21,7 @@ x2 = |a.conj(b)|^2 (see docs/physics.md).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -43,8 +43,10 @@ class Quadratic:
     """
 
     c0: float
-    lin: tuple[float, float, float]
-    quad: tuple[tuple[float, float, float], ...]
+    lin: tuple[float, ...]
+    quad: tuple[tuple[float, ...], ...]
+    _lin: np.ndarray = field(init=False, repr=False, compare=False)
+    _q: np.ndarray = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "_lin", np.asarray(self.lin, dtype=float))
@@ -63,24 +65,24 @@ class Quadratic:
                 i, j = key
                 q[i, j] += c / 2
                 q[j, i] += c / 2
-        return Quadratic(c0, tuple(lin), tuple(map(tuple, q)))  # type: ignore[arg-type]
+        return Quadratic(c0, (lin[0], lin[1], lin[2]), tuple(map(tuple, q)))
 
     def permuted(self, perm: tuple[int, int, int]) -> Quadratic:
         """The polynomial with its arguments permuted: p'(x) = p(x[perm])."""
         inv = np.argsort(perm)
         lin = np.asarray(self.lin)[inv]
         q = np.asarray(self.quad)[np.ix_(inv, inv)]
-        return Quadratic(self.c0, tuple(lin), tuple(map(tuple, q)))  # type: ignore[arg-type]
+        return Quadratic(self.c0, tuple(lin), tuple(map(tuple, q)))
 
     def value(self, x: np.ndarray) -> np.ndarray:
-        q: np.ndarray = self._q  # type: ignore[attr-defined]
-        return self.c0 + x @ self._lin + ((x @ q) * x).sum(axis=-1)  # type: ignore[attr-defined]
+        q = self._q
+        return self.c0 + x @ self._lin + ((x @ q) * x).sum(axis=-1)
 
     def d1(self, x: np.ndarray, a: np.ndarray) -> np.ndarray:
-        return a @ self._lin + 2 * x @ (self._q @ a)  # type: ignore[attr-defined]
+        return a @ self._lin + 2 * x @ (self._q @ a)
 
     def d2(self, a: np.ndarray, b: np.ndarray) -> float:
-        return float(2 * a @ self._q @ b)  # type: ignore[attr-defined]
+        return float(2 * a @ self._q @ b)
 
 
 @dataclass(frozen=True)
@@ -105,7 +107,7 @@ class Amplitude:
 
     def scaled(self, c: float) -> Amplitude:
         def sc(p: Quadratic) -> Quadratic:
-            return Quadratic(c * p.c0, tuple(c * v for v in p.lin),  # type: ignore[arg-type]
+            return Quadratic(c * p.c0, tuple(c * v for v in p.lin),
                              tuple(tuple(c * v for v in r) for r in p.quad))
         return Amplitude(sc(self.poly), tuple(LoopTerm(sc(t.poly), t.var) for t in self.loops))
 
@@ -116,7 +118,7 @@ def add(*amps: Amplitude) -> Amplitude:
     lin = tuple(np.sum([a.poly.lin for a in amps], axis=0))
     quad = tuple(map(tuple, np.sum([a.poly.quad for a in amps], axis=0)))
     loops = tuple(t for a in amps for t in a.loops)
-    return Amplitude(Quadratic(float(c0), lin, quad), loops)  # type: ignore[arg-type]
+    return Amplitude(Quadratic(float(c0), lin, quad), loops)
 
 
 def a_stu(lbar: tuple[float, float, float, float]) -> Amplitude:
