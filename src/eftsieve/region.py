@@ -85,8 +85,24 @@ class Facet:
                    str(d.get("status", "optimal")), dict(d.get("extra", {})))
 
     def label(self) -> str:
-        pt = ", ".join(f"{k}={v:.4g}" for k, v in self.point.items())
+        """``family / channel at s=..., t=...`` (kinematic points rounded for reading)."""
+        pt = ", ".join(f"{k}={0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in self.point.items()
+                       if k != "pion_mass_mev")
         return f"{self.family} / {self.channel}" + (f" at {pt}" if pt else "")
+
+    def inequality(self, coordinates: tuple[str, ...]) -> str:
+        """The facet as readable text, e.g. ``lbar1 + 2 lbar2 >= 5.568``."""
+        terms = []
+        for c, name in zip(self.normal, coordinates, strict=True):
+            if abs(c) < 1e-12:
+                continue
+            mag = "" if abs(abs(c) - 1) < 1e-12 else f"{abs(c):.6g} "
+            sign = "-" if c < 0 else "+"
+            terms.append((sign, f"{mag}{name}"))
+        text = " ".join(f"{s} {t}" for s, t in terms).lstrip("+ ")
+        if text.startswith("- "):
+            text = "-" + text[2:]
+        return f"{text} >= {self.offset:.6g}"
 
 
 @dataclass(frozen=True)

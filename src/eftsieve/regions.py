@@ -31,9 +31,7 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
     if path is not None:
         lines[0] += f" -> {path}"
     for f in region.facets:
-        lhs = " + ".join(f"{c:g}*{n}" for c, n in zip(f.normal, region.coordinates, strict=True)
-                         if abs(c) > 1e-12)
-        lines.append(f"  {lhs} >= {f.offset:.6g}   [{f.label()}; {f.status}]")
+        lines.append(f"  {f.inequality(region.coordinates):<28} [{f.label()}; {f.status}]")
     if region.inner_facets:
         lines.append(f"  inner set: {len(region.inner_facets)} facets (points inside are "
                      "certainly allowed)")

@@ -34,10 +34,9 @@ def region_block(region: Region) -> list:
     conv = ", ".join(f"{k} = {v}" for k, v in region.convention.items())
     rows = []
     for i, f in enumerate(region.facets):
-        lhs = " + ".join(f"{c:g} {n}" for c, n in zip(f.normal, region.coordinates, strict=True)
-                         if abs(c) > 1e-12)
-        pt = ", ".join(f"{k} = {v:.4g}" for k, v in f.point.items())
-        rows.append((str(i), f"{lhs} >= {f.offset:.5g}", f.family, f.channel, pt, f.status))
+        pt = ", ".join(f"{k} = {0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in f.point.items())
+        rows.append((str(i), f.inequality(region.coordinates), f.family, f.channel, pt,
+                     f.status))
     blocks = [Heading("Region"),
               Para(f"Theory `{region.theory}` in ({', '.join(region.coordinates)}); {conv}. "
                    f"Content hash `{region.hash[:16]}`. Kinematic points s, t are in units "
