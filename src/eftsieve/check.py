@@ -22,8 +22,8 @@ import numpy as np
 from eftsieve.region import Region
 from eftsieve.tolerances import MARGINAL_BAND
 
-INSIDE, MARGINAL, OUTSIDE = 0, 1, 2
-VERDICT_NAMES = ("inside", "marginal", "outside")
+INSIDE, MARGINAL, OUTSIDE, UNCERTAIN = 0, 1, 2, 3
+VERDICT_NAMES = ("inside", "marginal", "outside", "uncertain")
 
 
 @dataclass(frozen=True)
@@ -62,7 +62,8 @@ class Verdicts:
     Attributes
     ----------
     verdict
-        0 inside, 1 marginal, 2 outside (int8, shape (n,)).
+        0 inside, 1 marginal, 2 outside, 3 uncertain (int8, shape (n,)); ``uncertain``
+        only under a theory-uncertainty model (:mod:`eftsieve.uncertainty`).
     min_margin
         The smallest signed margin over the outer facets (positive inside).
     worst
@@ -77,8 +78,11 @@ class Verdicts:
     satisfies: np.ndarray
 
     def counts(self) -> dict[str, int]:
-        c = np.bincount(self.verdict, minlength=3)
-        return {"n_inside": int(c[0]), "n_marginal": int(c[1]), "n_outside": int(c[2])}
+        c = np.bincount(self.verdict, minlength=4)
+        out = {"n_inside": int(c[0]), "n_marginal": int(c[1]), "n_outside": int(c[2])}
+        if c[3]:
+            out["n_uncertain"] = int(c[3])
+        return out
 
     def to_dict(self) -> dict[str, Any]:
         return {"verdict": [VERDICT_NAMES[v] for v in self.verdict],

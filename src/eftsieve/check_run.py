@@ -19,13 +19,17 @@ from typing import Any
 
 import numpy as np
 
-from eftsieve.check import VERDICT_NAMES, CheckSettings, Reservoir, classify
+from eftsieve.check import VERDICT_NAMES, CheckSettings, Reservoir, Verdicts, classify
 from eftsieve.errors import InputError
 from eftsieve.fit import Fit
 from eftsieve.region import Region
 from eftsieve.samples import Chunk
 from eftsieve.stats import Accumulator, bayes_factor, tension
 from eftsieve.theories.base import CoordinateMap
+from eftsieve.uncertainty import (
+    FacetUncertainty, UncertaintySettings, facet_uncertainty, prob_satisfies,
+    verdicts_from_probability,
+)
 
 N_WORST = 20
 
@@ -155,8 +159,13 @@ class WorstKeeper:
 
 
 def stream(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSettings,
-           flagged: FlaggedWriter | None) -> tuple[Accumulator, Reservoir, WorstKeeper]:
-    """Classify every row of the fit; returns the accumulated statistics."""
+           flagged: FlaggedWriter | None, fu: FacetUncertainty | None = None,
+           ) -> tuple[Accumulator, Reservoir, WorstKeeper]:
+    """Classify every row of the fit; returns the accumulated statistics.
+
+    With a theory-uncertainty model (``fu``), verdicts come from P(satisfies every facet)
+    (inside / uncertain / outside) and the accumulator also sums that probability.
+    """
     acc = Accumulator(region.dim)
     res = Reservoir(settings.plot_points, np.random.default_rng(settings.seed + 1))
     worst = WorstKeeper()
@@ -165,7 +174,12 @@ def stream(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSetting
     for chunk in chunks:
         y = cmap(chunk.values)
         v = classify(y, region, settings.marginal_band)
-        acc.add(y, chunk.weights, v.verdict, v.satisfies)
+        soft = None
+        if fu is not None and fu.model != "none":
+            soft = prob_satisfies(y, region, fu)
+            v = Verdicts(verdicts_from_probability(soft, fu.settings), v.min_margin, v.worst,
+                         v.satisfies)
+        acc.add(y, chunk.weights, v.verdict, v.satisfies, soft)
         res.add(np.hstack([chunk.values, y]), chunk.weights)
         worst.add(chunk, y, v.min_margin, v.worst, region)
         if flagged is not None:
@@ -219,17 +233,24 @@ def prior_probability(fit: Fit, region: Region, cmap: CoordinateMap,
 
 
 def run_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | None,
-              region_path: str | None = None) -> CheckResult:
-    """Classify the fit against the region and compute the statistics."""
+              region_path: str | None = None,
+              uncertainty: UncertaintySettings | None = None) -> CheckResult:
+    """Classify the fit against the region and compute the statistics.
+
+    With ``uncertainty`` (a model other than ``none``) the verdicts are probabilistic and
+    ``summary["theory_uncertainty"]`` shows how p_inside, the tension and the Bayes factor
+    change from hard edges to the model.
+    """
     from eftsieve.theories import get_theory
 
     if fit.theory != region.theory:
         raise InputError(region_path, "theory", f"region is for '{region.theory}' but the fit "
                          f"is '{fit.theory}'", "build the region for the fit's theory")
     cmap = get_theory(fit.theory).coordinate_map(fit, region)
+    fu = facet_uncertainty(region, uncertainty) if uncertainty is not None else None
     flagged = FlaggedWriter(outdir / "flagged.csv", fit, region) if outdir else None
     try:
-        acc, res, worst = stream(fit, region, cmap, settings, flagged)
+        acc, res, worst = stream(fit, region, cmap, settings, flagged, fu)
     except BaseException:
         if flagged:
             flagged.abort()
@@ -237,6 +258,11 @@ def run_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | 
     if flagged:
         flagged.commit()
     summary = _summary(fit, region, cmap, settings, acc, region_path)
+    if fu is not None and fu.model != "none":
+        from eftsieve.uncertainty_stats import model_statistics
+
+        summary["theory_uncertainty"] = model_statistics(fit, region, cmap, fu, acc, summary,
+                                                         settings.seed)
     k = len(fit.names)
     data = res.data if res.data is not None else np.empty((0, k + region.dim))
     return CheckResult(summary, region, tuple(r for _, r in worst.rows), data[:, :k],
@@ -246,8 +272,8 @@ def run_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | 
 def _summary(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSettings,
              acc: Accumulator, region_path: str | None) -> dict[str, Any]:
     p_mc, p_mc_err = acc.p_inside()
-    counts = dict(zip(("n_inside", "n_marginal", "n_outside"), map(int, acc.counts),
-                      strict=True))
+    counts = dict(zip(("n_inside", "n_marginal", "n_outside", "n_uncertain"),
+                      map(int, acc.counts), strict=True))
     out: dict[str, Any] = {"fit": fit.name, "theory": fit.theory, "region_hash": region.hash,
                            "region_file": region_path, "n_total": acc.n_total, **counts,
                            "ess": acc.ess(), "p_inside_mc": p_mc, "p_inside_mc_err": p_mc_err,
@@ -270,6 +296,6 @@ def _summary(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSetti
     out.update(tension(mean, cov, region, np.random.default_rng(settings.seed + 4)).to_dict())
     pp, pe, why = prior_probability(fit, region, cmap, settings.seed)
     out.update(bayes_factor(out["p_inside"], out["p_inside_err"], pp, pe, why).to_dict())
-    if out["n_inside"] + out["n_marginal"] + out["n_outside"] != out["n_total"]:
+    if sum(counts.values()) != out["n_total"]:
         raise RuntimeError("row accounting failed: counts do not add up to the rows read")
     return out

@@ -27,6 +27,17 @@ def add_fit_args(p: argparse.ArgumentParser) -> None:
     p.add_argument("--scale", type=float, default=None, metavar="MEV",
                    help="scale mu of a bare samples file's lr convention")
     p.add_argument("--weight-column", default=None, help="weight column of a bare samples file")
+    g = p.add_argument_group("theory uncertainty of the bounds (docs/physics.md)")
+    g.add_argument("--theory-uncertainty", choices=["none", "fixed", "power-counting"],
+                   default="none", help="model of the facets' offset uncertainty")
+    g.add_argument("--sigma", default=None, metavar="FAMILY=S,...",
+                   help="fixed model: sigma per bound family, in the units of the bound")
+    g.add_argument("--breakdown", type=float, default=None, metavar="MEV",
+                   help="power-counting: breakdown scale Lambda_b (default 4 pi F_pi)")
+    g.add_argument("--coefficient-prior", default="1,1", metavar="NU0,TAU0",
+                   help="power-counting: scaled-inverse-chi2 prior of cbar^2 (default 1,1)")
+    g.add_argument("--thresholds", default="0.05,0.95", metavar="LOW,HIGH",
+                   help="P(satisfies) thresholds of the 'uncertain' verdict")
 
 
 def add_check_parser(sub: Any) -> None:
@@ -70,6 +81,41 @@ def load_fit_arg(args: argparse.Namespace):
                             kinematics=kin)
 
 
+def uncertainty_from_args(args: argparse.Namespace):
+    """UncertaintySettings from the command line (None for the model 'none')."""
+    from eftsieve.errors import InputError
+    from eftsieve.uncertainty import UncertaintySettings
+
+    if args.theory_uncertainty == "none":
+        return None
+
+    def pair(text: str, opt: str) -> tuple[float, float]:
+        try:
+            a, b = (float(v) for v in text.split(","))
+        except ValueError as err:
+            raise InputError(None, opt, f"expected two numbers 'A,B', got {text!r}", "") from err
+        return a, b
+
+    sig: dict[str, float] = {}
+    for item in (args.sigma or "").split(","):
+        if not item.strip():
+            continue
+        if "=" not in item:
+            raise InputError(None, "--sigma", f"expected FAMILY=SIGMA, got {item!r}",
+                             "e.g. --sigma t-derivative=0.3")
+        k, v = item.split("=", 1)
+        try:
+            sig[k.strip()] = float(v)
+        except ValueError as err:
+            raise InputError(None, "--sigma", f"not a number: {v!r}", "") from err
+    if args.theory_uncertainty == "fixed" and not sig:
+        raise InputError(None, "--sigma", "the fixed model needs a sigma per bound family",
+                         "e.g. --sigma t-derivative=0.3,second-derivative=0.3")
+    nu0, tau0 = pair(args.coefficient_prior, "--coefficient-prior")
+    lo, hi = pair(args.thresholds, "--thresholds")
+    return UncertaintySettings(args.theory_uncertainty, sig, args.breakdown, nu0, tau0, lo, hi)
+
+
 def region_for(fit, args: argparse.Namespace, outdir: Path):
     """The region from --region, or built from the fit and saved next to the outputs."""
     from eftsieve.region import Region
@@ -107,7 +153,8 @@ def cmd_check(args: argparse.Namespace) -> int:
     region, rpath = region_for(fit, args, outdir)
     settings = CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
                              chunk_rows=args.chunk_rows)
-    result = run_check(fit, region, settings, outdir, rpath)
+    unc = uncertainty_from_args(args)
+    result = run_check(fit, region, settings, outdir, rpath, unc)
     images = {} if args.no_plots else check_plots(result, fit, outdir)
     atomic_write_json(outdir / "summary.json", result.summary)
     doc = check_document(fit, region, result.summary, result.worst, images)
@@ -116,9 +163,16 @@ def cmd_check(args: argparse.Namespace) -> int:
     s = result.summary
     print(f"checked {s['n_total']} points of '{fit.name}' against {region.theory} "
           f"({len(region.facets)} facets, region {rpath})")
-    print(f"  inside {s['n_inside']}, marginal {s['n_marginal']}, outside {s['n_outside']}")
+    unc_txt = f", uncertain {s['n_uncertain']}" if s.get("n_uncertain") else ""
+    print(f"  inside {s['n_inside']}, marginal {s['n_marginal']}, outside {s['n_outside']}"
+          f"{unc_txt}")
     print(f"  p_inside = {s['p_inside']:.4g} +- {s['p_inside_err']:.2g}; tension "
           f"{s['tension_sigma']:.2f} sigma (p = {s['tension_p']:.3g})")
+    tu = s.get("theory_uncertainty")
+    if tu:
+        print(f"  with theory uncertainty ({args.theory_uncertainty}): p_inside = "
+              f"{tu['p_inside']:.4g} +- {tu['p_inside_err']:.2g}, uncertain {tu['n_uncertain']}, "
+              f"tension {tu['tension_sigma']:.2f} sigma")
     print(f"  report: {outdir / 'report.html'}")
     if args.fail_below is not None and s["p_inside"] < args.fail_below:
         print(f"  p_inside {s['p_inside']:.4g} < --fail-below {args.fail_below:g}")
@@ -133,9 +187,11 @@ def check_plots(result, fit, outdir: Path) -> dict[str, Path]:
     region = result.region
     images = {}
     if region.dim in (1, 2) and len(result.plot_region_coords):
+        tu = result.summary.get("theory_uncertainty")
+        bands = (None if not tu else dict(enumerate(tu["model"]["sigma_median"])))
         images["region"] = save_region_plot(region, outdir / "region.png",
                                             samples=result.plot_region_coords,
-                                            weights=result.plot_weights)
+                                            weights=result.plot_weights, bands=bands)
     # corner in region coordinates for the constrained parameters, the rest as they are
     import numpy as np
 

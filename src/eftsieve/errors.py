@@ -103,3 +103,17 @@ class KinematicsWarning(EftsieveWarning):
 
 class ConvergenceWarning(EftsieveWarning):
     """A chain or estimator has not demonstrably converged."""
+
+
+class PolytopeInputError(EftsieveError, ValueError):
+    """Invalid mean, covariance or constraints for the truncated normal."""
+
+    exit_code = 2
+
+
+class EmptyPolytopeError(PolytopeInputError):
+    """The polyhedron ``{x : A x >= b}`` is empty."""
+
+
+class DegeneratePolytopeError(PolytopeInputError):
+    """The polyhedron is not empty but has no interior (numerically zero volume)."""

@@ -41,21 +41,29 @@ class Accumulator:
 
     dim: int
     n_total: int = 0
-    counts: np.ndarray = field(default_factory=lambda: np.zeros(3, dtype=np.int64))
+    counts: np.ndarray = field(default_factory=lambda: np.zeros(4, dtype=np.int64))
     sw: float = 0.0
     sw2: float = 0.0
     sw_in: float = 0.0
     sw_in_inner: float = 0.0
     sw2_in: float = 0.0
+    sw_soft: float = 0.0
+    sw2_soft_dev: float = 0.0
+    soft_seen: bool = False
+    _sw2p: float = 0.0
     mean_sum: np.ndarray | None = None
     outer_sum: np.ndarray | None = None
     _pending: list = field(default_factory=list)
     _n_pending: int = 0
 
     def add(self, y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
-            satisfies: np.ndarray) -> None:
+            satisfies: np.ndarray, soft: np.ndarray | None = None) -> None:
+        """Add a chunk; ``soft`` is P(satisfies every facet) under a theory-uncertainty model."""
         ww = np.ones(len(y)) if w is None else np.asarray(w, dtype=float)
-        self._pending.append((y, ww, verdict, satisfies))
+        if soft is not None:
+            self.soft_seen = True
+        sp = satisfies.astype(float) if soft is None else np.asarray(soft, dtype=float)
+        self._pending.append((y, ww, verdict, satisfies, sp))
         self._n_pending += len(y)
         if self._n_pending >= BLOCK:
             self._drain(final=False)
@@ -67,18 +75,22 @@ class Accumulator:
     def _drain(self, final: bool) -> None:
         if not self._pending:
             return
-        y, w, v, sat = (np.concatenate([p[i] for p in self._pending]) for i in range(4))
+        y, w, v, sat, sp = (np.concatenate([p[i] for p in self._pending]) for i in range(5))
         n_full = (len(y) // BLOCK) * BLOCK
         stop = len(y) if final else n_full
         for lo in range(0, stop, BLOCK):
-            self._block(y[lo:lo + BLOCK], w[lo:lo + BLOCK], v[lo:lo + BLOCK],
-                        sat[lo:lo + BLOCK])
-        self._pending = [] if stop == len(y) else [(y[stop:], w[stop:], v[stop:], sat[stop:])]
+            sl = slice(lo, lo + BLOCK)
+            self._block(y[sl], w[sl], v[sl], sat[sl], sp[sl])
+        self._pending = [] if stop == len(y) else [
+            (y[stop:], w[stop:], v[stop:], sat[stop:], sp[stop:])]
         self._n_pending = len(y) - stop
 
-    def _block(self, y, ww, verdict, satisfies) -> None:
+    def _block(self, y, ww, verdict, satisfies, soft) -> None:
         self.n_total += len(y)
-        self.counts += np.bincount(verdict, minlength=3)
+        self.counts += np.bincount(verdict, minlength=4)
+        self.sw_soft += float(ww @ soft)
+        self._sw2p += float((ww * ww) @ soft)
+        self.sw2_soft_dev += float((ww * ww) @ (soft * soft))
         self.sw += float(ww.sum())
         self.sw2 += float((ww * ww).sum())
         self.sw_in += float(ww[satisfies].sum())
@@ -97,6 +109,16 @@ class Accumulator:
         # sum w^2 (I - p)^2 = sum_in w^2 (1-p)^2 + sum_out w^2 p^2
         var_num = self.sw2_in * (1 - p) ** 2 + (self.sw2 - self.sw2_in) * p**2
         return p, math.sqrt(var_num) / self.sw
+
+    def p_soft(self) -> tuple[float, float]:
+        """E[P(satisfies)] over the samples and its Monte-Carlo error (delta method)."""
+        if self.sw <= 0:
+            return float("nan"), float("nan")
+        p = self.sw_soft / self.sw
+        # sum w^2 (P_i - p)^2 = sum w^2 P^2 - 2 p sum w^2 P + p^2 sum w^2; bound sum w^2 P by
+        # using sum w^2 P <= sqrt(sum w^2 P^2 sum w^2) is loose, so keep the exact pieces
+        var = max(self.sw2_soft_dev - 2 * p * self._sw2p + p * p * self.sw2, 0.0)
+        return p, math.sqrt(var) / self.sw
 
     def ess(self) -> float:
         return self.sw**2 / self.sw2 if self.sw2 > 0 else 0.0

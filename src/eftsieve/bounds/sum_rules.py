@@ -54,6 +54,9 @@ from eftsieve.tolerances import FEASIBILITY_TOL
 _EPS = float(np.finfo(float).eps)
 #: domination cut-off in w above which a functional is regularised (see SumRuleSolver._regularise)
 W_REGULAR = 1e5
+#: states with w = y J(J+1) <= W_REF fix the basis of the null constraints in the LP
+W_REF = 200.0
+COL_MIN = 0.0
 _TIGHT = {"primal_feasibility_tolerance": 1e-9, "dual_feasibility_tolerance": 1e-9}
 _LP_STATUS = {0: "optimal", 1: "iteration_limit", 2: "infeasible", 3: "unbounded",
               4: "numerical_difficulties"}
@@ -553,23 +556,25 @@ def exact_spectrum(nulls: tuple[StatePolynomial, ...], y: np.ndarray, spin: np.n
     import mpmath
 
     keep = np.flatnonzero(x > 1e-11 * x.max())
-    for _ in range(len(keep) + 1):
+    for _ in range(2):  # a second try without the states that came out non-positive
         with mpmath.workdps(dps):
             a = mpmath.matrix([[mpmath.mpf(1)] * len(keep)]
                               + [[n.mp_value(y[i], spin[i], mpmath) for i in keep] for n in nulls])
             b = mpmath.matrix([1] + [0] * len(nulls))
-            scale = max(mpmath.mpf(1), max(abs(v) for v in a))
             if a.rows >= a.cols:
-                p, res = mpmath.qr_solve(a, b)
+                p, _ = mpmath.qr_solve(a, b)
             else:  # more states than constraints: the nearest exact solution to the LP's
                 p0 = mpmath.matrix([mpmath.mpf(float(x[i])) for i in keep])
                 p = p0 + a.T * mpmath.lu_solve(a * a.T, b - a * p0)
-                res = mpmath.norm(a * p - b)
             pw = np.array([float(v) for v in p])
-            ok = res < mpmath.mpf(10) ** (15 - dps) * scale
+            # every equation must hold relative to the size of its own terms
+            ok = all(abs(sum(a[r, k] * p[k] for k in range(a.cols)) - b[r])
+                     <= mpmath.mpf(10) ** (15 - dps) * (1 + sum(abs(a[r, k] * p[k])
+                                                                for k in range(a.cols)))
+                     for r in range(a.rows))
         if ok and (pw > 0).all():
             return y[keep], spin[keep], pw
-        if not ok or (pw > 0).all():
+        if not ok:
             break
         keep = keep[pw > 0]
     raise SolverError("inexact-primal", "re-solving the LP spectrum exactly on its support")
@@ -599,7 +604,6 @@ class SumRuleSolver:
         self._cc = np.stack([p.coeffs(self.size) for p in coordinates])
         self._nc = np.stack([p.coeffs(self.size) for p in nulls])
         self.y, self.spin = np.zeros(0), np.zeros(0, dtype=int)
-        self.w_scale = 16.0
         self._rows = np.zeros((len(nulls), 0))
         self._crd = np.zeros((len(coordinates), 0))
         self._keys: set[tuple[float, int]] = set()
@@ -622,32 +626,39 @@ class SumRuleSolver:
     def _solve_grid(self, d: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
         """One LP on the grid: (normalisation multiplier, null multipliers, weights).
 
-        Rows, then columns, are scaled to unit size and the null rows replaced by an
-        orthonormal basis of their span (QR), which HiGHS needs: the entries span many
-        orders of magnitude.
-        The multipliers are mapped back to the original null constraints.
+        The null rows are first replaced by a basis that is orthonormal on the states with
+        w <= W_REF (each weighted by (1 + w/ws)^-E, 10^-6 at W_REF): T = R^-T N from the QR
+        factorisation there.  Columns are then scaled to a largest entry of one, and states
+        whose scale falls below 1e-7 (far in the large-w tail, irrelevant to the primal) are
+        left out; the verification covers them.  The multipliers are mapped back, R^-1 mu.
         """
+        from scipy.linalg import solve_triangular
+
         obj = d @ self._crd
         w = self.y * self.spin * (self.spin + 1.0)
-        col = (1.0 + w / self.w_scale) ** -(self.size - 1.0)
-        col = col / np.maximum(1.0, np.abs(obj) * col)
-        size = np.maximum(np.abs(self._rows * col).max(1), 1e-300)
-        rows = self._rows / size[:, None]
-        q, r = np.linalg.qr((rows * col).T)
-        a_eq = np.vstack([col, q.T])
+        big_e = self.size - 1.0
+        ref = w <= W_REF
+        ws = W_REF / (10.0 ** (6.0 / big_e) - 1.0)
+        r = np.linalg.qr((self._rows[:, ref] * (1.0 + w[ref] / ws) ** -big_e).T, mode="r")
+        if not ref.any() or np.abs(np.diag(r)).min() <= 1e-300:
+            raise SolverError("rank-deficient", "null constraints on the reference states")
+        rows = solve_triangular(r, self._rows, trans="T")
+        self._r = r
+        col = 1.0 / np.maximum(1.0, np.maximum(np.abs(rows).max(0), np.abs(obj)))
+        use = col >= COL_MIN
+        a_eq = np.vstack([col[use], rows[:, use] * col[use]])
         a_eq[np.abs(a_eq) < 1e-9] = 0.0  # HiGHS ignores these anyway (small_matrix_value)
         b_eq = np.r_[1.0, np.zeros(len(self.nulls))]
         name = f"sum-rule LP along {d.tolist()}"
         try:
-            lp = solve_lp(obj * col, a_eq, b_eq, problem=name, options=_TIGHT)
+            lp = solve_lp(obj[use] * col[use], a_eq, b_eq, problem=name, options=_TIGHT)
         except SolverError as err:  # tight tolerances can stall HiGHS: retry with defaults
             if err.status not in ("numerical_difficulties", "inaccurate"):
                 raise
-            lp = solve_lp(obj * col, a_eq, b_eq, problem=name)
-        from scipy.linalg import solve_triangular
-
-        mult = solve_triangular(r, lp.dual_eq[1:], lower=False) / size
-        return float(lp.dual_eq[0]), mult, lp.x * col
+            lp = solve_lp(obj[use] * col[use], a_eq, b_eq, problem=name)
+        weights = np.zeros(self.y.size)
+        weights[use] = lp.x * col[use]
+        return float(lp.dual_eq[0]), solve_triangular(r, lp.dual_eq[1:]), weights
 
     def extremize(self, direction: np.ndarray) -> DirectionalBound:
         """Inner and verified outer values of min d . x; raises SolverError if unverified.
@@ -687,22 +698,22 @@ class SumRuleSolver:
         """Make the functional grow at large w (J -> infinity) if the LP left it flat there.
 
         The LP cannot resolve the sign of the leading large-w coefficient in double
-        precision when its multiplier is ~0.  Subtracting eps times the null constraint
-        with the highest power of w (positive leading coefficient) from the multipliers,
-        with the smallest eps = 10^k that puts the domination cut-off below
-        ``W_REGULAR``, fixes the sign; its effect at w <= 10^3 is negligible and the
-        verification accounts for it exactly.
+        precision when the optimum does not need it.  Adding eps times the null
+        combination with unit leading coefficient that is smallest on the reference states
+        (least squares in the LP's orthonormal basis), with the smallest eps = 10^k that
+        puts the domination cut-off below ``W_REGULAR``, fixes the sign; the verification
+        then accounts for its effect exactly.
         """
-        func = obj - np.tensordot(mult, self._nc, 1)
-        cut = _tail_cutoff(func)
+        cut = _tail_cutoff(obj - np.tensordot(mult, self._nc, 1))
         if cut is not None and cut <= W_REGULAR:
             return mult
-        reg = int(np.argmax([np.abs(c.diagonal()).max() * 0 + np.flatnonzero(c.diagonal())[-1]
-                             if c.diagonal().any() else -1 for c in self._nc]))
-        unit = np.zeros(len(self.nulls))
-        unit[reg] = 1.0 / self._nc[reg].diagonal()[np.flatnonzero(self._nc[reg].diagonal())[-1]]
-        for k in range(-60, 10):
-            trial = mult - 10.0**k * unit
+        from scipy.linalg import solve_triangular
+
+        top = self._nc[:, -1, -1]
+        beta = solve_triangular(self._r, top, trans="T")
+        alpha = solve_triangular(self._r, beta) / float(beta @ beta)
+        for k in range(-80, 20):
+            trial = mult - 10.0**k * alpha
             cut = _tail_cutoff(obj - np.tensordot(trial, self._nc, 1))
             if cut is not None and cut <= W_REGULAR:
                 return trial
@@ -718,6 +729,9 @@ class SumRuleSolver:
                                             for a, b, p in zip(ys, js, pw, strict=True)))
                           for c in self.coordinates)
         inner = float(np.dot(d, point))
+        if abs(inner - lam) > self.settings.accept_tol * max(1.0, abs(lam)):
+            raise SolverError("inexact-primal", f"exact spectrum gives {inner}, LP {lam} "
+                              f"along {d.tolist()}")
         if inner < ver.lower - 1e-9 * max(1.0, abs(inner)):
             raise SolverError("inconsistent", f"primal value {inner} below the verified dual "
                               f"bound {ver.lower} along {d.tolist()}")

@@ -35,11 +35,13 @@ def add_parser(sub: Any) -> None:
     p.set_defaults(func=cmd_impose)
 
 
-def run(fit, region, args: argparse.Namespace):
+def run(fit, region, args: argparse.Namespace, uncertainty=None):
     """Choose the mode and run it; returns the ImposeResult."""
+    from eftsieve.impose import soft as softmod
     from eftsieve.impose.core import ImposeSettings, choose_mode, exact, reweight
     from eftsieve.theories import get_theory
     from eftsieve.tolerances import MIN_ESS
+    from eftsieve.uncertainty import facet_uncertainty
 
     has_like = bool(args.data or args.likelihood)
     mode = choose_mode(fit, args.mode, has_like)
@@ -47,10 +49,15 @@ def run(fit, region, args: argparse.Namespace):
                               args.min_ess if args.min_ess is not None else MIN_ESS,
                               not args.no_progress)
     cmap = get_theory(fit.theory).coordinate_map(fit, region)
+    fu = None
+    if uncertainty is not None and uncertainty.model != "none":
+        fu = facet_uncertainty(region, uncertainty)
     if mode == "reweight":
-        return reweight(fit, region, cmap, settings)
+        return (reweight(fit, region, cmap, settings) if fu is None
+                else softmod.soft_reweight(fit, region, cmap, settings, fu))
     if mode == "exact":
-        return exact(fit, region, cmap, settings)
+        return (exact(fit, region, cmap, settings) if fu is None
+                else softmod.soft_exact(fit, region, cmap, settings, fu))
     from eftsieve.impose import refit
 
     if args.data:
@@ -59,7 +66,8 @@ def run(fit, region, args: argparse.Namespace):
     else:
         loglike, label = refit.load_callable(args.likelihood), f"callable {args.likelihood}"
     before = _before(fit, args.seed)
-    return refit.run_refit(fit, region, cmap, loglike, settings, label, before)
+    soft = None if fu is None else softmod.log_soft_indicator(region, cmap, fu)
+    return refit.run_refit(fit, region, cmap, loglike, settings, label, before, soft)
 
 
 def _before(fit, seed: int):
@@ -98,7 +106,9 @@ def cmd_impose(args: argparse.Namespace) -> int:
     guard_inputs([outdir / n for n in OUTPUTS], _inputs(fit, args) + [args.data])
     outdir.mkdir(parents=True, exist_ok=True)
     region, rpath = region_for(fit, args, outdir)
-    result = run(fit, region, args)
+    from eftsieve.commands import uncertainty_from_args
+
+    result = run(fit, region, args, uncertainty_from_args(args))
     write_samples(result, outdir, args.csv)
     images = {}
     if not args.no_plots:

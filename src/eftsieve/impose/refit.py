@@ -228,8 +228,12 @@ def start_point(fit: Fit, region: Region, cmap: CoordinateMap,
 def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
               loglike: Callable[[np.ndarray], np.ndarray], settings: ImposeSettings,
               likelihood_label: str,
-              before: tuple[np.ndarray, np.ndarray | None] | None = None) -> ImposeResult:
-    """emcee refit with the truncated prior; reports acceptance, tau and ESS."""
+              before: tuple[np.ndarray, np.ndarray | None] | None = None,
+              soft: Callable[[np.ndarray], np.ndarray] | None = None) -> ImposeResult:
+    """emcee refit with the truncated prior; reports acceptance, tau and ESS.
+
+    ``soft`` (log P(x) of a theory-uncertainty model) replaces the hard indicator.
+    """
     import emcee
 
     logprior = log_prior_fn(fit)
@@ -237,8 +241,11 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
 
     def logpost(x: np.ndarray) -> np.ndarray:
         lp = logprior(x)
-        inside = ((cmap(x) @ a.T - b) >= 0).all(axis=1)
-        lp[~inside] = -np.inf
+        if soft is None:
+            inside = ((cmap(x) @ a.T - b) >= 0).all(axis=1)
+            lp[~inside] = -np.inf
+        else:
+            lp = lp + soft(x)
         ok = np.isfinite(lp)
         out = np.full(len(x), -np.inf)
         if ok.any():
@@ -252,7 +259,10 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
     # emcee draws its moves from a legacy RandomState: seed it from our generator
     sampler.random_state = np.random.RandomState(int(rng.integers(2**31))).get_state()
     sampler.run_mcmc(p0, settings.n_samples, progress=settings.progress)
-    return _refit_result(fit, sampler, settings, likelihood_label, before)
+    res = _refit_result(fit, sampler, settings, likelihood_label, before)
+    if soft is not None:
+        res.summary["truncation"] = "soft"
+    return res
 
 
 def _ball(x0, r, n, rng, logpost) -> np.ndarray:

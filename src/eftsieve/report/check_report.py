@@ -79,6 +79,38 @@ def stats_block(s: dict[str, Any]) -> list:
                  f"({s['tension_cone']}).")]
 
 
+def uncertainty_block(s: dict[str, Any], region: Region) -> list:
+    tu = s.get("theory_uncertainty")
+    if not tu:
+        return []
+    m = tu["model"]
+    st = m["settings"]
+    rows = [("p_inside", _g(tu["hard"]["p_inside"], ".5g"),
+             f"{_g(tu['p_inside'], '.5g')} +- {_g(tu['p_inside_err'], '.2g')}"),
+            ("tension (sigma)", _g(tu["hard"]["tension_sigma"], ".3g"),
+             _g(tu["tension_sigma"], ".3g")),
+            ("tension p-value", _g(tu["hard"]["tension_p"]), _g(tu["tension_p"])),
+            ("Bayes factor", _g(tu["hard"]["bayes_factor"]), _g(tu["bayes_factor"]))]
+    frows = []
+    for i, f in enumerate(region.facets):
+        q = "" if m["q"] is None else _g(m["q"][i], ".3g")
+        frows.append((str(i), f.inequality(region.coordinates), _g(m["sigma_median"][i], ".3g"),
+                      q))
+    text = (f"Model `{st['model']}`; verdict `uncertain` for {st['p_low']:g} < "
+            f"P(satisfies every facet) < {st['p_high']:g} ({tu['n_uncertain']} points). "
+            f"Correlation between facets: {tu['correlation']}. The tension under the model is "
+            "the Bonferroni bound over single-facet tests with the offset uncertainty added.")
+    if st["model"] == "power-counting":
+        post = m["posterior"]
+        text += (f" Breakdown scale Lambda_b = {m['breakdown_mev_used']:.6g} MeV; prior "
+                 f"cbar^2 ~ ScaledInvChi2({st['nu0']:g}, {st['tau0']:g}^2); posterior "
+                 f"ScaledInvChi2({post['nu']:g}, {post['tau2']:.3g}) from the coefficients "
+                 f"{', '.join(_g(c, '.3g') for c in m['coefficients'])}.")
+    return [Heading("Theory uncertainty of the bounds"), Para(text),
+            Table(("quantity", "hard edges (none)", st["model"]), tuple(rows)),
+            Table(("facet", "inequality", "sigma of the offset (median)", "Q"), tuple(frows))]
+
+
 def worst_block(worst: tuple[dict[str, Any], ...], limit: int = 10) -> list:
     if not worst:
         return [Heading("Flagged points"), Para("No point violates a facet.")]
@@ -98,7 +130,8 @@ def cautions_block(theory: str) -> list:
 def check_document(fit: Fit, region: Region, summary: dict[str, Any],
                    worst: tuple[dict[str, Any], ...], images: dict[str, Path]) -> Document:
     doc = Document(f"Positivity check: {fit.name}")
-    doc.add(*fit_block(fit), *region_block(region), *stats_block(summary), *worst_block(worst))
+    doc.add(*fit_block(fit), *region_block(region), *stats_block(summary),
+            *uncertainty_block(summary, region), *worst_block(worst))
     for name, alt in (("region", "region with posterior contours"),
                       ("corner", "corner plot with region boundary")):
         if name in images:

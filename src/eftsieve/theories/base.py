@@ -99,3 +99,14 @@ class Theory(ABC):
     @abstractmethod
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
         """The map from the fit's parameters to the region's coordinates."""
+
+    def power_counting(self, region: Region,
+                       breakdown_mev: float | None) -> tuple[np.ndarray, np.ndarray]:
+        """Expansion parameter Q_j and the known expansion coefficients for each facet.
+
+        Theories without a power-counting model raise InputError.
+        """
+        from eftsieve.errors import InputError
+
+        raise InputError(None, "--theory-uncertainty", f"theory '{self.name}' has no "
+                         "power-counting model", "use --theory-uncertainty fixed")

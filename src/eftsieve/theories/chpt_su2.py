@@ -297,3 +297,43 @@ class ChptSU2(Theory):
 
 
 THEORY = ChptSU2()
+
+
+def _power_counting(region: Region, breakdown_mev: float | None) -> tuple[np.ndarray, np.ndarray]:
+    """Q_j and c_2,j = T_NLO/(|T_LO| Q_j^2) at each facet's point (see eftsieve.uncertainty).
+
+    The amplitude is evaluated in the facet's channel at its kinematic point, at the point
+    of the facet nearest the origin of the region's coordinates (lbar3 = lbar4 = 0).
+    """
+    fpi = float(region.convention.get("fpi_mev", DEFAULT_FPI_MEV))
+    lam = breakdown_mev if breakdown_mev is not None else 4 * np.pi * fpi
+    conv_name = str(region.convention["name"])
+    q, coef = [], []
+    for f in region.facets:
+        m = float(f.point.get("pion_mass_mev", region.convention.get("pion_mass_mev", 0.0)))
+        s, t = f.point["s"], f.point["t"]
+        qj = m * max(1.0, np.sqrt(abs(s)), np.sqrt(abs(t))) / lam
+        if qj >= 1:
+            raise InputError(None, "--breakdown", f"Q = {qj:.3g} >= 1 at facet {f.label()} "
+                             f"(M_pi = {m:g} MeV, Lambda_b = {lam:g} MeV): the expansion "
+                             "does not converge there", "raise --breakdown or drop the mass")
+        n = np.asarray(f.normal, dtype=float)
+        x = n * f.offset / (n @ n)
+        if conv_name == "lr":
+            src = Convention("lr", mu_mev=float(region.convention["mu_mev"]))
+            amap = affine_map(("l1", "l2"), (src, src),
+                              (Convention("lbar", pion_mass_mev=m),) * 2)
+            x = amap.apply_points(x)
+        x1, x2 = CHANNELS[f.channel]
+        f_over_m = fpi / m
+        lo = x1 * (s - 1) + (t - 1) + x2 * (4 - s - t - 1)
+        amp = pipi.channel_amplitude((float(x[0]), float(x[1]), 0.0, 0.0), x1, x2)
+        nlo = float(pipi.evaluate(amp, np.array([[s, t, 4 - s - t]]))[0].real) / f_over_m**4
+        t_lo = abs(lo) / f_over_m**2
+        q.append(qj)
+        coef.append(nlo / (t_lo * qj**2))
+    return np.array(q), np.array(coef)
+
+
+ChptSU2.power_counting = lambda self, region, breakdown_mev: _power_counting(  # type: ignore
+    region, breakdown_mev)

@@ -346,7 +346,7 @@ def state_grid(spins: int, mass_points: int, y_min: float, spin_max: int = 2000
     yy, jj = np.meshgrid(ys, np.arange(0, spins + 1, 2), indexing="ij")
     y_out, j_out = [yy.ravel()], [jj.ravel()]
     for spin in np.unique(2 * np.round(np.geomspace(spins + 2, spin_max, 12) / 2)).astype(int):
-        w = np.geomspace(0.1, min(1e3, spin * (spin + 1.0)), 40)
+        w = np.geomspace(0.1, spin * (spin + 1.0), 48)
         y_out.append(w / (spin * (spin + 1.0)))
         j_out.append(np.full(w.size, spin))
     return np.concatenate(y_out), np.concatenate(j_out)
