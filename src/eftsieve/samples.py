@@ -4,13 +4,23 @@ A :class:`SamplesSource` never holds a whole large file in memory: ``iter_chunks
 yields bounded blocks with the original row index, the parameter values in the
 requested column order and the weights.  Every row read is validated (finite values,
 non-negative weights) and the error quotes the offending row numbers.
+
+A source may also span several Parquet files: its path is then a directory (every
+``.parquet``/``.pq`` file in it) or a glob pattern (``posterior/part-*.parquet``).  The
+files are taken in sorted order of their paths (for one directory: by file name) and
+streamed one at a time; row indices are global (file order, then row order within the
+file), every chunk comes from a single file and records it in :attr:`Chunk.file`, and
+:meth:`SamplesSource.file_parts` gives each file's first global row and row count (from
+the Parquet metadata, without reading the data).
 """
 
 from __future__ import annotations
 
+import glob
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 
@@ -18,6 +28,8 @@ from eftsieve.errors import InputError
 
 SUPPORTED_FORMATS = {".csv": "csv", ".parquet": "parquet", ".pq": "parquet", ".nc": "netcdf",
                      ".netcdf": "netcdf", ".h5": "netcdf"}
+PARQUET_SUFFIXES = (".parquet", ".pq")
+GLOB_CHARS = frozenset("*?[")
 DEFAULT_CHUNK_ROWS = 1_000_000
 
 
@@ -28,20 +40,65 @@ class Chunk:
     Attributes
     ----------
     rows
-        Original 0-based row indices, shape (n,).
+        Original 0-based row indices, shape (n,); global across the files of a
+        multi-file source.
     values
         Parameter values, shape (n, p), columns in the order of the fit's parameters.
     weights
         Weights, shape (n,), or None for unweighted samples.
+    file
+        The file the rows were read from, or None (drawn samples, or rows from several
+        files joined by :meth:`SamplesSource.read_all`).
     """
 
     rows: np.ndarray
     values: np.ndarray
     weights: np.ndarray | None
+    file: str | None = None
+
+
+@dataclass(frozen=True)
+class FilePart:
+    """One file of a samples source and its place in the global row order.
+
+    Attributes
+    ----------
+    index
+        Position of the file in the source's sorted file list (0-based).
+    path
+        The file.
+    start
+        Global row index of the file's first row.
+    n_rows
+        Rows in the file from its metadata, or None when the format does not say
+        without reading (CSV, NetCDF); then ``start`` is only known for the first file.
+    """
+
+    index: int
+    path: Path
+    start: int
+    n_rows: int | None
+
+    @property
+    def name(self) -> str:
+        """The file name, as used in messages."""
+        return self.path.name
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"index": self.index, "path": str(self.path), "start": self.start,
+                "n_rows": self.n_rows}
 
 
 def detect_format(path: Path, declared: str | None, field: str = "samples.format") -> str:
-    """The file format, from the declared name or the extension."""
+    """The file format, from the declared name or the extension.
+
+    A directory or a glob pattern (a multi-file source) is always ``parquet``.
+    """
+    if is_multi_file_path(path):
+        if declared is not None and declared.lower() != "parquet":
+            raise InputError(path, field, f"a directory or glob of files must be Parquet, "
+                             f"not '{declared}'", "convert the files to Parquet")
+        return "parquet"
     if declared is not None:
         fmt = declared.lower()
         if fmt not in {"csv", "parquet", "netcdf"}:
@@ -55,14 +112,55 @@ def detect_format(path: Path, declared: str | None, field: str = "samples.format
     return fmt_opt
 
 
+def is_multi_file_path(path: str | Path) -> bool:
+    """True for a directory or a glob pattern (a multi-file source).
+
+    An existing file whose name happens to hold ``*?[`` is a single file, not a pattern.
+    """
+    p = Path(path)
+    return p.is_dir() or (not p.is_file() and any(c in GLOB_CHARS for c in str(p)))
+
+
+def resolve_files(path: str | Path) -> tuple[Path, ...]:
+    """The files of a source path: itself, the Parquet files of a directory, or the
+    matches of a glob pattern, in sorted order of their paths.
+
+    Raises
+    ------
+    InputError
+        When nothing matches, or a match is not a Parquet file.
+    """
+    p = Path(path)
+    if p.is_dir():
+        files = sorted((f for f in p.iterdir()
+                        if f.is_file() and f.suffix.lower() in PARQUET_SUFFIXES), key=str)
+        if not files:
+            raise InputError(p, "samples.path", "the directory holds no .parquet or .pq file",
+                             "point at a directory of Parquet files, or at one file")
+        return tuple(files)
+    if is_multi_file_path(p):
+        files = sorted((Path(f) for f in glob.glob(str(p))), key=str)
+        files = [f for f in files if f.is_file()]
+        if not files:
+            raise InputError(p, "samples.path", "the pattern matches no file",
+                             "check the pattern; it is relative to the card")
+        odd = [f.name for f in files if f.suffix.lower() not in PARQUET_SUFFIXES]
+        if odd:
+            raise InputError(p, "samples.path", f"the pattern matches non-Parquet file(s) "
+                             f"{odd[:5]}", "a multi-file source must be Parquet files only")
+        return tuple(files)
+    return (p,)
+
+
 @dataclass(frozen=True)
 class SamplesSource:
-    """A samples file with a mapping from parameter names to its columns.
+    """A samples file (or several Parquet files) with a mapping from parameter names to
+    its columns.
 
     Attributes
     ----------
     path
-        The file.
+        The file, or a directory or glob pattern of Parquet files.
     fmt
         ``csv``, ``parquet`` or ``netcdf``.
     columns
@@ -76,77 +174,125 @@ class SamplesSource:
     columns: tuple[str, ...]
     weight_column: str | None = None
 
-    def available_columns(self) -> list[str]:
-        """The column names that the file holds."""
+    @property
+    def is_multi_file(self) -> bool:
+        """True when the path is a directory or a glob pattern."""
+        return is_multi_file_path(self.path)
+
+    def files(self) -> tuple[Path, ...]:
+        """The files in reading order (one for a single-file source)."""
+        return resolve_files(self.path)
+
+    def file_parts(self) -> tuple[FilePart, ...]:
+        """Each file with its first global row and row count (Parquet metadata only)."""
+        parts: list[FilePart] = []
+        start: int | None = 0
+        for i, f in enumerate(self.files()):
+            n = _parquet_rows(f) if self.fmt == "parquet" else None
+            if start is None:
+                raise InputError(f, None, "row offsets of later files are unknown",
+                                 "only Parquet sources can span several files")
+            parts.append(FilePart(i, f, start, n))
+            start = None if n is None else start + n
+        return tuple(parts)
+
+    def available_columns(self, file: Path | None = None) -> list[str]:
+        """The column names that the file (default: the first file) holds."""
+        f = self.files()[0] if file is None else file
         if self.fmt == "csv":
             import pandas as pd
 
-            return list(pd.read_csv(self.path, nrows=0).columns)
+            return list(pd.read_csv(f, nrows=0).columns)
         if self.fmt == "parquet":
             import pyarrow.parquet as pq
 
-            return list(pq.ParquetFile(self.path).schema_arrow.names)
-        return list(_netcdf_frame(self.path).columns)
+            return list(pq.ParquetFile(f).schema_arrow.names)
+        return list(_netcdf_frame(f).columns)
 
     def validate_columns(self) -> None:
-        """Check that every mapped column exists; name the missing ones."""
-        have = self.available_columns()
+        """Check that every mapped column exists in every file; name the missing ones."""
         wanted = list(self.columns) + ([self.weight_column] if self.weight_column else [])
-        missing = [c for c in wanted if c not in have]
-        if missing:
-            raise InputError(self.path, "columns", f"missing column(s) {missing}",
-                             f"the file has {have}; fix samples.columns or the file")
+        for f in self.files():
+            have = self.available_columns(f)
+            missing = [c for c in wanted if c not in have]
+            if missing:
+                raise InputError(f, "columns", f"missing column(s) {missing}",
+                                 f"the file has {have}; fix samples.columns or the file")
 
     def iter_chunks(self, chunk_rows: int = DEFAULT_CHUNK_ROWS) -> Iterator[Chunk]:
-        """Yield validated chunks in file order with their original row indices."""
+        """Yield validated chunks in file order with their global row indices.
+
+        Every chunk comes from one file; a file whose rows differ from its metadata
+        stops the run with an error naming it.
+        """
         start = 0
-        for frame in self._iter_frames(chunk_rows):
-            chunk = self._to_chunk(frame, start)
+        for part in self.file_parts():
+            if part.start != start:  # pragma: no cover - file_parts builds them so
+                raise InputError(part.path, None, "file row offsets are inconsistent", "")
+            for chunk in self.iter_part(part, chunk_rows):
+                start += len(chunk.rows)
+                yield chunk
+
+    def iter_part(self, part: FilePart, chunk_rows: int = DEFAULT_CHUNK_ROWS
+                  ) -> Iterator[Chunk]:
+        """Yield the validated chunks of one file, rows numbered from ``part.start``."""
+        start = part.start
+        for frame in self._iter_frames(chunk_rows, part.path):
+            chunk = self._to_chunk(frame, start, part)
             start += len(chunk.rows)
             yield chunk
+        read = start - part.start
+        if part.n_rows is not None and read != part.n_rows:
+            raise InputError(part.path, None, f"read {read} rows but the file metadata "
+                             f"states {part.n_rows}", "the file changed while being read or "
+                             "is damaged; rewrite it")
 
     def read_all(self) -> Chunk:
-        """Read the whole file into one chunk (for modest files)."""
+        """Read the whole source into one chunk (for modest files)."""
         chunks = list(self.iter_chunks())
         if not chunks:
             raise InputError(self.path, None, "the samples file holds no rows",
                              "supply at least one sample")
         w = None if chunks[0].weights is None else np.concatenate([c.weights for c in chunks])
+        files = {c.file for c in chunks}
         return Chunk(np.concatenate([c.rows for c in chunks]),
-                     np.concatenate([c.values for c in chunks]), w)
+                     np.concatenate([c.values for c in chunks]), w,
+                     files.pop() if len(files) == 1 else None)
 
-    def _iter_frames(self, chunk_rows: int) -> Iterator:
+    def _iter_frames(self, chunk_rows: int, file: Path) -> Iterator:
         wanted = list(dict.fromkeys(list(self.columns) + (
             [self.weight_column] if self.weight_column else [])))
         if self.fmt == "csv":
             import pandas as pd
 
-            yield from pd.read_csv(self.path, usecols=wanted, chunksize=chunk_rows)
+            yield from pd.read_csv(file, usecols=wanted, chunksize=chunk_rows)
         elif self.fmt == "parquet":
             import pyarrow.parquet as pq
 
             # no pre-buffering: pyarrow would otherwise hold the whole file in memory
-            pf = pq.ParquetFile(self.path, pre_buffer=False, buffer_size=1 << 20)
+            pf = pq.ParquetFile(file, pre_buffer=False, buffer_size=1 << 20)
             for batch in pf.iter_batches(batch_size=chunk_rows, columns=wanted,
                                          use_threads=False):
                 yield batch.to_pandas()
         else:
-            frame = _netcdf_frame(self.path)
+            frame = _netcdf_frame(file)
             for lo in range(0, len(frame), chunk_rows):
                 yield frame.iloc[lo:lo + chunk_rows][wanted]
 
-    def _to_chunk(self, frame, start: int) -> Chunk:
+    def _to_chunk(self, frame, start: int, part: FilePart) -> Chunk:
         n = len(frame)
         rows = np.arange(start, start + n, dtype=np.int64)
+        where = part.path if self.is_multi_file else self.path
+        first = part.start if self.is_multi_file else None
         try:
             values = frame[list(self.columns)].to_numpy(dtype=float)
         except (ValueError, TypeError) as err:
-            raise InputError(self.path, "columns", f"non-numeric values in rows {start}.."
+            raise InputError(where, "columns", f"non-numeric values in rows {start}.."
                              f"{start + n - 1}: {err}", "samples must be numbers") from err
         bad = ~np.isfinite(values).all(axis=1)
         if bad.any():
-            raise InputError(self.path, "samples",
-                             f"NaN or inf in row(s) {_rows_text(rows[bad])}",
+            raise InputError(where, "samples",
+                             f"NaN or inf in row(s) {_rows_text(rows[bad], first)}",
                              "remove or repair those rows; nothing is repaired silently")
         weights = None
         if self.weight_column:
@@ -154,16 +300,30 @@ class SamplesSource:
             badw = ~np.isfinite(weights) | (weights < 0)
             if badw.any():
                 raise InputError(
-                    self.path, self.weight_column,
-                    f"negative or non-finite weight in row(s) {_rows_text(rows[badw])}",
+                    where, self.weight_column,
+                    f"negative or non-finite weight in row(s) {_rows_text(rows[badw], first)}",
                     "weights must be finite and >= 0")
-        return Chunk(rows, values, weights)
+        return Chunk(rows, values, weights, str(part.path))
 
 
-def _rows_text(rows: np.ndarray, limit: int = 10) -> str:
+def _parquet_rows(path: Path) -> int:
+    """Rows of a Parquet file, from its metadata."""
+    import pyarrow.parquet as pq
+
+    try:
+        return int(pq.ParquetFile(path).metadata.num_rows)
+    except (OSError, ValueError) as err:
+        raise InputError(path, None, f"cannot read Parquet metadata: {err}",
+                         "supply a valid Parquet file") from err
+
+
+def _rows_text(rows: np.ndarray, file_start: int | None = None, limit: int = 10) -> str:
     shown = ", ".join(str(int(r)) for r in rows[:limit])
     more = f" and {len(rows) - limit} more" if len(rows) > limit else ""
-    return f"{shown}{more} (0-based data rows)"
+    if file_start is None:
+        return f"{shown}{more} (0-based data rows)"
+    return (f"{shown}{more} (0-based data rows, global across the sorted files; this file "
+            f"starts at global row {file_start})")
 
 
 def _netcdf_frame(path: Path):

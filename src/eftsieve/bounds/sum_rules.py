@@ -248,7 +248,7 @@ class VerifySettings:
     tol: float = 1e-6
     max_rounds: int = 12
     accept_tol: float = 1e-4
-    max_new_states: int = 64
+    max_new_states: int = 128
     max_depth: int = 60
     max_cells: int = 400_000
 

@@ -1,0 +1,54 @@
+"""Golden-text test of report.md on a fixed seed (regenerate with EFTSIEVE_REGEN_GOLDEN=1)."""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from eftsieve.check import CheckSettings
+from eftsieve.check_run import run_check
+from eftsieve.fit import Prior
+from eftsieve.report.check_report import check_document
+from eftsieve.report.document import to_html, to_markdown
+from tests.helpers import gaussian_fit, region
+
+GOLDEN = Path(__file__).parent / "golden_check_report.md"
+
+
+def _report() -> str:
+    prior = Prior({"lbar1": "uniform", "lbar2": "uniform"},
+                  {"lbar1": (-10.0, 10.0), "lbar2": (-10.0, 10.0)})
+    fit = gaussian_fit([0.5, 1.1], [[0.5, 0.1], [0.1, 0.2]], name="golden", prior=prior)
+    reg = region(((0, 1), 1.0), ((1, 2), 3.0))
+    res = run_check(fit, reg, CheckSettings(draws=20_000, seed=11), None)
+    return to_markdown(check_document(fit, reg, res.summary, res.worst, {}))
+
+
+def test_report_matches_golden_text():
+    text = _report()
+    if os.environ.get("EFTSIEVE_REGEN_GOLDEN"):
+        GOLDEN.write_text(text)
+    assert text == GOLDEN.read_text()
+
+
+def test_report_states_assumptions_and_the_band():
+    text = _report()
+    assert "What the bounds assume" in text and "Froissart" in text
+    assert "marginal band" in text and "0.001" in text
+    assert "chi-bar-squared" in text
+
+
+def test_html_is_self_contained(tmp_path):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    from matplotlib.figure import Figure
+
+    from eftsieve.report.document import Document, Image
+
+    fig = Figure()
+    fig.add_subplot().plot([0, 1])
+    png = tmp_path / "x.png"
+    fig.savefig(png)
+    html = to_html(Document("t", [Image(png, "x")]))
+    assert "data:image/png;base64," in html and "src='x.png'" not in html
