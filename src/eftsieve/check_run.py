@@ -207,29 +207,34 @@ def gaussian_probability(fit: Fit, region: Region, cmap: CoordinateMap,
     return {"p_inside": res.probability, "p_inside_err": res.std_error, "method": res.method}
 
 
-def prior_probability(fit: Fit, region: Region, cmap: CoordinateMap,
-                      seed: int, n: int = 1_000_000) -> tuple[float | None, float | None, str]:
-    """P_prior(inside) for the fit card's stated prior (independent factors)."""
+def draw_prior(fit: Fit, cmap: CoordinateMap, n: int,
+               rng: np.random.Generator) -> tuple[np.ndarray | None, str]:
+    """n draws of the fit card's prior (independent factors) for the parameters that feed
+    the region, or None with the reason why that is not possible."""
     if fit.prior is None:
-        return None, None, "the fit card states no prior"
-    assert cmap.jacobian is not None or cmap.nonlinear is not None
+        return None, "the fit card states no prior"
     used = (range(len(fit.names)) if cmap.jacobian is None
             else np.nonzero(np.abs(cmap.jacobian).sum(axis=0) > 0)[0])
     missing = [fit.names[i] for i in used if fit.names[i] not in fit.prior.kinds]
     if missing:
-        return None, None, f"no prior stated for {', '.join(missing)}"
-    rng = np.random.default_rng(seed + 3)
+        return None, f"no prior stated for {', '.join(missing)}"
     x = np.zeros((n, len(fit.names)))
     for i in used:
         name = fit.names[i]
         lo, hi = fit.prior.params[name]
-        if fit.prior.kinds[name] == "uniform":
-            x[:, i] = rng.uniform(lo, hi, n)
-        else:
-            x[:, i] = rng.normal(lo, hi, n)
-    inside = region.contains(cmap(x))
-    p = float(inside.mean())
-    return p, math.sqrt(max(p * (1 - p), 1.0 / n) / n), f"prior Monte Carlo, {n} draws"
+        x[:, i] = (rng.uniform(lo, hi, n) if fit.prior.kinds[name] == "uniform"
+                   else rng.normal(lo, hi, n))
+    return x, f"prior Monte Carlo, {n} draws"
+
+
+def prior_probability(fit: Fit, region: Region, cmap: CoordinateMap,
+                      seed: int, n: int = 1_000_000) -> tuple[float | None, float | None, str]:
+    """P_prior(inside) for the fit card's stated prior."""
+    x, why = draw_prior(fit, cmap, n, np.random.default_rng(seed + 3))
+    if x is None:
+        return None, None, why
+    p = float(region.contains(cmap(x)).mean())
+    return p, math.sqrt(max(p * (1 - p), 1.0 / n) / n), why
 
 
 def run_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | None,

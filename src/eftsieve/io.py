@@ -25,20 +25,12 @@ def _umask_mode() -> int:
 
 def atomic_write_bytes(path: str | Path, data: bytes) -> Path:
     """Write bytes to ``path`` atomically (temporary file + rename)."""
-    p = Path(path)
-    p.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
+    def write(tmp: Path) -> None:
+        with open(tmp, "wb") as fh:
             fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
-        os.chmod(tmp, _umask_mode())
-        os.replace(tmp, p)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-    return p
+    return atomic_write_with(path, write)
 
 
 def atomic_write_text(path: str | Path, text: str) -> Path:

@@ -47,23 +47,13 @@ def prior_soft_probability(fit: Fit, region: Region, cmap: CoordinateMap,
                            fu: FacetUncertainty, seed: int,
                            n: int = 200_000) -> tuple[float | None, float | None, str]:
     """E_prior[P(satisfies)] by Monte Carlo over the fit card's prior."""
-    if fit.prior is None:
-        return None, None, "the fit card states no prior"
-    jac = cmap.jacobian
-    used = (range(len(fit.names)) if jac is None
-            else np.nonzero(np.abs(jac).sum(axis=0) > 0)[0])
-    missing = [fit.names[i] for i in used if fit.names[i] not in fit.prior.kinds]
-    if missing:
-        return None, None, f"no prior stated for {', '.join(missing)}"
-    rng = np.random.default_rng(seed + 5)
-    x = np.zeros((n, len(fit.names)))
-    for i in used:
-        name = fit.names[i]
-        a, b = fit.prior.params[name]
-        x[:, i] = (rng.uniform(a, b, n) if fit.prior.kinds[name] == "uniform"
-                   else rng.normal(a, b, n))
+    from eftsieve.check_run import draw_prior
+
+    x, why = draw_prior(fit, cmap, n, np.random.default_rng(seed + 5))
+    if x is None:
+        return None, None, why
     p = prob_satisfies(cmap(x), region, fu)
-    return float(p.mean()), float(p.std() / math.sqrt(n)), f"prior Monte Carlo, {n} draws"
+    return float(p.mean()), float(p.std() / math.sqrt(n)), why
 
 
 def model_statistics(fit: Fit, region: Region, cmap: CoordinateMap, fu: FacetUncertainty,
