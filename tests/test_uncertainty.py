@@ -115,3 +115,35 @@ def test_power_counting_p_inside_differs_and_is_reported():
     assert tu["hard"]["p_inside"] == res.summary["p_inside"]
     assert res.summary["n_inside"] + res.summary["n_outside"] + res.summary["n_uncertain"] \
         + res.summary["n_marginal"] == 20_000
+
+
+def test_soft_refit_1d_against_quadrature():
+    """The refit with log P(x) in the prior reproduces the soft-truncated posterior."""
+    from eftsieve.fit import Prior
+    from eftsieve.impose.refit import run_refit
+    from eftsieve.impose.soft import log_soft_indicator
+
+    mu, s0, b, sig = 1.5, 0.5, 1.6, 0.3
+    prior = Prior({"lbar1": "uniform", "lbar2": "uniform"},
+                  {"lbar1": (-10.0, 10.0), "lbar2": (-10.0, 10.0)})
+    fit = gaussian_fit([0.0, mu], np.diag([1.0, s0**2]), prior=prior)
+    reg = region(((0, 1), b))
+    fu = facet_uncertainty(reg, UncertaintySettings("fixed", {"test": sig}))
+    cmap = SU2.coordinate_map(fit, reg)
+
+    def loglike(x):
+        return -0.5 * (x[:, 0] ** 2 + ((x[:, 1] - mu) / s0) ** 2)
+
+    settings = ImposeSettings(mode="refit", n_samples=3000, walkers=24, seed=4, progress=False)
+    res = run_refit(fit, reg, cmap, loglike, settings, "toy", None,
+                    log_soft_indicator(reg, cmap, fu))
+
+    def dens(x):
+        return stats.norm.pdf(x, mu, s0) * stats.norm.cdf((x - b) / sig)
+
+    z = integrate.quad(dens, -10, 10)[0]
+    m1 = integrate.quad(lambda x: x * dens(x), -10, 10)[0] / z
+    sd = math.sqrt(integrate.quad(lambda x: x * x * dens(x), -10, 10)[0] / z - m1**2)
+    assert res.summary["converged"] and res.summary["truncation"] == "soft"
+    assert res.samples[:, 1].mean() == pytest.approx(m1, abs=5 * sd / math.sqrt(res.summary["ess"]))
+    assert res.samples[:, 1].min() < b      # soft: points below the hard edge are allowed

@@ -42,6 +42,7 @@ Sec. 3 (there solved as a semi-definite programme over continuous m).
 from __future__ import annotations
 
 import math
+import os
 from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any
@@ -320,11 +321,17 @@ def _lower_poly(a: np.ndarray, aa: np.ndarray, lo: np.ndarray, hi: np.ndarray) -
 
 
 def _bnb(lower_fn: Any, value_fn: Any, lo: np.ndarray, hi: np.ndarray, owner: np.ndarray,
-         n_owner: int, target: float, s: VerifySettings) -> dict[str, Any]:
-    """Branch and bound on cells [lo, hi] (grouped by owner): prove f >= target or find f < target."""
+         n_owner: int, target: float, s: VerifySettings, exact_fn: Any = None
+         ) -> dict[str, Any]:
+    """Branch and bound on cells [lo, hi] (grouped by owner): prove f >= target or find f < target.
+
+    Cells too narrow to split in floating point, or left at the depth/cell limits, are
+    re-bounded by ``exact_fn`` (40-digit arithmetic) when given.
+    """
     best_val = np.full(n_owner, np.inf)
     best_x = np.zeros(n_owner)
-    proven, unresolved = np.inf, False
+    proven = np.inf
+    stuck: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
     for depth in range(s.max_depth + 1):
         for pts in (lo, 0.5 * (lo + hi), hi) if depth == 0 else (0.5 * (lo + hi),):
             val = value_fn(pts, owner)
@@ -338,19 +345,52 @@ def _bnb(lower_fn: Any, value_fn: Any, lo: np.ndarray, hi: np.ndarray, owner: np
         if done.any():
             proven = min(proven, float(lb[done].min()))
         keep = ~done & ~(best_val[owner] < target)
+        narrow = keep & (hi - lo <= 1e-12 * np.maximum(hi, 1e-300))
+        stuck.append((lo[narrow], hi[narrow], owner[narrow]))
+        keep &= ~narrow
         if not keep.any():
             break
-        lo, hi, owner, lb = lo[keep], hi[keep], owner[keep], lb[keep]
+        lo, hi, owner = lo[keep], hi[keep], owner[keep]
         if depth == s.max_depth or 2 * lo.size > s.max_cells:
-            import os
-            if os.environ.get("EFTDBG"):
-                print("UNRES", depth, lo.size, np.unique(owner)[:10], lo[:5], hi[:5], lb[:5], target, value_fn(lo[:5], owner[:5]))
-            unresolved = True
-            proven = min(proven, float(lb.min()))
+            stuck.append((lo, hi, owner))
             break
         mid = 0.5 * (lo + hi)
         lo, hi, owner = np.r_[lo, mid], np.r_[mid, hi], np.r_[owner, owner]
+    lo, hi, owner = (np.concatenate([c[i] for c in stuck]) for i in range(3))
+    unresolved = False
+    if lo.size:
+        alive = ~(best_val[owner] < target)
+        lo, hi, owner = lo[alive], hi[alive], owner[alive]
+    if lo.size:
+        if exact_fn is not None and lo.size <= 2000:
+            lb = exact_fn(lo, hi, owner)
+        else:
+            lb = lower_fn(lo, hi, owner)
+        proven = min(proven, float(lb.min()))
+        unresolved = bool((lb < target).any())
     return {"best_val": best_val, "best_x": best_x, "proven": proven, "unresolved": unresolved}
+
+
+def _mp_spin_lower(c: np.ndarray, spins: np.ndarray, lo: np.ndarray, hi: np.ndarray,
+                   owner: np.ndarray) -> np.ndarray:
+    """:func:`_lower_poly` for the per-spin polynomials, in 40-digit arithmetic."""
+    import mpmath
+
+    n = c.shape[0]
+    out = np.zeros(lo.size)
+    with mpmath.workdps(40):
+        cm = [[mpmath.mpf(float(c[e, l])) for l in range(n)] for e in range(n)]
+        for i in range(lo.size):
+            j = mpmath.mpf(int(spins[owner[i]]) * (int(spins[owner[i]]) + 1))
+            a = [mpmath.fsum(cm[e][l] * j**l for l in range(e + 1)) for e in range(n)]
+            size = mpmath.fsum(abs(cm[e][l]) * j**l for e in range(n) for l in range(e + 1))
+            m, r = (mpmath.mpf(float(lo[i])) + mpmath.mpf(float(hi[i]))) / 2, \
+                (mpmath.mpf(float(hi[i])) - mpmath.mpf(float(lo[i]))) / 2
+            t = [mpmath.fsum(a[e] * math.comb(e, k) * m ** (e - k) for e in range(k, n))
+                 for k in range(n)]
+            low = t[0] - mpmath.fsum(abs(t[k]) * r**k for k in range(1, n))
+            out[i] = float(low - mpmath.mpf(10) ** -30 * size * (1 + m + r) ** n)
+    return out - 1e-15 * np.abs(out)
 
 
 def _spin_cells(j: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -396,8 +436,11 @@ def _scan_spins(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, An
     def value_fn(x: np.ndarray, ow: np.ndarray) -> np.ndarray:
         return (a[ow] * _powers(x, n)).sum(1)
 
+    def exact_fn(lo: np.ndarray, hi: np.ndarray, ow: np.ndarray) -> np.ndarray:
+        return _mp_spin_lower(c, spins, lo, hi, ow)
+
     lo, hi, owner = _spin_cells(j)
-    out = _bnb(lower_fn, value_fn, lo, hi, owner, spins.size, target, s)
+    out = _bnb(lower_fn, value_fn, lo, hi, owner, spins.size, target, s, exact_fn)
     viol = np.flatnonzero(out["best_val"] < target)
     viol = viol[np.argsort(out["best_val"][viol])][: s.max_new_states]
     states = []
@@ -547,15 +590,20 @@ class DirectionalBound:
 
 
 def exact_spectrum(nulls: tuple[StatePolynomial, ...], y: np.ndarray, spin: np.ndarray,
-                   x: np.ndarray, dps: int = 40) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                   x: np.ndarray, support: np.ndarray | None = None, dps: int = 40
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Re-solve <1> = 1, <n_i> = 0 on the support of an LP solution in ``dps``-digit arithmetic.
+
+    ``x`` are the weights; ``support`` (default: x > 1e-11 max x) the states to keep.  A
+    state of tiny weight can matter when its null-constraint values are huge, so callers
+    should pick the support from the scaled LP variables.
 
     Returns the states (y, J) and their weights, all strictly positive, with the residual
     below 10^-(dps - 15) relative to the size of the rows.  Raises SolverError otherwise.
     """
     import mpmath
 
-    keep = np.flatnonzero(x > 1e-11 * x.max())
+    keep = np.flatnonzero(x > 1e-11 * x.max() if support is None else support)
     for _ in range(2):  # a second try without the states that came out non-positive
         with mpmath.workdps(dps):
             a = mpmath.matrix([[mpmath.mpf(1)] * len(keep)]
@@ -658,6 +706,8 @@ class SumRuleSolver:
             lp = solve_lp(obj[use] * col[use], a_eq, b_eq, problem=name)
         weights = np.zeros(self.y.size)
         weights[use] = lp.x * col[use]
+        self._support = np.zeros(self.y.size, dtype=bool)
+        self._support[np.flatnonzero(use)[lp.x > 1e-12 * lp.x.max()]] = True
         return float(lp.dual_eq[0]), solve_triangular(r, lp.dual_eq[1:]), weights
 
     def extremize(self, direction: np.ndarray) -> DirectionalBound:
@@ -689,6 +739,8 @@ class SumRuleSolver:
             if ver.passed or not np.isfinite(low):
                 break
             ver = verify_functional(func, low - s.tol * max(1.0, abs(lam)), s)
+            if os.environ.get("EFTDBG"):
+                print("CERT", ver.passed, ver.lower, ver.best_value, ver.target, ver.extents["unresolved"], len(ver.violations))
         if not ver.passed or lam - ver.lower > s.accept_tol * max(1.0, abs(lam)):
             raise SolverError("unverified", f"dual functional along {d.tolist()} after {rnd} "
                               f"rounds: min {ver.best_value:.8g}, LP value {lam:.8g}")
@@ -723,7 +775,7 @@ class SumRuleSolver:
                ver: Verification, rnd: int) -> DirectionalBound:
         import mpmath
 
-        ys, js, pw = exact_spectrum(self.nulls, self.y, self.spin, weights)
+        ys, js, pw = exact_spectrum(self.nulls, self.y, self.spin, weights, self._support)
         with mpmath.workdps(40):
             point = tuple(float(mpmath.fsum(mpmath.mpf(p) * c.mp_value(a, b, mpmath)
                                             for a, b, p in zip(ys, js, pw, strict=True)))
