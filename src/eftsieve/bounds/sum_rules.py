@@ -53,11 +53,10 @@ from eftsieve.errors import SolverError
 from eftsieve.tolerances import FEASIBILITY_TOL
 
 _EPS = float(np.finfo(float).eps)
-#: domination cut-off in w above which a functional is regularised (see SumRuleSolver._regularise)
-W_REGULAR = 1e5
+#: log10 of w^E beyond which a functional is regularised (see SumRuleSolver._regularise)
+W_REGULAR_LOG10 = 250.0
 #: states with w = y J(J+1) <= W_REF fix the basis of the null constraints in the LP
 W_REF = 200.0
-COL_MIN = 0.0
 _TIGHT = {"primal_feasibility_tolerance": 1e-9, "dual_feasibility_tolerance": 1e-9}
 _LP_STATUS = {0: "optimal", 1: "iteration_limit", 2: "infeasible", 3: "unbounded",
               4: "numerical_difficulties"}
@@ -247,8 +246,8 @@ class VerifySettings:
 
     spin_exact_max: int = 2000
     tol: float = 1e-6
-    max_rounds: int = 12
-    accept_tol: float = 1e-4
+    max_rounds: int = 25
+    accept_tol: float = 1e-3
     max_new_states: int = 128
     max_depth: int = 60
     max_cells: int = 400_000
@@ -693,22 +692,26 @@ class SumRuleSolver:
         rows = solve_triangular(r, self._rows, trans="T")
         self._r = r
         col = 1.0 / np.maximum(1.0, np.maximum(np.abs(rows).max(0), np.abs(obj)))
-        use = col >= COL_MIN
-        a_eq = np.vstack([col[use], rows[:, use] * col[use]])
+        # the state at infinity: the large-w limit of n(y, J)/w^E (leading coefficients);
+        # its dual constraint keeps the functional's leading coefficient non-negative
+        top = solve_triangular(r, self._nc[:, -1, -1], trans="T")
+        top_obj = float(np.tensordot(d, self._cc, 1)[-1, -1])
+        vs = 1.0 / max(float(np.abs(top).max()), abs(top_obj), 1e-300)
+        a_eq = np.vstack([np.r_[col, 0.0], np.hstack([rows * col, (top * vs)[:, None]])])
         a_eq[np.abs(a_eq) < 1e-9] = 0.0  # HiGHS ignores these anyway (small_matrix_value)
         b_eq = np.r_[1.0, np.zeros(len(self.nulls))]
+        cost = np.r_[obj * col, top_obj * vs]
         name = f"sum-rule LP along {d.tolist()}"
         try:
-            lp = solve_lp(obj[use] * col[use], a_eq, b_eq, problem=name, options=_TIGHT)
+            lp = solve_lp(cost, a_eq, b_eq, problem=name, options=_TIGHT)
         except SolverError as err:  # tight tolerances can stall HiGHS: retry with defaults
             if err.status not in ("numerical_difficulties", "inaccurate"):
                 raise
-            lp = solve_lp(obj[use] * col[use], a_eq, b_eq, problem=name)
-        weights = np.zeros(self.y.size)
-        weights[use] = lp.x * col[use]
-        self._support = np.zeros(self.y.size, dtype=bool)
-        self._support[np.flatnonzero(use)[lp.x > 1e-12 * lp.x.max()]] = True
-        return float(lp.dual_eq[0]), solve_triangular(r, lp.dual_eq[1:]), weights
+            lp = solve_lp(cost, a_eq, b_eq, problem=name)
+        self._support = lp.x > 1e-12 * lp.x.max()
+        self._at_infinity = float(lp.x[-1] * vs) if self._support[-1] else 0.0
+        self._support = self._support[:-1]
+        return float(lp.dual_eq[0]), solve_triangular(r, lp.dual_eq[1:]), lp.x[:-1] * col
 
     def extremize(self, direction: np.ndarray) -> DirectionalBound:
         """Inner and verified outer values of min d . x; raises SolverError if unverified.
@@ -722,10 +725,12 @@ class SumRuleSolver:
         s = self.settings
         for rnd in range(1, s.max_rounds + 1):
             lam, mult, weights = self._solve_grid(d)
-            mult = self._regularise(np.tensordot(d, self._cc, 1), mult)
+            lam, mult = self._refine_dual(d, lam, mult)
+            if (d @ self._crd).min() >= lam - s.tol * max(1.0, abs(lam)):
+                mult = np.zeros_like(mult)  # the objective alone is the functional
+            mult = self._regularise(np.tensordot(d, self._cc, 1), self._clean(mult, s.tol))
             func = np.tensordot(d, self._cc, 1) - np.tensordot(mult, self._nc, 1)
             ver = verify_functional(func, lam - s.tol * max(1.0, abs(lam)), s)
-            import os
             if os.environ.get("EFTDBG"):
                 print(rnd, lam, ver.best_value, ver.best_state, len(ver.violations), ver.extents["unresolved"], self.y.size)
             if ver.passed:
@@ -746,6 +751,51 @@ class SumRuleSolver:
                               f"rounds: min {ver.best_value:.8g}, LP value {lam:.8g}")
         return self._bound(d, lam, mult, weights, ver, rnd)
 
+    def _refine_dual(self, d: np.ndarray, lam: float, mult: np.ndarray
+                     ) -> tuple[float, np.ndarray]:
+        """Complementary slackness in 40 digits: B(s) = lam exactly on the LP's support.
+
+        The LP's multipliers come through an ill-conditioned change of basis; the smallest
+        (row-scaled) correction that makes the functional touch lam at every support state
+        restores the accuracy lost there.  Skipped when the support equations are singular.
+        """
+        import mpmath
+
+        idx = np.flatnonzero(self._support)
+        scale = np.r_[1.0, np.maximum(np.abs(self._rows[:, idx]).max(1), 1e-300)] ** -1.0
+        with mpmath.workdps(40):
+            polys = [None, *self.nulls]
+            a = mpmath.matrix([[mpmath.mpf(1) if p is None else p.mp_value(self.y[i],
+                                self.spin[i], mpmath) for i in idx] for p in polys])
+            obj = [mpmath.fsum(mpmath.mpf(float(dk)) * c.mp_value(self.y[i], self.spin[i],
+                                                                    mpmath)
+                               for dk, c in zip(d, self.coordinates, strict=True)) for i in idx]
+            u0 = [mpmath.mpf(lam)] + [mpmath.mpf(float(m)) for m in mult]
+            ad = mpmath.matrix([[a[r, k] * scale[r] for r in range(a.rows)]
+                                for k in range(a.cols)])  # (k, m) = A_S^T D
+            res = mpmath.matrix([obj[k] - mpmath.fsum(u0[r] * a[r, k] for r in range(a.rows))
+                                 for k in range(a.cols)])
+            try:
+                v = ad.T * mpmath.lu_solve(ad * ad.T, res)
+            except ZeroDivisionError:
+                return lam, mult
+            u = [float(u0[r] + scale[r] * v[r]) for r in range(a.rows)]
+        if abs(u[0] - lam) > 1e-6 * max(1.0, abs(lam)):  # a singular support: keep the LP's
+            return lam, mult
+        return u[0], np.array(u[1:])
+
+    def _clean(self, mult: np.ndarray, tol: float) -> np.ndarray:
+        """Zero the multipliers whose terms stay below tol/100 on every state with w <= W_REF.
+
+        Such multipliers are LP noise (the bound does not need those null constraints);
+        left in, they decide the functional's sign as J -> infinity.
+        """
+        w = self.y * self.spin * (self.spin + 1.0)
+        size = np.abs(self._rows[:, w <= W_REF]).max(1)
+        out = mult.copy()
+        out[np.abs(mult) * size < 1e-2 * tol] = 0.0
+        return out
+
     def _regularise(self, obj: np.ndarray, mult: np.ndarray) -> np.ndarray:
         """Make the functional grow at large w (J -> infinity) if the LP left it flat there.
 
@@ -753,21 +803,22 @@ class SumRuleSolver:
         precision when the optimum does not need it.  Adding eps times the null
         combination with unit leading coefficient that is smallest on the reference states
         (least squares in the LP's orthonormal basis), with the smallest eps = 10^k that
-        puts the domination cut-off below ``W_REGULAR``, fixes the sign; the verification
+        puts the domination cut-off below w_max = 10^(250/E), fixes the sign; the verification
         then accounts for its effect exactly.
         """
+        w_max = 10.0 ** (W_REGULAR_LOG10 / (self.size - 1))  # w^E stays far from overflow
         cut = _tail_cutoff(obj - np.tensordot(mult, self._nc, 1))
-        if cut is not None and cut <= W_REGULAR:
+        if cut is not None and cut <= w_max:
             return mult
         from scipy.linalg import solve_triangular
 
         top = self._nc[:, -1, -1]
         beta = solve_triangular(self._r, top, trans="T")
         alpha = solve_triangular(self._r, beta) / float(beta @ beta)
-        for k in range(-80, 20):
+        for k in range(-300, 20):
             trial = mult - 10.0**k * alpha
             cut = _tail_cutoff(obj - np.tensordot(trial, self._nc, 1))
-            if cut is not None and cut <= W_REGULAR:
+            if cut is not None and cut <= w_max:
                 return trial
         return mult
 
@@ -775,7 +826,13 @@ class SumRuleSolver:
                ver: Verification, rnd: int) -> DirectionalBound:
         import mpmath
 
-        ys, js, pw = exact_spectrum(self.nulls, self.y, self.spin, weights, self._support)
+        y, spin, x, sup = self.y, self.spin, weights, self._support
+        if self._at_infinity:  # the LP used the state at infinity: a real state far out
+            big = 100_000
+            wbig = big * (big + 1.0)
+            y, spin = np.r_[y, 1.0], np.r_[spin, big]
+            x, sup = np.r_[x, self._at_infinity / wbig ** (self.size - 1)], np.r_[sup, True]
+        ys, js, pw = exact_spectrum(self.nulls, y, spin, x, sup)
         with mpmath.workdps(40):
             point = tuple(float(mpmath.fsum(mpmath.mpf(p) * c.mp_value(a, b, mpmath)
                                             for a, b, p in zip(ys, js, pw, strict=True)))

@@ -34,7 +34,8 @@ def region_block(region: Region) -> list:
     conv = ", ".join(f"{k} = {v}" for k, v in region.convention.items())
     rows = []
     for i, f in enumerate(region.facets):
-        pt = ", ".join(f"{k} = {0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in f.point.items())
+        pt = ", ".join(f"{k} = {v:g}" if k.endswith("_mev") else
+                       f"{k} = {0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in f.point.items())
         rows.append((str(i), f.inequality(region.coordinates), f.family, f.channel, pt,
                      f.status))
     blocks = [Heading("Region"),

@@ -157,6 +157,10 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
     if engine not in ENGINES:
         raise InputError(None, "--engine", f"unknown engine '{engine}'",
                          f"use one of {', '.join(ENGINES)}")
+    if engine == "dask":
+        from eftsieve.scale.dask_engine import require_dask
+
+        require_dask()
     if engine == "local" and scheduler is not None:
         raise InputError(None, "--scheduler", "a scheduler address needs the dask engine",
                          "add --engine dask, or drop --scheduler")

@@ -30,6 +30,7 @@ from eftsieve.scale.exact import (
     absorb,
     apply_map,
     block_sums,
+    check_accumulator_layout,
     empty_ranked,
     iter_blocks,
     sample_keys,
@@ -303,6 +304,7 @@ class CheckMerger:
                  parts: tuple[FilePart, ...], flagged: FlaggedWriter | None) -> None:
         self.fit, self.region, self.settings, self.parts = fit, region, settings, parts
         self.flagged = flagged
+        check_accumulator_layout()
         self.acc = Accumulator(region.dim)
         self.worst = empty_worst(region.dim)
         assert fit.samples is not None

@@ -327,7 +327,7 @@ def low_energy_amplitude(couplings: dict[str, float], s: np.ndarray, t: np.ndarr
 # ---- regions --------------------------------------------------------------------------------
 DEFAULTS: dict[str, Any] = {
     "order": 10, "spins": 40, "coordinates": ["g3t"], "directions": 64, "mass_points": 120,
-    "y_min": 1e-4, "spin_exact_max": 2000, "verify_tol": 1e-6, "max_rounds": 12,
+    "y_min": 1e-4, "spin_exact_max": 2000, "verify_tol": 1e-6, "max_rounds": 25,
 }
 
 
