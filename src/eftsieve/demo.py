@@ -61,7 +61,15 @@ def cmd_demo(args: argparse.Namespace) -> int:
     for verb, card, sub in steps:
         extra = ["--no-progress"] if verb == "impose" else []
         _run([verb, str(ex / card), "--region", str(region), "-o", str(out / sub), *extra])
+    _run(["check", str(ex / "aurora_gaussian.yaml"), "--region", str(region), "-o",
+          str(out / "check_gaussian_theory_uncertainty"), "--theory-uncertainty",
+          "power-counting", "--draws", "50000"])
     _report(out)
+    tu = json.loads((out / "check_gaussian_theory_uncertainty" / "summary.json").read_text())
+    t = tu["theory_uncertainty"]
+    print(f"  with the power-counting truncation model: p_inside = {t['p_inside']:.3f} "
+          f"(hard edges {t['hard']['p_inside']:.3f}), {t['n_uncertain']} of {tu['n_total']} "
+          f"draws uncertain; report {out / 'check_gaussian_theory_uncertainty' / 'report.html'}")
     scalar = ex / "scalar_gaussian.yaml"
     if scalar.is_file():
         _run(["check", str(scalar), "-o", str(out / "check_scalar"), "--draws", "50000"])
