@@ -35,7 +35,7 @@ DEFAULT_MU_MEV = 770.0
 #: gamma_i of Gasser & Leutwyler, Ann. Phys. 158 (1984) 142, Eq. (9.7), for l_1..l_4.
 GAMMA_SU2 = {1: 1.0 / 3.0, 2: 2.0 / 3.0, 3: -0.5, 4: 2.0}
 
-CONVENTION_NAMES = ("lbar", "lr", "projective", "dimensionful", "none")
+CONVENTION_NAMES = ("lbar", "lr", "Lr", "projective", "dimensionful", "none")
 
 
 @dataclass(frozen=True)
@@ -72,6 +72,8 @@ class Convention:
             return f"lbar at M_pi = {self.pion_mass_mev:g} MeV"
         if self.name == "lr":
             return f"l^r(mu) at mu = {self.mu_mev:g} MeV"
+        if self.name == "Lr":
+            return f"SU(3) L_i^r(mu) at mu = {self.mu_mev:g} MeV"
         if self.name == "dimensionful":
             return f"dimensionful coefficients with mass gap M = {self.gap_mev:g} MeV"
         if self.name == "projective":

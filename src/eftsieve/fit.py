@@ -27,7 +27,8 @@ from eftsieve.samples import SamplesSource, detect_format
 from eftsieve.tolerances import PSD_TOL, SYMMETRY_TOL
 
 FORMAT_VERSION = 1
-KINEMATIC_KEYS = ("pion_mass_mev", "fpi_mev", "mu_mev", "gap_mev")
+KINEMATIC_KEYS = ("pion_mass_mev", "fpi_mev", "mu_mev", "gap_mev", "kaon_mass_mev",
+                  "eta_mass_mev")
 
 
 @dataclass(frozen=True)
@@ -239,12 +240,12 @@ def parse_convention(raw: Any, kin: dict[str, float], path: Path | None, where: 
             raise InputError(path, where, "convention 'lbar' needs the pion mass it is defined at",
                              "add kinematics.pion_mass_mev (MeV)")
         return Convention("lbar", pion_mass_mev=_positive(m, path, where + ".pion_mass_mev"))
-    if raw == "lr":
+    if raw in ("lr", "Lr"):
         mu = extra.get("mu_mev", kin.get("mu_mev"))
         if mu is None:
-            raise InputError(path, where, "convention 'lr' needs its renormalisation scale",
+            raise InputError(path, where, f"convention '{raw}' needs its renormalisation scale",
                              "add kinematics.mu_mev (MeV)")
-        return Convention("lr", mu_mev=_positive(mu, path, where + ".mu_mev"))
+        return Convention(raw, mu_mev=_positive(mu, path, where + ".mu_mev"))
     if raw == "dimensionful":
         gap = extra.get("gap_mev", kin.get("gap_mev"))
         if gap is None:

@@ -13,6 +13,7 @@ from eftsieve.theories.base import Theory
 _REGISTRY = {
     "chpt-su2": "eftsieve.theories.chpt_su2",
     "scalar-eft": "eftsieve.theories.scalar_eft",
+    "chpt-su3": "eftsieve.theories.chpt_su3",
 }
 
 
