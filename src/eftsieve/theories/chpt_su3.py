@@ -165,13 +165,23 @@ class ChptSU3(Theory):
     families = FAMILIES
 
     def build_region(self, settings: dict[str, Any]) -> Region:
+        settings = dict(settings)
+        if "pion_masses_mev" in settings:  # the CLI's --pion-mass
+            masses = list(settings.pop("pion_masses_mev"))
+            if len(masses) != 1:
+                raise InputError(None, "--pion-mass", "chpt-su3 takes one pion mass",
+                                 "give a single --pion-mass")
+            settings["pion_mass_mev"] = masses[0]
+        if settings.pop("convention", "Lr") not in ("Lr", "lr"):
+            raise InputError(None, "--convention", "chpt-su3 regions are in L_i^r(mu)",
+                             "use --convention lr (or omit it) with --scale MEV")
         keys = ("families", "pion_mass_mev", "kaon_mass_mev", "eta_mass_mev", "mu_mev",
                 "fpi_mev", "grid", "loops", "processes")
         unknown = set(settings) - set(keys)
         if unknown:
             raise InputError(None, "settings", f"unknown setting(s) {sorted(unknown)}",
                              f"use {', '.join(keys)}")
-        kw = {k: (tuple(v) if k in ("families", "processes") else v)
+        kw: dict[str, Any] = {k: (tuple(v) if k in ("families", "processes") else v)
               for k, v in settings.items()}
         st = region_settings(**kw)
         facets, skipped = channel_facets(st)

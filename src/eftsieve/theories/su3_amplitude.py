@@ -200,7 +200,7 @@ def _bubble_basis(legs: tuple[int, int, int, int], var: int, mext: tuple[float, 
     e0, ev = _unit(0), _unit(var)
     mi2, mj2, mk2, ml2 = (mext[p] ** 2 for p in (i, j, k, m4))
     me2, mf2 = m_e**2, m_f**2
-    dots = _dot_forms(tuple(np.float64(m) for m in mext))
+    dots = _dot_forms(tuple(np.float64(m) for m in mext))  # type: ignore[misc]
     c1 = [e0, ev, (mi2 + me2) * e0, (mj2 + me2) * e0]
     w1 = [0 * e0, 0 * e0, -(ev + (mi2 - mj2) * e0), -(ev + (mj2 - mi2) * e0)]
     c2 = [e0, ev, (me2 + mk2) * e0, (me2 + ml2) * e0]
