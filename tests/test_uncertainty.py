@@ -14,7 +14,10 @@ from eftsieve.impose.core import ImposeSettings
 from eftsieve.impose.soft import soft_exact
 from eftsieve.theories import get_theory
 from eftsieve.uncertainty import (
-    UncertaintySettings, facet_uncertainty, prob_satisfies, scale_posterior,
+    UncertaintySettings,
+    facet_uncertainty,
+    prob_satisfies,
+    scale_posterior,
     verdicts_from_probability,
 )
 from tests.helpers import gaussian_fit, region

@@ -27,7 +27,10 @@ from eftsieve.samples import Chunk
 from eftsieve.stats import Accumulator, bayes_factor, tension
 from eftsieve.theories.base import CoordinateMap
 from eftsieve.uncertainty import (
-    FacetUncertainty, UncertaintySettings, facet_uncertainty, prob_satisfies,
+    FacetUncertainty,
+    UncertaintySettings,
+    facet_uncertainty,
+    prob_satisfies,
     verdicts_from_probability,
 )
 

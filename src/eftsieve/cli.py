@@ -121,8 +121,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``eftsieve`` command."""
     parser = build_parser()
     args = parser.parse_args(argv)
-    logging.basicConfig(level=logging.DEBUG if args.debug else logging.WARNING,
-                        format="%(levelname)s %(name)s: %(message)s")
+    level = logging.DEBUG if args.debug else logging.WARNING
+    logging.basicConfig(level=level, format="%(levelname)s %(name)s: %(message)s")
+    for handler in logging.getLogger().handlers:  # libraries' INFO chatter stays quiet
+        handler.setLevel(level)
     if args.verb is None:
         parser.print_help()
         return 2
@@ -141,6 +143,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("eftsieve: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # the reader of our output went away (e.g. `| head`)
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 141
     except Exception as err:  # an internal error: say so, point to --debug
         if args.debug:
             raise

@@ -15,8 +15,13 @@ from eftsieve.tolerances import MARGINAL_BAND
 EXIT_BELOW_THRESHOLD = 6
 
 
-def add_fit_args(p: argparse.ArgumentParser) -> None:
-    p.add_argument("fit", help="fit card (.yaml/.json) or a bare samples file (.csv/.parquet/.nc)")
+def add_fit_args(p: argparse.ArgumentParser, many: bool = False) -> None:
+    if many:
+        p.add_argument("fit", nargs="+", help="fit card(s) (.yaml/.json) or a bare samples "
+                       "file (.csv/.parquet/.nc, a directory or glob of Parquet files)")
+    else:
+        p.add_argument("fit", help="fit card (.yaml/.json) or a bare samples file "
+                       "(.csv/.parquet/.nc)")
     p.add_argument("--region", default=None, help="region file (default: build from the fit)")
     p.add_argument("-o", "--output", default=None, metavar="DIR", help="output directory")
     p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
@@ -42,7 +47,12 @@ def add_fit_args(p: argparse.ArgumentParser) -> None:
 
 def add_check_parser(sub: Any) -> None:
     p = sub.add_parser("check", help="classify a fit against a region, with statistics")
-    add_fit_args(p)
+    add_fit_args(p, many=True)
+    p.add_argument("--engine", choices=["local", "dask"], default=None,
+                   help="dask: classify Parquet files partition by partition on a cluster "
+                        "(needs the [dask] extra); default: one process")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="dask scheduler address (default: a local cluster of 2 workers)")
     p.add_argument("--draws", type=int, default=200_000,
                    help="draws from a Gaussian summary (default 200000)")
     p.add_argument("--band", type=float, default=MARGINAL_BAND,
@@ -61,7 +71,7 @@ def load_fit_arg(args: argparse.Namespace):
     from eftsieve.fit import fit_from_samples, load_fit
 
     path = Path(args.fit)
-    if path.suffix.lower() in {".yaml", ".yml", ".json"}:
+    if path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir():
         return load_fit(path)
     if not args.theory or not args.convention:
         raise InputError(path, None, "a bare samples file needs its theory and convention",
@@ -138,11 +148,59 @@ def _inputs(fit, args) -> list:
 
 
 def cmd_check(args: argparse.Namespace) -> int:
+    """``eftsieve check``: one fit, or several cards with one summary table."""
+    if len(args.fit) > 1:
+        return cmd_check_many(args)
+    args.fit = args.fit[0]
+    return cmd_check_one(args)
+
+
+def cmd_check_many(args: argparse.Namespace) -> int:
     from eftsieve.check import CheckSettings
-    from eftsieve.check_run import run_check
-    from eftsieve.io import atomic_write_json, atomic_write_text, guard_inputs
+    from eftsieve.region import Region
+    from eftsieve.scale.many import check_many
+
+    if uncertainty_from_args(args) is not None:
+        from eftsieve.errors import InputError
+
+        raise InputError(None, "--theory-uncertainty", "several cards run without a "
+                         "theory-uncertainty model", "check the cards one at a time")
+    outdir = Path(args.output or "checks")
+    settings = CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
+                             chunk_rows=args.chunk_rows)
+    many = check_many([Path(f) for f in args.fit], settings, outdir,
+                      region=Region.load(args.region) if args.region else None,
+                      region_path=args.region, engine=args.engine or "local",
+                      scheduler=args.scheduler,
+                      loader=lambda p: load_fit_arg(argparse.Namespace(**{**vars(args),
+                                                                          "fit": str(p)})))
+    for fit, res, d in zip(many.fits, many.results, many.outdirs, strict=True):
+        _write_check_outputs(fit, res, d, args.no_plots)
+    print(f"checked {len(many.fits)} fits; table {many.table}")
+    for row in many.rows:
+        print("  " + ", ".join(f"{k}={v}" for k, v in row.items()
+                               if k in ("fit", "n_total", "p_inside", "tension_sigma")))
+    below = [r for r in many.rows if args.fail_below is not None
+             and float(r["p_inside"]) < args.fail_below]
+    return EXIT_BELOW_THRESHOLD if below else 0
+
+
+def _write_check_outputs(fit, result, outdir: Path, no_plots: bool) -> None:
+    from eftsieve.io import atomic_write_json, atomic_write_text
     from eftsieve.report.check_report import check_document
     from eftsieve.report.document import to_html, to_markdown
+
+    images = {} if no_plots else check_plots(result, fit, outdir)
+    atomic_write_json(outdir / "summary.json", result.summary)
+    doc = check_document(fit, result.region, result.summary, result.worst, images)
+    atomic_write_text(outdir / "report.md", to_markdown(doc))
+    atomic_write_text(outdir / "report.html", to_html(doc))
+
+
+def cmd_check_one(args: argparse.Namespace) -> int:
+    from eftsieve.check import CheckSettings
+    from eftsieve.check_run import run_check
+    from eftsieve.io import guard_inputs
 
     fit = load_fit_arg(args)
     outdir = Path(args.output or f"{Path(args.fit).stem}_check")
@@ -154,12 +212,15 @@ def cmd_check(args: argparse.Namespace) -> int:
     settings = CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
                              chunk_rows=args.chunk_rows)
     unc = uncertainty_from_args(args)
-    result = run_check(fit, region, settings, outdir, rpath, unc)
-    images = {} if args.no_plots else check_plots(result, fit, outdir)
-    atomic_write_json(outdir / "summary.json", result.summary)
-    doc = check_document(fit, region, result.summary, result.worst, images)
-    atomic_write_text(outdir / "report.md", to_markdown(doc))
-    atomic_write_text(outdir / "report.html", to_html(doc))
+    multi = fit.samples is not None and fit.samples.is_multi_file
+    if args.engine or args.scheduler or multi:
+        from eftsieve.scale.local_engine import check_with_engine
+
+        result = check_with_engine(args.engine or "local", fit, region, settings, outdir, rpath,
+                                   scheduler=args.scheduler, uncertainty=unc)
+    else:
+        result = run_check(fit, region, settings, outdir, rpath, unc)
+    _write_check_outputs(fit, result, outdir, args.no_plots)
     s = result.summary
     print(f"checked {s['n_total']} points of '{fit.name}' against {region.theory} "
           f"({len(region.facets)} facets, region {rpath})")

@@ -178,10 +178,11 @@ def fit_from_samples(
     Columns that the theory knows get ``convention``; the others are carried through as
     nuisance parameters (convention ``none``).
     """
+    from eftsieve.samples import is_multi_file_path
     from eftsieve.theories import get_theory
 
     p = Path(path)
-    if not p.is_file():
+    if not (p.is_file() or is_multi_file_path(p)):
         raise InputError(p, None, "file not found", "check the path")
     th = get_theory(theory)
     probe = SamplesSource(p, detect_format(p, None, "--samples"), ())

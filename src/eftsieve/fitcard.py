@@ -150,8 +150,10 @@ def _samples(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> Sample
     spec = card["samples"]
     if not isinstance(spec, dict) or not isinstance(spec.get("path"), str):
         raise InputError(path, "samples.path", "missing or not a string", "give the file path")
+    from eftsieve.samples import is_multi_file_path
+
     file = (path.parent / spec["path"]).resolve()
-    if not file.is_file():
+    if not (file.is_file() or is_multi_file_path(file)):
         raise InputError(path, "samples.path", f"file not found: {file}",
                          "paths are relative to the card")
     try:

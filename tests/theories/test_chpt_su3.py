@@ -610,7 +610,9 @@ def test_validate_fit_rejects_bad_cards():
     with pytest.raises(InputError, match="not one of chpt-su3"):
         THEORY.validate_fit(_fit(770.0, conv="lbar"))
     with pytest.raises(InputError, match="unknown setting"):
-        THEORY.build_region({"pion_masses_mev": [139.57]})
+        THEORY.build_region({"order": 4})
+    with pytest.raises(InputError, match="one pion mass"):
+        THEORY.build_region({"pion_masses_mev": [139.57, 200.0]})
 
 
 def test_region_file_round_trip(region, tmp_path):

@@ -27,7 +27,7 @@ import uuid
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -40,7 +40,7 @@ from eftsieve.samples import FilePart
 from eftsieve.scale.local_engine import gaussian_result, prepare
 from eftsieve.scale.partition import (
     CheckMerger,
-    PartitionFailure,
+    InputFailure,
     PartitionJob,
     TaskFailedError,
     describe_part,
@@ -61,17 +61,35 @@ def require_dask() -> None:
                          "pip install 'eftsieve[dask]'") from err
 
 
+def local_cluster(n_workers: int = LOCAL_WORKERS) -> Any:
+    """A ``LocalCluster`` of single-threaded worker processes on the loopback interface,
+    without a dashboard.
+
+    The workers keep distributed's single-threaded BLAS settings but not its
+    ``MALLOC_TRIM_THRESHOLD_``: that setting switches off glibc's adaptive mmap threshold,
+    so every large temporary array is mapped and zero-filled afresh, which made a check
+    about twice as slow (see docs/scaleout.md).
+    """
+    import dask
+    from distributed import LocalCluster
+
+    env = dict(dask.config.get("distributed.nanny.pre-spawn-environ", default={}) or {})
+    env.pop("MALLOC_TRIM_THRESHOLD_", None)
+    with dask.config.set({"distributed.nanny.pre-spawn-environ": env}):
+        return LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
+                            dashboard_address=None, host="127.0.0.1")
+
+
 @contextmanager
 def connect(scheduler: str | None = None, *, connect_timeout: float = CONNECT_TIMEOUT
             ) -> Iterator[Any]:
     """A ``distributed.Client``: to ``scheduler``, or to a new local cluster of
     :data:`LOCAL_WORKERS` single-threaded worker processes (closed on exit)."""
     require_dask()
-    from distributed import Client, LocalCluster
+    from distributed import Client
 
     if scheduler is None:
-        cluster = LocalCluster(n_workers=LOCAL_WORKERS, threads_per_worker=1, processes=True,
-                               dashboard_address=None)
+        cluster = local_cluster()
         try:
             with Client(cluster, timeout=connect_timeout) as client:
                 yield client
@@ -107,8 +125,12 @@ def wait_result(future: Any, task: str, timeout: float | None, retries: int) -> 
                               f"allowed attempt ({err})", "give the workers more memory or "
                               "split the file; see the workers' logs") from err
     except TimeoutError as err:
-        raise TaskFailedError(task, f"no result within {timeout:g} s",
-                              "raise the timeout, or check that workers are running") from err
+        if timeout is None:  # raised by the task itself
+            raise TaskFailedError(task, f"failed after {retries + 1} attempt(s): "
+                                  f"TimeoutError: {err}", "see the workers' logs") from err
+        raise TaskFailedError(task, f"no result within {timeout:g} s (or the task itself "
+                              f"timed out: {err})", "raise the timeout, or check that "
+                              "workers are running") from err
     except (asyncio.CancelledError, concurrent.futures.CancelledError) as err:
         raise TaskFailedError(task, "was cancelled (the client lost the scheduler, or the "
                               "scheduler lost the task)", "rerun; check the cluster") from err
@@ -119,7 +141,7 @@ def wait_result(future: Any, task: str, timeout: float | None, retries: int) -> 
 
 
 def cancel(futures: Sequence[Any]) -> None:
-    """Cancel the futures that are still pending (best effort, never raises)."""
+    """Cancel the futures that are still pending (best effort, on the way out of an error)."""
     pending = [f for f in futures if f is not None and not f.done()]
     if pending:
         pending[0].client.cancel(pending)
@@ -165,10 +187,13 @@ def submit_check(client: Any, fit: Fit, region: Region, settings: CheckSettings,
 
     assert fit.samples is not None
     cmap = prepare(fit, region, region_path)
-    parts = fit.samples.file_parts()
+    # workers may run in another directory: send absolute paths
+    source = replace(fit.samples, path=fit.samples.path.absolute())
+    fit = replace(fit, samples=source)
+    parts = tuple(replace(p, path=p.path.absolute()) for p in source.file_parts())
     token = f"eftsieve-check-{uuid.uuid4().hex[:12]}"
     task = dask.delayed(partition_task, pure=False)
-    jobs = [PartitionJob(p, fit.samples, region, cmap, settings, write_flagged) for p in parts]
+    jobs = [PartitionJob(p, fit, region, cmap, settings, write_flagged) for p in parts]
     values = [task(job, hook, dask_key_name=(token, job.part.index)) for job in jobs]
     futures = list(client.compute(values, retries=retries))
     engine = {"name": "dask", "scheduler": str(client.scheduler.address),
@@ -184,9 +209,12 @@ def collect_check(sub: SubmittedCheck, outdir: Path | None,
     merger = CheckMerger(sub.fit, sub.region, sub.settings, sub.parts, flagged)
     try:
         for i, part in enumerate(sub.parts):
-            res = wait_result(sub.futures[i], describe_part(part, len(sub.parts)),
-                              partition_timeout, retries)
-            if isinstance(res, PartitionFailure):
+            try:
+                res = wait_result(sub.futures[i], describe_part(part, len(sub.parts)),
+                                  partition_timeout, retries)
+            except TaskFailedError as err:
+                raise with_other_failures(err, sub, i) from err.__cause__
+            if isinstance(res, InputFailure):
                 raise res.error()
             merger.add_partition(res)
             sub.futures[i].release()
@@ -200,6 +228,18 @@ def collect_check(sub: SubmittedCheck, outdir: Path | None,
     if flagged:
         flagged.commit()
     return result
+
+
+def with_other_failures(err: TaskFailedError, sub: SubmittedCheck, i: int
+                        ) -> TaskFailedError:
+    """``err``, also naming the other partitions that have failed by now."""
+    others = [describe_part(p, len(sub.parts)) for j, (p, f) in
+              enumerate(zip(sub.parts, sub.futures, strict=True))
+              if j != i and f is not None and f.status == "error"]
+    if not others:
+        return err
+    return TaskFailedError(err.task, f"{err.problem}; also failed by now: {', '.join(others)}",
+                           err.hint)
 
 
 def dask_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | None,
@@ -272,7 +312,7 @@ class RegionTask:
 
 
 def build_region_task(theory: str, settings: dict[str, Any]
-                      ) -> tuple[Region, list[tuple[type[Warning], str]]] | PartitionFailure:
+                      ) -> tuple[Region, list[tuple[type[Warning], str]]] | InputFailure:
     """Build one region on a worker; its warnings are returned to be re-issued."""
     from eftsieve.theories import get_theory
 
@@ -281,9 +321,9 @@ def build_region_task(theory: str, settings: dict[str, Any]
         try:
             region = get_theory(theory).build_region(settings)
         except InputError as err:
-            return PartitionFailure(-1, err.path, err.field, err.problem, err.hint)
+            return InputFailure(-1, err.path, err.field, err.problem, err.hint)
         except KeyError as err:
-            return PartitionFailure(-1, None, "theory", str(err.args[0]),
+            return InputFailure(-1, None, "theory", str(err.args[0]),
                                     "run `eftsieve theories`")
     return region, [(w.category, str(w.message)) for w in caught]
 
@@ -298,6 +338,7 @@ def parallel_region_builds(tasks: Sequence[RegionTask | tuple[str, dict[str, Any
     A build that fails after ``retries`` retries raises
     :class:`~eftsieve.scale.partition.TaskFailedError` naming it.
     """
+    require_dask()
     todo = [t if isinstance(t, RegionTask) else RegionTask(t[0], dict(t[1])) for t in tasks]
     if not todo:
         return []
@@ -318,7 +359,7 @@ def region_builds_on(client: Any, todo: Sequence[RegionTask], *, retries: int = 
     try:
         for i, (t, fut) in enumerate(zip(todo, futures, strict=True)):
             res = wait_result(fut, t.name(i, len(todo)), timeout, retries)
-            if isinstance(res, PartitionFailure):
+            if isinstance(res, InputFailure):
                 raise res.error()
             region, caught = res
             for category, message in caught:

@@ -39,7 +39,6 @@ from eftsieve.samples import Chunk
 from eftsieve.stats import BLOCK, Accumulator
 from eftsieve.theories.base import CoordinateMap
 
-
 #: the fields of :class:`~eftsieve.stats.Accumulator` that :func:`absorb` knows how to add
 #: (the others are its configuration and its buffer of pending rows)
 ACCUMULATOR_SUMS = ("n_total", "counts", "sw", "sw2", "sw_in", "sw_in_inner", "sw2_in",
@@ -217,9 +216,9 @@ def sample_keys(seed: int, start: int) -> np.random.Generator:
     stream that :func:`eftsieve.check_run.run_check` uses); PCG64 advances exactly one
     step per double, so a partition can jump to its first row.
     """
-    rng = np.random.default_rng(seed + 1)
-    rng.bit_generator.advance(start)
-    return rng
+    bits = np.random.PCG64(seed + 1)  # what default_rng(seed + 1) uses
+    bits.advance(start)
+    return np.random.Generator(bits)
 
 
 @dataclass(frozen=True)

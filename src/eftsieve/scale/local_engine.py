@@ -78,7 +78,7 @@ def local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path 
     merger = CheckMerger(fit, region, settings, parts, flagged)
     try:
         for part in parts:
-            job = PartitionJob(part, fit.samples, region, cmap, settings, flagged is not None)
+            job = PartitionJob(part, fit, region, cmap, settings, flagged is not None)
             res = run_partition(job, sink=merger.add_block)
             merger.end_partition(part.index, part.start, res.n_rows)
         result = merger.result(cmap, region_path, {"name": "local", "workers": 1})
@@ -91,16 +91,28 @@ def local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path 
     return result
 
 
+def refuse_uncertainty(uncertainty: Any) -> None:
+    """The partitioned engines classify with hard facets only; refuse a model."""
+    if uncertainty is not None and getattr(uncertainty, "model", "none") != "none":
+        raise InputError(None, "--theory-uncertainty", "a theory-uncertainty model is not "
+                         "available with the partitioned engines (--engine, multi-file "
+                         "samples)", "check a single samples file without --engine, or "
+                         "drop --theory-uncertainty")
+
+
 def check_with_engine(engine: str, fit: Fit, region: Region, settings: CheckSettings,
                       outdir: Path | None, region_path: str | None = None, *,
                       scheduler: str | None = None, retries: int = 2,
-                      **dask_options: Any) -> CheckResult:
+                      uncertainty: Any = None, **dask_options: Any) -> CheckResult:
     """Run a check with the named engine: ``local`` or ``dask``.
 
     ``scheduler``, ``retries`` and ``dask_options`` (see
     :func:`~eftsieve.scale.dask_engine.dask_check`) apply to ``dask`` only; giving a
-    scheduler with the local engine is an error rather than silently ignored.
+    scheduler with the local engine is an error rather than silently ignored, and so is
+    an ``uncertainty`` model (:class:`eftsieve.uncertainty.UncertaintySettings`) other
+    than ``none``, which only :func:`~eftsieve.check_run.run_check` implements.
     """
+    refuse_uncertainty(uncertainty)
     if engine == "local":
         if scheduler is not None:
             raise InputError(None, "--scheduler", "a scheduler address needs the dask engine",

@@ -3,9 +3,10 @@
 :func:`check_many` loads every card, builds each distinct region once (as distributed
 futures with the Dask engine), checks every fit into its own directory
 ``OUTDIR/<card stem>/`` (flagged.csv, summary.json and, when built, region.json) and
-returns one table row per card, in the order given.  With the Dask engine all cards'
-partitions are submitted before the first is merged, so small cards run side by side.
-:func:`write_summary_table` writes the rows as CSV.
+returns one table row per card, in the order given, also written to
+``OUTDIR/checks.csv`` (:data:`TABLE_NAME`) by :func:`write_summary_table`.  With the Dask
+engine all cards' partitions are submitted before the first is merged, so small cards
+run side by side.
 """
 
 from __future__ import annotations
@@ -26,6 +27,7 @@ from eftsieve.io import atomic_write_json, atomic_write_text, guard_inputs
 from eftsieve.region import Region
 from eftsieve.scale.local_engine import ENGINES, gaussian_result, local_check
 
+TABLE_NAME = "checks.csv"
 SUMMARY_COLUMNS = ("card", "fit", "theory", "n_total", "n_inside", "n_marginal", "n_outside",
                    "p_inside", "p_inside_err", "p_inside_method", "tension_sigma",
                    "tension_p", "bayes_factor", "region_hash", "engine", "outdir")
@@ -45,16 +47,19 @@ class ManyResult:
         The loaded fits.
     outdirs
         Each card's output directory.
+    table
+        The CSV file of the rows.
     """
 
     rows: tuple[dict[str, Any], ...]
     results: tuple[CheckResult, ...]
     fits: tuple[Fit, ...]
     outdirs: tuple[Path, ...]
+    table: Path
 
     def to_dict(self) -> dict[str, Any]:
         return {"rows": [dict(r) for r in self.rows],
-                "outdirs": [str(d) for d in self.outdirs]}
+                "outdirs": [str(d) for d in self.outdirs], "table": str(self.table)}
 
 
 def card_outdirs(cards: Sequence[Path], outdir: Path) -> list[Path]:
@@ -122,7 +127,7 @@ def _regions(fits: Sequence[Fit], dirs: Sequence[Path], region: Region | None,
         from eftsieve.scale.dask_engine import RegionTask, region_builds_on
 
         built = region_builds_on(client, [RegionTask(t, st) for t, st in builds])
-    out = []
+    out: list[tuple[Region, str | None]] = []
     for d, i in zip(dirs, which, strict=True):
         path = d / "region.json"
         built[i].save(path)
@@ -144,7 +149,8 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
     settings
         Check settings, shared by all cards.
     outdir
-        Parent directory; card ``x.yaml`` writes into ``outdir/x/``.
+        Parent directory; card ``x.yaml`` writes into ``outdir/x/``, the table goes to
+        ``outdir/checks.csv``.
     region, region_path
         One region for every card, or None to build each card's default region.
     engine
@@ -169,9 +175,11 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
         raise InputError(None, "FIT", "no fit cards given", "name at least one card")
     dirs = card_outdirs(paths, Path(outdir))
     fits = [(loader or load_fit)(p) for p in paths]
-    for p, d, fit in zip(paths, dirs, fits, strict=True):
-        ins = [p, region_path] + ([fit.samples.path] if fit.samples else [])
-        guard_inputs([d / n for n in ("flagged.csv", "summary.json", "region.json")], ins)
+    ins = [region_path, *paths, *(f.samples.path for f in fits if f.samples)]
+    outs = [Path(outdir) / TABLE_NAME]
+    outs += [d / n for d in dirs for n in ("flagged.csv", "summary.json", "region.json")]
+    guard_inputs(outs, ins)
+    for d in dirs:
         d.mkdir(parents=True, exist_ok=True)
     if engine == "dask":
         results = _check_all_dask(fits, dirs, settings, region, region_path, scheduler,
@@ -184,7 +192,8 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
     for p, d, res in zip(paths, dirs, results, strict=True):
         atomic_write_json(d / "summary.json", res.summary)
         rows.append(table_row(p, d, res.summary))
-    return ManyResult(tuple(rows), tuple(results), tuple(fits), tuple(dirs))
+    table = write_summary_table(rows, Path(outdir) / TABLE_NAME)
+    return ManyResult(tuple(rows), tuple(results), tuple(fits), tuple(dirs), table)
 
 
 def _check_all_dask(fits: Sequence[Fit], dirs: Sequence[Path], settings: CheckSettings,

@@ -2,18 +2,25 @@
 
 :func:`run_partition` checks the rows of one file block by block (see
 :mod:`eftsieve.scale.exact` for the canonical order) and returns everything the client
-needs: the sums of every block, the flagged rows of every block, and the partition's
+needs: the sums of every block, the partition's flagged rows already formatted as
+flagged.csv lines (by :class:`~eftsieve.check_run.FlaggedWriter` itself, one call per
+block, so the formatting work is spread over the workers), and the partition's
 candidates for the worst points and for the plot subsample.  :class:`CheckMerger` takes
 blocks or whole partitions strictly in global row order, writes the flagged rows, and
 refuses any gap, overlap or missing partition with an error that names it.  The local
 engine feeds it block by block in-process, the Dask engine partition by partition from
-the workers; both call the same block function, so their results are bit-identical.
+the workers; both call the same block function and write flagged rows in the same
+per-block batches, so their results are bit-identical.
 """
 
 from __future__ import annotations
 
+import os
+import shutil
+import tempfile
 from collections.abc import Callable
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -76,8 +83,8 @@ class PartitionJob:
     ----------
     part
         The file and its first global row.
-    source
-        The samples source (columns, weight column, format).
+    fit
+        The fit; its samples source says how to read the file.
     region, cmap
         The region and the map from the fit's parameters to its coordinates.
     settings
@@ -87,15 +94,21 @@ class PartitionJob:
     """
 
     part: FilePart
-    source: SamplesSource
+    fit: Fit
     region: Region
     cmap: CoordinateMap
     settings: CheckSettings
     write_flagged: bool
 
     def to_dict(self) -> dict[str, Any]:
-        return {"part": self.part.to_dict(), "settings": self.settings.to_dict(),
+        return {"part": self.part.to_dict(), "fit": self.fit.name,
+                "settings": self.settings.to_dict(),
                 "region_hash": self.region.hash, "write_flagged": self.write_flagged}
+
+    @property
+    def source(self) -> SamplesSource:
+        assert self.fit.samples is not None
+        return self.fit.samples
 
 
 @dataclass(frozen=True)
@@ -167,8 +180,8 @@ class PartitionResult:
         Its first global row and the rows it checked.
     blocks
         The sums of its blocks, in order.
-    flagged
-        The flagged rows of each block (None for a block without any), in order.
+    flagged_csv, n_flagged
+        Its flagged rows as flagged.csv lines (no header), and how many.
     worst, sample
         Its candidates for the worst points and for the plot subsample.
     """
@@ -178,24 +191,26 @@ class PartitionResult:
     first_row: int
     n_rows: int
     blocks: tuple[BlockSums, ...]
-    flagged: tuple[FlaggedRows | None, ...]
+    flagged_csv: str
+    n_flagged: int
     worst: Ranked
     sample: Ranked
 
     def to_dict(self) -> dict[str, Any]:
         return {"index": self.index, "file": self.file, "first_row": self.first_row,
                 "n_rows": self.n_rows, "n_blocks": len(self.blocks),
-                "n_flagged": sum(len(f.rows) for f in self.flagged if f is not None)}
+                "n_flagged": self.n_flagged}
 
 
 @dataclass(frozen=True)
-class PartitionFailure:
-    """A partition that stopped on invalid input (not retried: the data will not change).
+class InputFailure:
+    """A task (a partition, a region build) that stopped on invalid input: returned as a
+    value, so that it is not retried (the input will not change).
 
     Attributes
     ----------
     index
-        The partition's index.
+        The partition's index (-1 for other tasks).
     path, field, problem, hint
         The :class:`~eftsieve.errors.InputError` it raised.
     """
@@ -215,10 +230,12 @@ class PartitionFailure:
 
 
 def empty_worst(dim: int) -> Ranked:
+    """No worst points yet (payload: region point, worst facet)."""
     return empty_ranked((dim, None), (float, np.int32))
 
 
 def empty_sample(width: int, weighted: bool) -> Ranked:
+    """No subsample rows yet (payload: [values, region point], weights or None)."""
     return empty_ranked((width, None), (float, float if weighted else None))
 
 
@@ -243,6 +260,33 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator) ->
                        sample)
 
 
+class FlaggedText:
+    """flagged.csv lines of one partition, written by a private
+    :class:`~eftsieve.check_run.FlaggedWriter` into a temporary directory (so the bytes
+    are exactly what the writer makes) and returned without the header."""
+
+    def __init__(self, fit: Fit, region: Region) -> None:
+        self.dir = tempfile.mkdtemp(prefix="eftsieve-flagged-")
+        self.writer = FlaggedWriter(Path(self.dir) / "flagged.csv", fit, region)
+        self.writer.fh.flush()
+        self.header = os.path.getsize(self.writer.tmp)
+
+    def text(self) -> tuple[str, int]:
+        """The lines written, and their count; removes the temporary files."""
+        try:
+            self.writer.fh.flush()
+            with open(self.writer.tmp, "rb") as fh:
+                fh.seek(self.header)
+                body = fh.read().decode("utf-8")
+            return body, self.writer.n
+        finally:
+            self.close()
+
+    def close(self) -> None:
+        self.writer.abort()
+        shutil.rmtree(self.dir, ignore_errors=True)
+
+
 def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None = None
                   ) -> PartitionResult:
     """Check one file block by block.
@@ -252,31 +296,37 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
     """
     keys = sample_keys(job.settings.seed, job.part.start)
     dim = job.region.dim
-    width = len(job.source.columns) + dim
     blocks: list[BlockSums] = []
-    flagged: list[FlaggedRows | None] = []
-    worst, sample = empty_worst(dim), empty_sample(width, job.source.weight_column is not None)
+    worst = empty_worst(dim)
+    sample = empty_sample(len(job.source.columns) + dim, job.source.weight_column is not None)
+    text = FlaggedText(job.fit, job.region) if job.write_flagged and sink is None else None
     n = 0
-    chunks = job.source.iter_part(job.part, job.settings.chunk_rows)
-    for block in iter_blocks(chunks):
-        out = process_block(job, block, keys)
-        n += out.n
-        if sink is not None:
-            sink(out)
-            continue
-        blocks.append(out.sums)
-        flagged.append(out.flagged)
-        worst = worst.merged(out.worst, N_WORST)
-        sample = sample.merged(out.sample, job.settings.plot_points)
+    try:
+        for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
+            out = process_block(job, block, keys)
+            n += out.n
+            if sink is not None:
+                sink(out)
+                continue
+            blocks.append(out.sums)
+            if text is not None and out.flagged is not None:
+                out.flagged.write(text.writer)
+            worst = worst.merged(out.worst, N_WORST)
+            sample = sample.merged(out.sample, job.settings.plot_points)
+    except BaseException:
+        if text is not None:
+            text.close()
+        raise
+    csv_text, n_flagged = text.text() if text is not None else ("", 0)
     return PartitionResult(job.part.index, str(job.part.path), job.part.start, n,
-                           tuple(blocks), tuple(flagged), worst, sample)
+                           tuple(blocks), csv_text, n_flagged, worst, sample)
 
 
 def partition_task(job: PartitionJob, hook: Callable[[FilePart], None] | None = None
-                   ) -> PartitionResult | PartitionFailure:
+                   ) -> PartitionResult | InputFailure:
     """The function a worker runs: the hook (if any), then :func:`run_partition`.
 
-    Invalid input comes back as a :class:`PartitionFailure` value, so that it is not
+    Invalid input comes back as a :class:`InputFailure` value, so that it is not
     retried and reaches the client intact (eftsieve's errors do not survive pickling).
     """
     if hook is not None:
@@ -284,7 +334,7 @@ def partition_task(job: PartitionJob, hook: Callable[[FilePart], None] | None = 
     try:
         return run_partition(job)
     except InputError as err:
-        return PartitionFailure(job.part.index, err.path, err.field, err.problem, err.hint)
+        return InputFailure(job.part.index, err.path, err.field, err.problem, err.hint)
 
 
 class CheckMerger:
@@ -325,12 +375,15 @@ class CheckMerger:
         part = self.parts[res.index]
         label = describe_part(part, len(self.parts))
         self._expect_row(res.first_row, label)
-        if len(res.blocks) != len(res.flagged) or sum(b.n for b in res.blocks) != res.n_rows:
+        if sum(b.n for b in res.blocks) != res.n_rows:
             raise TaskFailedError(label, f"returned {res.n_rows} rows but blocks holding "
                                   f"{sum(b.n for b in res.blocks)}", "rerun; report a bug if "
                                   "it persists")
-        for sums, fl in zip(res.blocks, res.flagged, strict=True):
-            self._absorb(sums, fl)
+        for sums in res.blocks:
+            self._absorb(sums, None)
+        if self.flagged is not None and res.n_flagged:
+            self.flagged.fh.write(res.flagged_csv)
+            self.flagged.n += res.n_flagged
         self.worst = self.worst.merged(res.worst, N_WORST)
         self.sample = self.sample.merged(res.sample, self.settings.plot_points)
         self.end_partition(res.index, res.first_row, res.n_rows)
@@ -371,6 +424,10 @@ class CheckMerger:
         if self.acc.n_total != expected or self.n_merged != expected:
             raise TaskFailedError("check", f"{self.acc.n_total} rows summed but {expected} "
                                   "rows read", "report a bug")
+        n_flag = int(self.acc.counts[1:].sum())
+        if self.flagged is not None and self.flagged.n != n_flag:
+            raise TaskFailedError("flagged.csv", f"{self.flagged.n} rows written but {n_flag} "
+                                  "rows are not inside", "report a bug")
 
     def result(self, cmap: CoordinateMap, region_path: str | None,
                engine: dict[str, Any]) -> CheckResult:
@@ -386,11 +443,13 @@ class CheckMerger:
         summary = _summary(fit, self.region, cmap, self.settings, acc, region_path)
         summary["engine"] = {**engine, "partitions": list(self.done)}
         worst = self.worst.ordered()
+        points, facet_idx = worst.payload
+        assert points is not None and facet_idx is not None
         facets = self.region.facets
         worst_rows = tuple({"row": int(r), "region_point": y.tolist(), "min_margin": float(m),
                             "facet": facets[int(f)].label()}
-                           for m, r, y, f in zip(worst.keys, worst.rows, worst.payload[0],
-                                                 worst.payload[1], strict=True))
+                           for m, r, y, f in zip(worst.keys, worst.rows, points, facet_idx,
+                                                 strict=True))
         sample = self.sample.ordered()
         data = sample.payload[0]
         assert data is not None

@@ -1,0 +1,162 @@
+"""The reproducible pieces: block sums, their replay, the map, blocking, rankings, keys."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pytest
+
+from eftsieve.check import classify
+from eftsieve.samples import Chunk
+from eftsieve.scale.exact import (
+    Ranked,
+    absorb,
+    apply_map,
+    block_sums,
+    check_accumulator_layout,
+    iter_blocks,
+    sample_keys,
+)
+from eftsieve.stats import BLOCK, Accumulator
+from eftsieve.theories.base import CoordinateMap
+
+EXACT = ("n_total", "sw", "sw2", "sw_in", "sw2_in", "sw_in_inner")
+
+
+def _points(rng, n):
+    y = np.column_stack([rng.normal(-0.5, 1.5, n), rng.normal(4.3, 0.8, n)])
+    return y, rng.gamma(2.0, 0.5, n)
+
+
+def test_block_sums_agree_with_the_accumulator(region, rng):
+    y, w = _points(rng, BLOCK)
+    v = classify(y, region)
+    ref = Accumulator(2)
+    ref.add(y, w, v.verdict, v.satisfies)
+    ref.finish()
+    acc = Accumulator(2)
+    absorb(acc, block_sums(y, w, v.verdict, v.satisfies))
+    for name in EXACT:  # the same numpy expressions: the same bits
+        assert getattr(acc, name) == getattr(ref, name), name
+    np.testing.assert_array_equal(acc.counts, ref.counts)
+    # dot products replaced by pairwise sums: equal to rounding
+    np.testing.assert_allclose(acc.mean_sum, ref.mean_sum, rtol=1e-13)
+    np.testing.assert_allclose(acc.outer_sum, ref.outer_sum, rtol=1e-13)
+    for name in ("sw_soft", "_sw2p", "sw2_soft_dev"):
+        assert getattr(acc, name) == pytest.approx(getattr(ref, name), rel=1e-13)
+    assert acc.outer_sum[0, 1] == acc.outer_sum[1, 0]
+
+
+def test_replayed_blocks_equal_streaming_the_accumulator_block_by_block(region, rng):
+    """Absorbing blocks in order = the accumulator's own left-to-right block sums."""
+    y, w = _points(rng, 3 * BLOCK + 123)
+    v = classify(y, region)
+    acc = Accumulator(2)
+    scalars = dict.fromkeys(EXACT[1:], 0.0)
+    for lo in range(0, len(y), BLOCK):
+        sl = slice(lo, lo + BLOCK)
+        b = block_sums(y[sl], w[sl], v.verdict[sl], v.satisfies[sl])
+        absorb(acc, b)
+        for k in scalars:
+            scalars[k] += getattr(b, k)
+    for k, val in scalars.items():
+        assert getattr(acc, k) == val
+    assert acc.n_total == len(y)
+    assert acc.p_inside()[0] == pytest.approx(float(w[v.satisfies].sum() / w.sum()), rel=1e-12)
+
+
+def test_block_sums_do_not_depend_on_memory_layout(region, rng):
+    y, w = _points(rng, 5000)
+    v = classify(y, region)
+    a = block_sums(y, w, v.verdict, v.satisfies)
+    big = np.zeros((len(y) + 1, 2))
+    big[1:] = y
+    b = block_sums(big[1:], w.copy(), v.verdict.copy(), v.satisfies.copy())
+    assert a.to_dict() == b.to_dict()
+
+
+def test_accumulator_layout_is_known_and_changes_are_caught(monkeypatch):
+    check_accumulator_layout()
+
+    @dataclass
+    class Grown(Accumulator):
+        sw_new: float = 0.0
+
+    import eftsieve.scale.exact as exact
+
+    monkeypatch.setattr(exact, "Accumulator", Grown)
+    with pytest.raises(RuntimeError, match=r"new fields \['sw_new'\]"):
+        exact.check_accumulator_layout()
+
+
+def test_apply_map_matches_the_map_and_is_row_wise_reproducible(rng):
+    jac = np.array([[1.0, 0.0, 0.0], [0.3, -2.0, 0.0]])
+    cmap = CoordinateMap(jac, np.array([0.5, -1.0]))
+    x = rng.normal(size=(20_000, 3))
+    y = apply_map(cmap, x)
+    np.testing.assert_allclose(y, cmap(x), rtol=1e-14, atol=1e-14)
+    for lo, n in ((0, 1), (7, 3), (999, 4096)):
+        np.testing.assert_array_equal(apply_map(cmap, x[lo:lo + n].copy()), y[lo:lo + n])
+    np.testing.assert_array_equal(apply_map(CoordinateMap(np.zeros((1, 3)), np.array([2.0])),
+                                            x[:3]), [[2.0]] * 3)
+
+
+def test_apply_map_calls_a_nonlinear_map():
+    cmap = CoordinateMap(None, None, nonlinear=lambda x: x**2)
+    np.testing.assert_array_equal(apply_map(cmap, np.array([[2.0, 3.0]])), [[4.0, 9.0]])
+
+
+def _chunks(n, size):
+    for lo in range(0, n, size):
+        rows = np.arange(lo, min(n, lo + size))
+        yield Chunk(rows, rows[:, None] * 1.0, rows * 2.0, "f")
+
+
+@pytest.mark.parametrize("chunk", [1, 7, 1000, BLOCK, BLOCK + 1, 10 * BLOCK])
+def test_blocks_are_fixed_whatever_the_chunk_size(chunk):
+    n = 2 * BLOCK + 77
+    blocks = list(iter_blocks(_chunks(n, chunk)))
+    assert [len(b.rows) for b in blocks] == [BLOCK, BLOCK, 77]
+    assert [int(b.rows[0]) for b in blocks] == [0, BLOCK, 2 * BLOCK]
+    np.testing.assert_array_equal(np.concatenate([b.weights for b in blocks]),
+                                  2.0 * np.arange(n))
+    assert {b.file for b in blocks} == {"f"}
+
+
+def test_iter_blocks_of_nothing_is_empty():
+    assert list(iter_blocks([])) == []
+
+
+def _ranked(keys, rows):
+    keys, rows = np.asarray(keys, dtype=float), np.asarray(rows, dtype=np.int64)
+    return Ranked(keys, rows, (rows * 10.0, None))
+
+
+def test_ranked_merges_equal_one_selection_including_ties(rng):
+    keys = rng.integers(0, 50, 3000).astype(float)  # many ties
+    rows = rng.permutation(3000)
+    whole = _ranked(keys, rows).smallest(100).ordered()
+    merged = _ranked([], [])
+    for lo in range(0, 3000, 37):
+        merged = merged.merged(_ranked(keys[lo:lo + 37], rows[lo:lo + 37]).smallest(100), 100)
+    merged = merged.ordered()
+    np.testing.assert_array_equal(merged.rows, whole.rows)
+    np.testing.assert_array_equal(merged.keys, whole.keys)
+    np.testing.assert_array_equal(merged.payload[0], whole.rows * 10.0)
+    assert merged.payload[1] is None
+    order = np.lexsort((rows, keys))[:100]
+    np.testing.assert_array_equal(whole.rows, rows[order])
+
+
+def test_ranked_small_cases():
+    r = _ranked([3.0, 1.0, 2.0], [0, 1, 2])
+    assert len(r.smallest(5)) == 3
+    assert len(r.smallest(0)) == 0
+    assert r.smallest(2).ordered().rows.tolist() == [1, 2]
+
+
+def test_sample_keys_jump_to_a_row():
+    whole = np.random.default_rng(12).random(1000)
+    np.testing.assert_array_equal(sample_keys(11, 0).random(1000), whole)
+    np.testing.assert_array_equal(sample_keys(11, 640).random(360), whole[640:])
