@@ -3,12 +3,12 @@
 External references:
 
 * arXiv:2011.02957 (Caron-Huot & Van Duong, "Extremal Effective Field Theories"): the
-  two-sided bound -10.346 <= g3~ <= 3, quoted in the abstract-level summary of results
-  of the introduction and in Sec. 3 (equation number from memory), and 0 <= g4~ <= 1/2
-  (from memory, same section); the lowest null constraint <J(J+1)(J(J+1)-8)/m^8> = 0 in
-  their measure (Sec. 2, from memory).
+  two-sided bound -10.346 <= g3~ <= 3 and 0 <= g4~ <= 1/2 (stated in the introduction and
+  in Sec. 3; section from memory, values as quoted in the task brief); the lowest null
+  constraint <J(J+1)(J(J+1)-8)/m^8> = 0 in their measure (Sec. 2, from memory).
 * arXiv:2105.02862 (Chiang, Huang, Li, Rodina, Weng), abstract: the polynomial
-  150 - 43 J^2 + 2 J^4 (J^2 = l(l+1)) of the second null constraint.
+  150 - 43 J^2 + 2 J^4 (J^2 = l(l+1)) in a spectrum bound derived from the null
+  constraints; our second null constraint is J^2 (2 J^4 - 43 J^2 + 150).
 * scipy (eval_legendre, quad) and mpmath (Legendre functions of the second kind, Taylor
   series) for everything the sum-rule code derives.
 * Closed-form low-energy expansions of tree amplitudes, derived in the comments.
@@ -43,7 +43,7 @@ from eftsieve.theories.scalar_eft import (
     null_residuals,
 )
 
-G3_LOW, G3_HIGH = -10.346, 3.0  # arXiv:2011.02957, Sec. 3 (see module docstring)
+G3_LOW, G3_HIGH = -10.346, 3.0  # arXiv:2011.02957 (see module docstring)
 
 
 # ---- exact algebra against scipy / mpmath -----------------------------------------------------

@@ -1,48 +1,39 @@
 """Sum-rule bounds as a moment problem: a linear programme, its dual and a verified certificate.
 
-Dispersive sum rules write every low-energy coefficient as an average over heavy states
-(mass m >= M, spin J) with a non-negative measure.  Normalise the measure so that one
-average (for the scalar EFT: the g2 sum rule) is one; a heavy state is then labelled by
-y = M^2/m^2 in (0, 1] and j = J(J+1), J = 0, 2, 4, ..., and every coordinate and every
-null constraint is a :class:`StatePolynomial`
+Dispersive sum rules write each low-energy coefficient as an average over heavy states
+(mass m >= M, even spin J) with a non-negative measure, normalised here so that <1> = 1
+(for the scalar EFT: the g2 sum rule).  A state is labelled by y = M^2/m^2 in (0, 1] and
+j = J(J+1); coordinates and null constraints are :class:`StatePolynomial` s
 
-    f(y, J) = sum_{e, l <= e} c[e, l] y^e j^l = sum c[e, l] y^(e-l) w^l,   w = y j,
+    f(y, J) = sum_{e, q <= e} c[e, q] y^e j^q = sum c[e, q] y^(e-q) w^q,   w = y j,
 
-(w -> b^2 M^2/4 at large J and fixed impact parameter b = 2J/m).  The allowed coordinates
-are the averages <f> over measures with <1> = 1 and <n_i> = 0 for the null constraints.
+where w -> (bM/2)^2 at large J and fixed impact parameter b = 2J/m.  The allowed set is
+{<f>} over measures with <1> = 1 and <n_i> = 0.  For min <o> along a direction:
 
-Which side of the truth each number is on, for the minimum of <o> along a direction o:
+* **primal (inner)**: the LP over a finite grid returns a positive spectrum, re-solved on
+  its support in 40-digit arithmetic (:func:`exact_spectrum`) so that it meets every
+  imposed constraint exactly.  Its value lies *above* the minimum (a restriction), on the
+  allowed side of the truncated problem; null constraints beyond the imposed order are
+  not enforced on it.
+* **dual (outer)**: any multipliers c_i give <o> = <o - sum c_i n_i> >= inf_states B with
+  B = o - sum c_i n_i.  :func:`verify_functional` bounds inf B from below over *every*
+  state: each even spin up to a cut-off over all y (branch and bound with rigorous
+  polynomial enclosures, floating-point error subtracted, 40-digit fallback), and all
+  larger spins through the continuous relaxation j >= j', y <= min(1, w/j'), which holds
+  the m -> infinity, J -> infinity and fixed-b limits, closed by a domination bound as
+  w -> infinity.  The verified value lies *below* the true minimum: a rigorous exclusion.
 
-* **primal (inner)**: the LP over a finite grid of states returns a positive spectrum; it
-  is re-solved on its support in 40-digit arithmetic (:func:`exact_spectrum`) so that it
-  satisfies the normalisation and every imposed null constraint exactly.  Its value is
-  *above* the minimum over all states (a restriction), i.e. on the allowed side of the
-  truncated problem.  It is **not** a proof that a full crossing-symmetric amplitude with
-  that spectrum exists: null constraints beyond the imposed order are not enforced.
-* **dual (outer)**: any multipliers c_i give <o> = <o - sum c_i n_i> >= inf over states
-  of B(y, J) = o - sum c_i n_i (since <1> = 1).  :func:`verify_functional` bounds that
-  infimum from below over *every* state: exactly per even spin up to a cut-off (branch
-  and bound in y with monotone-term bounds, which is rigorous up to a floating-point
-  error term that is subtracted), and for all larger spins through the continuous
-  relaxation j >= j_c in the variables (w, y <= min(1, w/j_c)), which contains the
-  m -> infinity, J -> infinity and fixed-impact-parameter limits, closed by a
-  leading-coefficient domination bound for w -> infinity.  The verified infimum is
-  *below* the true minimum: a rigorous exclusion.
+:func:`solve_lp` wraps HiGHS (``scipy.optimize.linprog``), checks primal and dual residuals
+and raises :class:`~eftsieve.errors.SolverError` unless optimal.  :class:`SumRuleSolver`
+runs the cutting-plane loop (add the violating states, re-solve), else raises.
 
-The LP is a standard-form problem solved with HiGHS through :func:`solve_lp`, which
-checks primal and dual residuals and raises :class:`~eftsieve.errors.SolverError` on any
-status other than optimal.  The cutting-plane loop of :class:`SumRuleSolver` adds the
-states that violate the dual functional and re-solves, a few rounds, else raises.
-
-Reference: the LP/dual formulation of positivity bounds with null constraints follows
-S. Caron-Huot and V. Van Duong, "Extremal Effective Field Theories", arXiv:2011.02957,
-Sec. 3 (there solved as a semi-definite programme over continuous m).
+Reference: the dual formulation with null constraints follows S. Caron-Huot and V. Van
+Duong, "Extremal Effective Field Theories", arXiv:2011.02957, Sec. 3 (an SDP there).
 """
 
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import Any
@@ -53,10 +44,10 @@ from eftsieve.errors import SolverError
 from eftsieve.tolerances import FEASIBILITY_TOL
 
 _EPS = float(np.finfo(float).eps)
-#: log10 of w^E beyond which a functional is regularised (see SumRuleSolver._regularise)
-W_REGULAR_LOG10 = 250.0
 #: states with w = y J(J+1) <= W_REF fix the basis of the null constraints in the LP
 W_REF = 200.0
+#: states whose null-constraint values are all below this (but not zero) are left out of the LP
+FAINT = 1e-6
 _TIGHT = {"primal_feasibility_tolerance": 1e-9, "dual_feasibility_tolerance": 1e-9}
 _LP_STATUS = {0: "optimal", 1: "iteration_limit", 2: "infeasible", 3: "unbounded",
               4: "numerical_difficulties"}
@@ -140,37 +131,46 @@ def solve_lp(c: np.ndarray, a_eq: np.ndarray | None = None, b_eq: np.ndarray | N
     y = np.asarray(res.eqlin.marginals) if len(b_eq_) else np.zeros(0)
     z = np.asarray(res.ineqlin.marginals) if len(b_ub_) else np.zeros(0)
     red = c - a_eq_.T @ y - a_ub_.T @ z
+    p_res, d_res, gap = _residuals(c, x, y, z, red, (a_eq_, b_eq_, a_ub_, b_ub_), lb, ub)
     scale = max(1.0, float(np.abs(c).max(initial=0)), float(np.abs(b_eq_).max(initial=0)),
                 float(np.abs(b_ub_).max(initial=0)))
-    p_res = max(float(np.abs(a_eq_ @ x - b_eq_).max(initial=0)),
-                float(np.maximum(a_ub_ @ x - b_ub_, 0).max(initial=0)),
-                float(np.maximum(lb - x, 0).max(initial=0)),
-                float(np.maximum(x - ub, 0).max(initial=0)))
-    # dual feasibility: z <= 0; reduced cost >= 0 where only the lower bound can be active,
-    # <= 0 where only the upper bound can, = 0 for free variables
-    viol = np.where(np.isfinite(lb) & ~np.isfinite(ub), np.maximum(-red, 0), 0.0)
-    viol = np.maximum(viol, np.where(~np.isfinite(lb) & np.isfinite(ub), np.maximum(red, 0), 0))
-    viol = np.maximum(viol, np.where(~np.isfinite(lb) & ~np.isfinite(ub), np.abs(red), 0))
-    d_res = max(float(viol.max(initial=0)), float(np.maximum(z, 0).max(initial=0)))
-    red_lb = np.where(np.isfinite(lb), np.maximum(red, 0) * np.where(np.isfinite(lb), lb, 0), 0)
-    red_ub = np.where(np.isfinite(ub), np.minimum(red, 0) * np.where(np.isfinite(ub), ub, 0), 0)
-    dual_obj = float(b_eq_ @ y + b_ub_ @ z + red_lb.sum() + red_ub.sum())
-    gap = abs(float(c @ x) - dual_obj)
     if max(p_res, d_res, gap) > tol * scale:
         raise SolverError("inaccurate", f"{problem} (primal residual {p_res:.2e}, dual "
                           f"residual {d_res:.2e}, duality gap {gap:.2e})")
     return LPResult(x, float(c @ x), y, z, red, "optimal", p_res, d_res, gap)
 
 
+def _residuals(c: np.ndarray, x: np.ndarray, y: np.ndarray, z: np.ndarray, red: np.ndarray,
+               data: tuple[np.ndarray, ...], lb: np.ndarray, ub: np.ndarray
+               ) -> tuple[float, float, float]:
+    """Primal violation, dual violation and duality gap of an LP solution."""
+    a_eq, b_eq, a_ub, b_ub = data
+    p_res = max(float(np.abs(a_eq @ x - b_eq).max(initial=0)),
+                float(np.maximum(a_ub @ x - b_ub, 0).max(initial=0)),
+                float(np.maximum(lb - x, 0).max(initial=0)),
+                float(np.maximum(x - ub, 0).max(initial=0)))
+    # z <= 0; reduced cost >= 0 where only a lower bound exists, <= 0 where only an upper
+    # one does, = 0 for free variables
+    lo_f, up_f = np.isfinite(lb), np.isfinite(ub)
+    viol = np.where(lo_f & ~up_f, np.maximum(-red, 0), 0.0)
+    viol = np.maximum(viol, np.where(~lo_f & up_f, np.maximum(red, 0), 0.0))
+    viol = np.maximum(viol, np.where(~lo_f & ~up_f, np.abs(red), 0.0))
+    d_res = max(float(viol.max(initial=0)), float(np.maximum(z, 0).max(initial=0)))
+    bound_terms = (np.where(lo_f, np.maximum(red, 0) * np.where(lo_f, lb, 0), 0).sum()
+                   + np.where(up_f, np.minimum(red, 0) * np.where(up_f, ub, 0), 0).sum())
+    gap = abs(float(c @ x) - float(b_eq @ y + b_ub @ z + bound_terms))
+    return p_res, d_res, gap
+
+
 # ---- polynomials on the heavy states -------------------------------------------------------
 @dataclass(frozen=True)
 class StatePolynomial:
-    """f(y, J) = sum_{e, l <= e} c[e][l] y^e (J(J+1))^l with exact rational coefficients.
+    """f(y, J) = sum_{e, q <= e} c[e][q] y^e (J(J+1))^q with exact rational coefficients.
 
     Attributes
     ----------
     exact
-        ``exact[e][l]`` as :class:`fractions.Fraction`; rows have length e + 1.
+        ``exact[e][q]`` as :class:`fractions.Fraction`; rows have length e + 1.
     label
         A name (``g3t``, ``n4``, ...).
     """
@@ -183,7 +183,7 @@ class StatePolynomial:
         return len(self.exact) - 1
 
     def coeffs(self, size: int | None = None) -> np.ndarray:
-        """The float coefficient matrix c[e, l], zero-padded to ``size``."""
+        """The float coefficient matrix c[e, q], zero-padded to ``size``."""
         n = max(len(self.exact), size or 0)
         out = np.zeros((n, n))
         for e, row in enumerate(self.exact):
@@ -197,9 +197,9 @@ class StatePolynomial:
         """The value in mpmath arithmetic (y is taken as the exact binary float)."""
         yy, jj, total = mp.mpf(y), mp.mpf(int(spin) * (int(spin) + 1)), mp.mpf(0)
         for e, row in enumerate(self.exact):
-            for l, v in enumerate(row):
+            for q, v in enumerate(row):
                 if v:
-                    total += mp.mpf(v.numerator) / v.denominator * yy**e * jj**l
+                    total += mp.mpf(v.numerator) / v.denominator * yy**e * jj**q
         return total
 
     def to_dict(self) -> dict[str, Any]:
@@ -207,17 +207,14 @@ class StatePolynomial:
                                                               for row in self.exact]}
 
 
-def evaluate(c: np.ndarray, y: np.ndarray, spin: np.ndarray, absolute: bool = False
-             ) -> np.ndarray:
-    """sum c[e, l] y^(e-l) w^l with w = y J(J+1) (or the sum of |terms| if ``absolute``)."""
+def evaluate(c: np.ndarray, y: np.ndarray, spin: np.ndarray) -> np.ndarray:
+    """sum c[e, q] y^(e-q) w^q with w = y J(J+1) (q <= e)."""
     y = np.asarray(y, dtype=float)
     w = y * np.asarray(spin, dtype=float) * (np.asarray(spin, dtype=float) + 1.0)
-    cc = np.abs(c) if absolute else c
     out = np.zeros(np.broadcast(y, w).shape)
-    for e in range(c.shape[0]):
-        for l in range(e + 1):
-            if cc[e, l] != 0.0:
-                out = out + cc[e, l] * y ** (e - l) * w**l
+    for e, q in zip(*np.nonzero(c), strict=True):
+        if q <= e:
+            out = out + c[e, q] * y ** (e - q) * w**q
     return out
 
 
@@ -378,11 +375,11 @@ def _mp_spin_lower(c: np.ndarray, spins: np.ndarray, lo: np.ndarray, hi: np.ndar
     n = c.shape[0]
     out = np.zeros(lo.size)
     with mpmath.workdps(40):
-        cm = [[mpmath.mpf(float(c[e, l])) for l in range(n)] for e in range(n)]
+        cm = [[mpmath.mpf(float(c[e, q])) for q in range(n)] for e in range(n)]
         for i in range(lo.size):
             j = mpmath.mpf(int(spins[owner[i]]) * (int(spins[owner[i]]) + 1))
-            a = [mpmath.fsum(cm[e][l] * j**l for l in range(e + 1)) for e in range(n)]
-            size = mpmath.fsum(abs(cm[e][l]) * j**l for e in range(n) for l in range(e + 1))
+            a = [mpmath.fsum(cm[e][q] * j**q for q in range(e + 1)) for e in range(n)]
+            size = mpmath.fsum(abs(cm[e][q]) * j**q for e in range(n) for q in range(e + 1))
             m, r = (mpmath.mpf(float(lo[i])) + mpmath.mpf(float(hi[i]))) / 2, \
                 (mpmath.mpf(float(hi[i])) - mpmath.mpf(float(lo[i]))) / 2
             t = [mpmath.fsum(a[e] * math.comb(e, k) * m ** (e - k) for e in range(k, n))
@@ -452,23 +449,24 @@ def _scan_spins(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, An
     return out
 
 
-def _tail_terms(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Coefficients of the large-w polynomial bound (y <= 1): q_p = c[p,p] + sum_k min(c[p+k,p],0)."""
+def _tail_cutoff(c: np.ndarray, target: float) -> float | None:
+    """W with f >= target for every state with w >= W, or None if f is not bounded below.
+
+    For y <= 1, f >= Q(w) = sum_p q_p w^p with q_p = c[p,p] + sum_{k>=1} min(c[p+k,p], 0).
+    With the top coefficient q_t > 0, Q - target >= 0 once every negative term is below
+    q_t w^t / t, i.e. for w >= max_p (t |q_p| / q_t)^(1/(t-p)).
+    """
     n = c.shape[0]
     q = np.array([c[p, p] for p in range(n)])
     for e in range(n):
-        for l in range(e):
-            q[l] += min(c[e, l], 0.0)
-    return q, np.flatnonzero(q)
-
-
-def _tail_cutoff(c: np.ndarray) -> float | None:
-    """W such that the bound polynomial is >= 0 for all w >= W, or None if it is not bounded below."""
-    q, nz = _tail_terms(c)
+        for p in range(e):
+            q[p] += min(c[e, p], 0.0)
+    q[0] -= target
+    nz = np.flatnonzero(q)
     if nz.size == 0:
         return 1.0
     top = int(nz[-1])
-    if q[top] <= 0:
+    if q[top] < 0:
         return None
     cands = [(top * abs(q[p]) / q[top]) ** (1.0 / (top - p)) for p in range(top) if q[p] < 0]
     return max([1.0] + cands)
@@ -495,41 +493,48 @@ def _scan_tail(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, Any
                 out = out + np.minimum(low, 0.0) * ymax**k
         return out
 
-    def value_fn(x: np.ndarray, ow: np.ndarray) -> np.ndarray:
-        return evaluate(c, np.minimum(1.0, x / jt), np.full(x.shape, float(j_next)))
+    far = 64 * j_next  # a spin far out, near the fixed-impact-parameter limit
 
-    w_cut = _tail_cutoff(c)
+    def at(x: np.ndarray, spin: int) -> np.ndarray:
+        jj = spin * (spin + 1.0)
+        return evaluate(c, np.minimum(1.0, x / jj), np.full(x.shape, float(spin)))
+
+    def value_fn(x: np.ndarray, ow: np.ndarray) -> np.ndarray:
+        return np.minimum(at(x, j_next), at(x, far))
+
+    def state(w: float) -> tuple[float, int, float]:
+        spin = j_next if at(np.array([w]), j_next)[0] <= at(np.array([w]), far)[0] else far
+        return (float(min(1.0, w / (spin * (spin + 1.0)))), spin,
+                float(at(np.array([w]), spin)[0]))
+
+    w_cut = _tail_cutoff(c, target)
     if w_cut is None:
         ws = np.logspace(0, 30, 61)
-        vals = value_fn(ws, np.zeros(ws.size, dtype=int))
-        bad = np.flatnonzero(vals < target)
-        states = [(float(min(1.0, ws[bad[0]] / jt)), j_next, float(vals[bad[0]]))] if bad.size \
-            else []
+        bad = np.flatnonzero(value_fn(ws, ws) < target)
+        states = [state(float(ws[bad[0]]))] if bad.size else []
         return {"proven": -np.inf, "unresolved": not bad.size, "states": states,
-                "best": states[0] if states else (1.0, j_next, float(vals.min())), "w_max": None}
+                "best": states[0] if states else state(float(ws[-1])), "w_max": None}
     edges = np.r_[0.0, np.logspace(-3, np.log10(max(w_cut, 1e-2)) + 1e-9, 96)]
     lo, hi = edges[:-1], edges[1:]
     out = _bnb(lower_fn, value_fn, lo, hi, np.zeros(lo.size, dtype=int), 1, target, s)
-    w = float(out["best_x"][0])
-    best = (float(min(1.0, w / jt)), j_next, float(out["best_val"][0]))
+    best = state(float(out["best_x"][0]))
     out.update(states=[best] if best[2] < target else [], best=best, w_max=w_cut)
     return out
 
 
 def verify_functional(c: np.ndarray, target: float, s: VerifySettings) -> Verification:
-    """Prove B(y, J) = sum c[e,l] y^(e-l) w^l >= target for every y in (0, 1] and even J >= 0.
+    """Prove B(y, J) = sum c[e,q] y^(e-q) w^q >= target for every y in (0, 1] and even J >= 0.
 
-    Spins up to ``s.spin_exact_max`` are checked one by one, larger spins through the
-    continuous relaxation (see the module docstring); for w beyond the domination
-    cut-off W the large-w bound polynomial is non-negative, which needs target <= 0
-    (always the case here: B -> 0 as m -> infinity, so inf B <= 0).
+    Spins up to ``s.spin_exact_max`` one by one, larger spins through the continuous
+    relaxation and the domination cut-off of :func:`_tail_cutoff` (module docstring).
     """
     spins = _scan_spins(c, target, s)
     tail = _scan_tail(c, target, s)
     states = tuple(spins["states"] + tail["states"])
-    unresolved = spins["unresolved"] or tail["unresolved"] or target > 0
+    unresolved = spins["unresolved"] or tail["unresolved"]
     passed = not states and not unresolved
-    lower = min(spins["proven"], tail["proven"]) if passed else -np.inf
+    # beyond the domination cut-off only B >= target is known, so the proven bound is target
+    lower = min(spins["proven"], tail["proven"], target) if passed else -np.inf
     best = min([spins["best"], tail["best"]], key=lambda b: b[2])
     extents = {"spins_exact": [0, s.spin_exact_max], "spin_parity": "even",
                "y_range": [0.0, 1.0], "tail": f"J > {s.spin_exact_max}, continuous",
@@ -673,11 +678,11 @@ class SumRuleSolver:
     def _solve_grid(self, d: np.ndarray) -> tuple[float, np.ndarray, np.ndarray]:
         """One LP on the grid: (normalisation multiplier, null multipliers, weights).
 
-        The null rows are first replaced by a basis that is orthonormal on the states with
+        The null rows are replaced by a basis that is orthonormal on the states with
         w <= W_REF (each weighted by (1 + w/ws)^-E, 10^-6 at W_REF): T = R^-T N from the QR
-        factorisation there.  Columns are then scaled to a largest entry of one, and states
-        whose scale falls below 1e-7 (far in the large-w tail, irrelevant to the primal) are
-        left out; the verification covers them.  The multipliers are mapped back, R^-1 mu.
+        factorisation there; columns are scaled to a largest entry of one; "faint" states
+        are left out; a column for the state at infinity keeps the functional's leading
+        large-w coefficient non-negative.  The multipliers are mapped back, R^-1 mu.
         """
         from scipy.linalg import solve_triangular
 
@@ -692,6 +697,10 @@ class SumRuleSolver:
         rows = solve_triangular(r, self._rows, trans="T")
         self._r = r
         col = 1.0 / np.maximum(1.0, np.maximum(np.abs(rows).max(0), np.abs(obj)))
+        # states whose null values are all tiny but not zero (small y, J > 0) sit below
+        # HiGHS's resolution: the LP would treat them as null-free; leave them out
+        faint = np.abs(self._rows).max(0) < FAINT
+        col[faint & (np.abs(self._rows).max(0) > 0)] = 0.0
         # the state at infinity: the large-w limit of n(y, J)/w^E (leading coefficients);
         # its dual constraint keeps the functional's leading coefficient non-negative
         top = solve_triangular(r, self._nc[:, -1, -1], trans="T")
@@ -708,7 +717,7 @@ class SumRuleSolver:
             if err.status not in ("numerical_difficulties", "inaccurate"):
                 raise
             lp = solve_lp(cost, a_eq, b_eq, problem=name)
-        self._support = lp.x > 1e-12 * lp.x.max()
+        self._support = (lp.x > 1e-12 * lp.x.max()) & (np.r_[col, 1.0] > 0)
         self._at_infinity = float(lp.x[-1] * vs) if self._support[-1] else 0.0
         self._support = self._support[:-1]
         return float(lp.dual_eq[0]), solve_triangular(r, lp.dual_eq[1:]), lp.x[:-1] * col
@@ -722,102 +731,53 @@ class SumRuleSolver:
         own minimum instead; that bound is accepted if within ``accept_tol`` of the LP.
         """
         d = np.asarray(direction, dtype=float)
+        d = np.where(np.abs(d) < 1e-12 * np.abs(d).max(), 0.0, d)  # 2e-18 is a zero of cos
         s = self.settings
+        obj = np.tensordot(d, self._cc, 1)
         for rnd in range(1, s.max_rounds + 1):
             lam, mult, weights = self._solve_grid(d)
-            lam, mult = self._refine_dual(d, lam, mult)
-            if (d @ self._crd).min() >= lam - s.tol * max(1.0, abs(lam)):
+            target = lam - s.tol * max(1.0, abs(lam))
+            if (d @ self._crd).min() >= target:
                 mult = np.zeros_like(mult)  # the objective alone is the functional
-            mult = self._regularise(np.tensordot(d, self._cc, 1), self._clean(mult, s.tol))
-            func = np.tensordot(d, self._cc, 1) - np.tensordot(mult, self._nc, 1)
-            ver = verify_functional(func, lam - s.tol * max(1.0, abs(lam)), s)
-            if os.environ.get("EFTDBG"):
-                print(rnd, lam, ver.best_value, ver.best_state, len(ver.violations), ver.extents["unresolved"], self.y.size)
+            mult = self._regularise(obj, mult, target)
+            func = obj - np.tensordot(mult, self._nc, 1)
+            ver = verify_functional(func, target, s)
             if ver.passed:
                 return self._bound(d, lam, mult, weights, ver, rnd)
             added = self.add_states(np.array([v[0] for v in ver.violations]),
                                     np.array([v[1] for v in ver.violations]))
-            if not added or rnd == s.max_rounds or ver.target == -np.inf:
+            if not added or rnd == s.max_rounds:
                 break
         for _ in range(4):  # certify at the functional's own minimum
             low = min([ver.best_value] + [v[2] for v in ver.violations])
             if ver.passed or not np.isfinite(low):
                 break
             ver = verify_functional(func, low - s.tol * max(1.0, abs(lam)), s)
-            if os.environ.get("EFTDBG"):
-                print("CERT", ver.passed, ver.lower, ver.best_value, ver.target, ver.extents["unresolved"], len(ver.violations))
         if not ver.passed or lam - ver.lower > s.accept_tol * max(1.0, abs(lam)):
             raise SolverError("unverified", f"dual functional along {d.tolist()} after {rnd} "
                               f"rounds: min {ver.best_value:.8g}, LP value {lam:.8g}")
         return self._bound(d, lam, mult, weights, ver, rnd)
 
-    def _refine_dual(self, d: np.ndarray, lam: float, mult: np.ndarray
-                     ) -> tuple[float, np.ndarray]:
-        """Complementary slackness in 40 digits: B(s) = lam exactly on the LP's support.
+    def _regularise(self, obj: np.ndarray, mult: np.ndarray, target: float) -> np.ndarray:
+        """Make the functional bounded as w -> infinity if the LP left it (numerically) flat.
 
-        The LP's multipliers come through an ill-conditioned change of basis; the smallest
-        (row-scaled) correction that makes the functional touch lam at every support state
-        restores the accuracy lost there.  Skipped when the support equations are singular.
+        In double precision the LP cannot fix the sign of the leading large-w coefficients
+        when the optimum does not need them.  Adding eps times the null combination with
+        unit leading coefficient that is smallest on the reference states, with the
+        smallest eps = 10^k that gives a domination cut-off below 10^(250/E), fixes it;
+        the verification then accounts for its effect exactly.
         """
-        import mpmath
-
-        idx = np.flatnonzero(self._support)
-        scale = np.r_[1.0, np.maximum(np.abs(self._rows[:, idx]).max(1), 1e-300)] ** -1.0
-        with mpmath.workdps(40):
-            polys = [None, *self.nulls]
-            a = mpmath.matrix([[mpmath.mpf(1) if p is None else p.mp_value(self.y[i],
-                                self.spin[i], mpmath) for i in idx] for p in polys])
-            obj = [mpmath.fsum(mpmath.mpf(float(dk)) * c.mp_value(self.y[i], self.spin[i],
-                                                                    mpmath)
-                               for dk, c in zip(d, self.coordinates, strict=True)) for i in idx]
-            u0 = [mpmath.mpf(lam)] + [mpmath.mpf(float(m)) for m in mult]
-            ad = mpmath.matrix([[a[r, k] * scale[r] for r in range(a.rows)]
-                                for k in range(a.cols)])  # (k, m) = A_S^T D
-            res = mpmath.matrix([obj[k] - mpmath.fsum(u0[r] * a[r, k] for r in range(a.rows))
-                                 for k in range(a.cols)])
-            try:
-                v = ad.T * mpmath.lu_solve(ad * ad.T, res)
-            except ZeroDivisionError:
-                return lam, mult
-            u = [float(u0[r] + scale[r] * v[r]) for r in range(a.rows)]
-        if abs(u[0] - lam) > 1e-6 * max(1.0, abs(lam)):  # a singular support: keep the LP's
-            return lam, mult
-        return u[0], np.array(u[1:])
-
-    def _clean(self, mult: np.ndarray, tol: float) -> np.ndarray:
-        """Zero the multipliers whose terms stay below tol/100 on every state with w <= W_REF.
-
-        Such multipliers are LP noise (the bound does not need those null constraints);
-        left in, they decide the functional's sign as J -> infinity.
-        """
-        w = self.y * self.spin * (self.spin + 1.0)
-        size = np.abs(self._rows[:, w <= W_REF]).max(1)
-        out = mult.copy()
-        out[np.abs(mult) * size < 1e-2 * tol] = 0.0
-        return out
-
-    def _regularise(self, obj: np.ndarray, mult: np.ndarray) -> np.ndarray:
-        """Make the functional grow at large w (J -> infinity) if the LP left it flat there.
-
-        The LP cannot resolve the sign of the leading large-w coefficient in double
-        precision when the optimum does not need it.  Adding eps times the null
-        combination with unit leading coefficient that is smallest on the reference states
-        (least squares in the LP's orthonormal basis), with the smallest eps = 10^k that
-        puts the domination cut-off below w_max = 10^(250/E), fixes the sign; the verification
-        then accounts for its effect exactly.
-        """
-        w_max = 10.0 ** (W_REGULAR_LOG10 / (self.size - 1))  # w^E stays far from overflow
-        cut = _tail_cutoff(obj - np.tensordot(mult, self._nc, 1))
-        if cut is not None and cut <= w_max:
-            return mult
         from scipy.linalg import solve_triangular
 
-        top = self._nc[:, -1, -1]
-        beta = solve_triangular(self._r, top, trans="T")
+        w_max = 10.0 ** (250.0 / (self.size - 1))  # w^E stays far from overflow
+        cut = _tail_cutoff(obj - np.tensordot(mult, self._nc, 1), target)
+        if cut is not None and cut <= w_max:
+            return mult
+        beta = solve_triangular(self._r, self._nc[:, -1, -1], trans="T")
         alpha = solve_triangular(self._r, beta) / float(beta @ beta)
         for k in range(-300, 20):
             trial = mult - 10.0**k * alpha
-            cut = _tail_cutoff(obj - np.tensordot(trial, self._nc, 1))
+            cut = _tail_cutoff(obj - np.tensordot(trial, self._nc, 1), target)
             if cut is not None and cut <= w_max:
                 return trial
         return mult

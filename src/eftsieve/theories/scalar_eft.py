@@ -63,7 +63,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from eftsieve.bounds.sum_rules import StatePolynomial, SumRuleSolver, VerifySettings
-from eftsieve.errors import InputError
+from eftsieve.errors import InputError, SolverError
 from eftsieve.region import Facet, Region
 from eftsieve.theories.base import CoordinateMap, Theory
 
@@ -75,6 +75,9 @@ Poly = tuple[Fraction, ...]  # a polynomial in j = J(J+1), lowest power first
 #: Coordinates of points with g2 <= 0 (outside: g2 > 0 is a sum rule), far beyond every facet.
 OUTSIDE = 1e30
 MAX_LISTED_DEGREE = 12
+#: coordinates a region can be built in (higher couplings: the verification of their dual
+#: functionals does not converge reliably yet, see docs/physics_scalar_eft.md)
+REGION_COORDINATES = ("g3t", "g4t")
 
 
 # ---- exact polynomial algebra ------------------------------------------------------------
@@ -96,8 +99,9 @@ def _padd(a: Poly, b: Poly, f: Fraction = Fraction(1)) -> Poly:
 def legendre_forward_coefficient(k: int) -> Poly:
     """[t^k] P_J(1 + 2t) as a polynomial in j = J(J+1): prod_{i<k} (j - i(i+1)) / (k!)^2.
 
-    From P_J(z) = 2F1(-J, J+1; 1; (1 - z)/2) (Legendre's hypergeometric form, e.g. DLMF
-    Eq. 14.3.2 with mu = 0 (from memory)), since (-J)_k (J+1)_k (-1)^k = prod (j - i(i+1)).
+    From P_J(z) = 2F1(-J, J+1; 1; (1 - z)/2), the hypergeometric form of the Legendre
+    polynomial (DLMF Eq. 18.5.7 with alpha = beta = 0, from memory), since
+    (-J)_k (J+1)_k (-1)^k = prod_{i<k} (j - i(i+1)).  Tested against scipy.
     """
     p: Poly = (Fraction(1),)
     for i in range(k):
@@ -196,8 +200,9 @@ class SumRule:
         return StatePolynomial(tuple(rows), label or self.name)
 
     def value(self, spin: np.ndarray) -> np.ndarray:
+        """r(J(J+1)) for an array of spins."""
         j = np.asarray(spin, dtype=float) * (np.asarray(spin, dtype=float) + 1.0)
-        return sum(float(c) * j**k for k, c in enumerate(self.polynomial))
+        return np.polynomial.polynomial.polyval(j, [float(c) for c in self.polynomial])
 
     def to_dict(self) -> dict[str, Any]:
         return {"name": self.name, "degree": self.degree,
@@ -293,21 +298,23 @@ def derive_sum_rules(order: int) -> SumRules:
     return SumRules(order, tuple(couplings), tuple(nulls))
 
 
+def _averages(rules: tuple[SumRule, ...], masses: np.ndarray, spins: np.ndarray,
+              weights: np.ndarray) -> dict[str, float]:
+    m2 = np.asarray(masses, dtype=float) ** 2
+    a = np.asarray(weights, dtype=float)
+    return {r.name: float(np.sum(a * r.value(spins) / m2 ** (r.degree + 1))) for r in rules}
+
+
 def couplings_from_spectrum(rules: SumRules, masses: np.ndarray, spins: np.ndarray,
                             weights: np.ndarray) -> dict[str, float]:
     """Dimensionful couplings of M = sum_i a_i P_J(1+2t/m_i^2)[1/(m_i^2-s) + 1/(m_i^2-u)] + f(t)."""
-    m2 = np.asarray(masses, dtype=float) ** 2
-    a = np.asarray(weights, dtype=float)
-    return {c.name: float(np.sum(a * c.value(spins) / m2 ** (c.degree + 1)))
-            for c in rules.couplings}
+    return _averages(rules.couplings, masses, spins, weights)
 
 
 def null_residuals(rules: SumRules, masses: np.ndarray, spins: np.ndarray,
                    weights: np.ndarray) -> dict[str, float]:
     """< v(j) / m^(2D+2) > of every null constraint for a discrete spectrum (0 if consistent)."""
-    m2 = np.asarray(masses, dtype=float) ** 2
-    a = np.asarray(weights, dtype=float)
-    return {n.name: float(np.sum(a * n.value(spins) / m2 ** (n.degree + 1))) for n in rules.nulls}
+    return _averages(rules.nulls, masses, spins, weights)
 
 
 def low_energy_amplitude(couplings: dict[str, float], s: np.ndarray, t: np.ndarray
@@ -325,8 +332,10 @@ def low_energy_amplitude(couplings: dict[str, float], s: np.ndarray, t: np.ndarr
 
 
 # ---- regions --------------------------------------------------------------------------------
+#: ``order`` None means 10 for one coordinate and 8 for two (fast, and reliable in double
+#: precision for every direction; see docs/physics_scalar_eft.md).
 DEFAULTS: dict[str, Any] = {
-    "order": 10, "spins": 40, "coordinates": ["g3t"], "directions": 64, "mass_points": 120,
+    "order": None, "spins": 40, "coordinates": ["g3t"], "directions": 64, "mass_points": 120,
     "y_min": 1e-4, "spin_exact_max": 2000, "verify_tol": 1e-6, "max_rounds": 25,
 }
 
@@ -336,8 +345,8 @@ def state_grid(spins: int, mass_points: int, y_min: float, spin_max: int = 2000
     """The LP grid: y = M^2/m^2 x even J <= spins, plus sparse spins up to ``spin_max``.
 
     y is dense near the gap and geometric towards ``y_min``.  The sparse spins carry
-    states on a log grid of w = y J(J+1) = (b M/2)^2 in [0.1, 1000], which resolve the
-    fixed-impact-parameter regime where extremal functionals also touch zero.
+    states on a log grid of w = y J(J+1) = (b M/2)^2 from 0.1 up to y = 1; they resolve the
+    fixed-impact-parameter regime, where extremal functionals also touch zero.
     """
     half = mass_points // 2
     near = 1.0 - 0.5 * (np.arange(half) / half) ** 2
@@ -359,16 +368,28 @@ def _settings(settings: dict[str, Any]) -> dict[str, Any]:
                          f"accepted: {', '.join(DEFAULTS)}")
     s = {**DEFAULTS, **settings}
     s["coordinates"] = [str(c) for c in s["coordinates"]]
-    for key in ("order", "spins", "directions", "mass_points", "spin_exact_max", "max_rounds"):
-        s[key] = int(s[key])
+    if s["order"] is None:
+        s["order"] = 10 if len(s["coordinates"]) == 1 else 8
+    try:
+        for key in ("order", "spins", "directions", "mass_points", "spin_exact_max",
+                    "max_rounds"):
+            s[key] = int(s[key])
+        s["y_min"], s["verify_tol"] = float(s["y_min"]), float(s["verify_tol"])
+    except (TypeError, ValueError) as err:
+        raise InputError(None, "settings", f"a region setting is not a number ({err})",
+                         "give integers for order/spins/directions/..., floats otherwise"
+                         ) from err
+    if not (0 < s["y_min"] < 1 and 0 < s["verify_tol"] < 1e-2):
+        raise InputError(None, "settings", "need 0 < y_min < 1 and 0 < verify_tol < 1e-2")
     coords = s["coordinates"]
     if not 1 <= len(coords) <= 2 or len(set(coords)) != len(coords):
         raise InputError(None, "coordinates", f"{coords}: give one or two distinct coordinates")
     for c in coords:
-        deg = _degree_of(c[:-1]) if c.endswith("t") else None
-        if deg is None or deg < 3 or c[:-1] not in coupling_names(deg):
-            raise InputError(None, "coordinates", f"'{c}' is not a projective coupling",
-                             "use g3t, g4t, g5t, g6t, g6pt, ...")
+        deg = _degree_of(c[:-1]) or 0
+        if c not in REGION_COORDINATES:
+            raise InputError(None, "coordinates", f"'{c}' is not a region coordinate",
+                             f"use {' and/or '.join(REGION_COORDINATES)} (higher couplings "
+                             "are not supported yet)")
         if deg > s["order"]:
             raise InputError(None, "order", f"order {s['order']} is below the degree {deg} "
                              f"of {c}", f"use order >= {deg}")
@@ -398,7 +419,11 @@ def _inner_facet(normal: tuple[float, ...], offset: float, channel: str,
                  {"spectra": spectra})
 
 
-def _one_dim(solver: SumRuleSolver) -> tuple[list[Facet], list[Facet], list[tuple[float]]]:
+Built = tuple[list[Facet], list[Facet], list[tuple[float, ...]]]
+
+
+def _one_dim(solver: SumRuleSolver) -> Built:
+    """The interval: outer facets x >= lo_out, -x >= -hi_out; inner vertices lo_in, hi_in."""
     lo, hi = solver.extremize(np.array([1.0])), solver.extremize(np.array([-1.0]))
     outer = [_facet(lo, (1.0,), "direction (+1)", {}), _facet(hi, (-1.0,), "direction (-1)", {})]
     inner = [_inner_facet((1.0,), lo.inner, "direction (+1)", [lo.spectrum]),
@@ -406,9 +431,10 @@ def _one_dim(solver: SumRuleSolver) -> tuple[list[Facet], list[Facet], list[tupl
     return outer, inner, [(lo.inner_point[0],), (hi.inner_point[0],)]
 
 
-def _two_dim(solver: SumRuleSolver, n_dir: int
-             ) -> tuple[list[Facet], list[Facet], list[tuple[float, ...]]]:
-    from scipy.spatial import ConvexHull
+def _two_dim(solver: SumRuleSolver, n_dir: int) -> Built:
+    """Support functions along the axes and ``n_dir`` directions (uniform in angle after
+    scaling each axis by the width of the region); inner polygon = hull of the spectra."""
+    from scipy.spatial import ConvexHull, QhullError
 
     bounds = []
     for k in range(2):  # the axes first: they fix the scale of the directions
@@ -424,7 +450,10 @@ def _two_dim(solver: SumRuleSolver, n_dir: int
                     {"angle": float(np.arctan2(b.direction[1], b.direction[0]))})
              for b in bounds]
     pts = np.array([b.inner_point for b in bounds])
-    hull = ConvexHull(pts)
+    try:
+        hull = ConvexHull(pts)
+    except QhullError as err:
+        raise SolverError("degenerate-inner", "convex hull of the primal points") from err
     verts = [tuple(float(v) for v in pts[i]) for i in hull.vertices]
     inner = []
     for k, (eq, simplex) in enumerate(zip(hull.equations, hull.simplices, strict=True)):
@@ -486,9 +515,9 @@ class ScalarEFT(Theory):
         """(region coordinate, fit parameter) pairs, by degree."""
         out = []
         for p in fit.parameters:
-            if p.convention.name == "projective" and p.name in _listed_names()[1]:
+            if p.convention.name == "projective" and p.name in REGION_COORDINATES:
                 out.append((p.name, p.name))
-            elif p.convention.name == "dimensionful" and p.name in _listed_names()[0][1:]:
+            elif p.convention.name == "dimensionful" and p.name + "t" in REGION_COORDINATES:
                 out.append((p.name + "t", p.name))
         return sorted(out, key=lambda c: (_degree_of(c[0][:-1]) or 0, c[0]))
 
@@ -529,8 +558,9 @@ class ScalarEFT(Theory):
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         """The defaults with the coordinates of the fit (the two lowest-degree ones)."""
         coords = [c for c, _ in self._mappable(fit)][:2]
-        order = max(DEFAULTS["order"], *[_degree_of(c[:-1]) or 0 for c in coords])
-        return {**DEFAULTS, "coordinates": coords, "order": order}
+        auto = 10 if len(coords) == 1 else 8
+        return {**DEFAULTS, "coordinates": coords,
+                "order": max([auto] + [_degree_of(c[:-1]) or 0 for c in coords])}
 
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
         """Projective: a column selection (affine).  Dimensionful: g_k M^(2(D-2))/g2 (nonlinear).
