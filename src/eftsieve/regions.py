@@ -33,7 +33,7 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
     for f in region.facets:
         lines.append(f"  {f.inequality(region.coordinates):<28} [{f.label()}; {f.status}]")
     if region.inner_facets:
-        lines.append(f"  inner set: {len(region.inner_facets)} facets (points inside are "
-                     "certainly allowed)")
+        lines.append(f"  inner set: {len(region.inner_facets)} facets (reached by explicit "
+                     "positive spectra: consistent with every sum rule used)")
     lines.append(f"  hash {region.hash[:16]}")
     return "\n".join(lines)

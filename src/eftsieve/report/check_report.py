@@ -46,8 +46,10 @@ def region_block(region: Region) -> list:
                     tuple(rows))]
     if region.inner_facets:
         blocks.append(Para(f"The region also has an inner set of {len(region.inner_facets)} "
-                           "facets: points inside it are certainly allowed; points between it "
-                           "and the outer facets are numerically undecided (`marginal`)."))
+                           "facets, reached by explicit positive heavy-state spectra: points "
+                           "inside it are consistent with every sum rule and null constraint "
+                           "up to the stated order; points between it and the outer "
+                           "(verified dual) facets are numerically undecided (`marginal`)."))
     if region.notes:
         blocks.append(Bullets(tuple(region.notes)))
     return blocks
