@@ -99,3 +99,17 @@ def test_bare_samples_file_with_flags(tmp_path, capsys):
     # l1bar is not a known name: only lbar2 is constrained, so the region needs lbar1
     assert code == 2
     assert "needs l1" in capsys.readouterr().err
+
+
+def test_bare_samples_file_is_checked_and_extra_columns_carried(tmp_path, capsys):
+    import pandas as pd
+
+    f = tmp_path / "post.csv"
+    pd.DataFrame({"lbar1": [-0.4, 3.0, -5.0], "lbar2": [4.3, 0.5, 4.0],
+                  "sys": [1.0, 2.0, 3.0]}).to_csv(f, index=False)
+    assert main(["check", str(f), "--theory", "chpt-su2", "--convention", "lbar",
+                 "--pion-mass", "139.57", "-o", str(tmp_path / "o"), "--no-plots"]) == 0
+    s = json.loads((tmp_path / "o" / "summary.json").read_text())
+    assert s["n_total"] == 3 and s["n_inside"] == 1 and s["n_outside"] == 2
+    flagged = pd.read_csv(tmp_path / "o" / "flagged.csv")
+    assert flagged["row"].tolist() == [1, 2] and flagged["sys"].tolist() == [2.0, 3.0]
