@@ -45,6 +45,10 @@ def _add_region_args(p: argparse.ArgumentParser) -> None:
                    help="spin cut-off of the heavy-state grid (scalar-eft)")
     p.add_argument("--coordinates", type=_csv, default=None,
                    help="region coordinates, e.g. g3t,g4t (scalar-eft)")
+    p.add_argument("--engine", choices=["local", "dask"], default=None,
+                   help="scalar-eft: solve the directions of a 2-D region in parallel on dask")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="dask scheduler address (default: a local cluster of 2 workers)")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -76,7 +80,8 @@ def region_settings_from_args(args: argparse.Namespace) -> dict:
     """Collect the region options that were given (None means: theory default)."""
     keys = {"family": "families", "pion_mass": "pion_masses_mev", "fpi": "fpi_mev",
             "convention": "convention", "scale": "mu_mev", "grid": "grid", "order": "order",
-            "spins": "spins", "coordinates": "coordinates"}
+            "spins": "spins", "coordinates": "coordinates", "engine": "engine",
+            "scheduler": "scheduler"}
     return {v: getattr(args, k) for k, v in keys.items()
             if getattr(args, k, None) is not None}
 
@@ -104,6 +109,11 @@ def cmd_theories(args: argparse.Namespace) -> int:
 def cmd_region(args: argparse.Namespace) -> int:
     from eftsieve.regions import build_region, describe_region
 
+    if (args.engine or args.scheduler) and args.theory != "scalar-eft":
+        from eftsieve.errors import InputError
+
+        raise InputError(None, "--engine", f"{args.theory} regions are built in one process "
+                         "(they take about a second)", "drop --engine/--scheduler")
     region = build_region(args.theory, region_settings_from_args(args))
     region.save(args.output)
     if args.plot:

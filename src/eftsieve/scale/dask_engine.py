@@ -369,3 +369,30 @@ def region_builds_on(client: Any, todo: Sequence[RegionTask], *, retries: int = 
         cancel(futures)
         raise
     return out
+
+
+def map_tasks(fn: Any, args: Sequence[tuple[Any, ...]], names: Sequence[str],
+              scheduler: str | None = None, *, retries: int = 2,
+              timeout: float | None = None) -> list[Any]:
+    """``[fn(*a) for a in args]`` as distributed futures, results in order.
+
+    Used for independent solves inside one region build (the directions of a scalar-eft
+    region).  A task that fails after ``retries`` retries raises
+    :class:`~eftsieve.scale.partition.TaskFailedError` with its name; nothing is dropped.
+    """
+    require_dask()
+    import dask
+
+    if len(args) != len(names):
+        raise ValueError("one name per task")
+    token = f"eftsieve-map-{uuid.uuid4().hex[:12]}"
+    task = dask.delayed(fn, pure=False)
+    with connect(scheduler) as client:
+        futures = list(client.compute([task(*a, dask_key_name=(token, i))
+                                       for i, a in enumerate(args)], retries=retries))
+        try:
+            return [wait_result(f, n, timeout, retries)
+                    for f, n in zip(futures, names, strict=True)]
+        except BaseException:
+            cancel(futures)
+            raise

@@ -129,6 +129,7 @@ def low_energy_amplitude(couplings: dict[str, float], s: np.ndarray, t: np.ndarr
 DEFAULTS: dict[str, Any] = {
     "order": None, "spins": 40, "coordinates": ["g3t"], "directions": 64, "mass_points": 120,
     "y_min": 1e-4, "spin_exact_max": 2000, "verify_tol": 1e-6, "max_rounds": 25,
+    "engine": "local", "scheduler": None,
 }
 
 
@@ -185,6 +186,11 @@ def _settings(settings: dict[str, Any]) -> dict[str, Any]:
         if deg > s["order"]:
             raise InputError(None, "order", f"order {s['order']} is below the degree {deg} "
                              f"of {c}", f"use order >= {deg}")
+    if s["engine"] not in ("local", "dask"):
+        raise InputError(None, "--engine", f"unknown engine '{s['engine']}'", "local or dask")
+    if s["scheduler"] is not None and s["engine"] != "dask":
+        raise InputError(None, "--scheduler", "a scheduler address needs the dask engine",
+                         "add --engine dask")
     if s["order"] < 4 or s["spins"] < 2 or s["directions"] < 8 or s["mass_points"] < 8:
         raise InputError(None, "settings", "need order >= 4, spins >= 2, directions >= 8, "
                          "mass_points >= 8")
@@ -223,7 +229,15 @@ def _one_dim(solver: SumRuleSolver) -> Built:
     return outer, inner, [(lo.inner_point[0],), (hi.inner_point[0],)]
 
 
-def _two_dim(solver: SumRuleSolver, n_dir: int) -> Built:
+def _solve_direction(solver: SumRuleSolver, direction: np.ndarray) -> Any:
+    """One support-function solve on a private copy of ``solver`` (for parallel builds)."""
+    import copy
+
+    return copy.deepcopy(solver).extremize(direction)
+
+
+def _two_dim(solver: SumRuleSolver, n_dir: int, engine: str = "local",
+             scheduler: str | None = None) -> Built:
     """Support functions along the axes and ``n_dir`` directions (uniform in angle after
     scaling each axis by the width of the region); inner polygon = hull of the spectra."""
     from scipy.spatial import ConvexHull, QhullError
@@ -235,9 +249,20 @@ def _two_dim(solver: SumRuleSolver, n_dir: int) -> Built:
             d[k] = sgn
             bounds.append(solver.extremize(d))
     width = np.array([-bounds[1].outer - bounds[0].outer, -bounds[3].outer - bounds[2].outer])
+    dirs = []
     for th in 2 * np.pi * np.arange(n_dir) / n_dir:
         d = np.array([np.cos(th), np.sin(th)]) / width
-        bounds.append(solver.extremize(d / np.linalg.norm(d)))
+        dirs.append(d / np.linalg.norm(d))
+    if engine == "dask":
+        # each direction on its own copy of the post-axes solver: independent LPs, each
+        # verified on its own (the cutting-plane states are not shared between directions)
+        from eftsieve.scale.dask_engine import map_tasks
+
+        names = [f"scalar-eft direction {k} of {n_dir}" for k in range(n_dir)]
+        bounds += map_tasks(_solve_direction, [(solver, d) for d in dirs], names, scheduler)
+    else:
+        for d in dirs:
+            bounds.append(solver.extremize(d))
     outer = [_facet(b, b.direction, f"direction ({b.direction[0]:.6f}, {b.direction[1]:.6f})",
                     {"angle": float(np.arctan2(b.direction[1], b.direction[0]))})
              for b in bounds]
@@ -285,7 +310,8 @@ class ScalarEFT(Theory):
         if len(s["coordinates"]) == 1:
             outer, inner, verts = _one_dim(solver)
         else:
-            outer, inner, verts = _two_dim(solver, s["directions"])
+            outer, inner, verts = _two_dim(solver, s["directions"], s["engine"],
+                                           s["scheduler"])
         conv = {"name": "projective", "definition": "g{D}t = g{D} M^(2(D-2)) / g2",
                 "amplitude": "Caron-Huot & Van Duong, arXiv:2011.02957, Eq. (2.3)",
                 "units": "mass gap M = 1"}
