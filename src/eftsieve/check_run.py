@@ -251,10 +251,11 @@ def run_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | 
     """
     from eftsieve.theories import get_theory
 
-    if fit.theory != region.theory:
+    if fit.theory != region.theory and (fit.theory, region.theory) != ("chpt-su3", "chpt-su2"):
         raise InputError(region_path, "theory", f"region is for '{region.theory}' but the fit "
                          f"is '{fit.theory}'", "build the region for the fit's theory")
-    cmap = get_theory(fit.theory).coordinate_map(fit, region)
+    # the region's theory maps the fit (an SU(3) fit goes through the SU(2) matching)
+    cmap = get_theory(region.theory).coordinate_map(fit, region)
     fu = facet_uncertainty(region, uncertainty) if uncertainty is not None else None
     flagged = FlaggedWriter(outdir / "flagged.csv", fit, region) if outdir else None
     try:

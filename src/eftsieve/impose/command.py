@@ -48,7 +48,7 @@ def run(fit, region, args: argparse.Namespace, uncertainty=None):
     settings = ImposeSettings(mode, args.samples, args.walkers, args.seed,
                               args.min_ess if args.min_ess is not None else MIN_ESS,
                               not args.no_progress)
-    cmap = get_theory(fit.theory).coordinate_map(fit, region)
+    cmap = get_theory(region.theory).coordinate_map(fit, region)
     fu = None
     if uncertainty is not None and uncertainty.model != "none":
         fu = facet_uncertainty(region, uncertainty)
@@ -133,7 +133,7 @@ def impose_corner(result, fit, region, outdir: Path) -> Path:
     from eftsieve.report.plots import save_corner
     from eftsieve.theories import get_theory
 
-    cmap = get_theory(fit.theory).coordinate_map(fit, region)
+    cmap = get_theory(region.theory).coordinate_map(fit, region)
     before, after = result.before_samples.copy(), result.samples.copy()
     names = list(fit.names)
     cols = region_columns(None if cmap.jacobian is None else cmap.jacobian.tolist())

@@ -41,6 +41,7 @@ from eftsieve.conventions import (
     DEFAULT_PION_MASS_MEV,
     Convention,
     affine_map,
+    su2_scalar_map,
 )
 from eftsieve.errors import InputError, KinematicsWarning
 from eftsieve.region import Facet, Region, irredundant
@@ -266,7 +267,7 @@ class ChptSU2(Theory):
                                      f"l{idx} appears twice ({found[idx]} and {p.name})",
                                      "give each constant once")
                 found[idx] = p.name
-            elif p.convention.name not in ("none",):
+            elif p.convention.name not in ("none", "Lr"):
                 raise InputError(fit.source, f"parameters[{i}].convention",
                                  f"convention '{p.convention.name}' is not one of chpt-su2",
                                  "use lbar or lr")
@@ -277,6 +278,9 @@ class ChptSU2(Theory):
         target = Convention(str(region.convention["name"]),
                             region.convention.get("pion_mass_mev"),
                             region.convention.get("mu_mev"))
+        if not any(p.convention.name in ("lbar", "lr") for p in fit.parameters) and any(
+                p.convention.name == "Lr" for p in fit.parameters):
+            return _su3_fit_map(fit, region, target)
         jac = np.zeros((2, len(fit.parameters)))
         shift = np.zeros(2)
         desc = []
@@ -294,6 +298,37 @@ class ChptSU2(Theory):
             desc.append(f"{region.coordinates[k]} = {amap.jacobian[0, 0]:.12g} * {p.name} "
                         f"({p.convention.describe()}) + {amap.shift[0]:.12g}")
         return CoordinateMap(jac, shift, tuple(desc))
+
+
+def _su3_fit_map(fit: Fit, region: Region, target: Convention) -> CoordinateMap:
+    """An SU(3) fit of L1, L2, L3 at mu mapped onto this region through the one-loop
+    matching of Gasser & Leutwyler, Nucl. Phys. B250 (1985) 465 (see chpt_su3), then from
+    l^r(mu) to the region's convention.  Valid to the order of the matching."""
+    from eftsieve.theories.chpt_su3 import su2_matching_map
+
+    cols = {}
+    for i, p in enumerate(fit.parameters):
+        name = p.name.rstrip("r")
+        if p.convention.name == "Lr" and name in ("L1", "L2", "L3"):
+            cols[name] = i
+    if sorted(cols) != ["L1", "L2", "L3"]:
+        raise InputError(fit.source, "parameters", "matching to SU(2) needs L1, L2 and L3",
+                         "fit all three (convention Lr)")
+    mu = fit.parameters[cols["L1"]].convention.mu_mev
+    assert mu is not None
+    mk = float(fit.kinematics.get("kaon_mass_mev", 493.68))
+    match = su2_matching_map(mu, mk)
+    jac = np.zeros((2, len(fit.parameters)))
+    shift = np.zeros(2)
+    desc = []
+    for k, idx in enumerate((1, 2)):
+        a, c = su2_scalar_map(idx, Convention("lr", mu_mev=mu), target)
+        for j, name in enumerate(("L1", "L2", "L3")):
+            jac[k, cols[name]] = a * match.jacobian[k, j]
+        shift[k] = a * match.shift[k] + c
+        desc.append(f"{region.coordinates[k]} from l{idx}^r(mu = {mu:g} MeV) by the one-loop "
+                    f"SU(3) -> SU(2) matching (M_K = {mk:g} MeV)")
+    return CoordinateMap(jac, shift, tuple(desc))
 
 
 THEORY = ChptSU2()
