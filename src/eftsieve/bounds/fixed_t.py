@@ -137,3 +137,30 @@ def smallest_entry_one(unit: np.ndarray) -> np.ndarray:
     """Rescale a normal so that its smallest non-zero |entry| is 1 (readable facets)."""
     nz = np.abs(unit[np.abs(unit) > 1e-12 * np.abs(unit).max()])
     return unit / nz.min()
+
+
+def t_derivative_combination(second: np.ndarray, d_fixed_s: np.ndarray, d_s3: np.ndarray,
+                             s: np.ndarray, u: np.ndarray, s_th: float = 4.0,
+                             u_th: float = 4.0) -> tuple[np.ndarray, np.ndarray]:
+    """min over alpha in [0, 1] of S + D_alpha S / (3 m_alpha), which must be >= 0.
+
+    The first t-derivative bound of the family ``t-derivative`` (docs/physics.md has the
+    derivation, after de Rham, Melville, Tolley & Zhou, arXiv:1702.06134).  S = d^2T/ds^2
+    at fixed t; D_alpha = d/dt|_s - alpha d/ds|_t, the direction that raises t by 1 and
+    lowers s by alpha and u by 1 - alpha; m_alpha = max(alpha/(s_th - s),
+    (1 - alpha)/(u_th - u)) with the s- and u-channel thresholds s_th, u_th (4 M^2 for
+    equal masses).  The inequality D_alpha S + 3 m_alpha S >= 0 follows from the
+    twice-subtracted fixed-t dispersion relation with positive absorptive parts whose
+    t-derivatives are positive (P_l(x) >= 1, P_l'(x) >= 0 for x >= 1).  On each side of
+    the kink alpha* = (s_th - s)/(s_th - s + u_th - u) the combination is monotonic in
+    alpha, so the minimum is at alpha = 0, alpha* or 1.  Returns the minimum and the alpha
+    attaining it.
+    """
+    a, b = s_th - s, u_th - u
+    alphas = np.stack([np.zeros_like(s), a / (a + b), np.ones_like(s)])
+    d_alpha = d_fixed_s[None, :] - alphas * d_s3[None, :]
+    m = np.maximum(alphas / a, (1.0 - alphas) / b)
+    cand = second[None, :] + d_alpha / (3 * m)
+    best = np.argmin(cand, axis=0)
+    cols = np.arange(len(s))
+    return cand[best, cols], alphas[best, cols]

@@ -34,7 +34,12 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from eftsieve.bounds.fixed_t import ScanSettings, best_facet, smallest_entry_one
+from eftsieve.bounds.fixed_t import (
+    ScanSettings,
+    best_facet,
+    smallest_entry_one,
+    t_derivative_combination,
+)
 from eftsieve.conventions import (
     DEFAULT_FPI_MEV,
     DEFAULT_MU_MEV,
@@ -71,29 +76,6 @@ def _points(cube: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     t = 4.0 * cube[:, 1]
     s = -t + EDGE + cube[:, 0] * (4.0 + t - 2 * EDGE)
     return np.stack([s, t, 4.0 - s - t], axis=-1), t
-
-
-def t_derivative_combination(second: np.ndarray, d_fixed_s: np.ndarray, d_s3: np.ndarray,
-                             s: np.ndarray, u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """min over alpha in [0, 1] of S + D_alpha S / (3 m_alpha), which must be >= 0.
-
-    S = d^2T/ds^2 at fixed t, D_alpha = d/dt|_s - alpha d/ds|_t (the direction that
-    raises t by 1, lowers s by alpha and u by 1 - alpha), m_alpha = max(alpha/(4 - s),
-    (1 - alpha)/(4 - u)) in units of M^2.  The inequality D_alpha S + 3 m_alpha S >= 0
-    follows from the twice-subtracted fixed-t dispersion relation with positive s- and
-    u-channel absorptive parts whose t-derivatives are positive (P_l(x) >= 1 and
-    P_l'(x) >= 0 for x >= 1); docs/physics.md has the derivation.  On each side of the
-    kink alpha* = (4 - s)/(8 - s - u) the combination is monotonic in alpha, so the
-    minimum is at alpha = 0, alpha* or 1.  Returns the minimum and the alpha attaining it.
-    """
-    a, b = 4.0 - s, 4.0 - u
-    alphas = np.stack([np.zeros_like(s), a / (a + b), np.ones_like(s)])
-    d_alpha = d_fixed_s[None, :] - alphas * d_s3[None, :]
-    m = np.maximum(alphas / a, (1.0 - alphas) / b)
-    cand = second[None, :] + d_alpha / (3 * m)
-    best = np.argmin(cand, axis=0)
-    cols = np.arange(len(s))
-    return cand[best, cols], alphas[best, cols]
 
 
 class ChannelFunctionals:

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from eftsieve.bounds.fixed_t import t_derivative_combination as generic_t_derivative
 from eftsieve.theories import su3_amplitude as amp3
 
 #: distance in units of M_pi^2 kept from the s- and u-channel thresholds in the scan
@@ -128,21 +129,9 @@ def process_domain(process: str, kinds: tuple[str, str], mk: float, meta: float,
 def t_derivative_combination(second: np.ndarray, d_fixed_s: np.ndarray, d_s3: np.ndarray,
                              s: np.ndarray, u: np.ndarray, s_th: float, u_th: float,
                              ) -> tuple[np.ndarray, np.ndarray]:
-    """min over alpha in [0, 1] of S + D_alpha S/(3 m_alpha), with unequal thresholds.
-
-    D_alpha = d/dt|_s - alpha d/ds|_t; m_alpha = max(alpha/(s_th - s), (1 - alpha)/(u_th -
-    u)).  For s_th = u_th = 4 M^2 this is :func:`eftsieve.theories.chpt_su2.
-    t_derivative_combination`; docs/physics_su3.md derives it for any thresholds.  The
-    minimum over alpha is at alpha = 0, alpha* = (s_th - s)/(s_th - s + u_th - u) or 1.
-    """
-    a, b = s_th - s, u_th - u
-    alphas = np.stack([np.zeros_like(s), a / (a + b), np.ones_like(s)])
-    d_alpha = d_fixed_s[None, :] - alphas * d_s3[None, :]
-    m = np.maximum(alphas / a, (1.0 - alphas) / b)
-    cand = second[None, :] + d_alpha / (3 * m)
-    best = np.argmin(cand, axis=0)
-    cols = np.arange(len(s))
-    return cand[best, cols], alphas[best, cols]
+    """The t-derivative combination with the channel's own thresholds (unequal masses);
+    see :func:`eftsieve.bounds.fixed_t.t_derivative_combination` and docs/physics_su3.md."""
+    return generic_t_derivative(second, d_fixed_s, d_s3, s, u, s_th, u_th)
 
 
 class ChannelFunctionals:
