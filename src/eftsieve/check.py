@@ -124,11 +124,6 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
     return Verdicts(verdict, outer, worst, outer >= 0)
 
 
-def all_margins(y: np.ndarray, region: Region) -> np.ndarray:
-    """Signed margins to every outer facet, shape (n, m) (for flagged rows only)."""
-    return region.margins(y)
-
-
 @dataclass
 class Reservoir:
     """A uniform random subsample of a stream of rows (smallest random keys kept)."""
@@ -136,7 +131,6 @@ class Reservoir:
     size: int
     rng: np.random.Generator
     keys: np.ndarray = field(default_factory=lambda: np.empty(0))
-    rows: list[np.ndarray] = field(default_factory=list)
     data: np.ndarray | None = None
     weights: np.ndarray | None = None
 

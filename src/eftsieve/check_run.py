@@ -13,6 +13,7 @@ import math
 import os
 import tempfile
 from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -139,6 +140,22 @@ class FlaggedWriter:
         Path(self.tmp).unlink(missing_ok=True)
 
 
+@contextmanager
+def flagged_output(outdir: Path | None, fit: Fit, region: Region) -> Iterator[FlaggedWriter | None]:
+    """A FlaggedWriter for ``outdir/flagged.csv`` (None without an outdir): moved into place
+    when the block succeeds, removed when it raises, so the file is never half-written."""
+    if outdir is None:
+        yield None
+        return
+    writer = FlaggedWriter(outdir / "flagged.csv", fit, region)
+    try:
+        yield writer
+    except BaseException:
+        writer.abort()
+        raise
+    writer.commit()
+
+
 class WorstKeeper:
     """Keeps the N most violated points seen so far."""
 
@@ -257,15 +274,8 @@ def run_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | 
     # the region's theory maps the fit (an SU(3) fit goes through the SU(2) matching)
     cmap = get_theory(region.theory).coordinate_map(fit, region)
     fu = facet_uncertainty(region, uncertainty) if uncertainty is not None else None
-    flagged = FlaggedWriter(outdir / "flagged.csv", fit, region) if outdir else None
-    try:
+    with flagged_output(outdir, fit, region) as flagged:
         acc, res, worst = stream(fit, region, cmap, settings, flagged, fu)
-    except BaseException:
-        if flagged:
-            flagged.abort()
-        raise
-    if flagged:
-        flagged.commit()
     summary = _summary(fit, region, cmap, settings, acc, region_path)
     if fu is not None and fu.model != "none":
         from eftsieve.uncertainty_stats import model_statistics

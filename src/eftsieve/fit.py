@@ -235,27 +235,24 @@ def parse_convention(raw: Any, kin: dict[str, float], path: Path | None, where: 
     if raw not in CONVENTION_NAMES:
         raise InputError(path, where, f"unknown convention '{raw}'",
                          f"use one of {', '.join(CONVENTION_NAMES)}")
-    if raw == "lbar":
-        m = extra.get("pion_mass_mev", kin.get("pion_mass_mev"))
-        if m is None:
-            raise InputError(path, where, "convention 'lbar' needs the pion mass it is defined at",
-                             "add kinematics.pion_mass_mev (MeV)")
-        return Convention("lbar", pion_mass_mev=_positive(m, path, where + ".pion_mass_mev"))
-    if raw in ("lr", "Lr"):
-        mu = extra.get("mu_mev", kin.get("mu_mev"))
-        if mu is None:
-            raise InputError(path, where, f"convention '{raw}' needs its renormalisation scale",
-                             "add kinematics.mu_mev (MeV)")
-        return Convention(raw, mu_mev=_positive(mu, path, where + ".mu_mev"))
-    if raw == "dimensionful":
-        gap = extra.get("gap_mev", kin.get("gap_mev"))
-        if gap is None:
-            raise InputError(path, where, "convention 'dimensionful' needs the mass gap M",
-                             "add kinematics.gap_mev (MeV)")
-        return Convention("dimensionful", gap_mev=_positive(gap, path, where + ".gap_mev"))
-    if raw == "projective":
-        return Convention("projective")
-    return Convention("none")
+    need = _CONVENTION_NEEDS.get(raw)
+    if need is None:
+        return Convention(raw)
+    key, what = need
+    value = extra.get(key, kin.get(key))
+    if value is None:
+        raise InputError(path, where, f"convention '{raw}' needs {what}",
+                         f"add kinematics.{key} (MeV)")
+    return Convention(raw, **{key: _positive(value, path, f"{where}.{key}")})
+
+
+#: the kinematic input each convention needs: (field of Convention and card, meaning)
+_CONVENTION_NEEDS = {
+    "lbar": ("pion_mass_mev", "the pion mass it is defined at"),
+    "lr": ("mu_mev", "its renormalisation scale"),
+    "Lr": ("mu_mev", "its renormalisation scale"),
+    "dimensionful": ("gap_mev", "the mass gap M"),
+}
 
 
 def _positive(x: Any, path: Path | None, where: str) -> float:

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import hashlib
 import json
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -280,8 +280,3 @@ def irredundant(facets: list[Facet], box: float = 1e4) -> list[Facet]:
         if res.fun >= bi - REDUNDANCY_TOL * max(1.0, abs(bi)):
             keep.remove(i)
     return [facets[i] for i in keep]
-
-
-def with_settings(region: Region, **settings: Any) -> Region:
-    """A copy of ``region`` with extra settings recorded."""
-    return replace(region, settings={**region.settings, **settings})

@@ -32,7 +32,7 @@ from pathlib import Path
 from typing import Any
 
 from eftsieve.check import CheckSettings
-from eftsieve.check_run import CheckResult, FlaggedWriter
+from eftsieve.check_run import CheckResult, flagged_output
 from eftsieve.errors import InputError
 from eftsieve.fit import Fit
 from eftsieve.region import Region
@@ -205,7 +205,13 @@ def collect_check(sub: SubmittedCheck, outdir: Path | None,
                   partition_timeout: float | None = None) -> CheckResult:
     """Merge the partitions of a submitted check in order; write flagged.csv atomically."""
     retries = int(sub.engine.get("retries", 0))
-    flagged = FlaggedWriter(outdir / "flagged.csv", sub.fit, sub.region) if outdir else None
+    with flagged_output(outdir, sub.fit, sub.region) as flagged:
+        return _merge_in_order(sub, flagged, partition_timeout, retries)
+
+
+def _merge_in_order(sub: SubmittedCheck, flagged: Any, partition_timeout: float | None,
+                    retries: int) -> CheckResult:
+    """Wait for the partitions in order and merge them; cancel the rest on failure."""
     merger = CheckMerger(sub.fit, sub.region, sub.settings, sub.parts, flagged)
     try:
         for i, part in enumerate(sub.parts):
@@ -219,15 +225,10 @@ def collect_check(sub: SubmittedCheck, outdir: Path | None,
             merger.add_partition(res)
             sub.futures[i].release()
             sub.futures[i] = None
-        result = merger.result(sub.cmap, sub.region_path, sub.engine)
+        return merger.result(sub.cmap, sub.region_path, sub.engine)
     except BaseException:
         cancel(sub.futures)
-        if flagged:
-            flagged.abort()
         raise
-    if flagged:
-        flagged.commit()
-    return result
 
 
 def with_other_failures(err: TaskFailedError, sub: SubmittedCheck, i: int

@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from eftsieve.check import CheckSettings
-from eftsieve.check_run import CheckResult, FlaggedWriter, run_check
+from eftsieve.check_run import CheckResult, flagged_output, run_check
 from eftsieve.errors import InputError
 from eftsieve.fit import Fit
 from eftsieve.region import Region
@@ -74,21 +74,13 @@ def local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path 
         return gaussian_result(fit, region, settings, outdir, region_path, "local")
     cmap = prepare(fit, region, region_path)
     parts = fit.samples.file_parts()
-    flagged = FlaggedWriter(outdir / "flagged.csv", fit, region) if outdir else None
-    merger = CheckMerger(fit, region, settings, parts, flagged)
-    try:
+    with flagged_output(outdir, fit, region) as flagged:
+        merger = CheckMerger(fit, region, settings, parts, flagged)
         for part in parts:
             job = PartitionJob(part, fit, region, cmap, settings, flagged is not None)
             res = run_partition(job, sink=merger.add_block)
             merger.end_partition(part.index, part.start, res.n_rows)
-        result = merger.result(cmap, region_path, {"name": "local", "workers": 1})
-    except BaseException:
-        if flagged:
-            flagged.abort()
-        raise
-    if flagged:
-        flagged.commit()
-    return result
+        return merger.result(cmap, region_path, {"name": "local", "workers": 1})
 
 
 def refuse_uncertainty(uncertainty: Any) -> None:

@@ -229,6 +229,11 @@ class ChptSU2(Theory):
                  "s, t in certificates are in units of M_pi^2 of the facet's pion mass")
         return Region(self.name, coords, conv_d, tuple(kept), st, notes=notes)
 
+    def power_counting(self, region: Region,
+                       breakdown_mev: float | None) -> tuple[np.ndarray, np.ndarray]:
+        """Q_j and the one-loop coefficients c_2,j at each facet (see _power_counting)."""
+        return _power_counting(region, breakdown_mev)
+
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         convs = [p.convention for p in fit.parameters if p.convention.name != "none"]
         m = fit.kinematics.get("pion_mass_mev", DEFAULT_PION_MASS_MEV)
@@ -351,6 +356,3 @@ def _power_counting(region: Region, breakdown_mev: float | None) -> tuple[np.nda
         coef.append(nlo / (t_lo * qj**2))
     return np.array(q), np.array(coef)
 
-
-ChptSU2.power_counting = lambda self, region, breakdown_mev: _power_counting(  # type: ignore
-    region, breakdown_mev)
