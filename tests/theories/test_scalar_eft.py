@@ -4,7 +4,7 @@ External references:
 
 * arXiv:2011.02957 (Caron-Huot & Van Duong, "Extremal Effective Field Theories"): the
   two-sided bound -10.346 <= g3~ <= 3 and 0 <= g4~ <= 1/2 (stated in the introduction and
-  in Sec. 3; section from memory, values as quoted in the task brief); the lowest null
+  in Sec. 3; section and values from memory); the lowest null
   constraint <J(J+1)(J(J+1)-8)/m^8> = 0 in their measure (Sec. 2, from memory).
 * arXiv:2105.02862 (Chiang, Huang, Li, Rodina, Weng), abstract: the polynomial
   150 - 43 J^2 + 2 J^4 (J^2 = l(l+1)) in a spectrum bound derived from the null
