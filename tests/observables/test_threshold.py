@@ -1,6 +1,6 @@
 """Threshold parameters of pi-pi scattering from the numerical partial-wave projection.
 
-Check values come from outside the project:
+Check values come from outside the project (the formulas are in tests/check_values.py):
 
 * D-wave scattering lengths: Gasser & Leutwyler, Ann. Phys. 158 (1984) 142 (the
   one-loop D-wave scattering lengths; also quoted in Bijnens et al.,
@@ -44,6 +44,7 @@ from eftsieve.observables import (
     threshold_parameters,
 )
 from eftsieve.observables import threshold as th
+from tests.check_values import LEADING_ORDER, d_wave_closed, s_p_wave_closed
 
 PI = math.pi
 # Two pion masses: the physical point (PDG charged pion, F_pi = 92.07 MeV, common
@@ -51,34 +52,6 @@ PI = math.pi
 KINEMATICS = [(139.57, 92.07), (300.0, 110.0)]
 # lbar points chosen so that none of the combinations below nearly cancels.
 LBARS = [(-0.4, 4.3, 2.9, 4.4), (1.0, 2.0, 3.0, 4.0), (-2.0, 6.0, 0.5, 3.0)]
-
-
-def d_wave_closed(lbar, f):
-    """Gasser & Leutwyler (1984): a_2^0 and a_2^2 (see the module docstring)."""
-    l1, l2, _, _ = lbar
-    return {"a0_2": (l1 + 4 * l2 - 53 / 8) / (1440 * PI**3 * f**4),
-            "a2_2": (l1 + l2 - 103 / 40) / (1440 * PI**3 * f**4)}
-
-
-def s_p_wave_closed(lbar, f):
-    """One-loop S and P waves from GL (1984) Eq. (17.5) at threshold (module docstring)."""
-    l1, l2, l3, l4 = lbar
-    x = 1 / (12 * PI**2 * f**2)
-    return {
-        "a0_0": 7 / (32 * PI * f**2)
-        * (1 + 5 / 7 * x * (l1 + 2 * l2 - 3 / 8 * l3 + 21 / 10 * l4 + 21 / 8)),
-        "b0_0": 1 / (4 * PI * f**2) * (1 + x * (2 * l1 + 3 * l2 + 1.5 * l4 - 13 / 16)),
-        "a2_0": -1 / (16 * PI * f**2)
-        * (1 - x * (l1 + 2 * l2 - 3 / 8 * l3 - 1.5 * l4 + 3 / 8)),
-        "b2_0": -1 / (8 * PI * f**2) * (1 - x * (l1 + 3 * l2 - 1.5 * l4 - 5 / 16)),
-        "a1_1": 1 / (24 * PI * f**2) * (1 - x * (l1 - l2 - 1.5 * l4 + 65 / 48)),
-        "b1_1": (l2 - l1 + 97 / 120) / (288 * PI**3 * f**4),
-    }
-
-
-# Weinberg (1966) leading order, times F^2 (see the module docstring).
-LEADING_ORDER = {"a0_0": 7 / (32 * PI), "a2_0": -1 / (16 * PI), "b0_0": 1 / (4 * PI),
-                 "b2_0": -1 / (8 * PI), "a1_1": 1 / (24 * PI)}
 
 
 @pytest.mark.parametrize("mpi, fpi", KINEMATICS)
