@@ -31,7 +31,6 @@ Check values come from outside the project (the formulas are in tests/check_valu
 
 from __future__ import annotations
 
-import math
 import time
 
 import numpy as np
@@ -46,7 +45,6 @@ from eftsieve.observables import (
 from eftsieve.observables import threshold as th
 from tests.check_values import LEADING_ORDER, d_wave_closed, s_p_wave_closed
 
-PI = math.pi
 # Two pion masses: the physical point (PDG charged pion, F_pi = 92.07 MeV, common
 # practice) and a heavier, lattice-like point.
 KINEMATICS = [(139.57, 92.07), (300.0, 110.0)]
