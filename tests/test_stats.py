@@ -1,4 +1,4 @@
-"""Tension QP and chi-bar-squared weights against closed forms."""
+"""Tension QP and chi-bar-squared weights against closed forms; batch-means errors."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from eftsieve.stats import chibar2_sf, closest_point, cone_weights, tension
+from eftsieve.stats import Accumulator, chibar2_sf, closest_point, cone_weights, tension
 from tests.helpers import region
 
 
@@ -62,3 +62,70 @@ def test_chibar2_sf_limits():
     assert chibar2_sf(0.0, w) == pytest.approx(1.0)
     x = 3.0
     assert chibar2_sf(x, w) == pytest.approx(0.5 * sps.chi2.sf(x, 1) + 0.25 * sps.chi2.sf(x, 2))
+
+
+# ---- batch means: the Monte-Carlo error of p_inside for correlated draws ---------------
+def _accumulate(inside, w=None, chunk=None):
+    acc = Accumulator(1)
+    y = np.zeros((len(inside), 1))
+    verdict = np.where(inside, 0, 2)
+    step = chunk or len(inside)
+    for lo in range(0, len(inside), step):
+        sl = slice(lo, lo + step)
+        acc.add(y[sl], None if w is None else w[sl], verdict[sl], inside[sl])
+    acc.finish()
+    return acc
+
+
+def _sign_tau(rho, terms=2000):
+    """Integrated autocorrelation time of 1{x > 0} for a stationary Gaussian AR(1).
+
+    The indicators of two standard normals with correlation r have correlation
+    (2/pi) arcsin(r) (Sheppard, Phil. Trans. R. Soc. A 192 (1899) 101: P(X > 0, Y > 0)
+    = 1/4 + arcsin(r)/(2 pi)); the lag-k correlation of the AR(1) is rho^k.
+    """
+    k = np.arange(1, terms)
+    return 1.0 + 2.0 * float(np.sum(2 / np.pi * np.arcsin(rho**k)))
+
+
+def test_batch_means_of_independent_draws_give_tau_one():
+    rng = np.random.default_rng(11)
+    n = 1 << 17
+    inside = rng.random(n) < 0.3
+    w = rng.exponential(size=n)
+    bm = _accumulate(inside, w).batch_means()
+    assert bm.n_batches >= 400
+    assert 0.8 < bm.tau < 1.25          # the batch-means variance estimate is ~6% noisy
+
+
+def test_batch_means_of_an_ar1_chain_against_sheppard():
+    rng = np.random.default_rng(5)
+    rho, n = 0.9, 1 << 19
+    from scipy.signal import lfilter
+
+    e = rng.standard_normal(n) * math.sqrt(1 - rho**2)
+    e[0] = rng.standard_normal()        # start in the stationary distribution
+    x = lfilter([1.0], [1.0, -rho], e)
+    acc = _accumulate(x > 0)
+    bm = acc.batch_means()
+    tau = _sign_tau(rho)
+    assert 10 < tau < 14                # a long correlation, far from independent draws
+    assert bm.tau == pytest.approx(tau, rel=0.2)
+    p = acc.p_inside()[0]
+    assert bm.std_error == pytest.approx(math.sqrt(p * (1 - p) * tau / n), rel=0.12)
+
+
+def test_batch_means_do_not_depend_on_chunk_sizes():
+    rng = np.random.default_rng(2)
+    n = 200_003
+    inside, w = rng.random(n) < 0.6, rng.random(n) + 0.5
+    ref = _accumulate(inside, w).batch_means()
+    for chunk in (1000, 65_537, 99_999):
+        assert _accumulate(inside, w, chunk).batch_means() == ref
+
+
+def test_too_few_rows_give_no_batch_means_estimate():
+    bm = _accumulate(np.arange(1000) % 3 == 0).batch_means()
+    assert bm.n_batches < 20 and math.isnan(bm.std_error)
+    assert bm.to_dict()["p_inside_mc_err_batch"] is None
+    assert bm.to_dict()["tau_inside"] is None

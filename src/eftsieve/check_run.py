@@ -297,6 +297,7 @@ def _summary(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSetti
                            "region_file": region_path, "n_total": acc.n_total, **counts,
                            "ess": acc.ess(), "p_inside_mc": p_mc, "p_inside_mc_err": p_mc_err,
                            "p_inside": p_mc, "p_inside_err": p_mc_err,
+                           **acc.batch_means().to_dict(),
                            "p_inside_method": "sample fraction (weighted)",
                            "p_certainly_inside": acc.sw_in_inner / acc.sw,
                            "settings": settings.to_dict(), "source": "gaussian" if fit.is_gaussian

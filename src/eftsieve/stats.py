@@ -3,7 +3,12 @@
 - :class:`Accumulator` streams weighted sums over chunks: counts, the probability
   inside with its Monte-Carlo error (ratio-estimator delta method), the Kish effective
   sample size (Kish, "Survey Sampling", Wiley 1965), and the weighted mean and
-  covariance in the region's coordinates.
+  covariance in the region's coordinates.  :meth:`Accumulator.batch_means` gives the
+  error of the probability inside for correlated draws (MCMC chains in draw order):
+  non-overlapping batch means with batches of about sqrt(n) rows (Flegal & Jones,
+  "Batch means and spectral variance estimators in Markov chain Monte Carlo",
+  Ann. Statist. 38 (2010) 1034; from memory), and the integrated autocorrelation time
+  of the inside indicator that it implies.
 - :func:`tension` finds the minimal Mahalanobis distance from the mean to the region
   (a convex QP, solved with cvxpy + Clarabel and verified through its KKT conditions),
   and converts it into a p-value with the chi-bar-squared distribution for inequality
@@ -29,6 +34,53 @@ from eftsieve.region import Region
 from eftsieve.tolerances import FEASIBILITY_TOL
 
 BLOCK = 1 << 16
+#: rows per elementary batch of the batch-means error (divides BLOCK)
+BATCH = 256
+#: fewer batches than this give no batch-means estimate (its variance would be too noisy)
+MIN_BATCHES = 20
+
+
+def batch_sums(w: np.ndarray, satisfies: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sums of w and of w over the rows inside, per run of :data:`BATCH` rows of a block.
+
+    Runs start at the first row of the block, so the sums do not depend on chunk sizes;
+    every engine calls this same function on the same blocks (the same bits).
+    """
+    if len(w) == 0:
+        return np.zeros(0), np.zeros(0)
+    starts = np.arange(0, len(w), BATCH)
+    return (np.add.reduceat(w, starts),
+            np.add.reduceat(np.where(satisfies, w, 0.0), starts))
+
+
+@dataclass(frozen=True)
+class BatchMeans:
+    """The batch-means error of the probability inside (correlated draws).
+
+    Attributes
+    ----------
+    std_error
+        Standard error of P(inside) from the spread of the batch estimates (NaN with
+        fewer than :data:`MIN_BATCHES` batches, or when every row is on one side).
+    tau
+        Integrated autocorrelation time of the inside indicator, the ratio of the
+        batch-means variance to the variance for independent draws (about 1 for
+        independent draws; NaN when either is undefined).
+    n_batches, batch_rows
+        Number of batches and rows per batch (the last batches of a file may be short).
+    """
+
+    std_error: float
+    tau: float
+    n_batches: int
+    batch_rows: int
+
+    def to_dict(self) -> dict[str, Any]:
+        """Summary fields; undefined values are None (JSON null)."""
+        def fin(v: float) -> float | None:
+            return v if math.isfinite(v) else None
+        return {"p_inside_mc_err_batch": fin(self.std_error), "tau_inside": fin(self.tau),
+                "n_batches": self.n_batches, "batch_rows": self.batch_rows}
 
 
 @dataclass
@@ -53,6 +105,8 @@ class Accumulator:
     _sw2p: float = 0.0
     mean_sum: np.ndarray | None = None
     outer_sum: np.ndarray | None = None
+    batch_w: list = field(default_factory=list)
+    batch_in: list = field(default_factory=list)
     _pending: list = field(default_factory=list)
     _n_pending: int = 0
 
@@ -96,6 +150,9 @@ class Accumulator:
         self.sw_in += float(ww[satisfies].sum())
         self.sw2_in += float((ww[satisfies] ** 2).sum())
         self.sw_in_inner += float(ww[verdict == 0].sum())
+        bw, bi = batch_sums(ww, satisfies)
+        self.batch_w.append(bw)
+        self.batch_in.append(bi)
         m = ww @ y
         o = (y * ww[:, None]).T @ y
         self.mean_sum = m if self.mean_sum is None else self.mean_sum + m
@@ -119,6 +176,31 @@ class Accumulator:
         # using sum w^2 P <= sqrt(sum w^2 P^2 sum w^2) is loose, so keep the exact pieces
         var = max(self.sw2_soft_dev - 2 * p * self._sw2p + p * p * self.sw2, 0.0)
         return p, math.sqrt(var) / self.sw
+
+    def batch_means(self) -> BatchMeans:
+        """Standard error of P(inside) for correlated draws, by batch means.
+
+        Elementary batches are merged, in row order, into batches of about sqrt(n) rows;
+        with batch sums A_j = sum w I and W_j = sum w, the ratio estimator p = sum A / sum W
+        has variance k/(k - 1) sum_j (A_j - p W_j)^2 / (sum W)^2 over the k batches.  The
+        rows must be in draw order within each chain (chains one after another); draws
+        of several walkers interleaved step by step are correlated over more rows, and
+        the estimate is then too small unless sqrt(n) rows span many autocorrelation
+        times of the whole ensemble.
+        """
+        bw = np.concatenate(self.batch_w) if self.batch_w else np.zeros(0)
+        bi = np.concatenate(self.batch_in) if self.batch_in else np.zeros(0)
+        group = max(1, round(math.sqrt(self.n_total) / BATCH))
+        starts = np.arange(0, len(bw), group)
+        k = len(starts)
+        p, iid = self.p_inside()
+        if k < MIN_BATCHES or not self.sw > 0:
+            return BatchMeans(float("nan"), float("nan"), k, group * BATCH)
+        big_w, big_a = np.add.reduceat(bw, starts), np.add.reduceat(bi, starts)
+        var = k / (k - 1) * float(np.sum((big_a - p * big_w) ** 2)) / self.sw**2
+        tau = var / iid**2 if iid > 0 else float("nan")
+        err = math.sqrt(var) if var > 0 else float("nan")
+        return BatchMeans(err, tau, k, group * BATCH)
 
     def ess(self) -> float:
         return self.sw**2 / self.sw2 if self.sw2 > 0 else 0.0

@@ -7,7 +7,7 @@ from pathlib import Path
 
 from eftsieve.check import CheckSettings
 from eftsieve.check_run import run_check
-from eftsieve.fit import Prior
+from eftsieve.fit import Parameter, Prior
 from eftsieve.report.check_report import check_document
 from eftsieve.report.document import to_html, to_markdown
 from tests.helpers import gaussian_fit, region
@@ -52,3 +52,38 @@ def test_html_is_self_contained(tmp_path):
     fig.savefig(png)
     html = to_html(Document("t", [Image(png, "x")]))
     assert "data:image/png;base64," in html and "src='x.png'" not in html
+
+
+def _samples_report(tmp_path, rho, n=20_000):
+    """A check of AR(1)-correlated samples (rho = 0 gives independent draws)."""
+    import numpy as np
+    import pandas as pd
+    from scipy.signal import lfilter
+
+    from eftsieve.fit import Fit
+    from eftsieve.samples import SamplesSource
+    from tests.helpers import LBAR
+
+    rng = np.random.default_rng(3)
+    e = rng.standard_normal((n, 2)) * np.sqrt(1 - rho**2)
+    e[0] = rng.standard_normal(2)
+    x = lfilter([1.0], [1.0, -rho], e, axis=0) + [0.5, 1.1]
+    path = tmp_path / f"chain_{rho}.csv"
+    pd.DataFrame(x, columns=["lbar1", "lbar2"]).to_csv(path, index=False)
+    params = tuple(Parameter(p, LBAR) for p in ("lbar1", "lbar2"))
+    fit = Fit("chain", "chpt-su2", params, {"pion_mass_mev": 139.57},
+              samples=SamplesSource(path, "csv", ("lbar1", "lbar2")))
+    reg = region(((0, 1), 1.0), ((1, 2), 3.0))
+    res = run_check(fit, reg, CheckSettings(seed=1), None)
+    return res.summary, to_markdown(check_document(fit, reg, res.summary, res.worst, {}))
+
+
+def test_report_gives_the_batch_means_error_of_correlated_samples(tmp_path):
+    s, text = _samples_report(tmp_path, rho=0.95)
+    assert s["tau_inside"] > 10 and s["p_inside_mc_err_batch"] > 3 * s["p_inside_mc_err"]
+    assert "p_inside error, correlated draws (batch means)" in text
+    assert "quote the batch-means error" in text
+    s, text = _samples_report(tmp_path, rho=0.0)
+    assert 0.6 < s["tau_inside"] < 1.6
+    assert "p_inside error, correlated draws (batch means)" in text
+    assert "quote the batch-means error" not in text

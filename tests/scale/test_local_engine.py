@@ -48,7 +48,8 @@ def test_one_file_agrees_with_run_check(dataset, region, tmp_path):
     ref = run_check(fit, region, SETTINGS, tmp_path / "ref")
     s, r = ours.summary, ref.summary
     for key in ("n_total", "n_inside", "n_marginal", "n_outside", "p_inside", "p_inside_err",
-                "ess", "p_certainly_inside", "bayes_factor_note"):
+                "ess", "p_certainly_inside", "bayes_factor_note", "p_inside_mc_err_batch",
+                "tau_inside", "n_batches"):
         assert s[key] == r[key], key
     np.testing.assert_allclose(s["mean_region"], r["mean_region"], rtol=1e-13)
     np.testing.assert_allclose(s["cov_region"], r["cov_region"], rtol=1e-11)
@@ -67,7 +68,8 @@ def test_block_aligned_files_agree_with_run_check_exactly(tmp_path, region):
     fit = make_fit(tmp_path / "d")
     s = local_check(fit, region, SETTINGS, None).summary
     r = run_check(fit, region, SETTINGS, None).summary
-    for key in ("n_total", "n_inside", "n_outside", "p_inside", "p_inside_err", "ess"):
+    for key in ("n_total", "n_inside", "n_outside", "p_inside", "p_inside_err", "ess",
+                "p_inside_mc_err_batch", "tau_inside", "n_batches"):
         assert s[key] == r[key], key
 
 

@@ -55,6 +55,35 @@ def region_block(region: Region) -> list:
     return blocks
 
 
+#: integrated autocorrelation times above this get a sentence in the report
+TAU_NOTE = 2.0
+
+
+def _batch_rows(s: dict[str, Any]) -> tuple[tuple[str, str], ...]:
+    """The batch-means error of p_inside (posterior samples only; Gaussian draws are iid)."""
+    if s.get("source") != "samples" or "n_batches" not in s:
+        return ()
+    if s.get("p_inside_mc_err_batch") is None:
+        return (("p_inside error, correlated draws (batch means)",
+                 f"not estimated ({s['n_batches']} batches of {s['batch_rows']} rows; "
+                 "too few rows, or every row on one side)"),)
+    return (("p_inside error, correlated draws (batch means)",
+             f"+- {_g(s['p_inside_mc_err_batch'], '.2g')} ({s['n_batches']} batches of "
+             f"{s['batch_rows']} rows, in file order)"),
+            ("autocorrelation time of the inside indicator", _g(s["tau_inside"], ".3g")))
+
+
+def _tau_note(s: dict[str, Any]) -> list:
+    tau = s.get("tau_inside") if s.get("source") == "samples" else None
+    if tau is None or tau <= TAU_NOTE:
+        return []
+    return [Para(f"The samples are correlated in file order (autocorrelation time of the "
+                 f"inside indicator about {tau:.3g} rows): quote the batch-means error of "
+                 "p_inside, not the sample-fraction one, which assumes independent draws. "
+                 "The batch-means error needs the rows in draw order within each chain; "
+                 "walkers interleaved step by step can hide longer correlations.")]
+
+
 def stats_block(s: dict[str, Any]) -> list:
     band = s["settings"]["marginal_band"]
     rows = (("rows read (n_total)", str(s["n_total"])),
@@ -66,6 +95,7 @@ def stats_block(s: dict[str, Any]) -> list:
             ("p_inside (sample fraction)", f"{_g(s['p_inside_mc'], '.6g')} +- "
                                            f"{_g(s['p_inside_mc_err'], '.2g')}"),
             ("effective sample size", _g(s["ess"], ".6g")),
+            *_batch_rows(s),
             ("minimal Mahalanobis distance", _g(s["mahalanobis_min"])),
             ("closest allowed point", ", ".join(_g(v, ".5g") for v in s["closest_point"])),
             ("tension p-value (chi-bar-squared)", _g(s["tension_p"])),
@@ -74,7 +104,7 @@ def stats_block(s: dict[str, Any]) -> list:
              _g(s["bayes_factor"]) + (f" +- {_g(s['bayes_factor_err'], '.2g')}"
                                       if s["bayes_factor"] is not None else "")
              + f" ({s['bayes_factor_note']})"))
-    return [Heading("Statistics"), Table(("quantity", "value"), rows),
+    return [Heading("Statistics"), Table(("quantity", "value"), rows), *_tau_note(s),
             Para("The tension p-value uses the chi-bar-squared distribution of the minimal "
                  "Mahalanobis distance squared, with the weights of the least favourable "
                  "tangent cone of the region (Shapiro 1988; Silvapulle & Sen 2005, Sec. 3.4); "

@@ -17,10 +17,9 @@ threads that process runs:
 - :func:`absorb` adds one block's sums into an :class:`~eftsieve.stats.Accumulator`
   field by field, as the accumulator's own per-block update does, so that block sums
   replayed in canonical order give the same bits wherever the blocks were computed.
-  The accumulator itself is not changed (``stats.py`` is not ours to edit): the engines
-  never call its ``add``, they absorb whole blocks, which is the per-file flush that the
-  canonical order needs.  :func:`check_accumulator_layout` stops a run if the
-  accumulator gains a field that :func:`absorb` does not know.
+  The engines never call the accumulator's ``add``, they absorb whole blocks, which is
+  the per-file flush that the canonical order needs.  :func:`check_accumulator_layout`
+  stops a run if the accumulator gains a field that :func:`absorb` does not know.
 - :class:`Ranked` keeps the ``k`` smallest rows under the total order (key, row); the
   kept set is the same whatever the grouping of the rows, so per-partition selections
   merged on the client equal one selection over the whole stream.
@@ -36,13 +35,14 @@ import numpy as np
 
 from eftsieve.check import VERDICT_NAMES
 from eftsieve.samples import Chunk
-from eftsieve.stats import BLOCK, Accumulator
+from eftsieve.stats import BLOCK, Accumulator, batch_sums
 from eftsieve.theories.base import CoordinateMap
 
 #: the fields of :class:`~eftsieve.stats.Accumulator` that :func:`absorb` knows how to add
 #: (the others are its configuration and its buffer of pending rows)
 ACCUMULATOR_SUMS = ("n_total", "counts", "sw", "sw2", "sw_in", "sw_in_inner", "sw2_in",
-                    "sw_soft", "sw2_soft_dev", "_sw2p", "mean_sum", "outer_sum")
+                    "sw_soft", "sw2_soft_dev", "_sw2p", "mean_sum", "outer_sum",
+                    "batch_w", "batch_in")
 ACCUMULATOR_OTHER = ("dim", "soft_seen", "_pending", "_n_pending")
 
 
@@ -84,6 +84,9 @@ class BlockSums:
         Sum of w y, shape (k,).
     outer_sum
         Sum of w y y^T, shape (k, k), exactly symmetric.
+    batch_w, batch_in
+        Sums of w and of w over rows inside per elementary batch
+        (:func:`eftsieve.stats.batch_sums`).
     """
 
     n: int
@@ -98,13 +101,16 @@ class BlockSums:
     sw2_soft_dev: float
     mean_sum: np.ndarray
     outer_sum: np.ndarray
+    batch_w: np.ndarray
+    batch_in: np.ndarray
 
     def to_dict(self) -> dict[str, Any]:
         return {"n": self.n, "counts": self.counts.tolist(), "sw": self.sw, "sw2": self.sw2,
                 "sw_in": self.sw_in, "sw2_in": self.sw2_in, "sw_in_inner": self.sw_in_inner,
                 "sw_soft": self.sw_soft, "sw2p": self.sw2p,
                 "sw2_soft_dev": self.sw2_soft_dev, "mean_sum": self.mean_sum.tolist(),
-                "outer_sum": self.outer_sum.tolist()}
+                "outer_sum": self.outer_sum.tolist(), "batch_w": self.batch_w.tolist(),
+                "batch_in": self.batch_in.tolist()}
 
 
 def block_sums(y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
@@ -126,12 +132,14 @@ def block_sums(y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
             outer[i, j] = outer[j, i] = float((wy[i] * cols[j]).sum())
     w2 = ww * ww
     sp = satisfies.astype(float)
+    bw, bi = batch_sums(ww, satisfies)
     return BlockSums(
         n=len(y), counts=np.bincount(verdict, minlength=len(VERDICT_NAMES)).astype(np.int64),
         sw=float(ww.sum()), sw2=float(w2.sum()), sw_in=float(ww[satisfies].sum()),
         sw2_in=float((ww[satisfies] ** 2).sum()), sw_in_inner=float(ww[verdict == 0].sum()),
         sw_soft=float((ww * sp).sum()), sw2p=float((w2 * sp).sum()),
-        sw2_soft_dev=float((w2 * (sp * sp)).sum()), mean_sum=mean, outer_sum=outer)
+        sw2_soft_dev=float((w2 * (sp * sp)).sum()), mean_sum=mean, outer_sum=outer,
+        batch_w=bw, batch_in=bi)
 
 
 def absorb(acc: Accumulator, b: BlockSums) -> None:
@@ -154,6 +162,8 @@ def absorb(acc: Accumulator, b: BlockSums) -> None:
     acc.mean_sum = b.mean_sum.copy() if acc.mean_sum is None else acc.mean_sum + b.mean_sum
     acc.outer_sum = (b.outer_sum.copy() if acc.outer_sum is None
                      else acc.outer_sum + b.outer_sum)
+    acc.batch_w.append(b.batch_w)
+    acc.batch_in.append(b.batch_in)
 
 
 def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:
