@@ -53,6 +53,28 @@ def batch_sums(w: np.ndarray, satisfies: np.ndarray) -> tuple[np.ndarray, np.nda
             np.add.reduceat(np.where(satisfies, w, 0.0), starts))
 
 
+def ratio_batch_variance(num: np.ndarray, den: np.ndarray, n_rows: int
+                         ) -> tuple[float, int, int]:
+    """Batch-means variance of the ratio estimator r = sum num / sum den.
+
+    ``num``, ``den`` are sums over elementary batches of :data:`BATCH` consecutive rows,
+    in row order; they are merged into batches of about sqrt(n_rows) rows and
+    var(r) = k/(k - 1) sum_j (A_j - r W_j)^2 / (sum W)^2 over the k batches (module
+    docstring).  Returns (variance, k, rows per batch); the variance is NaN with fewer
+    than :data:`MIN_BATCHES` batches or without weight.
+    """
+    group = max(1, round(math.sqrt(n_rows) / BATCH))
+    starts = np.arange(0, len(den), group)
+    k = len(starts)
+    total = float(den.sum()) if len(den) else 0.0
+    if k < MIN_BATCHES or not total > 0:
+        return float("nan"), k, group * BATCH
+    big_a, big_w = np.add.reduceat(num, starts), np.add.reduceat(den, starts)
+    r = float(num.sum()) / total
+    var = k / (k - 1) * float(np.sum((big_a - r * big_w) ** 2)) / total**2
+    return var, k, group * BATCH
+
+
 @dataclass(frozen=True)
 class BatchMeans:
     """The batch-means error of the probability inside (correlated draws).
@@ -190,17 +212,11 @@ class Accumulator:
         """
         bw = np.concatenate(self.batch_w) if self.batch_w else np.zeros(0)
         bi = np.concatenate(self.batch_in) if self.batch_in else np.zeros(0)
-        group = max(1, round(math.sqrt(self.n_total) / BATCH))
-        starts = np.arange(0, len(bw), group)
-        k = len(starts)
-        p, iid = self.p_inside()
-        if k < MIN_BATCHES or not self.sw > 0:
-            return BatchMeans(float("nan"), float("nan"), k, group * BATCH)
-        big_w, big_a = np.add.reduceat(bw, starts), np.add.reduceat(bi, starts)
-        var = k / (k - 1) * float(np.sum((big_a - p * big_w) ** 2)) / self.sw**2
+        var, k, rows = ratio_batch_variance(bi, bw, self.n_total)
+        iid = self.p_inside()[1]
         tau = var / iid**2 if iid > 0 else float("nan")
         err = math.sqrt(var) if var > 0 else float("nan")
-        return BatchMeans(err, tau, k, group * BATCH)
+        return BatchMeans(err, tau, k, rows)
 
     def ess(self) -> float:
         return self.sw**2 / self.sw2 if self.sw2 > 0 else 0.0

@@ -133,3 +133,49 @@ def test_refit_refuses_to_call_a_short_chain_converged():
         res = run_refit(fit, reg, SU2.coordinate_map(fit, reg),
                         lambda x: -0.5 * ((x - [0, 2]) ** 2).sum(axis=1), settings, "toy")
     assert res.summary["converged"] is False
+
+
+def _chain_fit(tmp_path, rho, n):
+    """A stationary Gaussian AR(1) chain in lbar2 (lbar1 independent), rows in draw order."""
+    from scipy.signal import lfilter
+
+    rng = np.random.default_rng(4)
+    e = rng.standard_normal(n) * np.sqrt(1 - rho**2)
+    e[0] = rng.standard_normal()
+    frame = pd.DataFrame({"lbar1": rng.normal(0, 1, n),
+                          "lbar2": 1.0 + lfilter([1.0], [1.0, -rho], e)})
+    frame.to_parquet(tmp_path / "s.parquet")
+    (tmp_path / "c.yaml").write_text(
+        "format_version: 1\nname: chain\ntheory: chpt-su2\nkinematics: {pion_mass_mev: 139.57}\n"
+        "parameters: [{name: lbar1, convention: lbar}, {name: lbar2, convention: lbar}]\n"
+        "samples: {path: s.parquet}\n")
+    return load_fit(tmp_path / "c.yaml")
+
+
+def test_reweight_tau_of_an_ar1_chain(tmp_path):
+    # a facet far below every row keeps them all: the truncated mean is the chain mean,
+    # whose integrated autocorrelation time is (1 + rho)/(1 - rho) (common practice)
+    rho = 0.9
+    fit = _chain_fit(tmp_path, rho, 1 << 18)
+    reg = region(((0, 1), -50.0))
+    s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).summary
+    assert s["n_dropped"] == 0
+    assert s["tau_rows"] == pytest.approx((1 + rho) / (1 - rho), rel=0.2)
+    assert s["ess_autocorr"] == pytest.approx(s["ess"] / s["tau_rows"])
+
+
+def test_reweight_of_independent_rows_has_tau_near_one(tmp_path):
+    fit, _ = _samples_fit(tmp_path, 50_000, 1.0)
+    reg = region(((0, 1), 1.0))
+    s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).summary
+    assert 0.75 < s["tau_rows"] < 1.35
+
+
+def test_reweight_floor_counts_the_autocorrelation_of_the_rows(tmp_path):
+    # Kish's ESS of the kept rows is ~2,000, but the rows are correlated (tau ~ 10 for the
+    # truncated means): ~200 independent draws, below the floor
+    fit = _chain_fit(tmp_path, 0.95, 8192)
+    reg = region(((0, 1), 1.8))
+    cmap = SU2.coordinate_map(fit, reg)
+    with pytest.raises(SamplingError, match="autocorrelation"):
+        reweight(fit, reg, cmap, ImposeSettings(min_ess=400))

@@ -16,6 +16,7 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -134,6 +135,34 @@ def kish_ess(w: np.ndarray | None, n: int) -> float:
     return float(w.sum() ** 2 / s2) if s2 > 0 else 0.0
 
 
+def truncated_mean_tau(x: np.ndarray, w: np.ndarray | None, keep: np.ndarray
+                       ) -> float | None:
+    """The largest integrated autocorrelation time of the truncated means, in row order.
+
+    For each parameter, the batch-means variance of sum_kept w x / sum_kept w
+    (:func:`eftsieve.stats.ratio_batch_variance`) over its variance for independent
+    draws, sum_kept w^2 (x - mean)^2 / (sum_kept w)^2.  None when there are too few rows
+    for batch means or nothing is kept.
+    """
+    from eftsieve.stats import BATCH, ratio_batch_variance
+
+    wk = (np.ones(len(x)) if w is None else np.asarray(w, dtype=float)) * keep
+    total = float(wk.sum())
+    if not total > 0:
+        return None
+    starts = np.arange(0, len(x), BATCH)
+    den = np.add.reduceat(wk, starts)
+    taus = []
+    for col in np.asarray(x, dtype=float).T:
+        var, _, _ = ratio_batch_variance(np.add.reduceat(wk * col, starts), den, len(x))
+        mean = float(wk @ col) / total
+        iid = float((wk * wk) @ (col - mean) ** 2) / total**2
+        if not (math.isfinite(var) and iid > 0):
+            return None
+        taus.append(var / iid)
+    return max(taus) if taus else None
+
+
 def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
              settings: ImposeSettings) -> ImposeResult:
     """Keep the posterior samples inside the region (every row read is accounted for)."""
@@ -150,15 +179,23 @@ def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
     ess = kish_ess(kw, int(keep.sum()))
     wt = np.ones(len(y)) if w is None else w
     p_in = float(wt[keep].sum() / wt.sum())
-    if ess < settings.min_ess:
+    tau = truncated_mean_tau(chunk.values, w, keep)
+    # correlated input rows (an MCMC chain in draw order) carry fewer independent draws
+    ess_corr = ess / max(tau, 1.0) if tau is not None else None
+    usable = ess if ess_corr is None else min(ess, ess_corr)
+    if usable < settings.min_ess:
+        corr = "" if ess_corr is None or ess_corr >= ess else (
+            f", {ess_corr:.0f} after the autocorrelation of the rows (tau = {tau:.3g})")
         raise SamplingError(
-            f"only {ess:.0f} effective samples remain inside the region (of {ess_before:.0f};"
-            f" P(inside) = {p_in:.3g}), below the floor {settings.min_ess:g}",
+            f"only {ess:.0f} effective samples remain inside the region{corr} (of "
+            f"{ess_before:.0f}; P(inside) = {p_in:.3g}), below the floor {settings.min_ess:g}",
             "use --mode refit with a likelihood (--data or --likelihood) to sample the "
             "truncated posterior directly")
     summary = {"mode": "reweight", "n_read": int(len(y)), "n_samples": int(keep.sum()),
                "n_dropped": int((~keep).sum()), "ess": ess, "ess_before": ess_before,
-               "acceptance": float(keep.mean()), "tau": None, "p_inside_before": p_in,
+               "ess_autocorr": ess_corr, "tau_rows": tau, "acceptance": float(keep.mean()),
+               "tau": None,
+               "p_inside_before": p_in,
                "kept_rows": "original row indices are in samples.parquet column 'row'"}
     res = ImposeResult("reweight", fit.names, chunk.values[keep], kw, chunk.values, w, summary)
     return _with_moments(res, chunk.rows[keep])

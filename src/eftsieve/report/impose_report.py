@@ -28,6 +28,10 @@ def impose_document(fit: Fit, region: Region, s: dict[str, Any],
             ("P(inside) before", _g(s.get("p_inside_before"), ".5g"))]
     if s["mode"] == "reweight":
         rows += [("rows read", str(s["n_read"])), ("rows dropped (outside)", str(s["n_dropped"]))]
+        if s.get("tau_rows") is not None:
+            rows += [("autocorrelation time of the rows (truncated means, file order)",
+                      _g(s["tau_rows"], ".3g")),
+                     ("effective sample size after autocorrelation", _g(s["ess_autocorr"], ".5g"))]
     if s["mode"] == "refit":
         rows += [("steps x walkers", f"{s['n_steps']} x {s['walkers']}"),
                  ("autocorrelation times", ", ".join(f"{k}: {v:.1f}" for k, v in s["tau"].items())),
