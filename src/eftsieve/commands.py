@@ -227,7 +227,9 @@ def cmd_check_one(args: argparse.Namespace) -> int:
     unc_txt = f", uncertain {s['n_uncertain']}" if s.get("n_uncertain") else ""
     print(f"  inside {s['n_inside']}, marginal {s['n_marginal']}, outside {s['n_outside']}"
           f"{unc_txt}")
-    print(f"  p_inside = {s['p_inside']:.4g} +- {s['p_inside_err']:.2g}; tension "
+    bm = s.get("p_inside_mc_err_batch") if s["source"] == "samples" else None
+    bm_txt = "" if bm is None else f" (batch means +- {bm:.2g}, tau {s['tau_inside']:.3g})"
+    print(f"  p_inside = {s['p_inside']:.4g} +- {s['p_inside_err']:.2g}{bm_txt}; tension "
           f"{s['tension_sigma']:.2f} sigma (p = {s['tension_p']:.3g})")
     tu = s.get("theory_uncertainty")
     if tu:

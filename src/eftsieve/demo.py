@@ -87,7 +87,9 @@ def _report(out: Path) -> None:
     print(f"  Gaussian fit:  p_inside = {g['p_inside']:.3f} +- {g['p_inside_err']:.1g}, "
           f"tension {g['tension_sigma']:.2f} sigma (p = {g['tension_p']:.3g}); "
           f"report {out / 'check_gaussian' / 'report.html'}")
-    print(f"  posterior:     p_inside = {p['p_inside']:.3f} +- {p['p_inside_err']:.1g} "
+    bm = p["p_inside_mc_err_batch"]  # the chain's rows are correlated: batch means
+    err = f"{bm:.1g} (batch means)" if bm is not None else f"{p['p_inside_err']:.1g}"
+    print(f"  posterior:     p_inside = {p['p_inside']:.3f} +- {err} "
           f"of {p['n_total']} samples; report {out / 'check_posterior' / 'report.html'}")
     ip = json.loads((out / "impose_posterior" / "summary.json").read_text())
     for label, s in (("Gaussian, exact truncation", ig), ("posterior, reweighted", ip)):

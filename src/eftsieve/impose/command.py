@@ -118,8 +118,11 @@ def cmd_impose(args: argparse.Namespace) -> int:
     atomic_write_json(outdir / "summary.json", summary)
     atomic_write_text(outdir / "report.md", to_markdown(
         impose_document(fit, region, summary, images)))
+    corr = summary.get("ess_autocorr")
+    ess = f"ESS {summary['ess']:.0f}" + ("" if corr is None else
+                                         f" ({corr:.0f} after autocorrelation)")
     print(f"imposed positivity on '{fit.name}' ({summary['mode']}): {summary['n_samples']} "
-          f"samples, ESS {summary['ess']:.0f} -> {outdir / 'samples.parquet'}")
+          f"samples, {ess} -> {outdir / 'samples.parquet'}")
     for n in fit.names:
         b, a = summary["before"][n], summary["after"][n]
         print(f"  {n}: {b['mean']:.4g} +- {b['std']:.3g}  ->  {a['mean']:.4g} +- {a['std']:.3g}")
