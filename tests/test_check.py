@@ -99,3 +99,25 @@ def test_weighted_ess_and_error():
     assert p == pytest.approx(0.5)
     # delta method: sqrt(sum w^2 (I-p)^2)/sum w = sqrt(0.25 + 0.25 + 4*0.25)/4
     assert err == pytest.approx(np.sqrt(1.5) / 4)
+
+
+def test_chpt_su3_default_band_fits_the_size_of_the_lecs():
+    """Regression: the 1e-3 band of O(1) coordinates made every L_i^r (O(1e-3)) point
+    marginal; chpt-su3 regions now default to 1e-6, and --band still overrides."""
+    from pathlib import Path
+
+    from eftsieve.theories import get_theory
+
+    card = Path(__file__).parents[1] / "data_examples" / "aurora_su3_gaussian.yaml"
+    fit = load_fit(card)
+    theory = get_theory("chpt-su3")
+    reg = theory.build_region(theory.region_settings_for_fit(fit))
+    s = run_check(fit, reg, CheckSettings(draws=20_000, seed=2), None).summary
+    assert s["settings"]["marginal_band"] == 1e-6
+    assert s["n_marginal"] < 0.01 * s["n_total"]
+    assert s["n_inside"] > 0 and s["n_outside"] > 0
+    wide = run_check(fit, reg, CheckSettings(draws=20_000, seed=2, marginal_band=1e-3),
+                     None).summary
+    assert wide["settings"]["marginal_band"] == 1e-3
+    assert wide["n_marginal"] > 0.9 * wide["n_total"]
+    assert CheckSettings().band(region(((0, 1), 1.0))) == 1e-3      # chpt-su2 (lbar)

@@ -15,7 +15,9 @@ def test_demo_end_to_end(tmp_path, capsys):
     for sub, files in {"check_gaussian": ["summary.json", "report.html", "flagged.csv"],
                        "check_posterior": ["summary.json", "corner.png", "region.png"],
                        "impose_gaussian": ["samples.parquet", "corner_before_after.png"],
-                       "impose_posterior": ["samples.parquet", "report.md"]}.items():
+                       "impose_posterior": ["samples.parquet", "report.md"],
+                       "check_su3": ["summary.json", "region.json"],
+                       "check_su3_as_su2": ["summary.json"]}.items():
         for f in files:
             assert (out / sub / f).is_file(), f"{sub}/{f}"
     s = json.loads((out / "check_posterior" / "summary.json").read_text())
@@ -23,3 +25,6 @@ def test_demo_end_to_end(tmp_path, capsys):
     assert 0 < s["p_inside"] < 1   # the invented fit partly violates positivity
     imp = json.loads((out / "impose_posterior" / "summary.json").read_text())
     assert imp["n_samples"] + imp["n_dropped"] == imp["n_read"] == s["n_total"]
+    s3 = json.loads((out / "check_su3" / "summary.json").read_text())
+    assert s3["theory"] == "chpt-su3" and s3["settings"]["marginal_band"] == 1e-6
+    assert s3["n_marginal"] < 0.01 * s3["n_total"]

@@ -37,7 +37,8 @@ class CheckSettings:
     seed
         Seed of every random number used.
     marginal_band
-        Points within this distance of a facet are ``marginal``.
+        Points within this distance of a facet are ``marginal``; None (the default) takes
+        the band of the region's theory (:meth:`band`).
     chunk_rows
         Rows read per chunk from a samples file.
     plot_points
@@ -46,9 +47,21 @@ class CheckSettings:
 
     draws: int = 200_000
     seed: int = 0
-    marginal_band: float = MARGINAL_BAND
+    marginal_band: float | None = None
     chunk_rows: int = 1_000_000
     plot_points: int = 50_000
+
+    def band(self, region: Region) -> float:
+        """The marginal band for ``region``: the one given, else its theory's default
+        (:data:`eftsieve.tolerances.MARGINAL_BAND` for O(1) coordinates)."""
+        if self.marginal_band is not None:
+            return float(self.marginal_band)
+        from eftsieve.theories import get_theory
+
+        try:
+            return float(get_theory(region.theory).marginal_band)
+        except KeyError:
+            return MARGINAL_BAND
 
     def to_dict(self) -> dict[str, Any]:
         return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,

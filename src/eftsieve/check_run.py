@@ -189,11 +189,12 @@ def stream(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSetting
     acc = Accumulator(region.dim)
     res = Reservoir(settings.plot_points, np.random.default_rng(settings.seed + 1))
     worst = WorstKeeper()
+    band = settings.band(region)
     chunks = (gaussian_chunks(fit, settings) if fit.is_gaussian else
               fit.samples.iter_chunks(settings.chunk_rows))  # type: ignore[union-attr]
     for chunk in chunks:
         y = cmap(chunk.values)
-        v = classify(y, region, settings.marginal_band)
+        v = classify(y, region, band)
         soft = None
         if fu is not None and fu.model != "none":
             soft = prob_satisfies(y, region, fu)
@@ -300,7 +301,9 @@ def _summary(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSetti
                            **acc.batch_means().to_dict(),
                            "p_inside_method": "sample fraction (weighted)",
                            "p_certainly_inside": acc.sw_in_inner / acc.sw,
-                           "settings": settings.to_dict(), "source": "gaussian" if fit.is_gaussian
+                           "settings": {**settings.to_dict(),
+                                        "marginal_band": settings.band(region)},
+                           "source": "gaussian" if fit.is_gaussian
                            else "samples", "coordinate_map": cmap.to_dict()}
     accurate = gaussian_probability(fit, region, cmap, settings.seed)
     if accurate is not None:

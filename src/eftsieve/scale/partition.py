@@ -243,7 +243,7 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator) ->
     """Classify one block and compute everything it contributes."""
     st = job.settings
     y = apply_map(job.cmap, block.values)
-    v = classify(y, job.region, st.marginal_band)
+    v = classify(y, job.region, st.band(job.region))
     flagged = None
     if job.write_flagged:
         sel = np.flatnonzero(v.verdict != 0)

@@ -13,6 +13,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from eftsieve.tolerances import MARGINAL_BAND
+
 if TYPE_CHECKING:
     from eftsieve.fit import Fit
     from eftsieve.region import Region
@@ -74,6 +76,8 @@ class Theory(ABC):
     #: kinematic inputs: key -> (meaning, default or None)
     kinematic_inputs: dict[str, tuple[str, float | None]] = {}
     families: tuple[str, ...] = ()
+    #: default marginal band of ``check`` in the region's coordinates (their natural size)
+    marginal_band: float = MARGINAL_BAND
 
     def describe(self) -> dict[str, Any]:
         """What ``eftsieve theories`` prints."""

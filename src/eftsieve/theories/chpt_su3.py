@@ -155,6 +155,8 @@ class ChptSU3(Theory):
     parameter_names = tuple(f"L{i}" for i in range(1, 9)) + tuple(f"L{i}r" for i in range(1, 9))
     coordinates = COORDINATES
     conventions = (CONVENTION,)
+    #: L_i^r are O(1e-3), the facet offsets too: 1e-6 is the band that 1e-3 is for lbar
+    marginal_band = 1e-6
     kinematic_inputs = {
         "pion_mass_mev": ("pion mass M_pi in MeV", DEFAULT_PION_MASS_MEV),
         "kaon_mass_mev": ("kaon mass M_K in MeV", DEFAULT_KAON_MASS_MEV),
