@@ -121,3 +121,26 @@ def test_chpt_su3_default_band_fits_the_size_of_the_lecs():
     assert wide["settings"]["marginal_band"] == 1e-3
     assert wide["n_marginal"] > 0.9 * wide["n_total"]
     assert CheckSettings().band(region(((0, 1), 1.0))) == 1e-3      # chpt-su2 (lbar)
+
+
+def test_bayes_factor_against_closed_forms():
+    """B = P_post(inside)/P_prior(inside) for a uniform box prior and a Gaussian posterior.
+
+    Region lbar2 >= 1, lbar1 + 2 lbar2 >= 3 inside the box [-10, 10]^2: the allowed area
+    is int_1^6.5 (7 + 2 y) dy + 3.5 * 20 = 149.75 of 400 (worked by hand), and
+    P_post(inside) = P(b - A y <= 0) from scipy.stats.multivariate_normal.cdf.
+    """
+    from eftsieve.fit import Prior
+
+    prior = Prior({"lbar1": "uniform", "lbar2": "uniform"},
+                  {"lbar1": (-10.0, 10.0), "lbar2": (-10.0, 10.0)})
+    mean, cov = np.array([0.5, 1.1]), np.array([[0.5, 0.1], [0.1, 0.2]])
+    fit = gaussian_fit(mean, cov, prior=prior)
+    reg = region(((0, 1), 1.0), ((1, 2), 3.0))
+    s = run_check(fit, reg, CheckSettings(draws=20_000, seed=4), None).summary
+    a, b = np.array([[0.0, 1.0], [1.0, 2.0]]), np.array([1.0, 3.0])
+    p_post = stats.multivariate_normal(b - a @ mean, a @ cov @ a.T).cdf(np.zeros(2))
+    p_prior = 149.75 / 400
+    assert s["p_prior_inside"] == pytest.approx(p_prior, abs=4 * s["p_prior_inside_err"])
+    assert s["bayes_factor_err"] < 0.01 * s["bayes_factor"]
+    assert s["bayes_factor"] == pytest.approx(p_post / p_prior, abs=4 * s["bayes_factor_err"])
