@@ -468,3 +468,25 @@ def test_save_corner_writes_a_png(tmp_path: Path) -> None:
     assert out == tmp_path / "corner.png"
     assert out.read_bytes()[:8] == PNG_SIGNATURE
     assert [p.name for p in tmp_path.iterdir()] == ["corner.png"]
+
+
+def test_region_figure_unbounded_small_scale_region_is_cut_at_the_origin() -> None:
+    """Regression: an unbounded 3-D region with offsets of order 1e-3 (as chpt-su3's L_i^r)
+    was cut at the Chebyshev centre clipped to the 1e3 search box, and a lone vertex
+    gave a zero-width view with zero-length facet lines."""
+    facets = (Facet((0.0, 1.0, 0.0), -0.9e-3, "f", "a"),
+              Facet((2.0, 2.0, 1.0), -2.4e-3, "f", "b"),
+              Facet((0.0, 4.0, 1.0), -1.2e-3, "f", "c"))
+    region = Region("t3", ("L1", "L2", "L3"), {}, facets)
+    ax = region_figure(region, coords=(0, 1)).axes[0]
+    assert "slice at L3=0" in ax.get_title()
+    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
+    assert 1e-4 < x1 - x0 < 1e-1 and 1e-4 < y1 - y0 < 1e-1
+    for gid in ("facet-1", "facet-2"):
+        (line,) = _by_gid(ax.lines, gid)
+        xs, ys = line.get_xdata(), line.get_ydata()
+        assert np.hypot(xs[1] - xs[0], ys[1] - ys[0]) > 1e-4, gid
+    ax = region_figure(region, coords=(0, 1), slice_at={"L3": -3e-3}).axes[0]
+    assert "slice at L3=-0.003" in ax.get_title()
+    with pytest.raises(ValueError, match="slice_at"):
+        region_figure(region, coords=(0, 1), slice_at={"L9": 0.0})

@@ -295,11 +295,17 @@ def _wquantile(x: np.ndarray, q: Sequence[float], w: np.ndarray | None) -> np.nd
     return np.interp(q, cw / cw[-1], x[order])
 
 
-def _spread(lo: np.ndarray, hi: np.ndarray, pad: float) -> np.ndarray:
-    """Limits (k, 2) from low and high values, widened by ``pad`` of the span."""
+def _spread(lo: np.ndarray, hi: np.ndarray, pad: float, unit: float = 1.0) -> np.ndarray:
+    """Limits (k, 2) from low and high values, widened by ``pad`` of the span.
+
+    A span that is zero, or only rounding noise (below 1e-9 of the values' size), is
+    replaced by the larger of the values' size and ``unit`` (the natural size of the
+    coordinates: 1 for lbar, 1e-3 for L_i^r).
+    """
     span = hi - lo
     ref = float(span.max())
-    fallback = ref if ref > 0 else max(float(np.abs(np.r_[lo, hi]).max()), 1.0)
+    mag = float(np.abs(np.r_[lo, hi]).max())
+    fallback = ref if ref > 1e-9 * max(mag, unit) else max(mag, unit)
     span = np.where(span > 1e-9 * fallback, span, fallback)
     mid = (lo + hi) / 2
     return np.column_stack([mid - span * (0.5 + pad), mid + span * (0.5 + pad)])
@@ -349,7 +355,9 @@ def _auto_limits(plane: _Plane, x: np.ndarray | None, w: np.ndarray | None) -> n
         dist = np.linalg.norm(anchors - centre, axis=1)
         anchors = anchors[(dist <= reach) | (dist == dist.min())]
     allpts = np.vstack([*pts, *anchors]) if (pts or len(anchors)) else np.zeros((1, 2))
-    return _spread(allpts.min(axis=0), allpts.max(axis=0), 0.2)
+    nonzero = np.abs(plane.b[plane.b != 0])
+    unit = float(nonzero.max()) if nonzero.size else 1.0  # the size of the facet offsets
+    return _spread(allpts.min(axis=0), allpts.max(axis=0), 0.2, min(unit, 1.0))
 
 
 # ---- drawing helpers -------------------------------------------------------------------
@@ -575,14 +583,46 @@ def _title(region: Region, title: str | None, suffix: str = "") -> str:
 
 
 # ---- region figure ---------------------------------------------------------------------
-def _slice_point(region: Region, ij: tuple[int, int]) -> np.ndarray:
-    """Where a region of more than two coordinates is cut: its Chebyshev centre."""
+#: a Chebyshev centre this far out (in units of its search box) means an unbounded region
+_UNBOUNDED = 0.5
+
+
+def _slice_point(region: Region, ij: tuple[int, int],
+                 slice_at: Mapping[str, float] | None = None) -> np.ndarray:
+    """Where a region of more than two coordinates is cut.
+
+    The values given in ``slice_at`` (by coordinate name); for the others, the Chebyshev
+    centre of a bounded region, else (an unbounded region, whose centre runs off to the
+    search box) the region's point nearest the origin: that is where the facets of
+    regions such as chpt-su3's, which meet near the origin, can be seen.
+    """
+    point = np.zeros(region.dim)
     if region.dim <= 2:
-        return np.zeros(region.dim)
+        return point
+    given = dict(slice_at or {})
+    unknown = sorted(set(given) - set(region.coordinates))
+    if unknown:
+        raise ValueError(f"slice_at names {unknown}, not coordinates of the region "
+                         f"{list(region.coordinates)}")
+    box = 1e3
+    a, b = region.arrays()
     try:
-        return region.chebyshev_center()[0]
+        centre: np.ndarray | None = region.chebyshev_center(box)[0]
     except SolverError:
-        return np.zeros(region.dim)
+        centre = None
+    if centre is not None and np.abs(centre).max() < _UNBOUNDED * box:
+        point = centre
+    elif not (b <= 0).all():  # unbounded, and the origin is outside: its nearest point
+        from eftsieve.stats import closest_point
+
+        try:
+            point = closest_point(np.zeros(region.dim), np.eye(region.dim), a, b)[0]
+        except SolverError:
+            pass
+    for k, name in enumerate(region.coordinates):
+        if name in given:
+            point[k] = float(given[name])
+    return point
 
 
 def _region_arrays(region: Region, inner: bool) -> tuple[np.ndarray, np.ndarray]:
@@ -593,15 +633,17 @@ def _region_arrays(region: Region, inner: bool) -> tuple[np.ndarray, np.ndarray]
 
 def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
                   coords: Sequence[int] = (0, 1), bands: Mapping[int, float] | None = None,
-                  limits: Any = None, title: str | None = None) -> Figure:
+                  limits: Any = None, title: str | None = None,
+                  slice_at: Mapping[str, float] | None = None) -> Figure:
     """Draw a region in the plane of two of its coordinates.
 
     Parameters
     ----------
     region
         The region.  A region of one coordinate is drawn on a line (see Notes); a
-        region of more than two is cut through its Chebyshev centre, and the title says
-        where.
+        region of more than two is cut at ``slice_at`` for the coordinates it names, else
+        through its Chebyshev centre (bounded regions) or its point nearest the origin
+        (unbounded ones), and the title says where.
     samples
         Optional posterior samples of the two plotted coordinates, shape (n, 2) (or
         (n,) for a one-coordinate region).  Drawn as 68 % and 95 % highest-density
@@ -620,6 +662,9 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
         99 %.
     title
         The title; by default the theory and the convention.
+    slice_at
+        Coordinate name -> value at which a region of more than two coordinates is
+        cut (the other coordinates as above).
 
     Returns
     -------
@@ -645,7 +690,7 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
     ij = _check_coords(region, coords)
     x, w = _check_samples(samples, weights, 2)
     band_map = _check_bands(region, bands)
-    fixed = _slice_point(region, ij)
+    fixed = _slice_point(region, ij, slice_at)
     outer = _restrict(*_region_arrays(region, False), ij, fixed)
     inner = (_restrict(*_region_arrays(region, True), ij, fixed)
              if region.inner_facets else None)
