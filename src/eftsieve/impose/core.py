@@ -141,8 +141,8 @@ def truncated_mean_tau(x: np.ndarray, w: np.ndarray | None, keep: np.ndarray
 
     For each parameter, the batch-means variance of sum_kept w x / sum_kept w
     (:func:`eftsieve.stats.ratio_batch_variance`) over its variance for independent
-    draws, sum_kept w^2 (x - mean)^2 / (sum_kept w)^2.  None when there are too few rows
-    for batch means or nothing is kept.
+    draws, sum_kept w^2 (x - mean)^2 / (sum_kept w)^2 (constant columns are skipped).
+    None when there are too few rows for batch means or nothing is kept.
     """
     from eftsieve.stats import BATCH, ratio_batch_variance
 
@@ -157,9 +157,10 @@ def truncated_mean_tau(x: np.ndarray, w: np.ndarray | None, keep: np.ndarray
         var, _, _ = ratio_batch_variance(np.add.reduceat(wk * col, starts), den, len(x))
         mean = float(wk @ col) / total
         iid = float((wk * wk) @ (col - mean) ** 2) / total**2
-        if not (math.isfinite(var) and iid > 0):
-            return None
-        taus.append(var / iid)
+        if not math.isfinite(var):
+            return None  # too few rows for batch means
+        if iid > 0:  # a constant column has no error to inflate
+            taus.append(var / iid)
     return max(taus) if taus else None
 
 
@@ -194,8 +195,7 @@ def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
     summary = {"mode": "reweight", "n_read": int(len(y)), "n_samples": int(keep.sum()),
                "n_dropped": int((~keep).sum()), "ess": ess, "ess_before": ess_before,
                "ess_autocorr": ess_corr, "tau_rows": tau, "acceptance": float(keep.mean()),
-               "tau": None,
-               "p_inside_before": p_in,
+               "tau": None, "p_inside_before": p_in,
                "kept_rows": "original row indices are in samples.parquet column 'row'"}
     res = ImposeResult("reweight", fit.names, chunk.values[keep], kw, chunk.values, w, summary)
     return _with_moments(res, chunk.rows[keep])
