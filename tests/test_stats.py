@@ -129,3 +129,28 @@ def test_too_few_rows_give_no_batch_means_estimate():
     assert bm.n_batches < 20 and math.isnan(bm.std_error)
     assert bm.to_dict()["p_inside_mc_err_batch"] is None
     assert bm.to_dict()["tau_inside"] is None
+
+
+def test_plane_cone_with_redundant_rows_matches_monte_carlo():
+    """Several facets through one vertex of a 2-D region: the wedge closed form on the two
+    bounding rows equals the Monte-Carlo active-set weights of all rows."""
+    from eftsieve.stats import _cone_weights_mc
+
+    ang = np.array([0.2, 0.5, 0.9, 1.3])
+    g = np.column_stack([np.cos(ang), np.sin(ang)])
+    w = cone_weights(g, np.random.default_rng(1))
+    theta = math.pi - (1.3 - 0.2)                 # opening angle of the bounding pair
+    np.testing.assert_allclose(w, [0.5 - theta / (2 * math.pi), 0.5, theta / (2 * math.pi)],
+                               atol=1e-12)
+    mc = _cone_weights_mc(g, np.random.default_rng(2), 200_000)
+    np.testing.assert_allclose(w, mc, atol=5e-3)
+    # rows in every direction: a cone without interior is left to the Monte Carlo
+    h = np.array([[1.0, 0.0], [-1.0, 0.1], [0.0, -1.0]])
+    assert cone_weights(h, np.random.default_rng(3)).sum() == pytest.approx(1.0)
+
+
+def test_tension_of_an_inside_mean_is_one():
+    reg = region(((0, 1), 1.0), ((1, 0), -2.0), ((1, 1), 0.5))
+    t = tension(np.array([0.0, 3.0]), np.eye(2) * 0.1, reg, np.random.default_rng(0))
+    assert t.mahalanobis_min == pytest.approx(0.0, abs=1e-6)
+    assert t.p_value == 1.0 and t.sigma == 0.0

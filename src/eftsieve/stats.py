@@ -328,12 +328,35 @@ def cone_weights(g: np.ndarray, rng: np.random.Generator, n: int = 200_000) -> n
         w = np.zeros(k + 1)
         w[k], w[k - 1] = 0.5, 0.5
         return w
+    if k == 2:
+        g = _plane_wedge(g)
+        if len(g) == 1:
+            return np.array([0.0, 0.5, 0.5])
     if k == 2 and len(g) == 2:
         u = g / np.linalg.norm(g, axis=1)[:, None]
         # the cone {z: u1.z >= 0, u2.z >= 0} has opening angle pi - angle(u1, u2)
         theta = math.pi - math.acos(float(np.clip(u[0] @ u[1], -1, 1)))
         return np.array([0.5 - theta / (2 * math.pi), 0.5, theta / (2 * math.pi)])
     return _cone_weights_mc(g, rng, n)
+
+
+def _plane_wedge(g: np.ndarray) -> np.ndarray:
+    """The (at most two) rows of g (m, 2) that bound the plane cone {z : g z >= 0}.
+
+    Row i allows the directions within pi/2 of its angle a_i; measured from row 0,
+    d_i = a_i - a_0 in (-pi, pi], the cone is the arc [max d - pi/2, min d + pi/2], so the
+    rows with the largest and the smallest d bound it and the others are redundant
+    (several facets through one vertex of a 2-D region).  With max d - min d >= pi the
+    cone has no interior and g is returned unchanged.
+    """
+    if len(g) <= 2:
+        return g
+    ang = np.arctan2(g[:, 1], g[:, 0])
+    d = np.angle(np.exp(1j * (ang - ang[0])))
+    hi, lo = int(np.argmax(d)), int(np.argmin(d))
+    if d[hi] - d[lo] >= math.pi:
+        return g
+    return g[[lo]] if hi == lo or d[hi] - d[lo] <= 1e-15 else g[[lo, hi]]
 
 
 def _cone_weights_mc(g: np.ndarray, rng: np.random.Generator, n: int) -> np.ndarray:
@@ -382,7 +405,10 @@ def tension(mean: np.ndarray, cov: np.ndarray, region: Region,
     active = tuple(int(i) for i in np.nonzero((a @ x - b) < 1e-7 * scale)[0])
     chol = np.linalg.cholesky(cov)
     best = (-1.0, np.zeros(len(mean) + 1), "")
-    for cone, rows in _candidate_cones(region, a, b):
+    inside = d2 <= FEASIBILITY_TOL  # p = 1 whatever the cone: the facet cones suffice
+    cones = ((f"facet {i}", [i]) for i in range(len(b))) if inside else _candidate_cones(
+        region, a, b)
+    for cone, rows in cones:
         # the distance to a cone C is the norm of the projection onto its polar cone, so
         # its chi-bar-squared weights are those of C reversed: v_i = w_(k-i)(C)
         w = cone_weights(a[rows] @ chol, rng)[::-1]
@@ -390,7 +416,7 @@ def tension(mean: np.ndarray, cov: np.ndarray, region: Region,
         if p > best[0]:
             best = (p, w, cone)
     p, w, cone = best
-    if d2 <= FEASIBILITY_TOL:
+    if inside:
         p = 1.0
     sigma = float(sps.norm.isf(p)) if p < 1.0 else 0.0
     return Tension(math.sqrt(d2), x, active, w, p, max(sigma, 0.0), cone)
