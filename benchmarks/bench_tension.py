@@ -13,8 +13,8 @@ their p-values are printed (they agree to the Monte-Carlo error, ~1e-3).
 from __future__ import annotations
 
 import numpy as np
-
 from common import best_time, table
+
 from eftsieve import stats
 from eftsieve.theories.scalar_eft import THEORY
 
