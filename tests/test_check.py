@@ -121,6 +121,11 @@ def test_chpt_su3_default_band_fits_the_size_of_the_lecs():
     assert wide["settings"]["marginal_band"] == 1e-3
     assert wide["n_marginal"] > 0.9 * wide["n_total"]
     assert CheckSettings().band(region(((0, 1), 1.0))) == 1e-3      # chpt-su2 (lbar)
+    from eftsieve.region import Facet, Region
+
+    lr = Region("chpt-su2", ("l1", "l2"), {"name": "lr", "mu_mev": 770.0},
+                (Facet((0.0, 1.0), -4.5e-4, "t-derivative", "pi+ pi0", {"s": 0.0, "t": 4.0}),))
+    assert CheckSettings().band(lr) == 1e-6     # l_i^r are O(1e-3) too
 
 
 def test_bayes_factor_against_closed_forms():

@@ -113,3 +113,24 @@ def test_bare_samples_file_is_checked_and_extra_columns_carried(tmp_path, capsys
     assert s["n_total"] == 3 and s["n_inside"] == 1 and s["n_outside"] == 2
     flagged = pd.read_csv(tmp_path / "o" / "flagged.csv")
     assert flagged["row"].tolist() == [1, 2] and flagged["sys"].tolist() == [2.0, 3.0]
+
+
+def test_repeated_pion_mass_flags_accumulate(tmp_path, capsys):
+    """Regression: `--pion-mass A --pion-mass B` kept only B."""
+    out = tmp_path / "r.json"
+    assert main(["region", "--family", "second-derivative", "--pion-mass", "139.57",
+                 "--pion-mass", "300", "--convention", "lr", "-o", str(out), "--json"]) == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["settings"]["pion_masses_mev"] == [139.57, 300.0]
+
+
+def test_our_warnings_are_one_line(capsys):
+    from eftsieve.cli import _one_line_warning
+    from eftsieve.errors import KinematicsWarning
+
+    seen = []
+    show = _one_line_warning("check", lambda *a: seen.append(a))
+    show(KinematicsWarning("M_pi = 450 MeV is heavy"), KinematicsWarning, "x.py", 1)
+    assert capsys.readouterr().err == "eftsieve check: warning: M_pi = 450 MeV is heavy\n"
+    show(UserWarning("other"), UserWarning, "x.py", 1)      # not ours: the default path
+    assert len(seen) == 1 and not capsys.readouterr().err

@@ -59,7 +59,7 @@ class CheckSettings:
         from eftsieve.theories import get_theory
 
         try:
-            return float(get_theory(region.theory).marginal_band)
+            return float(get_theory(region.theory).marginal_band(region))
         except KeyError:
             return MARGINAL_BAND
 

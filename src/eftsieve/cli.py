@@ -15,6 +15,7 @@ import json
 import logging
 import sys
 from collections.abc import Sequence
+from typing import Any
 
 from eftsieve._version import __version__
 
@@ -31,7 +32,8 @@ def _add_region_args(p: argparse.ArgumentParser) -> None:
     p.add_argument("--theory", default="chpt-su2", help="theory name (default chpt-su2)")
     p.add_argument("--family", type=_csv, default=None,
                    help="comma-separated bound families (default: all of the theory)")
-    p.add_argument("--pion-mass", type=float, nargs="+", default=None, metavar="MEV",
+    p.add_argument("--pion-mass", type=float, nargs="+", action="extend", default=None,
+                   metavar="MEV",
                    help="pion mass(es) in MeV (default 139.57); several need --convention lr")
     p.add_argument("--fpi", type=float, default=None, metavar="MEV",
                    help="F_pi in MeV (default 92.07)")
@@ -127,6 +129,19 @@ def cmd_region(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def _one_line_warning(verb: str, fallback: Any) -> Any:
+    """A showwarning that prints eftsieve's own warnings as one line, without source code."""
+    from eftsieve.errors import EftsieveWarning
+
+    def show(message: Any, category: type, filename: str, lineno: int, file: Any = None,
+             line: str | None = None) -> None:
+        if issubclass(category, EftsieveWarning):
+            print(f"eftsieve {verb}: warning: {message}", file=sys.stderr)
+        else:
+            fallback(message, category, filename, lineno, file, line)
+    return show
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``eftsieve`` command."""
     parser = build_parser()
@@ -138,13 +153,18 @@ def main(argv: Sequence[str] | None = None) -> int:
     if args.verb is None:
         parser.print_help()
         return 2
+    import warnings
+
     from eftsieve.errors import EftsieveError
 
     handlers = {"theories": cmd_theories, "region": cmd_region}
     try:
-        if args.verb in handlers:
-            return handlers[args.verb](args)
-        return int(args.func(args))
+        with warnings.catch_warnings():
+            if not args.debug:
+                warnings.showwarning = _one_line_warning(args.verb, warnings.showwarning)
+            if args.verb in handlers:
+                return handlers[args.verb](args)
+            return int(args.func(args))
     except EftsieveError as err:
         if args.debug:
             raise

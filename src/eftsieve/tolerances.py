@@ -13,6 +13,8 @@ PSD_TOL = 1e-10
 #: Default marginal band: a point within this distance of a facet (in the region's
 #: coordinates, Euclidean distance along the facet normal) is ``marginal``.
 MARGINAL_BAND = 1e-3
+#: The default band for coordinates of order 1e-3 (l_i^r, L_i^r): the same relative width.
+SMALL_COORDINATE_BAND = 1e-6
 #: Feasibility tolerance of LP/QP solves, relative.
 FEASIBILITY_TOL = 1e-8
 #: Relative tolerance used when reducing facets to the irredundant set.

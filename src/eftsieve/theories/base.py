@@ -76,8 +76,6 @@ class Theory(ABC):
     #: kinematic inputs: key -> (meaning, default or None)
     kinematic_inputs: dict[str, tuple[str, float | None]] = {}
     families: tuple[str, ...] = ()
-    #: default marginal band of ``check`` in the region's coordinates (their natural size)
-    marginal_band: float = MARGINAL_BAND
 
     def describe(self) -> dict[str, Any]:
         """What ``eftsieve theories`` prints."""
@@ -103,6 +101,14 @@ class Theory(ABC):
     @abstractmethod
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
         """The map from the fit's parameters to the region's coordinates."""
+
+    def marginal_band(self, region: Region) -> float:
+        """The default marginal band of ``check`` in the region's coordinates.
+
+        :data:`eftsieve.tolerances.MARGINAL_BAND` for coordinates of order one; theories
+        whose coordinates are small numbers (L_i^r, l_i^r ~ 1e-3) scale it down.
+        """
+        return MARGINAL_BAND
 
     def power_counting(self, region: Region,
                        breakdown_mev: float | None) -> tuple[np.ndarray, np.ndarray]:

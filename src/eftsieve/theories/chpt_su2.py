@@ -52,6 +52,7 @@ from eftsieve.errors import InputError, KinematicsWarning
 from eftsieve.region import Facet, Region, irredundant
 from eftsieve.theories import pipi
 from eftsieve.theories.base import CoordinateMap, Theory
+from eftsieve.tolerances import MARGINAL_BAND, SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
     from eftsieve.fit import Fit
@@ -228,6 +229,12 @@ class ChptSU2(Theory):
         notes = ("F_pi does not enter the one-loop bounds on lbar1, lbar2 (it is recorded only)",
                  "s, t in certificates are in units of M_pi^2 of the facet's pion mass")
         return Region(self.name, coords, conv_d, tuple(kept), st, notes=notes)
+
+    def marginal_band(self, region: Region) -> float:
+        """1e-3 in lbar; 1e-6 in lr, whose l_i^r = gamma_i (lbar_i + ln(M^2/mu^2))/(32 pi^2)
+        are O(1e-3) (the same band in lbar, to a factor gamma_i/(32 pi^2) ~ 2e-3)."""
+        lr = str(region.convention.get("name")) == "lr"
+        return SMALL_COORDINATE_BAND if lr else MARGINAL_BAND
 
     def power_counting(self, region: Region,
                        breakdown_mev: float | None) -> tuple[np.ndarray, np.ndarray]:

@@ -39,6 +39,7 @@ from eftsieve.errors import InputError
 from eftsieve.region import Facet, Region, irredundant
 from eftsieve.theories.base import CoordinateMap, Theory
 from eftsieve.theories.su3_bounds import CHANNELS, PROCESSES, ChannelFunctionals
+from eftsieve.tolerances import SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
     from eftsieve.fit import Fit
@@ -155,8 +156,6 @@ class ChptSU3(Theory):
     parameter_names = tuple(f"L{i}" for i in range(1, 9)) + tuple(f"L{i}r" for i in range(1, 9))
     coordinates = COORDINATES
     conventions = (CONVENTION,)
-    #: L_i^r are O(1e-3), the facet offsets too: 1e-6 is the band that 1e-3 is for lbar
-    marginal_band = 1e-6
     kinematic_inputs = {
         "pion_mass_mev": ("pion mass M_pi in MeV", DEFAULT_PION_MASS_MEV),
         "kaon_mass_mev": ("kaon mass M_K in MeV", DEFAULT_KAON_MASS_MEV),
@@ -198,6 +197,11 @@ class ChptSU3(Theory):
                  "s, t in certificates are in units of M_pi^2",
                  *(f"skipped {r}" for r in skipped))
         return Region(self.name, COORDINATES, conv, tuple(kept), st, notes=notes)
+
+    def marginal_band(self, region: Region) -> float:
+        """1e-6: L_i^r and the facet offsets are O(1e-3), so this is the band that 1e-3
+        is for lbar."""
+        return SMALL_COORDINATE_BAND
 
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         kin = fit.kinematics
