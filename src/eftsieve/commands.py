@@ -57,7 +57,7 @@ def add_check_parser(sub: Any) -> None:
                    help="draws from a Gaussian summary (default 200000)")
     p.add_argument("--band", type=float, default=None,
                    help=f"marginal band in region coordinates (default: the theory's, "
-                        f"{MARGINAL_BAND:g}; 1e-06 for chpt-su3)")
+                        f"{MARGINAL_BAND:g}; 1e-06 for l_i^r and L_i^r coordinates)")
     p.add_argument("--fail-below", type=float, default=None, metavar="P",
                    help=f"exit with code {EXIT_BELOW_THRESHOLD} when p_inside < P")
     p.add_argument("--chunk-rows", type=int, default=1_000_000, help="rows per chunk")
