@@ -134,3 +134,28 @@ def test_our_warnings_are_one_line(capsys):
     assert capsys.readouterr().err == "eftsieve check: warning: M_pi = 450 MeV is heavy\n"
     show(UserWarning("other"), UserWarning, "x.py", 1)      # not ours: the default path
     assert len(seen) == 1 and not capsys.readouterr().err
+
+
+def test_bare_samples_with_lr_and_dimensionful_conventions(tmp_path, capsys):
+    """Regression: --scale was passed only to 'lr', so a bare L_i^r file could not be read;
+    the dimensionful scalar-eft convention takes its gap from --gap."""
+    import numpy as np
+    import pandas as pd
+
+    rng = np.random.default_rng(0)
+    su3 = tmp_path / "su3.csv"
+    pd.DataFrame(rng.normal([4e-4, 6e-4, -3e-3], 3e-4, (500, 3)),
+                 columns=["L1", "L2", "L3"]).to_csv(su3, index=False)
+    assert main(["check", str(su3), "--theory", "chpt-su3", "--convention", "Lr",
+                 "--scale", "770", "-o", str(tmp_path / "a"), "--no-plots"]) == 0
+    s = json.loads((tmp_path / "a" / "summary.json").read_text())
+    assert s["n_total"] == 500 and s["theory"] == "chpt-su3"
+    assert main(["check", str(su3), "--theory", "chpt-su3", "--convention", "Lr",
+                 "-o", str(tmp_path / "b"), "--no-plots"]) == 2
+    assert "--scale" in capsys.readouterr().err
+    sc = tmp_path / "scalar.csv"
+    pd.DataFrame({"g2": rng.uniform(0.5, 1.5, 300), "g3": rng.normal(-1.0, 0.5, 300)}
+                 ).to_csv(sc, index=False)
+    assert main(["check", str(sc), "--theory", "scalar-eft", "--convention", "dimensionful",
+                 "--gap", "1", "-o", str(tmp_path / "c"), "--no-plots"]) == 0
+    assert json.loads((tmp_path / "c" / "summary.json").read_text())["n_total"] == 300

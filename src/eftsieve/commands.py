@@ -30,7 +30,9 @@ def add_fit_args(p: argparse.ArgumentParser, many: bool = False) -> None:
     p.add_argument("--pion-mass", type=float, default=None, metavar="MEV",
                    help="pion mass of a bare samples file's lbar convention")
     p.add_argument("--scale", type=float, default=None, metavar="MEV",
-                   help="scale mu of a bare samples file's lr convention")
+                   help="scale mu of a bare samples file's lr or Lr convention")
+    p.add_argument("--gap", type=float, default=None, metavar="MEV",
+                   help="mass gap M of a bare samples file's dimensionful convention")
     p.add_argument("--weight-column", default=None, help="weight column of a bare samples file")
     g = p.add_argument_group("theory uncertainty of the bounds (docs/physics.md)")
     g.add_argument("--theory-uncertainty", choices=["none", "fixed", "power-counting"],
@@ -69,27 +71,35 @@ def load_fit_arg(args: argparse.Namespace):
     """A Fit from a card, or from a bare samples file with --theory/--convention."""
     from eftsieve.conventions import Convention
     from eftsieve.errors import InputError
-    from eftsieve.fit import fit_from_samples, load_fit
+    from eftsieve.fit import CONVENTION_NEEDS, fit_from_samples, load_fit
 
     path = Path(args.fit)
     if path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir():
         return load_fit(path)
     if not args.theory or not args.convention:
         raise InputError(path, None, "a bare samples file needs its theory and convention",
-                         "add --theory NAME --convention NAME (and --pion-mass or --scale)")
+                         "add --theory NAME --convention NAME (and --pion-mass, "
+                         "--scale or --gap)")
     conv_name = args.convention
-    if conv_name == "lbar" and args.pion_mass is None:
-        raise InputError(None, "--pion-mass", "convention 'lbar' needs the pion mass",
-                         "add --pion-mass MEV")
-    if conv_name == "lr" and args.scale is None:
-        raise InputError(None, "--scale", "convention 'lr' needs its scale", "add --scale MEV")
-    conv = Convention(conv_name, pion_mass_mev=args.pion_mass if conv_name == "lbar" else None,
-                      mu_mev=args.scale if conv_name == "lr" else None)
-    kin = {}
-    if args.pion_mass is not None:
-        kin["pion_mass_mev"] = args.pion_mass
+    given = {"pion_mass_mev": args.pion_mass, "mu_mev": args.scale,
+             "gap_mev": getattr(args, "gap", None)}
+    kin = {k: float(v) for k, v in given.items() if v is not None}
+    need = CONVENTION_NEEDS.get(conv_name)
+    if need is not None:
+        key, what = need
+        if key not in kin:
+            flag = _KINEMATIC_FLAGS[key]
+            raise InputError(None, flag, f"convention '{conv_name}' needs {what}",
+                             f"add {flag} MEV")
+        conv = Convention(conv_name, **{key: kin[key]})
+    else:
+        conv = Convention(conv_name)
     return fit_from_samples(path, args.theory, conv, weight_column=args.weight_column,
                             kinematics=kin)
+
+
+#: the command-line flag that gives each kinematic input of a bare samples file
+_KINEMATIC_FLAGS = {"pion_mass_mev": "--pion-mass", "mu_mev": "--scale", "gap_mev": "--gap"}
 
 
 def uncertainty_from_args(args: argparse.Namespace):

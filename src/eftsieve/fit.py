@@ -235,7 +235,7 @@ def parse_convention(raw: Any, kin: dict[str, float], path: Path | None, where: 
     if raw not in CONVENTION_NAMES:
         raise InputError(path, where, f"unknown convention '{raw}'",
                          f"use one of {', '.join(CONVENTION_NAMES)}")
-    need = _CONVENTION_NEEDS.get(raw)
+    need = CONVENTION_NEEDS.get(raw)
     if need is None:
         return Convention(raw)
     key, what = need
@@ -247,7 +247,7 @@ def parse_convention(raw: Any, kin: dict[str, float], path: Path | None, where: 
 
 
 #: the kinematic input each convention needs: (field of Convention and card, meaning)
-_CONVENTION_NEEDS = {
+CONVENTION_NEEDS = {
     "lbar": ("pion_mass_mev", "the pion mass it is defined at"),
     "lr": ("mu_mev", "its renormalisation scale"),
     "Lr": ("mu_mev", "its renormalisation scale"),
