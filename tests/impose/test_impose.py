@@ -161,7 +161,7 @@ def test_reweight_tau_of_an_ar1_chain(tmp_path):
     s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).summary
     assert s["n_dropped"] == 0
     assert s["tau_rows"] == pytest.approx((1 + rho) / (1 - rho), rel=0.2)
-    assert s["ess_autocorr"] == pytest.approx(s["ess"] / s["tau_rows"])
+    assert s["ess_autocorr"] == pytest.approx(s["ess"] / s["tau_rows"])   # significant
 
 
 def test_reweight_of_independent_rows_has_tau_near_one(tmp_path):
@@ -169,6 +169,7 @@ def test_reweight_of_independent_rows_has_tau_near_one(tmp_path):
     reg = region(((0, 1), 1.0))
     s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).summary
     assert 0.75 < s["tau_rows"] < 1.35
+    assert s["ess_autocorr"] == s["ess"]     # a tau within the noise of 1 counts as 1
 
 
 def test_reweight_floor_counts_the_autocorrelation_of_the_rows(tmp_path):
@@ -179,3 +180,13 @@ def test_reweight_floor_counts_the_autocorrelation_of_the_rows(tmp_path):
     cmap = SU2.coordinate_map(fit, reg)
     with pytest.raises(SamplingError, match="autocorrelation"):
         reweight(fit, reg, cmap, ImposeSettings(min_ess=400))
+
+
+def test_significant_tau_ignores_noise_around_one():
+    from eftsieve.impose.core import significant_tau
+
+    # 101 batches: relative error sqrt(2/100) = 0.141, threshold 1 + 2 * 0.141 = 1.283
+    assert significant_tau(1.2, 101) == 1.0
+    assert significant_tau(1.5, 101) == 1.5
+    assert significant_tau(0.8, 101) == 1.0
+    assert significant_tau(None, 0) == 1.0

@@ -136,32 +136,45 @@ def kish_ess(w: np.ndarray | None, n: int) -> float:
 
 
 def truncated_mean_tau(x: np.ndarray, w: np.ndarray | None, keep: np.ndarray
-                       ) -> float | None:
+                       ) -> tuple[float | None, int]:
     """The largest integrated autocorrelation time of the truncated means, in row order.
 
     For each parameter, the batch-means variance of sum_kept w x / sum_kept w
     (:func:`eftsieve.stats.ratio_batch_variance`) over its variance for independent
     draws, sum_kept w^2 (x - mean)^2 / (sum_kept w)^2 (constant columns are skipped).
-    None when there are too few rows for batch means or nothing is kept.
+    Returns (tau, number of batches); tau is None when there are too few rows for batch
+    means or nothing is kept.
     """
     from eftsieve.stats import BATCH, ratio_batch_variance
 
     wk = (np.ones(len(x)) if w is None else np.asarray(w, dtype=float)) * keep
     total = float(wk.sum())
     if not total > 0:
-        return None
+        return None, 0
     starts = np.arange(0, len(x), BATCH)
     den = np.add.reduceat(wk, starts)
-    taus = []
+    taus, k = [], 0
     for col in np.asarray(x, dtype=float).T:
-        var, _, _ = ratio_batch_variance(np.add.reduceat(wk * col, starts), den, len(x))
+        var, k, _ = ratio_batch_variance(np.add.reduceat(wk * col, starts), den, len(x))
         mean = float(wk @ col) / total
         iid = float((wk * wk) @ (col - mean) ** 2) / total**2
         if not math.isfinite(var):
-            return None  # too few rows for batch means
+            return None, k  # too few rows for batch means
         if iid > 0:  # a constant column has no error to inflate
             taus.append(var / iid)
-    return max(taus) if taus else None
+    return (max(taus) if taus else None), k
+
+
+def significant_tau(tau: float | None, n_batches: int) -> float:
+    """tau where it exceeds 1 by more than twice the noise of a k-batch estimate.
+
+    A batch-means variance from k batches has a relative error of about sqrt(2/(k - 1));
+    a tau within two of those of 1 (as for independent rows) counts as 1, so that noise
+    does not shrink the effective sample size.
+    """
+    if tau is None or n_batches < 2:
+        return 1.0
+    return tau if tau > 1.0 + 2.0 * math.sqrt(2.0 / (n_batches - 1)) else 1.0
 
 
 def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
@@ -180,9 +193,9 @@ def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
     ess = kish_ess(kw, int(keep.sum()))
     wt = np.ones(len(y)) if w is None else w
     p_in = float(wt[keep].sum() / wt.sum())
-    tau = truncated_mean_tau(chunk.values, w, keep)
+    tau, n_batches = truncated_mean_tau(chunk.values, w, keep)
     # correlated input rows (an MCMC chain in draw order) carry fewer independent draws
-    ess_corr = ess / max(tau, 1.0) if tau is not None else None
+    ess_corr = ess / significant_tau(tau, n_batches) if tau is not None else None
     usable = ess if ess_corr is None else min(ess, ess_corr)
     if usable < settings.min_ess:
         corr = "" if ess_corr is None or ess_corr >= ess else (
