@@ -87,3 +87,14 @@ def test_report_gives_the_batch_means_error_of_correlated_samples(tmp_path):
     assert 0.6 < s["tau_inside"] < 1.6
     assert "p_inside error, correlated draws (batch means)" in text
     assert "quote the batch-means error" not in text
+
+
+def test_cautions_are_those_of_the_region_theory():
+    """Regression: a chpt-su3 report printed the chpt-su2 cautions."""
+    from eftsieve.report.cautions import cautions_for
+
+    su3 = " ".join(cautions_for("chpt-su3"))
+    assert "chpt-su3" in su3 and "M_K" in su3 and "skipped" in su3
+    assert "chpt-su2" not in su3 and "400 MeV" not in su3
+    assert "chpt-su2" in " ".join(cautions_for("chpt-su2"))
+    assert "to that order" in " ".join(cautions_for("scalar-eft"))
