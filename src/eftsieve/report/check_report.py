@@ -84,6 +84,16 @@ def _tau_note(s: dict[str, Any]) -> list:
                  "walkers interleaved step by step can hide longer correlations.")]
 
 
+def mapping_block(s: dict[str, Any]) -> list:
+    """How the fit's parameters become the region's coordinates (the summary's map)."""
+    desc = (s.get("coordinate_map") or {}).get("description") or []
+    if not desc:
+        return []
+    kind = "affine" if s["coordinate_map"].get("affine") else "nonlinear"
+    return [Para(f"From the fit to the region's coordinates ({kind} map):"),
+            Bullets(tuple(desc))]
+
+
 def stats_block(s: dict[str, Any]) -> list:
     band = s["settings"]["marginal_band"]
     rows = (("rows read (n_total)", str(s["n_total"])),
@@ -163,7 +173,8 @@ def cautions_block(theory: str) -> list:
 def check_document(fit: Fit, region: Region, summary: dict[str, Any],
                    worst: tuple[dict[str, Any], ...], images: dict[str, Path]) -> Document:
     doc = Document(f"Positivity check: {fit.name}")
-    doc.add(*fit_block(fit), *region_block(region), *stats_block(summary),
+    doc.add(*fit_block(fit), *region_block(region), *mapping_block(summary),
+            *stats_block(summary),
             *uncertainty_block(summary, region), *worst_block(worst))
     for name, alt in (("region", "region with posterior contours"),
                       ("corner", "corner plot with region boundary")):
