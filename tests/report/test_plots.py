@@ -490,3 +490,17 @@ def test_region_figure_unbounded_small_scale_region_is_cut_at_the_origin() -> No
     assert "slice at L3=-0.003" in ax.get_title()
     with pytest.raises(ValueError, match="slice_at"):
         region_figure(region, coords=(0, 1), slice_at={"L9": 0.0})
+
+
+def test_region_figure_with_many_facets_draws_their_envelope_only() -> None:
+    """Regression: a 68-facet support-function region drew 68 labelled lines over the plot."""
+    ang = np.linspace(0, 2 * np.pi, 40, endpoint=False)
+    facets = tuple(Facet((float(np.cos(a)), float(np.sin(a))), -1.0, "f", f"d{k}")
+                   for k, a in enumerate(ang))
+    region = Region("t2", ("x", "y"), {}, facets)
+    ax = region_figure(region).axes[0]
+    assert not _by_gid(ax.lines, "facet-0") and not _by_gid(ax.texts, "facet-label-0")
+    assert "40 facets" in ax.get_title()
+    assert _one(ax.patches, "allowed") is not None
+    few = Region("t2", ("x", "y"), {}, facets[::10])
+    assert _by_gid(region_figure(few).axes[0].lines, "facet-0")

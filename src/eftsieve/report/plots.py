@@ -561,7 +561,8 @@ def _legend_handles(*, inner: bool, bands: bool, posterior: str | None) -> list[
     if inner:
         handles += [Patch(facecolor=_tint(YELLOW, 0.45), edgecolor=_tint(ORANGE, 0.8),
                           hatch=UNDECIDED_HATCH, label="numerically undecided"),
-                    Line2D([], [], color="black", ls="--", label="inner set (certainly allowed)")]
+                    Line2D([], [], color="black", ls="--",
+                           label="inner set (positive spectra, to the order)")]
     if bands:
         handles.append(Patch(facecolor=_tint(GREY, 0.25), label="boundary 1\u03c3 / 2\u03c3 band"))
     if posterior == "hpd":
@@ -583,6 +584,9 @@ def _title(region: Region, title: str | None, suffix: str = "") -> str:
 
 
 # ---- region figure ---------------------------------------------------------------------
+#: regions with more facets in the plane (support-function regions) are drawn without
+#: each facet's line, label and tint: only the allowed set and its boundary
+MAX_DRAWN_FACETS = 12
 #: a Chebyshev centre this far out (in units of its search box) means an unbounded region
 _UNBOUNDED = 0.5
 
@@ -697,14 +701,18 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
     box = _check_limits(limits, 2) if limits is not None else _auto_limits(outer, x, w)
     fig = _new_figure((6.4, 5.4), "constrained")
     ax = fig.add_subplot()
-    _draw_facets(ax, region, outer, box, band_map)
+    note = ""
+    if len(outer.index) <= MAX_DRAWN_FACETS or band_map:
+        _draw_facets(ax, region, outer, box, band_map)
+    else:  # support-function regions: dozens of facets; their envelope is the boundary
+        note = f"{len(outer.index)} facets, drawn as the boundary of the allowed set"
     if not _draw_sets(ax, outer, inner, box):
         ax.text(0.5, 0.5, "no allowed point in view", transform=ax.transAxes, ha="center",
                 va="center", fontsize=9, color=GREY, gid="empty-note")
     posterior = None
     if x is not None:
         posterior = "hpd" if _draw_posterior_2d(ax, x, w) else "points"
-    _finish_plane(ax, region, ij, fixed, box, title)
+    _finish_plane(ax, region, ij, fixed, box, title, note)
     ax.legend(handles=_legend_handles(inner=inner is not None, bands=bool(band_map),
                                       posterior=posterior), loc="best", fontsize=7.5,
               framealpha=0.9)
@@ -712,15 +720,16 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
 
 
 def _finish_plane(ax: Axes, region: Region, ij: tuple[int, int], fixed: np.ndarray,
-                  box: np.ndarray, title: str | None) -> None:
-    """Limits, axis labels, title (with the slice, if any) and grid of a plane figure."""
+                  box: np.ndarray, title: str | None, note: str = "") -> None:
+    """Limits, axis labels, title (with the slice and ``note``, if any) and grid."""
     others = [k for k in range(region.dim) if k not in ij]
     where = ", ".join(f"{region.coordinates[k]}={fixed[k]:.4g}" for k in others)
+    parts = ([f"slice at {where}"] if where else []) + ([note] if note else [])
     ax.set_xlim(*box[0])
     ax.set_ylim(*box[1])
     ax.set_xlabel(region.coordinates[ij[0]])
     ax.set_ylabel(region.coordinates[ij[1]])
-    ax.set_title(_title(region, title, f"\nslice at {where}" if where else ""), fontsize=10)
+    ax.set_title(_title(region, title, "\n" + "; ".join(parts) if parts else ""), fontsize=10)
     ax.grid(True, color="#DDDDDD", lw=0.5, zorder=0)
 
 
