@@ -504,3 +504,15 @@ def test_region_figure_with_many_facets_draws_their_envelope_only() -> None:
     assert _one(ax.patches, "allowed") is not None
     few = Region("t2", ("x", "y"), {}, facets[::10])
     assert _by_gid(region_figure(few).axes[0].lines, "facet-0")
+
+
+def test_corner_figure_keeps_each_column_at_its_own_scale() -> None:
+    """Regression: dimensionful couplings (g2 ~ 1e-12, g4 ~ 1e-25) were all drawn on
+    [-0.6, 0.6], or on the span of the widest column."""
+    rng = np.random.default_rng(0)
+    x = np.column_stack([rng.normal(1e-12, 1e-13, 2000), rng.normal(1e-25, 1e-25, 2000)])
+    axes = np.array(corner_figure(x, ["g2", "g4"]).axes).reshape(2, 2)
+    for k, sd in ((0, 1e-13), (1, 1e-25)):
+        lo, hi = axes[1, k].get_xlim() if k == 0 else axes[1, 1].get_xlim()
+        assert 3 * sd < hi - lo < 30 * sd, (k, lo, hi)
+        assert lo < x[:, k].mean() < hi

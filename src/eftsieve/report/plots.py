@@ -295,18 +295,22 @@ def _wquantile(x: np.ndarray, q: Sequence[float], w: np.ndarray | None) -> np.nd
     return np.interp(q, cw / cw[-1], x[order])
 
 
-def _spread(lo: np.ndarray, hi: np.ndarray, pad: float, unit: float = 1.0) -> np.ndarray:
+def _spread(lo: np.ndarray, hi: np.ndarray, pad: float,
+            unit: float | None = None) -> np.ndarray:
     """Limits (k, 2) from low and high values, widened by ``pad`` of the span.
 
-    A span that is zero, or only rounding noise (below 1e-9 of the values' size), is
-    replaced by the larger of the values' size and ``unit`` (the natural size of the
-    coordinates: 1 for lbar, 1e-3 for L_i^r).
+    Column by column: a span that is zero, or only rounding noise (below 1e-9 of the
+    column's size), is replaced by that size, or by ``unit`` (the natural size of the
+    coordinates, e.g. 1e-3 for L_i^r) when larger, or by 1 for a column at zero.
+    Columns of very different sizes (g2 ~ 1e-12 and g4 ~ 1e-25 GeV^-n) keep their own.
     """
+    lo, hi = np.asarray(lo, dtype=float), np.asarray(hi, dtype=float)
     span = hi - lo
-    ref = float(span.max())
-    mag = float(np.abs(np.r_[lo, hi]).max())
-    fallback = ref if ref > 1e-9 * max(mag, unit) else max(mag, unit)
-    span = np.where(span > 1e-9 * fallback, span, fallback)
+    size = np.maximum(np.abs(lo), np.abs(hi))
+    if unit is not None:
+        size = np.maximum(size, unit)
+    fallback = np.where(size > 0, size, 1.0)
+    span = np.where((span > 0) & (span > 1e-9 * size), span, fallback)
     mid = (lo + hi) / 2
     return np.column_stack([mid - span * (0.5 + pad), mid + span * (0.5 + pad)])
 
