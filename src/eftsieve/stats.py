@@ -40,17 +40,21 @@ BATCH = 256
 MIN_BATCHES = 20
 
 
+def run_sums(values: np.ndarray) -> np.ndarray:
+    """Sums of ``values`` over consecutive runs of :data:`BATCH` rows (the elementary
+    batches of the batch-means error), the first run starting at row 0."""
+    if len(values) == 0:
+        return np.zeros(0)
+    return np.add.reduceat(values, np.arange(0, len(values), BATCH))
+
+
 def batch_sums(w: np.ndarray, satisfies: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Sums of w and of w over the rows inside, per run of :data:`BATCH` rows of a block.
 
     Runs start at the first row of the block, so the sums do not depend on chunk sizes;
     every engine calls this same function on the same blocks (the same bits).
     """
-    if len(w) == 0:
-        return np.zeros(0), np.zeros(0)
-    starts = np.arange(0, len(w), BATCH)
-    return (np.add.reduceat(w, starts),
-            np.add.reduceat(np.where(satisfies, w, 0.0), starts))
+    return run_sums(w), run_sums(np.where(satisfies, w, 0.0))
 
 
 def ratio_batch_variance(num: np.ndarray, den: np.ndarray, n_rows: int

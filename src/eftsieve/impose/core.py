@@ -145,17 +145,16 @@ def truncated_mean_tau(x: np.ndarray, w: np.ndarray | None, keep: np.ndarray
     Returns (tau, number of batches); tau is None when there are too few rows for batch
     means or nothing is kept.
     """
-    from eftsieve.stats import BATCH, ratio_batch_variance
+    from eftsieve.stats import ratio_batch_variance, run_sums
 
     wk = (np.ones(len(x)) if w is None else np.asarray(w, dtype=float)) * keep
     total = float(wk.sum())
     if not total > 0:
         return None, 0
-    starts = np.arange(0, len(x), BATCH)
-    den = np.add.reduceat(wk, starts)
+    den = run_sums(wk)
     taus, k = [], 0
     for col in np.asarray(x, dtype=float).T:
-        var, k, _ = ratio_batch_variance(np.add.reduceat(wk * col, starts), den, len(x))
+        var, k, _ = ratio_batch_variance(run_sums(wk * col), den, len(x))
         mean = float(wk @ col) / total
         iid = float((wk * wk) @ (col - mean) ** 2) / total**2
         if not math.isfinite(var):
