@@ -1,6 +1,6 @@
 """Classification speed and check end to end (issue: check), with comparators side by side.
 
-- ours: eftsieve.check.classify on 10^7 two-parameter samples (chunks of 10^6);
+- ours: eftsieve.check.verdicts.classify on 10^7 two-parameter samples (chunks of 10^6);
 - a plain numpy pass over the same array (the memory-bandwidth stand-in);
 - every kinematic-grid constraint for every sample (the naive use of the raw scan),
   measured on a subset and extrapolated;
@@ -27,7 +27,7 @@ CHUNK = 1_000_000
 def grid_constraints():
     """All (normal, offset) pairs of the raw kinematic scan of both families."""
     from eftsieve.bounds.fixed_t import normalised_offsets, unit_grid
-    from eftsieve.theories.chpt_su2 import CHANNELS, DEFAULT_SCAN, ChannelFunctionals
+    from eftsieve.theories.chpt_su2.theory import CHANNELS, DEFAULT_SCAN, ChannelFunctionals
 
     normals, offsets = [], []
     for fam, scan in DEFAULT_SCAN.items():
@@ -45,7 +45,7 @@ def grid_constraints():
 def in_memory(region) -> list[list[str]]:
     from scipy.optimize import linprog
 
-    from eftsieve.check import classify
+    from eftsieve.check.verdicts import classify
 
     rng = np.random.default_rng(0)
     y = np.column_stack([rng.normal(-1, 2, N), rng.normal(4, 1, N)])
@@ -85,7 +85,7 @@ def write_parquet(path: Path, n: int, rng: np.random.Generator, group: int = 1_0
 
 
 def run_check_process(card: Path, region: Path, out: Path, plots: bool) -> tuple[float, float]:
-    code = ("import resource, sys, time; from eftsieve.cli import main; t=time.perf_counter(); "
+    code = ("import resource, sys, time; from eftsieve.cli.main import main; t=time.perf_counter(); "
             f"rc=main(['check', {str(card)!r}, '--region', {str(region)!r}, '-o', {str(out)!r}"
             + ("" if plots else ", '--no-plots'") + "]); "
             "print(time.perf_counter()-t, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss); "

@@ -6,7 +6,7 @@ temporary directory (deleted at the end) and checked against the default chpt-su
 
 - ``local_check``: this process, one file at a time (the canonical block order);
 - ``dask_check`` on the engine's LocalCluster of 2 single-threaded worker processes
-  (``eftsieve.scale.dask_engine.local_cluster``, started before the clock runs; its
+  (``eftsieve.check.engines.dask.local_cluster``, started before the clock runs; its
   start-up time is shown separately).
 
 Both runs must give the same summary numbers and the same flagged.csv bytes, which the
@@ -49,9 +49,9 @@ def write_dataset(d: Path) -> None:
 
 
 def bench_fit(d: Path):
-    from eftsieve.conventions import Convention
-    from eftsieve.fit import Fit, Parameter
-    from eftsieve.samples import SamplesSource
+    from eftsieve.fit.conventions import Convention
+    from eftsieve.fit.model import Fit, Parameter
+    from eftsieve.io.samples import SamplesSource
 
     lbar = Convention("lbar", pion_mass_mev=139.57)
     return Fit("bench", "chpt-su2", (Parameter("lbar1", lbar), Parameter("lbar2", lbar)),
@@ -100,9 +100,9 @@ def timed(fn, repeat: int = 2):
 def run(d: Path) -> list[list[str]]:
     from distributed import Client
 
-    from eftsieve.check import CheckSettings
-    from eftsieve.scale import dask_check, local_check
-    from eftsieve.scale.dask_engine import local_cluster
+    from eftsieve.check.engines.dask import dask_check, local_cluster
+    from eftsieve.check.engines.local import local_check
+    from eftsieve.check.verdicts import CheckSettings
     from eftsieve.theories import get_theory
 
     fit, settings = bench_fit(d), CheckSettings()
@@ -112,7 +112,7 @@ def run(d: Path) -> list[list[str]]:
     t0 = time.perf_counter()
     cluster = local_cluster(2)
     with Client(cluster) as client:  # warm-up: the workers import eftsieve once
-        client.run(importlib.import_module, "eftsieve.scale.partition")
+        client.run(importlib.import_module, "eftsieve.check.engine")
     t_start = time.perf_counter() - t0
     try:
         t_dask, b = timed(lambda: dask_check(fit, region, settings, d / "dask",

@@ -12,7 +12,7 @@ from scipy import stats
 
 def main() -> str:
     one_core()
-    from eftsieve.impose.tmvn import sample_truncated_normal
+    from eftsieve.stats.tmvn import sample_truncated_normal
 
     mean, cov = np.zeros(2), np.array([[1.0, 0.3], [0.3, 1.0]])
     a = np.array([[1.0, 0.0], [0.0, 1.0]])

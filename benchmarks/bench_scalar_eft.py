@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 
 from eftsieve.errors import SolverError
-from eftsieve.theories.scalar_eft import THEORY
+from eftsieve.theories.scalar_eft.theory import THEORY
 
 PUBLISHED = (-10.346, 3.0)  # arXiv:2011.02957, Sec. 3
 ROOT = Path(__file__).resolve().parents[1]

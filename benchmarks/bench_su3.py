@@ -14,7 +14,7 @@ def main() -> str:
     try:
         th = get_theory("chpt-su3")
     except KeyError:                      # not yet registered: use the module directly
-        from eftsieve.theories.chpt_su3 import THEORY as th
+        from eftsieve.theories.chpt_su3.theory import THEORY as th
     th.build_region({"families": ["second-derivative"], "processes": ["pi pi"]})  # warm up
     rows = []
     for label, settings, repeat in [

@@ -16,7 +16,7 @@ import numpy as np
 from common import best_time, table
 
 from eftsieve import stats
-from eftsieve.theories.scalar_eft import THEORY
+from eftsieve.theories.scalar_eft.theory import THEORY
 
 
 def main() -> None:

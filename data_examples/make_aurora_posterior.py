@@ -22,13 +22,13 @@ import numpy as np
 import pandas as pd
 import yaml
 
-from eftsieve.conventions import Convention, affine_map
-from eftsieve.fit import load_fit
+from eftsieve.fit.conventions import Convention, affine_map
+from eftsieve.fit.model import load_fit
 from eftsieve.impose.core import ImposeSettings
 from eftsieve.impose.refit import load_observables, observables_loglike, run_refit
-from eftsieve.observables import threshold_parameters
-from eftsieve.region import Region
+from eftsieve.region.model import Region
 from eftsieve.theories import get_theory
+from eftsieve.theories.chpt_su2.observables import threshold_parameters
 
 HERE = Path(__file__).parent
 TRUE_LBAR = np.array([-2.0, 3.75, 2.9, 4.4])          # invented, at M_pi = 139.57 MeV
@@ -64,7 +64,7 @@ def main() -> None:
                         + yaml.safe_dump(observables(rng), sort_keys=False))
     fit = load_fit(HERE / "aurora_gaussian.yaml")      # conventions and prior only
     prior = {n: {"uniform": [-15.0, 15.0]} for n in fit.names}
-    from eftsieve.fit import Prior
+    from eftsieve.fit.model import Prior
 
     fit = type(fit)(fit.name, fit.theory, fit.parameters, fit.kinematics, fit.mean, fit.cov,
                     None, Prior({n: "uniform" for n in prior},

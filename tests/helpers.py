@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from eftsieve.conventions import Convention
-from eftsieve.fit import Fit, Parameter
-from eftsieve.region import Facet, Region
+from eftsieve.fit.conventions import Convention
+from eftsieve.fit.model import Fit, Parameter
+from eftsieve.region.model import Facet, Region
 
 LBAR = Convention("lbar", pion_mass_mev=139.57)
 

@@ -9,9 +9,9 @@ import pandas as pd
 import pytest
 from scipy import stats
 
-from eftsieve.check import INSIDE, MARGINAL, OUTSIDE, CheckSettings, classify
-from eftsieve.check_run import run_check
-from eftsieve.fit import load_fit
+from eftsieve.check.run import run_check
+from eftsieve.check.verdicts import INSIDE, MARGINAL, OUTSIDE, CheckSettings, classify
+from eftsieve.fit.model import load_fit
 from tests.helpers import gaussian_fit, region
 
 
@@ -88,7 +88,7 @@ def test_chunked_and_in_memory_runs_agree(tmp_path):
 
 def test_weighted_ess_and_error():
     w = np.array([1.0, 1.0, 2.0, 0.0])
-    from eftsieve.stats import Accumulator
+    from eftsieve.stats.accumulate import Accumulator
 
     acc = Accumulator(2)
     y = np.zeros((4, 2))
@@ -121,7 +121,7 @@ def test_chpt_su3_default_band_fits_the_size_of_the_lecs():
     assert wide["settings"]["marginal_band"] == 1e-3
     assert wide["n_marginal"] > 0.9 * wide["n_total"]
     assert CheckSettings().band(region(((0, 1), 1.0))) == 1e-3      # chpt-su2 (lbar)
-    from eftsieve.region import Facet, Region
+    from eftsieve.region.model import Facet, Region
 
     lr = Region("chpt-su2", ("l1", "l2"), {"name": "lr", "mu_mev": 770.0},
                 (Facet((0.0, 1.0), -4.5e-4, "t-derivative", "pi+ pi0", {"s": 0.0, "t": 4.0}),))
@@ -135,7 +135,7 @@ def test_bayes_factor_against_closed_forms():
     is int_1^6.5 (7 + 2 y) dy + 3.5 * 20 = 149.75 of 400 (worked by hand), and
     P_post(inside) = P(b - A y <= 0) from scipy.stats.multivariate_normal.cdf.
     """
-    from eftsieve.fit import Prior
+    from eftsieve.fit.model import Prior
 
     prior = Prior({"lbar1": "uniform", "lbar2": "uniform"},
                   {"lbar1": (-10.0, 10.0), "lbar2": (-10.0, 10.0)})

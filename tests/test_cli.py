@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from eftsieve.cli import main
+from eftsieve.cli.main import main
 
 DATA = Path(__file__).parent / "fit"
 
@@ -125,7 +125,7 @@ def test_repeated_pion_mass_flags_accumulate(tmp_path, capsys):
 
 
 def test_our_warnings_are_one_line(capsys):
-    from eftsieve.cli import _one_line_warning
+    from eftsieve.cli.main import _one_line_warning
     from eftsieve.errors import KinematicsWarning
 
     seen = []

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 
-from eftsieve.cli import main
+from eftsieve.cli.main import main
 
 
 def test_demo_end_to_end(tmp_path, capsys):

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from eftsieve.errors import InputError
-from eftsieve.fit import load_fit
+from eftsieve.fit.model import load_fit
 
 DATA = Path(__file__).parent / "fit"
 
@@ -77,8 +77,8 @@ def test_negative_weight_rows_are_quoted():
 
 
 def test_all_zero_weights_are_refused():
-    from eftsieve.check import CheckSettings
-    from eftsieve.check_run import run_check
+    from eftsieve.check.run import run_check
+    from eftsieve.check.verdicts import CheckSettings
     from eftsieve.theories import get_theory
 
     fit = load_fit(DATA / "bad_zerow.yaml")

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from eftsieve.stats import Accumulator, chibar2_sf, closest_point, cone_weights, tension
+from eftsieve.stats.accumulate import Accumulator, chibar2_sf, closest_point, cone_weights, tension
 from tests.helpers import region
 
 
@@ -134,7 +134,7 @@ def test_too_few_rows_give_no_batch_means_estimate():
 def test_plane_cone_with_redundant_rows_matches_monte_carlo():
     """Several facets through one vertex of a 2-D region: the wedge closed form on the two
     bounding rows equals the Monte-Carlo active-set weights of all rows."""
-    from eftsieve.stats import _cone_weights_mc
+    from eftsieve.stats.accumulate import _cone_weights_mc
 
     ang = np.array([0.2, 0.5, 0.9, 1.3])
     g = np.column_stack([np.cos(ang), np.sin(ang)])

@@ -8,18 +8,18 @@ import numpy as np
 import pytest
 from scipy import integrate, stats
 
-from eftsieve.check import CheckSettings, classify
-from eftsieve.check_run import run_check
+from eftsieve.check.run import run_check
+from eftsieve.check.verdicts import CheckSettings, classify
 from eftsieve.impose.core import ImposeSettings
 from eftsieve.impose.soft import soft_exact
-from eftsieve.theories import get_theory
-from eftsieve.uncertainty import (
+from eftsieve.stats.truncation import (
     UncertaintySettings,
     facet_uncertainty,
     prob_satisfies,
     scale_posterior,
     verdicts_from_probability,
 )
+from eftsieve.theories import get_theory
 from tests.helpers import gaussian_fit, region
 
 SU2 = get_theory("chpt-su2")
@@ -122,7 +122,7 @@ def test_power_counting_p_inside_differs_and_is_reported():
 
 def test_soft_refit_1d_against_quadrature():
     """The refit with log P(x) in the prior reproduces the soft-truncated posterior."""
-    from eftsieve.fit import Prior
+    from eftsieve.fit.model import Prior
     from eftsieve.impose.refit import run_refit
     from eftsieve.impose.soft import log_soft_indicator
 

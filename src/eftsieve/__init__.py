@@ -6,9 +6,9 @@ only when a function needs them.
 
 from eftsieve._version import __version__
 from eftsieve.errors import EftsieveError, EftsieveWarning, InputError
-from eftsieve.fit import Fit, load_fit
-from eftsieve.region import Facet, Region
-from eftsieve.regions import build_region
+from eftsieve.fit.model import Fit, load_fit
+from eftsieve.region.build import build_region
+from eftsieve.region.model import Facet, Region
 
 __all__ = [
     "EftsieveError",

@@ -92,6 +92,27 @@ class SamplingError(EftsieveError):
         self.hint = hint
         super().__init__(problem + (f" (fix: {hint})" if hint else ""))
 
+class TaskFailedError(EftsieveError):
+    """A partition or a distributed task failed, or rows went missing; nothing is written.
+
+    Parameters
+    ----------
+    task
+        Which task: ``partition 2 of 5 (part-0002.parquet, rows 40000..59999)``.
+    problem
+        What happened.
+    hint
+        What to do.
+    """
+
+    exit_code = 7
+
+    def __init__(self, task: str, problem: str, hint: str = "") -> None:
+        self.task = task
+        self.problem = problem
+        self.hint = hint
+        super().__init__(f"{task}: {problem}" + (f" (fix: {hint})" if hint else ""))
+
 
 class EftsieveWarning(UserWarning):
     """Base class of every warning issued by eftsieve."""

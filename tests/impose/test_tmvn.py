@@ -15,7 +15,7 @@ import pytest
 from scipy import integrate, stats
 
 from eftsieve.errors import SamplingError
-from eftsieve.impose.tmvn import (
+from eftsieve.stats.tmvn import (
     DegeneratePolytopeError,
     EmptyPolytopeError,
     PolytopeInputError,

@@ -36,13 +36,13 @@ import time
 import numpy as np
 import pytest
 
-from eftsieve.observables import (
+from eftsieve.theories.chpt_su2 import observables as th
+from eftsieve.theories.chpt_su2.observables import (
     OBSERVABLES,
     ThresholdParameter,
     threshold_parameter,
     threshold_parameters,
 )
-from eftsieve.observables import threshold as th
 from tests.check_values import LEADING_ORDER, d_wave_closed, s_p_wave_closed
 
 # Two pion masses: the physical point (PDG charged pion, F_pi = 92.07 MeV, common

@@ -5,9 +5,9 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from eftsieve.check import CheckSettings
-from eftsieve.check_run import run_check
-from eftsieve.fit import Parameter, Prior
+from eftsieve.check.run import run_check
+from eftsieve.check.verdicts import CheckSettings
+from eftsieve.fit.model import Parameter, Prior
 from eftsieve.report.check_report import check_document
 from eftsieve.report.document import to_html, to_markdown
 from tests.helpers import gaussian_fit, region
@@ -60,8 +60,8 @@ def _samples_report(tmp_path, rho, n=20_000):
     import pandas as pd
     from scipy.signal import lfilter
 
-    from eftsieve.fit import Fit
-    from eftsieve.samples import SamplesSource
+    from eftsieve.fit.model import Fit
+    from eftsieve.io.samples import SamplesSource
     from tests.helpers import LBAR
 
     rng = np.random.default_rng(3)

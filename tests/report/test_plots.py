@@ -13,7 +13,7 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import PathPatch, Polygon
 from matplotlib.path import Path as MplPath
 
-from eftsieve.region import Facet, Region
+from eftsieve.region.model import Facet, Region
 from eftsieve.report.plots import corner_figure, region_figure, save_corner, save_region_plot
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"

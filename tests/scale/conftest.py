@@ -13,9 +13,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from eftsieve.conventions import Convention
-from eftsieve.fit import Fit, Parameter
-from eftsieve.samples import SamplesSource
+from eftsieve.fit.conventions import Convention
+from eftsieve.fit.model import Fit, Parameter
+from eftsieve.io.samples import SamplesSource
 
 LBAR = Convention("lbar", pion_mass_mev=139.57)
 #: rows of the files of the standard dataset: a file longer than one block, a file of
@@ -77,7 +77,7 @@ def cluster():
     """A LocalCluster of two single-threaded worker processes (loopback, no dashboard)."""
     distributed = pytest.importorskip("distributed")
     cl = distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=None, host="127.0.0.1")
+                                  dashboard_address="127.0.0.1:0", host="127.0.0.1")
     try:
         yield cl
     finally:

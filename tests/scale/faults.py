@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from eftsieve.samples import FilePart
+from eftsieve.io.samples import FilePart
 
 
 @dataclass(frozen=True)

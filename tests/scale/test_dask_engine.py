@@ -10,10 +10,10 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from eftsieve.check import CheckSettings
-from eftsieve.errors import InputError
-from eftsieve.scale import TaskFailedError, dask_check, local_check
-from eftsieve.scale.dask_engine import connect
+from eftsieve.check.engines.dask import connect, dask_check
+from eftsieve.check.engines.local import local_check
+from eftsieve.check.verdicts import CheckSettings
+from eftsieve.errors import InputError, TaskFailedError
 from tests.scale.conftest import FILE_ROWS, comparable, make_fit, write_parts
 from tests.scale.faults import FailAlways, KillAlways, KillOnce
 
@@ -124,7 +124,8 @@ def test_unreachable_scheduler_is_an_input_error():
 
 
 def test_missing_extra_gives_the_install_hint(dataset, region, monkeypatch):
-    from eftsieve.scale import check_many, parallel_region_builds
+    from eftsieve.check.engines.dask import parallel_region_builds
+    from eftsieve.check.many import check_many
 
     monkeypatch.setitem(sys.modules, "distributed", None)
     for call in (lambda: dask_check(make_fit(dataset), region, SETTINGS, None),

@@ -7,9 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 import pytest
 
-from eftsieve.check import classify
-from eftsieve.samples import Chunk
-from eftsieve.scale.exact import (
+from eftsieve.check.blocks import (
     Ranked,
     absorb,
     apply_map,
@@ -18,7 +16,9 @@ from eftsieve.scale.exact import (
     iter_blocks,
     sample_keys,
 )
-from eftsieve.stats import BLOCK, Accumulator
+from eftsieve.check.verdicts import classify
+from eftsieve.io.samples import Chunk
+from eftsieve.stats.accumulate import BLOCK, Accumulator
 from eftsieve.theories.base import CoordinateMap
 
 EXACT = ("n_total", "sw", "sw2", "sw_in", "sw2_in", "sw_in_inner")
@@ -83,7 +83,7 @@ def test_accumulator_layout_is_known_and_changes_are_caught(monkeypatch):
     class Grown(Accumulator):
         sw_new: float = 0.0
 
-    import eftsieve.scale.exact as exact
+    import eftsieve.check.blocks as exact
 
     monkeypatch.setattr(exact, "Accumulator", Grown)
     with pytest.raises(RuntimeError, match=r"new fields \['sw_new'\]"):

@@ -8,11 +8,11 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from eftsieve.check import CheckSettings
-from eftsieve.check_run import run_check
+from eftsieve.check.engines.local import check_with_engine, local_check
+from eftsieve.check.run import run_check
+from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError
-from eftsieve.scale import check_with_engine, local_check
-from eftsieve.stats import BLOCK
+from eftsieve.stats.accumulate import BLOCK
 from tests.helpers import gaussian_fit
 from tests.scale.conftest import FILE_ROWS, comparable, make_fit, write_parts
 
@@ -117,7 +117,7 @@ def test_region_of_another_theory_is_refused(dataset, region):
 
 
 def test_a_theory_uncertainty_model_is_refused(dataset, region):
-    from eftsieve.uncertainty import UncertaintySettings
+    from eftsieve.stats.truncation import UncertaintySettings
 
     fit = make_fit(dataset)
     with pytest.raises(InputError, match="not available with the partitioned engines") as e:

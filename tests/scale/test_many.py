@@ -8,10 +8,9 @@ import pandas as pd
 import pytest
 import yaml
 
-from eftsieve.check import CheckSettings
+from eftsieve.check.many import SUMMARY_COLUMNS, check_many, write_summary_table
+from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError
-from eftsieve.scale import check_many, write_summary_table
-from eftsieve.scale.many import SUMMARY_COLUMNS
 from tests.scale.conftest import comparable
 
 SETTINGS = CheckSettings(draws=20_000, chunk_rows=30_000, plot_points=2000)

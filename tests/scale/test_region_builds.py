@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
+from eftsieve.check.engines.dask import RegionTask, parallel_region_builds
 from eftsieve.errors import InputError, KinematicsWarning
-from eftsieve.scale import RegionTask, parallel_region_builds
 from eftsieve.theories import get_theory
 
 pytest.importorskip("distributed")
@@ -44,7 +44,7 @@ def test_no_tasks_need_no_cluster():  # (but the extra: see test_dask_engine)
 
 
 def test_a_build_that_keeps_failing_is_named(cluster):
-    from eftsieve.scale import TaskFailedError
+    from eftsieve.errors import TaskFailedError
 
     with pytest.raises(TaskFailedError) as info:
         parallel_region_builds([("chpt-su2", CHEAP), ("chpt-su2", {"families": 5})],

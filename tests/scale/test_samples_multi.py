@@ -8,7 +8,7 @@ import pyarrow.parquet as pq
 import pytest
 
 from eftsieve.errors import InputError
-from eftsieve.samples import Chunk, FilePart, detect_format, resolve_files
+from eftsieve.io.samples import Chunk, FilePart, detect_format, resolve_files
 from tests.scale.conftest import FILE_ROWS, make_fit, write_parts
 
 

@@ -10,7 +10,7 @@ import math
 
 import numpy as np
 
-from eftsieve.theories import su3_amplitude as amp3
+from eftsieve.theories.chpt_su3 import amplitude as amp3
 
 MPI, MK, META = 139.57, 493.68, 547.86          # MeV, PDG (from memory)
 mk, me, MU = MK / MPI, META / MPI, 770.0 / MPI

@@ -8,9 +8,10 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from eftsieve.conventions import Convention, affine_map
-from eftsieve.theories import get_theory, pipi
-from eftsieve.theories.chpt_su2 import CHANNELS, ChannelFunctionals, t_derivative_combination
+from eftsieve.fit.conventions import Convention, affine_map
+from eftsieve.theories import get_theory
+from eftsieve.theories.chpt_su2 import amplitude as pipi
+from eftsieve.theories.chpt_su2.theory import CHANNELS, ChannelFunctionals, t_derivative_combination
 from tests.check_values import (
     A20_CONST,
     A22_CONST,

@@ -19,16 +19,10 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from eftsieve.conventions import Convention
+from eftsieve.fit.conventions import Convention
 from eftsieve.theories import get_theory
-from eftsieve.theories import su3_amplitude as amp3
-from eftsieve.theories.chpt_su3 import (
-    THEORY,
-    run_lr,
-    su2_from_su3,
-    su2_matching_map,
-)
-from eftsieve.theories.su3_bounds import (
+from eftsieve.theories.chpt_su3 import amplitude as amp3
+from eftsieve.theories.chpt_su3.channels import (
     ETA,
     K_PLUS,
     K_ZERO,
@@ -36,6 +30,12 @@ from eftsieve.theories.su3_bounds import (
     PI_ZERO,
     ChannelFunctionals,
     t_derivative_combination,
+)
+from eftsieve.theories.chpt_su3.theory import (
+    THEORY,
+    run_lr,
+    su2_from_su3,
+    su2_matching_map,
 )
 from tests.theories.su3_common import ES, MK, MPI, MU, PIPI, lagrangian_vertex, me, mk, momenta
 
@@ -70,8 +70,8 @@ def test_scale_independence_gives_the_gl_gammas(second_region):
 # ---- matching to SU(2) -----------------------------------------------------------------
 def _su2_curvature(name, x, lecs, mk_, mu_):
     """d^2T/ds^2 of chpt-su2 (GL 1984) with l^r from the GL85 matching, units M_pi = 1."""
-    from eftsieve.theories import pipi
-    from eftsieve.theories.chpt_su2 import CHANNELS as SU2
+    from eftsieve.theories.chpt_su2 import amplitude as pipi
+    from eftsieve.theories.chpt_su2.theory import CHANNELS as SU2
 
     l12 = su2_from_su3(np.asarray(lecs), mu_ * MPI, mk_ * MPI)
     gam = (1 / 3, 2 / 3)
@@ -203,7 +203,7 @@ def test_rule_in_resonance_sums_pi_k(seed):
 
 
 def test_t_derivative_combination_reduces_to_su2():
-    from eftsieve.theories.chpt_su2 import t_derivative_combination as su2_comb
+    from eftsieve.theories.chpt_su2.theory import t_derivative_combination as su2_comb
 
     rng = np.random.default_rng(1)
     s, t = rng.uniform(-1, 3.9, 50), rng.uniform(0, 4, 50)
@@ -277,7 +277,7 @@ def test_region_values(region, second_region):
 
 # ---- the Theory API ----------------------------------------------------------------------
 def _fit(mu_mev, names=("L1", "L2", "L3"), conv="Lr"):
-    from eftsieve.fit import Fit, Parameter
+    from eftsieve.fit.model import Fit, Parameter
 
     params = tuple(Parameter(n, Convention(conv, mu_mev=mu_mev)) for n in names)
     return Fit("toy", "chpt-su3", params, {}, np.full(len(names), 1e-3),
@@ -308,14 +308,14 @@ def test_validate_fit_rejects_bad_cards():
 
 
 def test_region_file_round_trip(region, tmp_path):
-    from eftsieve.region import Region
+    from eftsieve.region.model import Region
 
     back = Region.load(region.save(tmp_path / "su3.json"))
     assert back.hash == region.hash and back.facets == region.facets
 
 
 def test_slices_and_projections(region):
-    from eftsieve.theories.su3_slices import region_projection, region_slice
+    from eftsieve.region.slices import region_projection, region_slice
 
     names, poly = region_slice(region, {"L1": 5e-4})
     assert names == ("L2", "L3") and len(poly) >= 3

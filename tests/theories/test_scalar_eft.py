@@ -26,12 +26,12 @@ from scipy.integrate import quad
 from scipy.special import eval_legendre
 
 from eftsieve.bounds.sum_rules import VerifySettings, verify_functional
-from eftsieve.conventions import Convention
 from eftsieve.errors import InputError
-from eftsieve.fit import Fit, Parameter
-from eftsieve.region import Region
+from eftsieve.fit.conventions import Convention
+from eftsieve.fit.model import Fit, Parameter
+from eftsieve.region.model import Region
 from eftsieve.theories import get_theory
-from eftsieve.theories.scalar_eft import (
+from eftsieve.theories.scalar_eft.theory import (
     OUTSIDE,
     THEORY,
     couplings_from_spectrum,

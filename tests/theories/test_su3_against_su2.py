@@ -7,10 +7,10 @@ import math
 import numpy as np
 import pytest
 
-from eftsieve.check import CheckSettings
-from eftsieve.check_run import run_check
-from eftsieve.conventions import Convention
-from eftsieve.fit import Fit, Parameter
+from eftsieve.check.run import run_check
+from eftsieve.check.verdicts import CheckSettings
+from eftsieve.fit.conventions import Convention
+from eftsieve.fit.model import Fit, Parameter
 from eftsieve.theories import get_theory
 from tests.check_values import GAMMA, M_PI_MEV, MU_MEV
 

@@ -17,12 +17,12 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from eftsieve.theories import su3_amplitude as amp3
-from eftsieve.theories.su3_bounds import (
+from eftsieve.theories.chpt_su3 import amplitude as amp3
+from eftsieve.theories.chpt_su3.channels import (
     CHANNELS,
     ChannelFunctionals,
 )
-from eftsieve.theories.su3_loops import PairMoments, jbar_unequal
+from eftsieve.theories.chpt_su3.loops import PairMoments, jbar_unequal
 from tests.theories.su3_common import ES, ET, MU, PIPI, lagrangian_vertex, me, mk, momenta
 
 

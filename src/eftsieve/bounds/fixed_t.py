@@ -25,7 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import minimize
 
-from eftsieve.region import Facet
+from eftsieve.region.model import Facet
 
 #: evaluator: points in the unit cube (n, k) -> (K0 (n,), K (n, d), physical point dict of arrays)
 Evaluator = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]]

@@ -11,7 +11,7 @@ where w -> (bM/2)^2 at large J and fixed impact parameter b = 2J/m.  The allowed
 {<f>} over measures with <1> = 1 and <n_i> = 0.  For min <o> along a direction:
 
 * **primal (inner)**: the LP over a finite grid returns a positive spectrum, re-solved on
-  its support in 40-digit arithmetic (:func:`~eftsieve.bounds.exact_lp.exact_spectrum`)
+  its support in 40-digit arithmetic (:func:`~eftsieve.bounds.lp.exact_spectrum`)
   so that it meets every imposed constraint exactly.  Its value lies *above* the minimum
   (a restriction), on the allowed side of the truncated problem; null constraints beyond
   the imposed order are not enforced on it.
@@ -40,7 +40,7 @@ from typing import Any
 
 import numpy as np
 
-from eftsieve.bounds.exact_lp import exact_spectrum
+from eftsieve.bounds.lp import exact_spectrum
 from eftsieve.bounds.verify import (
     Verification,
     VerifySettings,

@@ -8,7 +8,7 @@
 ``exact``
     For a Gaussian summary: i.i.d. draws from the Gaussian truncated to the polyhedral
     region, by minimax exponential tilting (Botev, J. R. Stat. Soc. B 79 (2017) 125,
-    arXiv:1603.04166; see :mod:`eftsieve.impose.tmvn`), with the normalising probability
+    arXiv:1603.04166; see :mod:`eftsieve.stats.tmvn`), with the normalising probability
     and its error.
 
 ``refit`` lives in :mod:`eftsieve.impose.refit`.
@@ -23,8 +23,8 @@ from typing import Any
 import numpy as np
 
 from eftsieve.errors import InputError, SamplingError
-from eftsieve.fit import Fit
-from eftsieve.region import Region
+from eftsieve.fit.model import Fit
+from eftsieve.region.model import Region
 from eftsieve.theories.base import CoordinateMap
 from eftsieve.tolerances import MIN_ESS
 
@@ -140,12 +140,12 @@ def truncated_mean_tau(x: np.ndarray, w: np.ndarray | None, keep: np.ndarray
     """The largest integrated autocorrelation time of the truncated means, in row order.
 
     For each parameter, the batch-means variance of sum_kept w x / sum_kept w
-    (:func:`eftsieve.stats.ratio_batch_variance`) over its variance for independent
+    (:func:`eftsieve.stats.accumulate.ratio_batch_variance`) over its variance for independent
     draws, sum_kept w^2 (x - mean)^2 / (sum_kept w)^2 (constant columns are skipped).
     Returns (tau, number of batches); tau is None when there are too few rows for batch
     means or nothing is kept.
     """
-    from eftsieve.stats import ratio_batch_variance, run_sums
+    from eftsieve.stats.accumulate import ratio_batch_variance, run_sums
 
     wk = (np.ones(len(x)) if w is None else np.asarray(w, dtype=float)) * keep
     total = float(wk.sum())
@@ -216,7 +216,7 @@ def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
 def exact(fit: Fit, region: Region, cmap: CoordinateMap,
           settings: ImposeSettings) -> ImposeResult:
     """I.i.d. draws from the fit's Gaussian truncated to the region (minimax tilting)."""
-    from eftsieve.impose.tmvn import sample_truncated_normal
+    from eftsieve.stats.tmvn import sample_truncated_normal
 
     if not cmap.is_affine:
         raise InputError(fit.source, "parameters", "exact mode needs an affine map from the "

@@ -29,9 +29,9 @@ from typing import Any
 import numpy as np
 
 from eftsieve.errors import ConvergenceWarning, InputError, SamplingError
-from eftsieve.fit import Fit, check_covariance, read_card
+from eftsieve.fit.model import Fit, check_covariance, read_card
 from eftsieve.impose.core import ImposeResult, ImposeSettings, _with_moments
-from eftsieve.region import Region
+from eftsieve.region.model import Region
 from eftsieve.theories.base import CoordinateMap
 
 MIN_TAU_MULTIPLE = 50
@@ -93,7 +93,7 @@ class ObservableData:
 
 def load_observables(path: str | Path) -> ObservableData:
     """Read an observables file (YAML/JSON, ``format_version: 1``)."""
-    from eftsieve.observables import OBSERVABLES
+    from eftsieve.theories.chpt_su2.observables import OBSERVABLES
 
     p = Path(path)
     card = read_card(p)
@@ -130,10 +130,10 @@ def observables_loglike(data: ObservableData, fit: Fit) -> Callable[[np.ndarray]
     """Vectorised Gaussian log-likelihood of the observables as functions of lbar1..lbar4.
 
     The fit's constants (in its conventions) are mapped to lbar at each observable's own
-    pion mass (exact affine maps of :mod:`eftsieve.conventions`).
+    pion mass (exact affine maps of :mod:`eftsieve.fit.conventions`).
     """
-    from eftsieve.conventions import Convention, affine_map, lec_index
-    from eftsieve.observables import threshold_parameters
+    from eftsieve.fit.conventions import Convention, affine_map, lec_index
+    from eftsieve.theories.chpt_su2.observables import threshold_parameters
 
     idx = {}
     for i, p in enumerate(fit.parameters):

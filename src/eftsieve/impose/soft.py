@@ -1,6 +1,6 @@
 """Soft truncation: the prior times P(satisfies the bounds) instead of the hard indicator.
 
-Used by ``impose`` with a theory-uncertainty model (:mod:`eftsieve.uncertainty`):
+Used by ``impose`` with a theory-uncertainty model (:mod:`eftsieve.stats.truncation`):
 
 ``reweight``
     Each sample's weight is multiplied by P(x); nothing is dropped.
@@ -19,11 +19,11 @@ from collections.abc import Callable
 import numpy as np
 
 from eftsieve.errors import InputError, SamplingError
-from eftsieve.fit import Fit
+from eftsieve.fit.model import Fit
 from eftsieve.impose.core import ImposeResult, ImposeSettings, _with_moments, kish_ess
-from eftsieve.region import Region
+from eftsieve.region.model import Region
+from eftsieve.stats.truncation import FacetUncertainty, prob_satisfies
 from eftsieve.theories.base import CoordinateMap
-from eftsieve.uncertainty import FacetUncertainty, prob_satisfies
 
 MIN_ACCEPTANCE = 1e-4
 

@@ -5,8 +5,8 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from eftsieve.fit import Fit
-from eftsieve.region import Region
+from eftsieve.fit.model import Fit
+from eftsieve.region.model import Region
 from eftsieve.report.check_report import _g, cautions_block, fit_block, region_block
 from eftsieve.report.document import Bullets, Document, Heading, Image, Para, Table
 

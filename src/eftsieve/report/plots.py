@@ -31,8 +31,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from eftsieve.errors import SolverError
-from eftsieve.io import atomic_write_with
-from eftsieve.region import Region
+from eftsieve.io.atomic import atomic_write_with
+from eftsieve.region.model import Region
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
@@ -621,7 +621,7 @@ def _slice_point(region: Region, ij: tuple[int, int],
     if centre is not None and np.abs(centre).max() < _UNBOUNDED * box:
         point = centre
     elif not (b <= 0).all():  # unbounded, and the origin is outside: its nearest point
-        from eftsieve.stats import closest_point
+        from eftsieve.stats.accumulate import closest_point
 
         try:
             point = closest_point(np.zeros(region.dim), np.eye(region.dim), a, b)[0]

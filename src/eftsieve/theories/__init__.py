@@ -11,9 +11,9 @@ from importlib import import_module
 from eftsieve.theories.base import Theory
 
 _REGISTRY = {
-    "chpt-su2": "eftsieve.theories.chpt_su2",
-    "scalar-eft": "eftsieve.theories.scalar_eft",
-    "chpt-su3": "eftsieve.theories.chpt_su3",
+    "chpt-su2": "eftsieve.theories.chpt_su2.theory",
+    "scalar-eft": "eftsieve.theories.scalar_eft.theory",
+    "chpt-su3": "eftsieve.theories.chpt_su3.theory",
 }
 
 

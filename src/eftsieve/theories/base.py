@@ -16,8 +16,8 @@ import numpy as np
 from eftsieve.tolerances import MARGINAL_BAND
 
 if TYPE_CHECKING:
-    from eftsieve.fit import Fit
-    from eftsieve.region import Region
+    from eftsieve.fit.model import Fit
+    from eftsieve.region.model import Region
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,303 @@
+"""Reproducible arithmetic of a partitioned check: the same bits whoever computes it.
+
+The canonical summation order of a check over a multi-file source is: the files in
+sorted order, and within each file fixed blocks of :data:`eftsieve.stats.accumulate.BLOCK` rows
+counted from the file's first row (the last block of a file may be short).  Every
+per-row and per-block quantity below depends only on the rows of its block, never on
+how the file was read (chunk sizes), on which process computes it, or on how many BLAS
+threads that process runs:
+
+- :func:`apply_map` evaluates an affine coordinate map column by column with numpy's
+  element-wise operations.  A BLAS product ``x @ J.T`` is not used because its last bits
+  depend on the batch size (numpy picks different kernels for one row and for many).
+- :func:`block_sums` computes one block's weighted sums with numpy's pairwise
+  reductions.  :class:`eftsieve.stats.accumulate.Accumulator` uses a BLAS ``w @ y`` for the first
+  moments, and OpenBLAS splits that product differently with 1 or with several threads
+  (Dask workers run one BLAS thread each), so its last bits depend on the machine.
+- :func:`absorb` adds one block's sums into an :class:`~eftsieve.stats.accumulate.Accumulator`
+  field by field, as the accumulator's own per-block update does, so that block sums
+  replayed in canonical order give the same bits wherever the blocks were computed.
+  The engines never call the accumulator's ``add``, they absorb whole blocks, which is
+  the per-file flush that the canonical order needs.  :func:`check_accumulator_layout`
+  stops a run if the accumulator gains a field that :func:`absorb` does not know.
+- :class:`Ranked` keeps the ``k`` smallest rows under the total order (key, row); the
+  kept set is the same whatever the grouping of the rows, so per-partition selections
+  merged on the client equal one selection over the whole stream.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass, fields
+from typing import Any
+
+import numpy as np
+
+from eftsieve.check.verdicts import VERDICT_NAMES
+from eftsieve.io.samples import Chunk
+from eftsieve.stats.accumulate import BLOCK, Accumulator, batch_sums
+from eftsieve.theories.base import CoordinateMap
+
+#: the fields of :class:`~eftsieve.stats.accumulate.Accumulator` that :func:`absorb` knows how to add
+#: (the others are its configuration and its buffer of pending rows)
+ACCUMULATOR_SUMS = ("n_total", "counts", "sw", "sw2", "sw_in", "sw_in_inner", "sw2_in",
+                    "sw_soft", "sw2_soft_dev", "_sw2p", "mean_sum", "outer_sum",
+                    "batch_w", "batch_in")
+ACCUMULATOR_OTHER = ("dim", "soft_seen", "_pending", "_n_pending")
+
+
+def check_accumulator_layout() -> None:
+    """Refuse to run if :class:`~eftsieve.stats.accumulate.Accumulator` gained or lost a field.
+
+    :func:`absorb` mirrors the accumulator's per-block update field by field; a new sum
+    that it did not add would silently stay zero, so this stops the run instead.
+    """
+    have = {f.name for f in fields(Accumulator)}
+    known = set(ACCUMULATOR_SUMS) | set(ACCUMULATOR_OTHER)
+    if have != known:
+        raise RuntimeError(
+            "eftsieve.stats.accumulate.Accumulator changed (new fields "
+            f"{sorted(have - known)}, removed {sorted(known - have)}); update "
+            "eftsieve.check.blocks.block_sums and absorb before using the partitioned engines")
+
+
+@dataclass(frozen=True)
+class BlockSums:
+    """The weighted sums of one block of rows (hard verdicts, no uncertainty model).
+
+    Attributes
+    ----------
+    n
+        Rows in the block.
+    counts
+        Rows per verdict (int64, one entry per :data:`eftsieve.check.verdicts.VERDICT_NAMES`).
+    sw, sw2
+        Sum of the weights and of their squares.
+    sw_in, sw2_in
+        The same over rows that satisfy every outer facet.
+    sw_in_inner
+        Sum of the weights of rows with verdict ``inside``.
+    sw_soft, sw2p, sw2_soft_dev
+        Sums of w P, w^2 P and w^2 P^2 with P = 1 where every facet holds, else 0 (the
+        accumulator's probability sums without an uncertainty model).
+    mean_sum
+        Sum of w y, shape (k,).
+    outer_sum
+        Sum of w y y^T, shape (k, k), exactly symmetric.
+    batch_w, batch_in
+        Sums of w and of w over rows inside per elementary batch
+        (:func:`eftsieve.stats.accumulate.batch_sums`).
+    """
+
+    n: int
+    counts: np.ndarray
+    sw: float
+    sw2: float
+    sw_in: float
+    sw2_in: float
+    sw_in_inner: float
+    sw_soft: float
+    sw2p: float
+    sw2_soft_dev: float
+    mean_sum: np.ndarray
+    outer_sum: np.ndarray
+    batch_w: np.ndarray
+    batch_in: np.ndarray
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"n": self.n, "counts": self.counts.tolist(), "sw": self.sw, "sw2": self.sw2,
+                "sw_in": self.sw_in, "sw2_in": self.sw2_in, "sw_in_inner": self.sw_in_inner,
+                "sw_soft": self.sw_soft, "sw2p": self.sw2p,
+                "sw2_soft_dev": self.sw2_soft_dev, "mean_sum": self.mean_sum.tolist(),
+                "outer_sum": self.outer_sum.tolist(), "batch_w": self.batch_w.tolist(),
+                "batch_in": self.batch_in.tolist()}
+
+
+def block_sums(y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
+               satisfies: np.ndarray) -> BlockSums:
+    """The sums of one block (points ``y`` (n, k) in region coordinates), BLAS-free.
+
+    The scalar sums that the accumulator forms with numpy reductions are the same
+    expressions here (so the same bits); its dot and matrix products are replaced by
+    element-wise products and one pairwise reduction each.
+    """
+    ww = np.ones(len(y)) if w is None else np.asarray(w, dtype=float)
+    k = y.shape[1]
+    cols = [np.ascontiguousarray(y[:, i]) for i in range(k)]
+    wy = [ww * c for c in cols]
+    mean = np.array([float(v.sum()) for v in wy])
+    outer = np.empty((k, k))
+    for i in range(k):
+        for j in range(i, k):
+            outer[i, j] = outer[j, i] = float((wy[i] * cols[j]).sum())
+    w2 = ww * ww
+    sp = satisfies.astype(float)
+    bw, bi = batch_sums(ww, satisfies)
+    return BlockSums(
+        n=len(y), counts=np.bincount(verdict, minlength=len(VERDICT_NAMES)).astype(np.int64),
+        sw=float(ww.sum()), sw2=float(w2.sum()), sw_in=float(ww[satisfies].sum()),
+        sw2_in=float((ww[satisfies] ** 2).sum()), sw_in_inner=float(ww[verdict == 0].sum()),
+        sw_soft=float((ww * sp).sum()), sw2p=float((w2 * sp).sum()),
+        sw2_soft_dev=float((w2 * (sp * sp)).sum()), mean_sum=mean, outer_sum=outer,
+        batch_w=bw, batch_in=bi)
+
+
+def absorb(acc: Accumulator, b: BlockSums) -> None:
+    """Add one block's sums to ``acc`` in the way of its per-block update.
+
+    ``acc`` must be fed only through this function (never through ``acc.add``), so that
+    it holds no pending rows; the result is then the accumulator of the blocks taken in
+    the order they were absorbed, and every sum is a left-to-right sum over blocks.
+    """
+    acc.n_total += b.n
+    acc.counts += b.counts
+    acc.sw += b.sw
+    acc.sw2 += b.sw2
+    acc.sw_in += b.sw_in
+    acc.sw2_in += b.sw2_in
+    acc.sw_in_inner += b.sw_in_inner
+    acc.sw_soft += b.sw_soft
+    acc._sw2p += b.sw2p
+    acc.sw2_soft_dev += b.sw2_soft_dev
+    acc.mean_sum = b.mean_sum.copy() if acc.mean_sum is None else acc.mean_sum + b.mean_sum
+    acc.outer_sum = (b.outer_sum.copy() if acc.outer_sum is None
+                     else acc.outer_sum + b.outer_sum)
+    acc.batch_w.append(b.batch_w)
+    acc.batch_in.append(b.batch_in)
+
+
+def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:
+    """Region coordinates of fit points ``x`` (n, p), row by row reproducible.
+
+    Affine maps are evaluated as ``sum_i x[:, i] * J[k, i] + c[k]`` with element-wise
+    operations (zero coefficients skipped); nonlinear maps are called as they are.
+    """
+    if not cmap.is_affine or cmap.shift is None:
+        return np.asarray(cmap(x), dtype=float)
+    x = np.asarray(x, dtype=float)
+    jac = cmap.jacobian
+    assert jac is not None
+    out = np.empty((len(x), jac.shape[0]))
+    for k in range(jac.shape[0]):
+        col: np.ndarray | None = None
+        for i in np.flatnonzero(jac[k] != 0):
+            term = x[:, i] * jac[k, i]
+            col = term if col is None else np.add(col, term, out=col)
+        out[:, k] = cmap.shift[k] if col is None else col + cmap.shift[k]
+    return out
+
+
+def iter_blocks(chunks: Iterable[Chunk], block: int = BLOCK) -> Iterator[Chunk]:
+    """Regroup the chunks of one file into blocks of exactly ``block`` rows (the last
+    one shorter), counted from the first row of the stream."""
+    pending: list[Chunk] = []
+    n = 0
+    for chunk in chunks:
+        if len(chunk.rows):
+            pending.append(chunk)
+            n += len(chunk.rows)
+        while n >= block:
+            joined = _join(pending)
+            yield _cut(joined, 0, block)
+            rest = _cut(joined, block, n)
+            pending = [rest] if len(rest.rows) else []
+            n -= block
+    if n:
+        yield _join(pending)
+
+
+def _join(chunks: list[Chunk]) -> Chunk:
+    if len(chunks) == 1:
+        return chunks[0]
+    w = None if chunks[0].weights is None else np.concatenate([c.weights for c in chunks])
+    return Chunk(np.concatenate([c.rows for c in chunks]),
+                 np.concatenate([c.values for c in chunks]), w, chunks[0].file)
+
+
+def _cut(c: Chunk, lo: int, hi: int) -> Chunk:
+    w = None if c.weights is None else c.weights[lo:hi]
+    return Chunk(c.rows[lo:hi], c.values[lo:hi], w, c.file)
+
+
+def sample_keys(seed: int, start: int) -> np.random.Generator:
+    """The generator of the plot subsample's keys, positioned at global row ``start``.
+
+    One uniform double per row, drawn in row order from ``default_rng(seed + 1)`` (the
+    stream that :func:`eftsieve.check.run.run_check` uses); PCG64 advances exactly one
+    step per double, so a partition can jump to its first row.
+    """
+    bits = np.random.PCG64(seed + 1)  # what default_rng(seed + 1) uses
+    bits.advance(start)
+    return np.random.Generator(bits)
+
+
+@dataclass(frozen=True)
+class Ranked:
+    """Rows kept by smallest (key, row), with aligned payload arrays.
+
+    Attributes
+    ----------
+    keys
+        The ranking key of each row (a random number, or a margin).
+    rows
+        Global row indices (unique, so (key, row) is a total order).
+    payload
+        Arrays aligned with ``rows`` along their first axis (None entries stay None).
+    """
+
+    keys: np.ndarray
+    rows: np.ndarray
+    payload: tuple[np.ndarray | None, ...]
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"keys": self.keys.tolist(), "rows": self.rows.tolist(),
+                "payload": [None if p is None else p.tolist() for p in self.payload]}
+
+    def take(self, idx: np.ndarray) -> Ranked:
+        """The rows at ``idx``, in that order."""
+        return Ranked(self.keys[idx], self.rows[idx],
+                      tuple(None if p is None else p[idx] for p in self.payload))
+
+    def smallest(self, k: int) -> Ranked:
+        """The ``k`` smallest rows by (key, row), in no particular order."""
+        n = len(self.keys)
+        if n <= k:
+            return self
+        if k <= 0:
+            return self.take(np.zeros(0, dtype=np.int64))
+        kth = np.partition(self.keys, k - 1)[k - 1]
+        below = np.flatnonzero(self.keys < kth)
+        tied = np.flatnonzero(self.keys == kth)
+        tied = tied[np.argsort(self.rows[tied], kind="stable")][: k - len(below)]
+        return self.take(np.concatenate([below, tied]))
+
+    def merged(self, other: Ranked, k: int) -> Ranked:
+        """The ``k`` smallest rows of both."""
+        if not len(other):
+            return self.smallest(k)
+        if not len(self):
+            return other.smallest(k)
+        if len(self) >= k:  # rows after the current k-th cannot enter
+            kth = self.keys.max()
+            other = other.take(np.flatnonzero(other.keys <= kth))
+        pay = tuple(None if a is None or b is None else np.concatenate([a, b])
+                    for a, b in zip(self.payload, other.payload, strict=True))
+        both = Ranked(np.concatenate([self.keys, other.keys]),
+                      np.concatenate([self.rows, other.rows]), pay)
+        return both.smallest(k)
+
+    def ordered(self) -> Ranked:
+        """The rows sorted by (key, row)."""
+        return self.take(np.lexsort((self.rows, self.keys)))
+
+
+def empty_ranked(widths: tuple[int | None, ...], dtypes: tuple[Any, ...]) -> Ranked:
+    """An empty :class:`Ranked`; ``widths[i]`` is the payload's second axis (None: 1-D,
+    and dtype None: a None payload entry)."""
+    pay = tuple(None if dt is None else (np.empty((0, w), dtype=dt) if w else
+                                          np.empty(0, dtype=dt))
+                for w, dt in zip(widths, dtypes, strict=True))
+    return Ranked(np.empty(0), np.empty(0, dtype=np.int64), pay)

@@ -1,0 +1,436 @@
+"""One partition (one file) of a check, and the exact merge of partitions in order.
+
+:func:`run_partition` checks the rows of one file block by block (see
+:mod:`eftsieve.check.blocks` for the canonical order) and returns everything the client
+needs: the sums of every block, the partition's flagged rows already formatted as
+flagged.csv lines (by :class:`~eftsieve.check.run.FlaggedWriter` itself, one call per
+block, so the formatting work is spread over the workers), and the partition's
+candidates for the worst points and for the plot subsample.  :class:`CheckMerger` takes
+blocks or whole partitions strictly in global row order, writes the flagged rows, and
+refuses any gap, overlap or missing partition with an error that names it.  The local
+engine feeds it block by block in-process, the Dask engine partition by partition from
+the workers; both call the same block function and write flagged rows in the same
+per-block batches, so their results are bit-identical.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from collections.abc import Callable
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from eftsieve.check.blocks import (
+    BlockSums,
+    Ranked,
+    absorb,
+    apply_map,
+    block_sums,
+    check_accumulator_layout,
+    empty_ranked,
+    iter_blocks,
+    sample_keys,
+)
+from eftsieve.check.run import N_WORST, CheckResult, FlaggedWriter, _summary
+from eftsieve.check.verdicts import CheckSettings, classify
+from eftsieve.errors import InputError, TaskFailedError
+from eftsieve.fit.model import Fit
+from eftsieve.io.samples import Chunk, FilePart, SamplesSource
+from eftsieve.region.model import Region
+from eftsieve.stats.accumulate import Accumulator
+from eftsieve.theories.base import CoordinateMap
+
+
+def describe_part(part: FilePart, n_parts: int) -> str:
+    """A partition's name for messages."""
+    rows = ("" if part.n_rows is None else
+            f", rows {part.start}..{part.start + part.n_rows - 1}")
+    return f"partition {part.index} of {n_parts} ({part.path.name}{rows})"
+
+
+@dataclass(frozen=True)
+class PartitionJob:
+    """Everything needed to check one file, on any machine that can read it.
+
+    Attributes
+    ----------
+    part
+        The file and its first global row.
+    fit
+        The fit; its samples source says how to read the file.
+    region, cmap
+        The region and the map from the fit's parameters to its coordinates.
+    settings
+        The check settings (band, chunk rows, seed, plot points).
+    write_flagged
+        Whether to return the flagged rows.
+    """
+
+    part: FilePart
+    fit: Fit
+    region: Region
+    cmap: CoordinateMap
+    settings: CheckSettings
+    write_flagged: bool
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"part": self.part.to_dict(), "fit": self.fit.name,
+                "settings": self.settings.to_dict(),
+                "region_hash": self.region.hash, "write_flagged": self.write_flagged}
+
+    @property
+    def source(self) -> SamplesSource:
+        assert self.fit.samples is not None
+        return self.fit.samples
+
+
+@dataclass(frozen=True)
+class FlaggedRows:
+    """The flagged (marginal or outside) rows of one block.
+
+    Attributes
+    ----------
+    rows, values, y
+        Global rows, fit values and region coordinates.
+    verdict, min_margin, worst
+        Verdicts, smallest margins and most violated facets of those rows.
+    """
+
+    rows: np.ndarray
+    values: np.ndarray
+    y: np.ndarray
+    verdict: np.ndarray
+    min_margin: np.ndarray
+    worst: np.ndarray
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"rows": self.rows.tolist(), "verdict": self.verdict.tolist()}
+
+    def write(self, writer: FlaggedWriter) -> None:
+        """Append these rows to ``writer`` (one call per block, in row order)."""
+        writer.write(Chunk(self.rows, self.values, None), self.y, self.verdict,
+                     self.min_margin, self.worst)
+
+
+@dataclass(frozen=True)
+class BlockOutput:
+    """What one block contributes.
+
+    Attributes
+    ----------
+    first_row, n
+        The block's first global row and its row count.
+    sums
+        Its weighted sums.
+    flagged
+        Its flagged rows, or None.
+    worst
+        Its most violated rows (key: min margin; payload: y, worst facet).
+    sample
+        Its plot-subsample candidates (key: random; payload: [values, y], weights).
+    """
+
+    first_row: int
+    n: int
+    sums: BlockSums
+    flagged: FlaggedRows | None
+    worst: Ranked
+    sample: Ranked
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"first_row": self.first_row, "n": self.n, "sums": self.sums.to_dict()}
+
+
+@dataclass(frozen=True)
+class PartitionResult:
+    """What one partition returns to the client.
+
+    Attributes
+    ----------
+    index, file
+        The partition's index and file.
+    first_row, n_rows
+        Its first global row and the rows it checked.
+    blocks
+        The sums of its blocks, in order.
+    flagged_csv, n_flagged
+        Its flagged rows as flagged.csv lines (no header), and how many.
+    worst, sample
+        Its candidates for the worst points and for the plot subsample.
+    """
+
+    index: int
+    file: str
+    first_row: int
+    n_rows: int
+    blocks: tuple[BlockSums, ...]
+    flagged_csv: str
+    n_flagged: int
+    worst: Ranked
+    sample: Ranked
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"index": self.index, "file": self.file, "first_row": self.first_row,
+                "n_rows": self.n_rows, "n_blocks": len(self.blocks),
+                "n_flagged": self.n_flagged}
+
+
+@dataclass(frozen=True)
+class InputFailure:
+    """A task (a partition, a region build) that stopped on invalid input: returned as a
+    value, so that it is not retried (the input will not change).
+
+    Attributes
+    ----------
+    index
+        The partition's index (-1 for other tasks).
+    path, field, problem, hint
+        The :class:`~eftsieve.errors.InputError` it raised.
+    """
+
+    index: int
+    path: str | None
+    field: str | None
+    problem: str
+    hint: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"index": self.index, "path": self.path, "field": self.field,
+                "problem": self.problem, "hint": self.hint}
+
+    def error(self) -> InputError:
+        return InputError(self.path, self.field, self.problem, self.hint)
+
+
+def empty_worst(dim: int) -> Ranked:
+    """No worst points yet (payload: region point, worst facet)."""
+    return empty_ranked((dim, None), (float, np.int32))
+
+
+def empty_sample(width: int, weighted: bool) -> Ranked:
+    """No subsample rows yet (payload: [values, region point], weights or None)."""
+    return empty_ranked((width, None), (float, float if weighted else None))
+
+
+def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator) -> BlockOutput:
+    """Classify one block and compute everything it contributes."""
+    st = job.settings
+    y = apply_map(job.cmap, block.values)
+    v = classify(y, job.region, st.band(job.region))
+    flagged = None
+    if job.write_flagged:
+        sel = np.flatnonzero(v.verdict != 0)
+        if len(sel):
+            flagged = FlaggedRows(block.rows[sel], block.values[sel], y[sel], v.verdict[sel],
+                                  v.min_margin[sel], v.worst[sel])
+    neg = np.flatnonzero(v.min_margin < 0)
+    worst = Ranked(v.min_margin[neg], block.rows[neg], (y[neg], v.worst[neg])).smallest(N_WORST)
+    r = keys.random(len(block.rows))
+    sample = Ranked(r, block.rows, (np.hstack([block.values, y]), block.weights)
+                    ).smallest(st.plot_points)
+    return BlockOutput(int(block.rows[0]), len(block.rows),
+                       block_sums(y, block.weights, v.verdict, v.satisfies), flagged, worst,
+                       sample)
+
+
+class FlaggedText:
+    """flagged.csv lines of one partition, written by a private
+    :class:`~eftsieve.check.run.FlaggedWriter` into a temporary directory (so the bytes
+    are exactly what the writer makes) and returned without the header."""
+
+    def __init__(self, fit: Fit, region: Region) -> None:
+        self.dir = tempfile.mkdtemp(prefix="eftsieve-flagged-")
+        self.writer = FlaggedWriter(Path(self.dir) / "flagged.csv", fit, region)
+        self.writer.fh.flush()
+        self.header = os.path.getsize(self.writer.tmp)
+
+    def text(self) -> tuple[str, int]:
+        """The lines written, and their count; removes the temporary files."""
+        try:
+            self.writer.fh.flush()
+            with open(self.writer.tmp, "rb") as fh:
+                fh.seek(self.header)
+                body = fh.read().decode("utf-8")
+            return body, self.writer.n
+        finally:
+            self.close()
+
+    def close(self) -> None:
+        self.writer.abort()
+        shutil.rmtree(self.dir, ignore_errors=True)
+
+
+def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None = None
+                  ) -> PartitionResult:
+    """Check one file block by block.
+
+    With a ``sink`` every block is handed over as soon as it is done (and the result
+    carries only the row count); without, the blocks are collected into the result.
+    """
+    keys = sample_keys(job.settings.seed, job.part.start)
+    dim = job.region.dim
+    blocks: list[BlockSums] = []
+    worst = empty_worst(dim)
+    sample = empty_sample(len(job.source.columns) + dim, job.source.weight_column is not None)
+    text = FlaggedText(job.fit, job.region) if job.write_flagged and sink is None else None
+    n = 0
+    try:
+        for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
+            out = process_block(job, block, keys)
+            n += out.n
+            if sink is not None:
+                sink(out)
+                continue
+            blocks.append(out.sums)
+            if text is not None and out.flagged is not None:
+                out.flagged.write(text.writer)
+            worst = worst.merged(out.worst, N_WORST)
+            sample = sample.merged(out.sample, job.settings.plot_points)
+    except BaseException:
+        if text is not None:
+            text.close()
+        raise
+    csv_text, n_flagged = text.text() if text is not None else ("", 0)
+    return PartitionResult(job.part.index, str(job.part.path), job.part.start, n,
+                           tuple(blocks), csv_text, n_flagged, worst, sample)
+
+
+def partition_task(job: PartitionJob, hook: Callable[[FilePart], None] | None = None
+                   ) -> PartitionResult | InputFailure:
+    """The function a worker runs: the hook (if any), then :func:`run_partition`.
+
+    Invalid input comes back as a :class:`InputFailure` value, so that it is not
+    retried and reaches the client intact (eftsieve's errors do not survive pickling).
+    """
+    if hook is not None:
+        hook(job.part)
+    try:
+        return run_partition(job)
+    except InputError as err:
+        return InputFailure(job.part.index, err.path, err.field, err.problem, err.hint)
+
+
+class CheckMerger:
+    """Merges blocks or partitions strictly in global row order into one check result.
+
+    Parameters
+    ----------
+    fit, region, settings
+        What is checked.
+    parts
+        The source's partitions, in order.
+    flagged
+        The writer of flagged.csv, or None.
+    """
+
+    def __init__(self, fit: Fit, region: Region, settings: CheckSettings,
+                 parts: tuple[FilePart, ...], flagged: FlaggedWriter | None) -> None:
+        self.fit, self.region, self.settings, self.parts = fit, region, settings, parts
+        self.flagged = flagged
+        check_accumulator_layout()
+        self.acc = Accumulator(region.dim)
+        self.worst = empty_worst(region.dim)
+        assert fit.samples is not None
+        self.sample = empty_sample(len(fit.names) + region.dim,
+                                   fit.samples.weight_column is not None)
+        self.n_merged = 0
+        self.done: list[dict[str, Any]] = []
+
+    def add_block(self, out: BlockOutput) -> None:
+        """Merge one block (the next in row order)."""
+        self._expect_row(out.first_row, "block")
+        self._absorb(out.sums, out.flagged)
+        self.worst = self.worst.merged(out.worst, N_WORST)
+        self.sample = self.sample.merged(out.sample, self.settings.plot_points)
+
+    def add_partition(self, res: PartitionResult) -> None:
+        """Merge one whole partition (the next in row order) and verify its rows."""
+        part = self.parts[res.index]
+        label = describe_part(part, len(self.parts))
+        self._expect_row(res.first_row, label)
+        if sum(b.n for b in res.blocks) != res.n_rows:
+            raise TaskFailedError(label, f"returned {res.n_rows} rows but blocks holding "
+                                  f"{sum(b.n for b in res.blocks)}", "rerun; report a bug if "
+                                  "it persists")
+        for sums in res.blocks:
+            self._absorb(sums, None)
+        if self.flagged is not None and res.n_flagged:
+            self.flagged.fh.write(res.flagged_csv)
+            self.flagged.n += res.n_flagged
+        self.worst = self.worst.merged(res.worst, N_WORST)
+        self.sample = self.sample.merged(res.sample, self.settings.plot_points)
+        self.end_partition(res.index, res.first_row, res.n_rows)
+
+    def end_partition(self, index: int, first_row: int, n_rows: int) -> None:
+        """Record a finished partition; its rows must match the file's metadata."""
+        part = self.parts[index]
+        label = describe_part(part, len(self.parts))
+        if index != len(self.done):
+            raise TaskFailedError(label, f"merged out of order (expected partition "
+                                  f"{len(self.done)})", "report a bug")
+        if self.n_merged - first_row != n_rows or first_row != part.start or (
+                part.n_rows is not None and n_rows != part.n_rows):
+            raise TaskFailedError(label, f"checked {n_rows} rows from row {first_row}, but "
+                                  f"the file holds {part.n_rows} rows from row {part.start}",
+                                  "the file changed during the run or is damaged")
+        self.done.append({"file": part.name, "first_row": first_row, "rows": n_rows})
+
+    def _expect_row(self, first_row: int, what: str) -> None:
+        if first_row != self.n_merged:
+            raise TaskFailedError(what, f"starts at row {first_row} but rows up to "
+                                  f"{self.n_merged - 1} were merged (a gap or an overlap)",
+                                  "report a bug")
+
+    def _absorb(self, sums: BlockSums, flagged: FlaggedRows | None) -> None:
+        absorb(self.acc, sums)
+        if flagged is not None and self.flagged is not None:
+            flagged.write(self.flagged)
+        self.n_merged += sums.n
+
+    def check_complete(self) -> None:
+        """Every partition merged, and the rows add up; otherwise name what is missing."""
+        missing = [describe_part(p, len(self.parts)) for p in self.parts[len(self.done):]]
+        if missing:
+            raise TaskFailedError(", ".join(missing), "never merged; the result would miss "
+                                  "its rows", "rerun; check the workers' logs")
+        expected = sum(d["rows"] for d in self.done)
+        if self.acc.n_total != expected or self.n_merged != expected:
+            raise TaskFailedError("check", f"{self.acc.n_total} rows summed but {expected} "
+                                  "rows read", "report a bug")
+        n_flag = int(self.acc.counts[1:].sum())
+        if self.flagged is not None and self.flagged.n != n_flag:
+            raise TaskFailedError("flagged.csv", f"{self.flagged.n} rows written but {n_flag} "
+                                  "rows are not inside", "report a bug")
+
+    def result(self, cmap: CoordinateMap, region_path: str | None,
+               engine: dict[str, Any]) -> CheckResult:
+        """The check result (summary with an ``engine`` entry, worst points, subsample)."""
+        self.check_complete()
+        fit, acc = self.fit, self.acc
+        if acc.n_total == 0:
+            raise InputError(fit.source, "samples", "no rows to check", "supply samples")
+        if acc.sw <= 0:
+            assert fit.samples is not None
+            raise InputError(fit.samples.path, fit.samples.weight_column,
+                             "all weights are zero", "give at least one positive weight")
+        summary = _summary(fit, self.region, cmap, self.settings, acc, region_path)
+        summary["engine"] = {**engine, "partitions": list(self.done)}
+        worst = self.worst.ordered()
+        points, facet_idx = worst.payload
+        assert points is not None and facet_idx is not None
+        facets = self.region.facets
+        worst_rows = tuple({"row": int(r), "region_point": y.tolist(), "min_margin": float(m),
+                            "facet": facets[int(f)].label()}
+                           for m, r, y, f in zip(worst.keys, worst.rows, points, facet_idx,
+                                                 strict=True))
+        sample = self.sample.ordered()
+        data = sample.payload[0]
+        assert data is not None
+        k = len(fit.names)
+        return CheckResult(summary, self.region, worst_rows, data[:, :k], sample.payload[1],
+                           data[:, k:])

@@ -1,0 +1,162 @@
+"""Per-point verdicts against a region, vectorised over samples, and streamed over files.
+
+:func:`classify` gives each point its verdict (``inside``, ``marginal``, ``outside``),
+its minimum signed margin and the most violated facet.  The marginal band is
+``CheckSettings.marginal_band`` (in the region's coordinates, along the facet's unit
+normal).  With an inner set (regions whose inner and outer boundaries differ), a point
+is ``inside`` when it is inside the inner set by more than the band, ``outside`` when it
+violates an outer facet by more than the band, and ``marginal`` otherwise.
+
+:func:`run_check` streams a fit's samples (or draws a Gaussian summary with an explicit
+seed), accumulates the statistics of :mod:`eftsieve.stats.accumulate`, and writes the flagged rows
+as it goes, so memory stays bounded whatever the file size.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from eftsieve.region.model import Region
+from eftsieve.tolerances import MARGINAL_BAND
+
+INSIDE, MARGINAL, OUTSIDE, UNCERTAIN = 0, 1, 2, 3
+VERDICT_NAMES = ("inside", "marginal", "outside", "uncertain")
+
+
+@dataclass(frozen=True)
+class CheckSettings:
+    """Settings of a check run.
+
+    Attributes
+    ----------
+    draws
+        Draws from a Gaussian summary.
+    seed
+        Seed of every random number used.
+    marginal_band
+        Points within this distance of a facet are ``marginal``; None (the default) takes
+        the band of the region's theory (:meth:`band`).
+    chunk_rows
+        Rows read per chunk from a samples file.
+    plot_points
+        Size of the uniform subsample kept for plots.
+    """
+
+    draws: int = 200_000
+    seed: int = 0
+    marginal_band: float | None = None
+    chunk_rows: int = 1_000_000
+    plot_points: int = 50_000
+
+    def band(self, region: Region) -> float:
+        """The marginal band for ``region``: the one given, else its theory's default
+        (:data:`eftsieve.tolerances.MARGINAL_BAND` for O(1) coordinates)."""
+        if self.marginal_band is not None:
+            return float(self.marginal_band)
+        from eftsieve.theories import get_theory
+
+        try:
+            return float(get_theory(region.theory).marginal_band(region))
+        except KeyError:
+            return MARGINAL_BAND
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,
+                "chunk_rows": self.chunk_rows, "plot_points": self.plot_points}
+
+
+@dataclass(frozen=True)
+class Verdicts:
+    """Verdicts of a block of points.
+
+    Attributes
+    ----------
+    verdict
+        0 inside, 1 marginal, 2 outside, 3 uncertain (int8, shape (n,)); ``uncertain``
+        only under a theory-uncertainty model (:mod:`eftsieve.stats.truncation`).
+    min_margin
+        The smallest signed margin over the outer facets (positive inside).
+    worst
+        Index of the facet with the smallest margin.
+    satisfies
+        True where every outer facet holds (margin >= 0).
+    """
+
+    verdict: np.ndarray
+    min_margin: np.ndarray
+    worst: np.ndarray
+    satisfies: np.ndarray
+
+    def counts(self) -> dict[str, int]:
+        c = np.bincount(self.verdict, minlength=4)
+        out = {"n_inside": int(c[0]), "n_marginal": int(c[1]), "n_outside": int(c[2])}
+        if c[3]:
+            out["n_uncertain"] = int(c[3])
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"verdict": [VERDICT_NAMES[v] for v in self.verdict],
+                "min_margin": self.min_margin.tolist(), "worst": self.worst.tolist()}
+
+
+def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Smallest margin and its facet, one facet at a time (O(n) memory)."""
+    n = len(y)
+    best = np.full(n, np.inf)
+    arg = np.zeros(n, dtype=np.int32)
+    cols = [np.ascontiguousarray(y[:, k]) for k in range(y.shape[1])]
+    for j in range(len(b)):
+        m = cols[0] * a[j, 0]
+        for k in range(1, len(cols)):
+            m += cols[k] * a[j, k]
+        m -= b[j]
+        better = m < best
+        np.minimum(best, m, out=best)
+        arg[better] = j
+    return best, arg
+
+
+def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verdicts:
+    """Verdicts of points ``y`` (n, dim) in region coordinates."""
+    y = np.asarray(y, dtype=float)
+    if y.ndim != 2 or y.shape[1] != region.dim:
+        raise ValueError(f"points must have shape (n, {region.dim}), got {y.shape}")
+    a, b = region.arrays()
+    outer, worst = _min_margin(y, a, b)
+    verdict = np.full(len(y), MARGINAL, dtype=np.int8)
+    verdict[outer < -band] = OUTSIDE
+    if region.inner_facets:
+        ai, bi = region.arrays(inner=True)
+        inner, _ = _min_margin(y, ai, bi)
+    else:
+        inner = outer
+    verdict[inner > band] = INSIDE
+    return Verdicts(verdict, outer, worst, outer >= 0)
+
+
+@dataclass
+class Reservoir:
+    """A uniform random subsample of a stream of rows (smallest random keys kept)."""
+
+    size: int
+    rng: np.random.Generator
+    keys: np.ndarray = field(default_factory=lambda: np.empty(0))
+    data: np.ndarray | None = None
+    weights: np.ndarray | None = None
+
+    def add(self, values: np.ndarray, weights: np.ndarray | None) -> None:
+        keys = self.rng.random(len(values))
+        if self.data is None:
+            self.data = np.empty((0, values.shape[1]))
+            self.weights = None if weights is None else np.empty(0)
+        allk = np.concatenate([self.keys, keys])
+        alld = np.concatenate([self.data, values])
+        allw = None if weights is None else np.concatenate([self.weights, weights])
+        if len(allk) > self.size:
+            keep = np.argpartition(allk, self.size)[: self.size]
+            allk, alld = allk[keep], alld[keep]
+            allw = None if allw is None else allw[keep]
+        self.keys, self.data, self.weights = allk, alld, allw

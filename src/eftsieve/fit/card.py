@@ -1,0 +1,232 @@
+"""Schema and semantic validation of fit cards (``format_version: 1``).
+
+:data:`FIT_CARD_SCHEMA` is a JSON Schema (draft 2020-12) of the card; docs/formats.md
+prints it and a test checks that the two agree.  :func:`fit_from_card` validates in
+two stages, first shapes and types (errors name the path, ``parameters[1].name``), then
+the semantics.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from eftsieve.errors import InputError
+from eftsieve.fit.model import (
+    FORMAT_VERSION,
+    KINEMATIC_KEYS,
+    Fit,
+    Parameter,
+    Prior,
+    check_covariance,
+    parse_convention,
+)
+from eftsieve.io.samples import SamplesSource, detect_format
+
+_NUM = {"type": "number"}
+_MATRIX = {"type": "array", "items": {"type": "array", "items": _NUM}}
+FIT_CARD_SCHEMA: dict[str, Any] = {
+    "$schema": "https://json-schema.org/draft/2020-12/schema",
+    "title": "eftsieve fit card",
+    "type": "object",
+    "required": ["format_version", "name", "theory", "parameters"],
+    "properties": {
+        "format_version": {"const": FORMAT_VERSION},
+        "name": {"type": "string"},
+        "theory": {"type": "string"},
+        "description": {"type": "string"},
+        "kinematics": {"type": "object",
+                       "properties": {k: _NUM for k in KINEMATIC_KEYS},
+                       "additionalProperties": False},
+        "parameters": {"type": "array", "minItems": 1, "items": {
+            "type": "object", "required": ["name"],
+            "properties": {"name": {"type": "string"},
+                           "convention": {"type": ["string", "object"]}}}},
+        "mean": {"type": "array", "items": _NUM},
+        "covariance": _MATRIX,
+        "errors": {"type": "array", "items": _NUM},
+        "correlation": _MATRIX,
+        "samples": {"type": "object", "required": ["path"], "properties": {
+            "path": {"type": "string"},
+            "format": {"enum": ["csv", "parquet", "netcdf"]},
+            "weight_column": {"type": "string"},
+            "columns": {"type": "object", "additionalProperties": {"type": "string"}}}},
+        "prior": {"type": "object", "additionalProperties": {
+            "type": "object",
+            "properties": {"uniform": {"type": "array", "items": _NUM, "minItems": 2,
+                                       "maxItems": 2},
+                           "normal": {"type": "array", "items": _NUM, "minItems": 2,
+                                      "maxItems": 2}}}},
+    },
+    "oneOf": [{"required": ["mean"]}, {"required": ["samples"]}],
+}
+
+_TOP_KEYS = set(FIT_CARD_SCHEMA["properties"])
+
+
+def _num_list(x: Any, path: Path, where: str, n: int | None = None) -> np.ndarray:
+    if not isinstance(x, list) or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                          for v in x):
+        raise InputError(path, where, "must be a list of numbers", "see docs/formats.md")
+    if n is not None and len(x) != n:
+        raise InputError(path, where, f"has {len(x)} entries for {n} parameters",
+                         f"give {n} numbers, one per parameter, in order")
+    return np.asarray(x, dtype=float)
+
+
+def _matrix(x: Any, path: Path, where: str) -> np.ndarray:
+    if not isinstance(x, list) or not x or not all(isinstance(r, list) for r in x):
+        raise InputError(path, where, "must be a list of rows", "see docs/formats.md")
+    lens = {len(r) for r in x}
+    if len(lens) != 1:
+        raise InputError(path, where, f"rows of unequal length {sorted(lens)}",
+                         "give a square matrix")
+    for i, r in enumerate(x):
+        _num_list(r, path, f"{where}[{i}]")
+    return np.asarray(x, dtype=float)
+
+
+def _schema_stage(card: dict[str, Any], path: Path) -> None:
+    unknown = set(card) - _TOP_KEYS
+    if unknown:
+        raise InputError(path, sorted(unknown)[0], "unknown field",
+                         f"allowed fields: {', '.join(sorted(_TOP_KEYS))}")
+    for key in ("format_version", "name", "theory", "parameters"):
+        if key not in card:
+            raise InputError(path, key, "missing required field", "see docs/formats.md")
+    if card["format_version"] != FORMAT_VERSION:
+        raise InputError(path, "format_version", f"unsupported version {card['format_version']!r}",
+                         f"this eftsieve reads format_version {FORMAT_VERSION}")
+    for key in ("name", "theory"):
+        if not isinstance(card[key], str):
+            raise InputError(path, key, "must be a string", "quote the value")
+    params = card["parameters"]
+    if not isinstance(params, list) or not params:
+        raise InputError(path, "parameters", "must be a non-empty list", "list the parameters")
+    for i, p in enumerate(params):
+        if not isinstance(p, dict) or not isinstance(p.get("name"), str):
+            raise InputError(path, f"parameters[{i}].name", "missing or not a string",
+                             "give each parameter a name")
+    has_g, has_s = "mean" in card, "samples" in card
+    if has_g == has_s:
+        raise InputError(path, "mean/samples", "give exactly one of a Gaussian summary "
+                         "(mean) or a samples file (samples)", "see docs/formats.md")
+    kin = card.get("kinematics", {})
+    if not isinstance(kin, dict):
+        raise InputError(path, "kinematics", "must be a mapping", "see docs/formats.md")
+    for k in kin:
+        if k not in KINEMATIC_KEYS:
+            raise InputError(path, f"kinematics.{k}", "unknown kinematic input",
+                             f"allowed: {', '.join(KINEMATIC_KEYS)} (all in MeV)")
+
+
+def _gaussian(card: dict[str, Any], path: Path, n: int) -> tuple[np.ndarray, np.ndarray]:
+    mean = _num_list(card["mean"], path, "mean", n)
+    if "covariance" in card:
+        if "errors" in card or "correlation" in card:
+            raise InputError(path, "covariance", "give covariance or errors+correlation, not both",
+                             "remove one")
+        cov = _matrix(card["covariance"], path, "covariance")
+        check_covariance(cov, n, path, "covariance")
+        return mean, cov
+    if "errors" not in card:
+        raise InputError(path, "covariance", "a Gaussian summary needs covariance or errors",
+                         "add covariance, or errors (+ correlation)")
+    err = _num_list(card["errors"], path, "errors", n)
+    if (err < 0).any():
+        raise InputError(path, "errors", "negative standard error", "errors must be >= 0")
+    corr = (_matrix(card["correlation"], path, "correlation") if "correlation" in card
+            else np.eye(n))
+    check_covariance(corr, n, path, "correlation")
+    if not np.allclose(np.diag(corr), 1.0, atol=1e-12):
+        raise InputError(path, "correlation", "diagonal entries must be 1", "give a correlation")
+    cov = corr * np.outer(err, err)
+    return mean, cov
+
+
+def _samples(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> SamplesSource:
+    spec = card["samples"]
+    if not isinstance(spec, dict) or not isinstance(spec.get("path"), str):
+        raise InputError(path, "samples.path", "missing or not a string", "give the file path")
+    from eftsieve.io.samples import is_multi_file_path
+
+    file = (path.parent / spec["path"]).resolve()
+    if not (file.is_file() or is_multi_file_path(file)):
+        raise InputError(path, "samples.path", f"file not found: {file}",
+                         "paths are relative to the card")
+    try:
+        fmt = detect_format(file, spec.get("format"))
+    except InputError as err:
+        raise InputError(path, "samples.format", f"{err.problem} in {file.name}",
+                         err.hint) from err
+    mapping = spec.get("columns", {}) or {}
+    if not isinstance(mapping, dict):
+        raise InputError(path, "samples.columns", "must map parameter names to columns", "")
+    for k in mapping:
+        if k not in names:
+            raise InputError(path, f"samples.columns.{k}", "not a parameter of this card",
+                             f"parameters: {', '.join(names)}")
+    cols = tuple(str(mapping.get(n, n)) for n in names)
+    source = SamplesSource(file, fmt, cols, spec.get("weight_column"))
+    source.validate_columns()
+    return source
+
+
+def _prior(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> Prior | None:
+    raw = card.get("prior")
+    if raw is None:
+        return None
+    kinds: dict[str, str] = {}
+    params: dict[str, tuple[float, float]] = {}
+    for k, v in raw.items():
+        where = f"prior.{k}"
+        if k not in names:
+            raise InputError(path, where, "not a parameter of this card",
+                             f"parameters: {', '.join(names)}")
+        if not isinstance(v, dict) or len(v) != 1 or next(iter(v)) not in ("uniform", "normal"):
+            raise InputError(path, where, "must be one mapping entry",
+                             "write {uniform: [lo, hi]} or {normal: [mu, sigma]}")
+        kind, vals = next(iter(v.items()))
+        a, b = _num_list(vals, path, f"{where}.{kind}", 2)
+        if (kind == "uniform" and not a < b) or (kind == "normal" and not b > 0):
+            raise InputError(path, where, f"invalid {kind} parameters {[a, b]}",
+                             "uniform needs lo < hi; normal needs sigma > 0")
+        kinds[k], params[k] = kind, (float(a), float(b))
+    return Prior(kinds, params)
+
+
+def fit_from_card(card: dict[str, Any], path: Path) -> Fit:
+    """Validate a parsed card (schema, then semantics) and build the Fit."""
+    from eftsieve.theories import get_theory
+
+    _schema_stage(card, path)
+    try:
+        theory = get_theory(card["theory"])
+    except KeyError as err:
+        raise InputError(path, "theory", str(err.args[0]), "run `eftsieve theories`") from err
+    kin = {k: float(v) for k, v in card.get("kinematics", {}).items()}
+    params = []
+    for i, p in enumerate(card["parameters"]):
+        needs = p["name"] in theory.parameter_names
+        conv = parse_convention(p.get("convention"), kin, path, f"parameters[{i}].convention",
+                                needs)
+        if conv.name != "none" and p["name"] not in theory.parameter_names:
+            raise InputError(path, f"parameters[{i}].name", f"unknown parameter '{p['name']}'",
+                             f"accepted: {', '.join(theory.parameter_names)}; or give "
+                             "convention: none for a nuisance parameter")
+        params.append(Parameter(p["name"], conv))
+    names = tuple(p.name for p in params)
+    if len(set(names)) != len(names):
+        raise InputError(path, "parameters", "duplicate parameter names", "name each once")
+    mean = cov = None
+    source = None
+    if "mean" in card:
+        mean, cov = _gaussian(card, path, len(names))
+    else:
+        source = _samples(card, path, names)
+    fit = Fit(card["name"], card["theory"], tuple(params), kin, mean, cov, source,
+              _prior(card, path, names), path)
+    theory.validate_fit(fit)
+    return fit

@@ -1,0 +1,265 @@
+"""The Fit object and its loaders.
+
+A *fit card* (YAML or JSON, ``format_version: 1``) describes a fit: its theory, each
+parameter with its convention, the kinematics those conventions need, and either a
+Gaussian summary (``mean`` with ``covariance``, or ``errors`` + ``correlation``) or a
+``samples`` file.  Use :func:`load_fit` for a card and :func:`fit_from_samples` for a
+bare samples file with the theory and convention given on the command line.
+
+Validation runs in two stages: the schema (shapes and types, errors name the path such
+as ``parameters[1].name``), then the semantics (a symmetric positive semi-definite
+covariance, known parameter names, the scale or mass that each convention needs).
+Nothing is ever repaired silently.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from eftsieve.errors import InputError
+from eftsieve.fit.conventions import CONVENTION_NAMES, Convention
+from eftsieve.io.samples import SamplesSource, detect_format
+from eftsieve.tolerances import PSD_TOL, SYMMETRY_TOL
+
+FORMAT_VERSION = 1
+KINEMATIC_KEYS = ("pion_mass_mev", "fpi_mev", "mu_mev", "gap_mev", "kaon_mass_mev",
+                  "eta_mass_mev")
+
+
+@dataclass(frozen=True)
+class Parameter:
+    """One fitted parameter.
+
+    Attributes
+    ----------
+    name
+        The parameter's name (``lbar1``, ``l2``, ``g3t``, or any nuisance name).
+    convention
+        How it is defined; ``none`` for parameters that no theory constrains.
+    """
+
+    name: str
+    convention: Convention
+
+    def to_dict(self) -> dict[str, object]:
+        return {"name": self.name, "convention": self.convention.to_dict()}
+
+
+@dataclass(frozen=True)
+class Prior:
+    """A prior on some parameters: independent uniform or normal factors.
+
+    Attributes
+    ----------
+    kinds
+        ``uniform`` or ``normal`` for each named parameter.
+    params
+        (low, high) for uniform, (mean, sigma) for normal.
+    """
+
+    kinds: dict[str, str]
+    params: dict[str, tuple[float, float]]
+
+    def to_dict(self) -> dict[str, object]:
+        return {k: {self.kinds[k]: list(self.params[k])} for k in self.kinds}
+
+
+@dataclass(frozen=True)
+class Fit:
+    """A fit of EFT constants: a Gaussian summary or a samples file, in the user's conventions.
+
+    Attributes
+    ----------
+    name
+        The fit's name.
+    theory
+        The theory name (``chpt-su2``, ``scalar-eft``).
+    parameters
+        The parameters in order.
+    kinematics
+        The kinematic inputs in MeV (``pion_mass_mev``, ``fpi_mev``, ``mu_mev``, ...).
+    mean, cov
+        The Gaussian summary, or None.
+    samples
+        The samples file, or None.
+    prior
+        The fit's stated prior, or None.
+    source
+        The card (or samples file) that was read.
+    """
+
+    name: str
+    theory: str
+    parameters: tuple[Parameter, ...]
+    kinematics: dict[str, float]
+    mean: np.ndarray | None = None
+    cov: np.ndarray | None = None
+    samples: SamplesSource | None = None
+    prior: Prior | None = None
+    source: Path | None = None
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(p.name for p in self.parameters)
+
+    @property
+    def is_gaussian(self) -> bool:
+        return self.mean is not None
+
+    def to_dict(self) -> dict[str, object]:
+        out: dict[str, object] = {
+            "name": self.name, "theory": self.theory,
+            "parameters": [p.to_dict() for p in self.parameters],
+            "kinematics": dict(self.kinematics),
+            "source": None if self.source is None else str(self.source),
+        }
+        if self.mean is not None and self.cov is not None:
+            out["mean"] = self.mean.tolist()
+            out["covariance"] = self.cov.tolist()
+        if self.samples is not None:
+            out["samples"] = {"path": str(self.samples.path), "format": self.samples.fmt,
+                              "columns": list(self.samples.columns),
+                              "weight_column": self.samples.weight_column}
+        if self.prior is not None:
+            out["prior"] = self.prior.to_dict()
+        return out
+
+
+def read_card(path: str | Path) -> dict[str, Any]:
+    """Read a YAML or JSON fit card into a dict, with clear errors."""
+    p = Path(path)
+    if not p.is_file():
+        raise InputError(p, None, "file not found", "check the path")
+    text = p.read_text(encoding="utf-8")
+    try:
+        if p.suffix.lower() == ".json":
+            data = json.loads(text)
+        elif p.suffix.lower() in {".yaml", ".yml"}:
+            import yaml
+
+            data = yaml.safe_load(text)
+        else:
+            raise InputError(p, None, f"unsupported fit-card extension '{p.suffix}'",
+                             "use .yaml, .yml or .json")
+    except (json.JSONDecodeError, ValueError) as err:
+        raise InputError(p, None, f"cannot parse: {err}", "fix the syntax") from err
+    except ImportError as err:  # pragma: no cover - pyyaml is a dependency
+        raise InputError(p, None, "pyyaml is needed", "pip install pyyaml") from err
+    except Exception as err:  # yaml.YAMLError has no common import here
+        if type(err).__module__.startswith("yaml"):
+            raise InputError(p, None, f"cannot parse YAML: {err}", "fix the syntax") from err
+        raise
+    if not isinstance(data, dict):
+        raise InputError(p, None, "the card must be a mapping at top level",
+                         "see docs/formats.md")
+    return data
+
+
+def load_fit(path: str | Path) -> Fit:
+    """Load and validate a fit card (YAML or JSON)."""
+    from eftsieve.fit.card import fit_from_card
+
+    p = Path(path)
+    return fit_from_card(read_card(p), p)
+
+
+def fit_from_samples(
+    path: str | Path, theory: str, convention: Convention, *, weight_column: str | None = None,
+    kinematics: dict[str, float] | None = None, name: str | None = None,
+) -> Fit:
+    """A Fit from a bare samples file: every numeric column is a parameter.
+
+    Columns that the theory knows get ``convention``; the others are carried through as
+    nuisance parameters (convention ``none``).
+    """
+    from eftsieve.io.samples import is_multi_file_path
+    from eftsieve.theories import get_theory
+
+    p = Path(path)
+    if not (p.is_file() or is_multi_file_path(p)):
+        raise InputError(p, None, "file not found", "check the path")
+    th = get_theory(theory)
+    probe = SamplesSource(p, detect_format(p, None, "--samples"), ())
+    cols = [c for c in probe.available_columns() if c != weight_column]
+    params = tuple(Parameter(c, convention if c in th.parameter_names else Convention("none"))
+                   for c in cols)
+    if not any(pp.convention.name != "none" for pp in params):
+        raise InputError(p, "columns", f"no column names a parameter of {theory}",
+                         f"accepted names: {', '.join(th.parameter_names)}")
+    source = SamplesSource(p, probe.fmt, tuple(cols), weight_column)
+    source.validate_columns()
+    fit = Fit(name or p.stem, theory, params, dict(kinematics or {}), samples=source, source=p)
+    th.validate_fit(fit)
+    return fit
+
+
+def check_covariance(cov: np.ndarray, n: int, path: Path | None, field_name: str) -> None:
+    """Semantic checks on a covariance: shape, symmetry, positive semi-definiteness."""
+    if cov.shape != (n, n):
+        raise InputError(path, field_name, f"shape {cov.shape} does not match {n} parameters",
+                         f"give a {n}x{n} matrix")
+    if not np.isfinite(cov).all():
+        raise InputError(path, field_name, "holds NaN or inf", "give finite numbers")
+    scale = max(float(np.max(np.abs(cov))), 1e-300)
+    asym = float(np.max(np.abs(cov - cov.T)))
+    if asym > SYMMETRY_TOL * scale:
+        i, j = np.unravel_index(np.argmax(np.abs(cov - cov.T)), cov.shape)
+        raise InputError(path, field_name,
+                         f"not symmetric: entry [{i}][{j}]={cov[i, j]:g} but [{j}][{i}]="
+                         f"{cov[j, i]:g}", "make the matrix symmetric")
+    eig = np.linalg.eigvalsh(cov)
+    if eig[0] < -PSD_TOL * max(eig[-1], 1e-300):
+        raise InputError(path, field_name,
+                         f"not positive semi-definite: smallest eigenvalue {eig[0]:.6g}",
+                         "supply a valid covariance; nothing is repaired silently")
+
+
+def parse_convention(raw: Any, kin: dict[str, float], path: Path | None, where: str,
+                     needs_convention: bool) -> Convention:
+    """Parse a convention entry (a name or a mapping) and check its scale or mass."""
+    if raw is None:
+        raw = "none" if not needs_convention else None
+    if raw is None:
+        raise InputError(path, where, "missing convention",
+                         f"state one of {', '.join(CONVENTION_NAMES)}")
+    extra: dict[str, Any] = {}
+    if isinstance(raw, dict):
+        extra = dict(raw)
+        raw = extra.pop("name", None)
+    if raw not in CONVENTION_NAMES:
+        raise InputError(path, where, f"unknown convention '{raw}'",
+                         f"use one of {', '.join(CONVENTION_NAMES)}")
+    need = CONVENTION_NEEDS.get(raw)
+    if need is None:
+        return Convention(raw)
+    key, what = need
+    value = extra.get(key, kin.get(key))
+    if value is None:
+        raise InputError(path, where, f"convention '{raw}' needs {what}",
+                         f"add kinematics.{key} (MeV)")
+    return Convention(raw, **{key: _positive(value, path, f"{where}.{key}")})
+
+
+#: the kinematic input each convention needs: (field of Convention and card, meaning)
+CONVENTION_NEEDS = {
+    "lbar": ("pion_mass_mev", "the pion mass it is defined at"),
+    "lr": ("mu_mev", "its renormalisation scale"),
+    "Lr": ("mu_mev", "its renormalisation scale"),
+    "dimensionful": ("gap_mev", "the mass gap M"),
+}
+
+
+def _positive(x: Any, path: Path | None, where: str) -> float:
+    try:
+        v = float(x)
+    except (TypeError, ValueError) as err:
+        raise InputError(path, where, f"not a number: {x!r}", "give a value in MeV") from err
+    if not np.isfinite(v) or v <= 0:
+        raise InputError(path, where, f"must be positive and finite, got {v}", "give MeV")
+    return v

@@ -1,0 +1,282 @@
+"""The Region: a precomputed allowed set, as linear facets with certificates.
+
+A region lives in a theory's own coordinates (``coordinates``, in a stated
+``convention``).  Each :class:`Facet` is one inequality ``normal . x >= offset`` with
+the certificate that proves it: the bound family, the channel, the kinematic point or
+dual functional, the value of the bound and the solver status.
+
+Some regions also know an *inner* set (points that a real positive spectrum reaches,
+for the sum-rule bounds of ``scalar-eft``): a point inside the inner set is certainly
+allowed, a point outside the outer facets is certainly excluded, and a point between
+them is numerically undecided.  Regions without an inner set use their facets for both.
+
+A region is data: :meth:`Region.save` writes JSON with a content hash over everything
+else in the file, and :meth:`Region.load` recomputes and checks it.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from eftsieve._version import __version__
+from eftsieve.errors import RegionFileError, SolverError
+from eftsieve.io.atomic import atomic_write_json
+from eftsieve.tolerances import REDUNDANCY_TOL
+
+REGION_FORMAT_VERSION = 1
+_FACET_KEYS = ("normal", "offset", "family", "channel", "value", "status")
+
+
+@dataclass(frozen=True)
+class Facet:
+    """One linear inequality ``normal . x >= offset`` with its certificate.
+
+    Attributes
+    ----------
+    normal
+        The inward normal in the region's coordinates.
+    offset
+        The right-hand side.
+    family
+        The bound family that proves it (``second-derivative``, ``t-derivative``, ...).
+    channel
+        The scattering channel (``pi0 pi0``, ...), or the functional's name.
+    point
+        The kinematic point (``s``, ``t`` in units of M^2, ...) or other locating data.
+    value
+        The value of the bound at that point (``offset`` over the normal's norm, for 1-D
+        statements such as ``lbar2 >= 1.35`` it is the bound itself).
+    status
+        The solver or optimiser status that produced it (``optimal`` only).
+    extra
+        Further certificate data (dual functional coefficients, ...).
+    """
+
+    normal: tuple[float, ...]
+    offset: float
+    family: str
+    channel: str
+    point: dict[str, float] = field(default_factory=dict)
+    value: float = float("nan")
+    status: str = "optimal"
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"normal": [float(v) for v in self.normal],
+                               "offset": float(self.offset), "family": self.family,
+                               "channel": self.channel, "value": float(self.value),
+                               "status": self.status}
+        out.update({k: float(v) for k, v in self.point.items()})
+        if self.extra:
+            out["extra"] = self.extra
+        return out
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> Facet:
+        point = {k: float(v) for k, v in d.items() if k not in _FACET_KEYS + ("extra",)}
+        return cls(tuple(float(v) for v in d["normal"]), float(d["offset"]), str(d["family"]),
+                   str(d["channel"]), point, float(d.get("value", float("nan"))),
+                   str(d.get("status", "optimal")), dict(d.get("extra", {})))
+
+    def label(self) -> str:
+        """``family / channel at s=..., t=...`` (kinematic points rounded for reading)."""
+        pt = ", ".join(f"{k}={0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in self.point.items()
+                       if k != "pion_mass_mev")
+        return f"{self.family} / {self.channel}" + (f" at {pt}" if pt else "")
+
+    def inequality(self, coordinates: tuple[str, ...]) -> str:
+        """The facet as readable text, e.g. ``lbar1 + 2 lbar2 >= 5.568``."""
+        terms = []
+        for c, name in zip(self.normal, coordinates, strict=True):
+            if abs(c) < 1e-12:
+                continue
+            mag = "" if abs(abs(c) - 1) < 1e-12 else f"{abs(c):.6g} "
+            sign = "-" if c < 0 else "+"
+            terms.append((sign, f"{mag}{name}"))
+        text = " ".join(f"{s} {t}" for s, t in terms).lstrip("+ ")
+        if text.startswith("- "):
+            text = "-" + text[2:]
+        return f"{text} >= {self.offset:.6g}"
+
+
+@dataclass(frozen=True)
+class Region:
+    """An allowed region in a theory's coordinates.
+
+    Attributes
+    ----------
+    theory
+        The theory name.
+    coordinates
+        Parameter names, in the order of the facet normals.
+    convention
+        The convention of the coordinates with its kinematics.
+    facets
+        The outer (rigorous) facets.
+    settings
+        The settings that built the region.
+    inner_facets
+        Facets of the inner set, or empty when the inner set equals the outer one.
+    inner_vertices
+        Vertices of the inner set, if known.
+    eftsieve_version
+        The version that built it.
+    """
+
+    theory: str
+    coordinates: tuple[str, ...]
+    convention: dict[str, Any]
+    facets: tuple[Facet, ...]
+    settings: dict[str, Any] = field(default_factory=dict)
+    inner_facets: tuple[Facet, ...] = ()
+    inner_vertices: tuple[tuple[float, ...], ...] = ()
+    eftsieve_version: str = __version__
+    notes: tuple[str, ...] = ()
+
+    # ---- geometry -------------------------------------------------------------
+    @property
+    def dim(self) -> int:
+        return len(self.coordinates)
+
+    def arrays(self, inner: bool = False) -> tuple[np.ndarray, np.ndarray]:
+        """(A, b) with unit-norm rows, so that A x - b is the signed distance."""
+        facets = self.inner_facets if (inner and self.inner_facets) else self.facets
+        a = np.array([f.normal for f in facets], dtype=float).reshape(len(facets), self.dim)
+        b = np.array([f.offset for f in facets], dtype=float)
+        norms = np.linalg.norm(a, axis=1)
+        return a / norms[:, None], b / norms
+
+    def margins(self, x: np.ndarray, inner: bool = False) -> np.ndarray:
+        """Signed distances of points (n, dim) to every facet, shape (n, m); positive inside."""
+        a, b = self.arrays(inner)
+        return np.asarray(x, dtype=float) @ a.T - b
+
+    def contains(self, x: np.ndarray) -> np.ndarray:
+        """Boolean mask of points satisfying every outer facet."""
+        return np.asarray((self.margins(x) >= 0).all(axis=1))
+
+    def chebyshev_center(self, box: float = 1e3) -> tuple[np.ndarray, float]:
+        """The centre and radius of the largest ball inside the region (LP), clipped to a box."""
+        from scipy.optimize import linprog
+
+        a, b = self.arrays()
+        d = self.dim
+        # maximise r subject to a_i . x - r >= b_i, |x_j| <= box
+        c = np.zeros(d + 1)
+        c[-1] = -1.0
+        a_ub = np.hstack([-a, np.ones((len(b), 1))])
+        res = linprog(c, A_ub=a_ub, b_ub=-b, bounds=[(-box, box)] * d + [(0, box)],
+                      method="highs")
+        if res.status != 0:
+            raise SolverError(res.message, "Chebyshev centre LP of the region")
+        if res.x[-1] <= 0:
+            raise SolverError("empty", "Chebyshev centre LP: the region has no interior")
+        return res.x[:d], float(res.x[-1])
+
+    # ---- persistence ------------------------------------------------------------
+    def to_dict(self) -> dict[str, Any]:
+        body: dict[str, Any] = {
+            "region_format_version": REGION_FORMAT_VERSION,
+            "theory": self.theory, "coordinates": list(self.coordinates),
+            "convention": self.convention, "facets": [f.to_dict() for f in self.facets],
+            "settings": self.settings, "eftsieve_version": self.eftsieve_version,
+            "notes": list(self.notes),
+        }
+        if self.inner_facets:
+            body["inner_facets"] = [f.to_dict() for f in self.inner_facets]
+        if self.inner_vertices:
+            body["inner_vertices"] = [list(v) for v in self.inner_vertices]
+        body["hash"] = content_hash(body)
+        return body
+
+    @property
+    def hash(self) -> str:
+        return str(self.to_dict()["hash"])
+
+    def save(self, path: str | Path) -> Path:
+        """Write the region as JSON, atomically."""
+        return atomic_write_json(path, self.to_dict())
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any], path: str | Path | None = None) -> Region:
+        try:
+            stored = d["hash"]
+            body = {k: v for k, v in d.items() if k != "hash"}
+            found = content_hash(body)
+            if stored != found:
+                raise RegionFileError(path, "content hash mismatch: the file was edited or "
+                                      "corrupted; rebuild it with `eftsieve region`",
+                                      expected_hash=found, found_hash=str(stored))
+            return cls(
+                d["theory"], tuple(d["coordinates"]), dict(d["convention"]),
+                tuple(Facet.from_dict(f) for f in d["facets"]), dict(d.get("settings", {})),
+                tuple(Facet.from_dict(f) for f in d.get("inner_facets", [])),
+                tuple(tuple(float(x) for x in v) for v in d.get("inner_vertices", [])),
+                str(d.get("eftsieve_version", "")), tuple(d.get("notes", [])))
+        except (KeyError, TypeError, ValueError) as err:
+            raise RegionFileError(path, f"malformed region file ({err})") from err
+
+    @classmethod
+    def load(cls, path: str | Path) -> Region:
+        """Read a region file and verify its content hash."""
+        p = Path(path)
+        if not p.is_file():
+            raise RegionFileError(p, "file not found")
+        try:
+            data = json.loads(p.read_text(encoding="utf-8"))
+        except json.JSONDecodeError as err:
+            raise RegionFileError(p, f"not valid JSON ({err})") from err
+        return cls.from_dict(data, p)
+
+    def summary(self) -> dict[str, Any]:
+        """A short JSON-able description (for ``eftsieve region --json``)."""
+        return {"theory": self.theory, "coordinates": list(self.coordinates),
+                "convention": self.convention, "n_facets": len(self.facets),
+                "facets": [f.to_dict() for f in self.facets], "hash": self.hash,
+                "settings": self.settings}
+
+
+def content_hash(body: dict[str, Any]) -> str:
+    """SHA-256 of the canonical JSON of a region body (keys sorted, floats repr)."""
+    text = json.dumps(body, sort_keys=True, separators=(",", ":"), allow_nan=True)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def irredundant(facets: list[Facet], box: float = 1e4) -> list[Facet]:
+    """Drop facets implied by the others (LP test per facet), keeping the order.
+
+    A facet ``a . x >= b`` is redundant when min a . x over the other facets (and a large
+    box) is >= b up to :data:`REDUNDANCY_TOL`.  Facets with parallel normals keep only the
+    strongest.
+    """
+    from scipy.optimize import linprog
+
+    if len(facets) <= 1:
+        return list(facets)
+    units = []
+    for f in facets:
+        n = np.asarray(f.normal, dtype=float)
+        units.append((n / np.linalg.norm(n), f.offset / np.linalg.norm(n)))
+    keep = list(range(len(facets)))
+    for i in range(len(facets)):
+        others = [j for j in keep if j != i]
+        if not others:
+            continue
+        a = np.array([units[j][0] for j in others])
+        b = np.array([units[j][1] for j in others])
+        res = linprog(units[i][0], A_ub=-a, b_ub=-b, bounds=[(-box, box)] * len(units[i][0]),
+                      method="highs")
+        if res.status == 2:  # the others are infeasible: keep everything, caller decides
+            continue
+        if res.status != 0:
+            raise SolverError(res.message, f"redundancy LP for facet {i}")
+        bi = float(units[i][1])
+        if res.fun >= bi - REDUNDANCY_TOL * max(1.0, abs(bi)):
+            keep.remove(i)
+    return [facets[i] for i in keep]

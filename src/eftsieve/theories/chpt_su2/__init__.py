@@ -1,0 +1,1 @@
+"""theories/chpt_su2."""

@@ -1,0 +1,1 @@
+"""theories/scalar_eft."""
