@@ -19,7 +19,7 @@ def main() -> str:
     import emcee
     import pandas as pd
 
-    from eftsieve.fit.model import load_fit
+    from eftsieve.api import load_fit
     from eftsieve.impose.core import ImposeSettings
     from eftsieve.impose.refit import load_observables, log_prior_fn, observables_loglike, run_refit
     from eftsieve.theories import get_theory

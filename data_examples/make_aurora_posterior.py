@@ -22,12 +22,13 @@ import numpy as np
 import pandas as pd
 import yaml
 
-from eftsieve.fit.conventions import Convention, affine_map
-from eftsieve.fit.model import load_fit
+from eftsieve.api import load_fit
+from eftsieve.fit.conventions import Convention
 from eftsieve.impose.core import ImposeSettings
 from eftsieve.impose.refit import load_observables, observables_loglike, run_refit
 from eftsieve.region.model import Region
 from eftsieve.theories import get_theory
+from eftsieve.theories.chpt_su2.conventions import affine_map
 from eftsieve.theories.chpt_su2.observables import threshold_parameters
 
 HERE = Path(__file__).parent

@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from eftsieve.fit.conventions import Convention
 from eftsieve.fit.model import Fit, Parameter
 from eftsieve.region.model import Facet, Region
+from eftsieve.theories.chpt_su2.conventions import convention
 
-LBAR = Convention("lbar", pion_mass_mev=139.57)
+LBAR = convention("lbar", pion_mass_mev=139.57)
 
 
 def region(*facets: tuple[tuple[float, float], float]) -> Region:

@@ -9,8 +9,9 @@ import eftsieve
 
 
 def test_all_is_exact():
-    assert eftsieve.__all__ == ["EftsieveError", "EftsieveWarning", "Facet", "Fit", "InputError",
-                                "Region", "__version__", "build_region", "load_fit"]
+    assert eftsieve.__all__ == ["EftsieveError", "EftsieveWarning", "InputError", "__version__",
+                                "build_region", "check", "errors", "get_theory", "load_fit",
+                                "load_region", "theories"]
 
 
 def test_import_does_not_load_heavy_libraries():

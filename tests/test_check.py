@@ -9,9 +9,9 @@ import pandas as pd
 import pytest
 from scipy import stats
 
+from eftsieve.api import load_fit
 from eftsieve.check.run import run_check
 from eftsieve.check.verdicts import INSIDE, MARGINAL, OUTSIDE, CheckSettings, classify
-from eftsieve.fit.model import load_fit
 from tests.helpers import gaussian_fit, region
 
 
@@ -90,10 +90,9 @@ def test_weighted_ess_and_error():
     w = np.array([1.0, 1.0, 2.0, 0.0])
     from eftsieve.stats.accumulate import Accumulator
 
-    acc = Accumulator(2)
     y = np.zeros((4, 2))
-    acc.add(y, w, np.array([0, 0, 2, 2], dtype=np.int8), np.array([True, True, False, False]))
-    acc.finish()
+    acc = Accumulator.from_arrays(y, w, np.array([0, 0, 2, 2], dtype=np.int8),
+                                  np.array([True, True, False, False]))
     assert acc.ess() == pytest.approx(16 / 6)
     p, err = acc.p_inside()
     assert p == pytest.approx(0.5)

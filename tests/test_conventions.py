@@ -7,7 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from eftsieve.fit.conventions import Convention, affine_map
+from eftsieve.fit.conventions import Convention
+from eftsieve.theories.chpt_su2.conventions import affine_map
 from tests.check_values import GAMMA, M_PI_MEV, MU_MEV
 
 NAMES = ("lbar1", "lbar2", "lbar3", "lbar4")

@@ -8,8 +8,7 @@ from pathlib import Path
 import jsonschema
 import pytest
 
-from eftsieve.fit.card import FIT_CARD_SCHEMA
-from eftsieve.fit.model import read_card
+from eftsieve.fit.card import FIT_CARD_SCHEMA, read_card
 
 ROOT = Path(__file__).parents[1]
 

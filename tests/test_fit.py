@@ -7,8 +7,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from eftsieve.api import load_fit
 from eftsieve.errors import InputError
-from eftsieve.fit.model import load_fit
 
 DATA = Path(__file__).parent / "fit"
 

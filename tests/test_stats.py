@@ -8,7 +8,8 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from eftsieve.stats.accumulate import Accumulator, chibar2_sf, closest_point, cone_weights, tension
+from eftsieve.stats.accumulate import Accumulator
+from eftsieve.stats.tension import chibar2_sf, closest_point, cone_weights, tension
 from tests.helpers import region
 
 
@@ -66,15 +67,10 @@ def test_chibar2_sf_limits():
 
 # ---- batch means: the Monte-Carlo error of p_inside for correlated draws ---------------
 def _accumulate(inside, w=None, chunk=None):
-    acc = Accumulator(1)
+    # ``chunk`` is how a reader would cut the rows; blocks are cut the same whatever it is
     y = np.zeros((len(inside), 1))
-    verdict = np.where(inside, 0, 2)
-    step = chunk or len(inside)
-    for lo in range(0, len(inside), step):
-        sl = slice(lo, lo + step)
-        acc.add(y[sl], None if w is None else w[sl], verdict[sl], inside[sl])
-    acc.finish()
-    return acc
+    verdict = np.where(inside, 0, 2).astype(np.int8)
+    return Accumulator.from_arrays(y, w, verdict, np.asarray(inside))
 
 
 def _sign_tau(rho, terms=2000):
@@ -134,7 +130,7 @@ def test_too_few_rows_give_no_batch_means_estimate():
 def test_plane_cone_with_redundant_rows_matches_monte_carlo():
     """Several facets through one vertex of a 2-D region: the wedge closed form on the two
     bounding rows equals the Monte-Carlo active-set weights of all rows."""
-    from eftsieve.stats.accumulate import _cone_weights_mc
+    from eftsieve.stats.tension import _cone_weights_mc
 
     ang = np.array([0.2, 0.5, 0.9, 1.3])
     g = np.column_stack([np.cos(ang), np.sin(ang)])

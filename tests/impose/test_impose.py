@@ -7,8 +7,9 @@ import pandas as pd
 import pytest
 from scipy import integrate, stats
 
+from eftsieve.api import load_fit
 from eftsieve.errors import ConvergenceWarning, SamplingError
-from eftsieve.fit.model import Prior, load_fit
+from eftsieve.fit.model import Prior
 from eftsieve.impose.core import ImposeSettings, exact, reweight
 from eftsieve.impose.refit import run_refit
 from eftsieve.theories import get_theory

@@ -16,8 +16,9 @@ import pytest
 from eftsieve.fit.conventions import Convention
 from eftsieve.fit.model import Fit, Parameter
 from eftsieve.io.samples import SamplesSource
+from eftsieve.theories.chpt_su2.conventions import convention
 
-LBAR = Convention("lbar", pion_mass_mev=139.57)
+LBAR = convention("lbar", pion_mass_mev=139.57)
 #: rows of the files of the standard dataset: a file longer than one block, a file of
 #: one row, an empty file; 140,004 rows in all
 FILE_ROWS = (25_000, 70_000, 1, 0, 5_000, 40_003)

@@ -124,8 +124,8 @@ def test_unreachable_scheduler_is_an_input_error():
 
 
 def test_missing_extra_gives_the_install_hint(dataset, region, monkeypatch):
-    from eftsieve.check.engines.dask import parallel_region_builds
     from eftsieve.check.many import check_many
+    from eftsieve.region.build import parallel_region_builds
 
     monkeypatch.setitem(sys.modules, "distributed", None)
     for call in (lambda: dask_check(make_fit(dataset), region, SETTINGS, None),

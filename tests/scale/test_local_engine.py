@@ -8,7 +8,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from eftsieve.check.engines.local import check_with_engine, local_check
+from eftsieve.check.engines.local import local_check
 from eftsieve.check.run import run_check
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError
@@ -58,7 +58,7 @@ def test_one_file_agrees_with_run_check(dataset, region, tmp_path):
     assert fo["row"].tolist() == fr["row"].tolist()
     assert fo["verdict"].tolist() == fr["verdict"].tolist()
     np.testing.assert_allclose(fo["min_margin"], fr["min_margin"], rtol=1e-12, atol=1e-12)
-    assert [w["row"] for w in ours.worst] == [w["row"] for w in ref.worst]
+    assert [w.row for w in ours.worst] == [w.row for w in ref.worst]
     # the same key stream as run_check: the same subsample (order aside)
     np.testing.assert_array_equal(np.sort(ours.plot_samples[:, 0]), np.sort(ref.plot_samples[:, 0]))
 
@@ -79,13 +79,15 @@ def test_unweighted_source(dataset, region):
     assert res.summary["ess"] == res.summary["n_total"] == sum(FILE_ROWS)
 
 
-def test_gaussian_fit_is_drawn_by_run_check(region):
+def test_gaussian_draws_are_one_partition_of_the_block_engine(region):
+    """Regression: Gaussian cards used a second, in-process stream; they are now one
+    partition of the same kernel, and the result does not depend on the chunk size."""
     fit = gaussian_fit([-0.5, 4.3], [[1.0, 0.1], [0.1, 0.5]])
-    st = CheckSettings(draws=20_000)
-    res = check_with_engine("local", fit, region, st, None)
-    ref = run_check(fit, region, st, None)
+    res = run_check(fit, region, CheckSettings(draws=20_000, chunk_rows=20_000), None)
+    ref = run_check(fit, region, CheckSettings(draws=20_000, chunk_rows=777), None)
     assert comparable(res.summary) == comparable(ref.summary)
-    assert res.summary["engine"]["mode"].startswith("gaussian")
+    parts = res.summary["engine"]["partitions"]
+    assert [p["rows"] for p in parts] == [20_000]
 
 
 def test_bad_rows_stop_the_run_and_leave_no_flagged_file(tmp_path, region):
@@ -103,9 +105,9 @@ def test_bad_rows_stop_the_run_and_leave_no_flagged_file(tmp_path, region):
 def test_engine_switch_refuses_bad_options(dataset, region):
     fit = make_fit(dataset)
     with pytest.raises(InputError, match="unknown engine 'spark'"):
-        check_with_engine("spark", fit, region, SETTINGS, None)
+        run_check(fit, region, SETTINGS, None, engine="spark")
     with pytest.raises(InputError, match="needs the dask engine") as e:
-        check_with_engine("local", fit, region, SETTINGS, None, scheduler="tcp://127.0.0.1:1")
+        run_check(fit, region, SETTINGS, None, scheduler="tcp://127.0.0.1:1")
     assert e.value.field == "--scheduler"
 
 
@@ -116,14 +118,17 @@ def test_region_of_another_theory_is_refused(dataset, region):
         local_check(make_fit(dataset), replace(region, theory="scalar-eft"), SETTINGS, None)
 
 
-def test_a_theory_uncertainty_model_is_refused(dataset, region):
+def test_a_theory_uncertainty_model_runs_on_the_partitioned_engine(dataset, region):
+    """Regression: the partitioned engines refused a theory-uncertainty model; the one
+    kernel now runs it, and the hard-edge counts are unchanged by it."""
     from eftsieve.stats.truncation import UncertaintySettings
 
     fit = make_fit(dataset)
-    with pytest.raises(InputError, match="not available with the partitioned engines") as e:
-        check_with_engine("local", fit, region, SETTINGS, None,
-                          uncertainty=UncertaintySettings("power-counting"))
-    assert e.value.field == "--theory-uncertainty"
-    res = check_with_engine("local", fit, region, SETTINGS, None,
-                            uncertainty=UncertaintySettings("none"))
-    assert res.summary["n_total"] == sum(FILE_ROWS)
+    hard = run_check(fit, region, SETTINGS, None, uncertainty=UncertaintySettings("none"))
+    assert hard.summary["n_total"] == sum(FILE_ROWS)
+    soft = run_check(fit, region, SETTINGS, None,
+                     uncertainty=UncertaintySettings("power-counting"))
+    assert soft.n_total == sum(FILE_ROWS)
+    tu = soft.theory_uncertainty
+    assert tu is not None and 0.0 <= tu["p_inside"] <= 1.0
+    assert tu["hard"]["p_inside"] == hard.p_inside

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from eftsieve.check.engines.dask import RegionTask, parallel_region_builds
 from eftsieve.errors import InputError, KinematicsWarning
+from eftsieve.region.build import RegionTask, parallel_region_builds
 from eftsieve.theories import get_theory
 
 pytest.importorskip("distributed")

@@ -8,9 +8,10 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from eftsieve.fit.conventions import Convention, affine_map
+from eftsieve.fit.conventions import Convention
 from eftsieve.theories import get_theory
 from eftsieve.theories.chpt_su2 import amplitude as pipi
+from eftsieve.theories.chpt_su2.conventions import affine_map
 from eftsieve.theories.chpt_su2.theory import CHANNELS, ChannelFunctionals, t_derivative_combination
 from tests.check_values import (
     A20_CONST,

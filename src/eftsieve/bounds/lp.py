@@ -11,16 +11,21 @@ relative to the size of each row, so its coordinates are an allowed (inner) poin
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import Any, Protocol
 
 import numpy as np
 
 from eftsieve.errors import SolverError
 
-if TYPE_CHECKING:
-    from eftsieve.bounds.sum_rules import StatePolynomial
 
-def exact_spectrum(nulls: tuple[StatePolynomial, ...], y: np.ndarray, spin: np.ndarray,
+class ExactRow(Protocol):
+    """A constraint row evaluated exactly on one state (a null constraint, e.g.
+    :class:`eftsieve.bounds.sum_rules.StatePolynomial`)."""
+
+    def mp_value(self, y: float, spin: float, mpmath: Any) -> Any: ...
+
+
+def exact_spectrum(nulls: tuple[ExactRow, ...], y: np.ndarray, spin: np.ndarray,
                    x: np.ndarray, support: np.ndarray | None = None, dps: int = 40
                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Re-solve <1> = 1, <n_i> = 0 on the support of an LP solution in ``dps``-digit arithmetic.

@@ -28,142 +28,14 @@ threads that process runs:
 from __future__ import annotations
 
 from collections.abc import Iterable, Iterator
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
-from eftsieve.check.verdicts import VERDICT_NAMES
 from eftsieve.io.samples import Chunk
-from eftsieve.stats.accumulate import BLOCK, Accumulator, batch_sums
+from eftsieve.stats.accumulate import BLOCK
 from eftsieve.theories.base import CoordinateMap
-
-#: the fields of :class:`~eftsieve.stats.accumulate.Accumulator` that :func:`absorb` knows how to add
-#: (the others are its configuration and its buffer of pending rows)
-ACCUMULATOR_SUMS = ("n_total", "counts", "sw", "sw2", "sw_in", "sw_in_inner", "sw2_in",
-                    "sw_soft", "sw2_soft_dev", "_sw2p", "mean_sum", "outer_sum",
-                    "batch_w", "batch_in")
-ACCUMULATOR_OTHER = ("dim", "soft_seen", "_pending", "_n_pending")
-
-
-def check_accumulator_layout() -> None:
-    """Refuse to run if :class:`~eftsieve.stats.accumulate.Accumulator` gained or lost a field.
-
-    :func:`absorb` mirrors the accumulator's per-block update field by field; a new sum
-    that it did not add would silently stay zero, so this stops the run instead.
-    """
-    have = {f.name for f in fields(Accumulator)}
-    known = set(ACCUMULATOR_SUMS) | set(ACCUMULATOR_OTHER)
-    if have != known:
-        raise RuntimeError(
-            "eftsieve.stats.accumulate.Accumulator changed (new fields "
-            f"{sorted(have - known)}, removed {sorted(known - have)}); update "
-            "eftsieve.check.blocks.block_sums and absorb before using the partitioned engines")
-
-
-@dataclass(frozen=True)
-class BlockSums:
-    """The weighted sums of one block of rows (hard verdicts, no uncertainty model).
-
-    Attributes
-    ----------
-    n
-        Rows in the block.
-    counts
-        Rows per verdict (int64, one entry per :data:`eftsieve.check.verdicts.VERDICT_NAMES`).
-    sw, sw2
-        Sum of the weights and of their squares.
-    sw_in, sw2_in
-        The same over rows that satisfy every outer facet.
-    sw_in_inner
-        Sum of the weights of rows with verdict ``inside``.
-    sw_soft, sw2p, sw2_soft_dev
-        Sums of w P, w^2 P and w^2 P^2 with P = 1 where every facet holds, else 0 (the
-        accumulator's probability sums without an uncertainty model).
-    mean_sum
-        Sum of w y, shape (k,).
-    outer_sum
-        Sum of w y y^T, shape (k, k), exactly symmetric.
-    batch_w, batch_in
-        Sums of w and of w over rows inside per elementary batch
-        (:func:`eftsieve.stats.accumulate.batch_sums`).
-    """
-
-    n: int
-    counts: np.ndarray
-    sw: float
-    sw2: float
-    sw_in: float
-    sw2_in: float
-    sw_in_inner: float
-    sw_soft: float
-    sw2p: float
-    sw2_soft_dev: float
-    mean_sum: np.ndarray
-    outer_sum: np.ndarray
-    batch_w: np.ndarray
-    batch_in: np.ndarray
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"n": self.n, "counts": self.counts.tolist(), "sw": self.sw, "sw2": self.sw2,
-                "sw_in": self.sw_in, "sw2_in": self.sw2_in, "sw_in_inner": self.sw_in_inner,
-                "sw_soft": self.sw_soft, "sw2p": self.sw2p,
-                "sw2_soft_dev": self.sw2_soft_dev, "mean_sum": self.mean_sum.tolist(),
-                "outer_sum": self.outer_sum.tolist(), "batch_w": self.batch_w.tolist(),
-                "batch_in": self.batch_in.tolist()}
-
-
-def block_sums(y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
-               satisfies: np.ndarray) -> BlockSums:
-    """The sums of one block (points ``y`` (n, k) in region coordinates), BLAS-free.
-
-    The scalar sums that the accumulator forms with numpy reductions are the same
-    expressions here (so the same bits); its dot and matrix products are replaced by
-    element-wise products and one pairwise reduction each.
-    """
-    ww = np.ones(len(y)) if w is None else np.asarray(w, dtype=float)
-    k = y.shape[1]
-    cols = [np.ascontiguousarray(y[:, i]) for i in range(k)]
-    wy = [ww * c for c in cols]
-    mean = np.array([float(v.sum()) for v in wy])
-    outer = np.empty((k, k))
-    for i in range(k):
-        for j in range(i, k):
-            outer[i, j] = outer[j, i] = float((wy[i] * cols[j]).sum())
-    w2 = ww * ww
-    sp = satisfies.astype(float)
-    bw, bi = batch_sums(ww, satisfies)
-    return BlockSums(
-        n=len(y), counts=np.bincount(verdict, minlength=len(VERDICT_NAMES)).astype(np.int64),
-        sw=float(ww.sum()), sw2=float(w2.sum()), sw_in=float(ww[satisfies].sum()),
-        sw2_in=float((ww[satisfies] ** 2).sum()), sw_in_inner=float(ww[verdict == 0].sum()),
-        sw_soft=float((ww * sp).sum()), sw2p=float((w2 * sp).sum()),
-        sw2_soft_dev=float((w2 * (sp * sp)).sum()), mean_sum=mean, outer_sum=outer,
-        batch_w=bw, batch_in=bi)
-
-
-def absorb(acc: Accumulator, b: BlockSums) -> None:
-    """Add one block's sums to ``acc`` in the way of its per-block update.
-
-    ``acc`` must be fed only through this function (never through ``acc.add``), so that
-    it holds no pending rows; the result is then the accumulator of the blocks taken in
-    the order they were absorbed, and every sum is a left-to-right sum over blocks.
-    """
-    acc.n_total += b.n
-    acc.counts += b.counts
-    acc.sw += b.sw
-    acc.sw2 += b.sw2
-    acc.sw_in += b.sw_in
-    acc.sw2_in += b.sw2_in
-    acc.sw_in_inner += b.sw_in_inner
-    acc.sw_soft += b.sw_soft
-    acc._sw2p += b.sw2p
-    acc.sw2_soft_dev += b.sw2_soft_dev
-    acc.mean_sum = b.mean_sum.copy() if acc.mean_sum is None else acc.mean_sum + b.mean_sum
-    acc.outer_sum = (b.outer_sum.copy() if acc.outer_sum is None
-                     else acc.outer_sum + b.outer_sum)
-    acc.batch_w.append(b.batch_w)
-    acc.batch_in.append(b.batch_in)
 
 
 def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:

@@ -25,24 +25,17 @@ from typing import Any
 
 import numpy as np
 
-from eftsieve.check.blocks import (
-    BlockSums,
-    Ranked,
-    absorb,
-    apply_map,
-    block_sums,
-    check_accumulator_layout,
-    empty_ranked,
-    iter_blocks,
-    sample_keys,
-)
-from eftsieve.check.run import N_WORST, CheckResult, FlaggedWriter, _summary
-from eftsieve.check.verdicts import CheckSettings, classify
+from eftsieve.check.blocks import Ranked, apply_map, empty_ranked, iter_blocks, sample_keys
+from eftsieve.check.outputs import FlaggedWriter
+from eftsieve.check.result import N_WORST, CheckResult, WorstPoint, summarize
+from eftsieve.check.verdicts import CheckSettings, Verdicts, classify
 from eftsieve.errors import InputError, TaskFailedError
+from eftsieve.executors import InputFailure
 from eftsieve.fit.model import Fit
-from eftsieve.io.samples import Chunk, FilePart, SamplesSource
+from eftsieve.io.samples import Chunk, FilePart
 from eftsieve.region.model import Region
-from eftsieve.stats.accumulate import Accumulator
+from eftsieve.stats.accumulate import Accumulator, BlockSums, block_sums
+from eftsieve.stats.truncation import FacetUncertainty, prob_satisfies, verdicts_from_probability
 from eftsieve.theories.base import CoordinateMap
 
 
@@ -60,33 +53,36 @@ class PartitionJob:
     Attributes
     ----------
     part
-        The file and its first global row.
+        The file (or the draws) and its first global row.
     fit
-        The fit; its samples source says how to read the file.
+        The fit.
+    source
+        Where the rows come from: the fit's samples source, or its Gaussian draws
+        (:class:`eftsieve.check.sources.GaussianDraws`); anything with ``iter_part``,
+        ``file_parts`` and ``weighted``.
     region, cmap
         The region and the map from the fit's parameters to its coordinates.
     settings
         The check settings (band, chunk rows, seed, plot points).
     write_flagged
         Whether to return the flagged rows.
+    uncertainty
+        A theory-uncertainty model of the facets, or None for hard facets.
     """
 
     part: FilePart
     fit: Fit
+    source: Any
     region: Region
     cmap: CoordinateMap
     settings: CheckSettings
     write_flagged: bool
+    uncertainty: FacetUncertainty | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {"part": self.part.to_dict(), "fit": self.fit.name,
                 "settings": self.settings.to_dict(),
                 "region_hash": self.region.hash, "write_flagged": self.write_flagged}
-
-    @property
-    def source(self) -> SamplesSource:
-        assert self.fit.samples is not None
-        return self.fit.samples
 
 
 @dataclass(frozen=True)
@@ -180,31 +176,6 @@ class PartitionResult:
                 "n_flagged": self.n_flagged}
 
 
-@dataclass(frozen=True)
-class InputFailure:
-    """A task (a partition, a region build) that stopped on invalid input: returned as a
-    value, so that it is not retried (the input will not change).
-
-    Attributes
-    ----------
-    index
-        The partition's index (-1 for other tasks).
-    path, field, problem, hint
-        The :class:`~eftsieve.errors.InputError` it raised.
-    """
-
-    index: int
-    path: str | None
-    field: str | None
-    problem: str
-    hint: str
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"index": self.index, "path": self.path, "field": self.field,
-                "problem": self.problem, "hint": self.hint}
-
-    def error(self) -> InputError:
-        return InputError(self.path, self.field, self.problem, self.hint)
 
 
 def empty_worst(dim: int) -> Ranked:
@@ -222,6 +193,11 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator) ->
     st = job.settings
     y = apply_map(job.cmap, block.values)
     v = classify(y, job.region, st.band(job.region))
+    soft = None
+    if job.uncertainty is not None:
+        soft = prob_satisfies(y, job.region, job.uncertainty)
+        v = Verdicts(verdicts_from_probability(soft, job.uncertainty.settings), v.min_margin,
+                     v.worst, v.satisfies)
     flagged = None
     if job.write_flagged:
         sel = np.flatnonzero(v.verdict != 0)
@@ -234,7 +210,7 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator) ->
     sample = Ranked(r, block.rows, (np.hstack([block.values, y]), block.weights)
                     ).smallest(st.plot_points)
     return BlockOutput(int(block.rows[0]), len(block.rows),
-                       block_sums(y, block.weights, v.verdict, v.satisfies), flagged, worst,
+                       block_sums(y, block.weights, v.verdict, v.satisfies, soft), flagged, worst,
                        sample)
 
 
@@ -276,7 +252,7 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
     dim = job.region.dim
     blocks: list[BlockSums] = []
     worst = empty_worst(dim)
-    sample = empty_sample(len(job.source.columns) + dim, job.source.weight_column is not None)
+    sample = empty_sample(len(job.fit.names) + dim, job.source.weighted)
     text = FlaggedText(job.fit, job.region) if job.write_flagged and sink is None else None
     n = 0
     try:
@@ -329,15 +305,13 @@ class CheckMerger:
     """
 
     def __init__(self, fit: Fit, region: Region, settings: CheckSettings,
-                 parts: tuple[FilePart, ...], flagged: FlaggedWriter | None) -> None:
+                 parts: tuple[FilePart, ...], flagged: FlaggedWriter | None,
+                 weighted: bool) -> None:
         self.fit, self.region, self.settings, self.parts = fit, region, settings, parts
         self.flagged = flagged
-        check_accumulator_layout()
         self.acc = Accumulator(region.dim)
         self.worst = empty_worst(region.dim)
-        assert fit.samples is not None
-        self.sample = empty_sample(len(fit.names) + region.dim,
-                                   fit.samples.weight_column is not None)
+        self.sample = empty_sample(len(fit.names) + region.dim, weighted)
         self.n_merged = 0
         self.done: list[dict[str, Any]] = []
 
@@ -387,7 +361,7 @@ class CheckMerger:
                                   "report a bug")
 
     def _absorb(self, sums: BlockSums, flagged: FlaggedRows | None) -> None:
-        absorb(self.acc, sums)
+        self.acc.absorb(sums)
         if flagged is not None and self.flagged is not None:
             flagged.write(self.flagged)
         self.n_merged += sums.n
@@ -409,28 +383,78 @@ class CheckMerger:
 
     def result(self, cmap: CoordinateMap, region_path: str | None,
                engine: dict[str, Any]) -> CheckResult:
-        """The check result (summary with an ``engine`` entry, worst points, subsample)."""
+        """The check result (with the engine and its partitions, worst points, subsample)."""
         self.check_complete()
-        fit, acc = self.fit, self.acc
-        if acc.n_total == 0:
-            raise InputError(fit.source, "samples", "no rows to check", "supply samples")
-        if acc.sw <= 0:
-            assert fit.samples is not None
-            raise InputError(fit.samples.path, fit.samples.weight_column,
-                             "all weights are zero", "give at least one positive weight")
-        summary = _summary(fit, self.region, cmap, self.settings, acc, region_path)
-        summary["engine"] = {**engine, "partitions": list(self.done)}
         worst = self.worst.ordered()
         points, facet_idx = worst.payload
-        assert points is not None and facet_idx is not None
         facets = self.region.facets
-        worst_rows = tuple({"row": int(r), "region_point": y.tolist(), "min_margin": float(m),
-                            "facet": facets[int(f)].label()}
+        worst_rows = tuple(WorstPoint(int(r), tuple(float(v) for v in y), float(m),
+                                      facets[int(f)].label())
                            for m, r, y, f in zip(worst.keys, worst.rows, points, facet_idx,
                                                  strict=True))
         sample = self.sample.ordered()
         data = sample.payload[0]
-        assert data is not None
-        k = len(fit.names)
-        return CheckResult(summary, self.region, worst_rows, data[:, :k], sample.payload[1],
-                           data[:, k:])
+        k = len(self.fit.names)
+        return summarize(self.fit, self.region, cmap, self.settings, self.acc, region_path,
+                         engine={**engine, "partitions": list(self.done)}, worst=worst_rows,
+                         plot_samples=data[:, :k], plot_weights=sample.payload[1],
+                         plot_region_coords=data[:, k:])
+
+
+@dataclass(frozen=True)
+class Prepared:
+    """What every engine needs before it reads a row.
+
+    Attributes
+    ----------
+    cmap
+        The map of the fit's parameters to the region's coordinates
+        (:func:`eftsieve.theories.coordinate_map`, matchings included).
+    source
+        The rows: the fit's samples source, or its Gaussian draws.
+    uncertainty
+        The facets' theory-uncertainty model, or None for hard facets.
+    """
+
+    cmap: CoordinateMap
+    source: Any
+    uncertainty: FacetUncertainty | None
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"coordinate_map": self.cmap.to_dict(),
+                "uncertainty": None if self.uncertainty is None else self.uncertainty.to_dict()}
+
+
+def prepare(fit: Fit, region: Region, settings: CheckSettings,
+            uncertainty: Any = None) -> Prepared:
+    """The coordinate map, the row source and the uncertainty model of a check.
+
+    ``uncertainty`` is an :class:`eftsieve.stats.truncation.UncertaintySettings` (or None);
+    the model ``none`` means hard facets.
+    """
+    from eftsieve.check.sources import GaussianDraws
+    from eftsieve.stats.truncation import facet_uncertainty
+    from eftsieve.theories import coordinate_map
+
+    cmap = coordinate_map(fit, region)
+    if fit.mean is not None and fit.cov is not None:
+        source: Any = GaussianDraws(fit.mean, fit.cov, settings.draws, settings.seed)
+    else:
+        source = fit.samples
+    fu = None
+    if uncertainty is not None and uncertainty.model != "none":
+        fu = facet_uncertainty(region, uncertainty)
+    return Prepared(cmap, source, fu)
+
+
+def finish(result: CheckResult, prep: Prepared, acc: Accumulator) -> CheckResult:
+    """Add the statistics under the theory-uncertainty model, if there is one."""
+    if prep.uncertainty is None:
+        return result
+    from dataclasses import replace
+
+    from eftsieve.stats.truncation_stats import model_statistics
+
+    stats = model_statistics(result.fit, result.region, prep.cmap, prep.uncertainty, acc,
+                             result.to_dict(), result.settings.seed)
+    return replace(result, theory_uncertainty=stats)

@@ -19,11 +19,14 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from eftsieve.check.engines.local import ENGINES, gaussian_result, local_check
-from eftsieve.check.run import CheckResult
+from eftsieve.check.engines.local import local_check
+from eftsieve.check.result import CheckResult
+from eftsieve.check.run import ENGINES
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError
-from eftsieve.fit.model import Fit, load_fit
+from eftsieve.executors import Executor, serial
+from eftsieve.fit.card import load_fit
+from eftsieve.fit.model import Fit
 from eftsieve.io.atomic import atomic_write_json, atomic_write_text, guard_inputs
 from eftsieve.region.model import Region
 
@@ -114,25 +117,26 @@ def _region_plan(fits: Sequence[Fit]) -> tuple[list[tuple[str, dict[str, Any]]],
 
 
 def _regions(fits: Sequence[Fit], dirs: Sequence[Path], region: Region | None,
-             region_path: str | None, client: Any) -> list[tuple[Region, str | None]]:
+             region_path: str | None, executor: Executor) -> list[tuple[Region, str | None]]:
     """The region of each fit: the one given, or built (once per distinct settings)."""
     if region is not None:
         return [(region, region_path)] * len(fits)
-    from eftsieve.theories import get_theory
+    from eftsieve.region.build import build_regions
 
     builds, which = _region_plan(fits)
-    if client is None:
-        built = [get_theory(t).build_region(st) for t, st in builds]
-    else:
-        from eftsieve.check.engines.dask import RegionTask, region_builds_on
-
-        built = region_builds_on(client, [RegionTask(t, st) for t, st in builds])
+    built = build_regions(builds, executor)
     out: list[tuple[Region, str | None]] = []
     for d, i in zip(dirs, which, strict=True):
         path = d / "region.json"
         built[i].save(path)
         out.append((built[i], str(path)))
     return out
+
+
+def _load(path: Path) -> Fit:
+    from eftsieve.theories import get_theory
+
+    return load_fit(path, get_theory)
 
 
 def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str | Path, *,
@@ -164,7 +168,7 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
         raise InputError(None, "--engine", f"unknown engine '{engine}'",
                          f"use one of {', '.join(ENGINES)}")
     if engine == "dask":
-        from eftsieve.check.engines.dask import require_dask
+        from eftsieve.io.dask_client import require_dask
 
         require_dask()
     if engine == "local" and scheduler is not None:
@@ -174,7 +178,7 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
     if not paths:
         raise InputError(None, "FIT", "no fit cards given", "name at least one card")
     dirs = card_outdirs(paths, Path(outdir))
-    fits = [(loader or load_fit)(p) for p in paths]
+    fits = [(loader or _load)(p) for p in paths]
     ins = [region_path, *paths, *(f.samples.path for f in fits if f.samples)]
     outs = [Path(outdir) / TABLE_NAME]
     outs += [d / n for d in dirs for n in ("flagged.csv", "summary.json", "region.json")]
@@ -185,7 +189,7 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
         results = _check_all_dask(fits, dirs, settings, region, region_path, scheduler,
                                   retries, partition_timeout)
     else:
-        regs = _regions(fits, dirs, region, region_path, None)
+        regs = _regions(fits, dirs, region, region_path, serial)
         results = [local_check(f, r, settings, d, rp)
                    for f, d, (r, rp) in zip(fits, dirs, regs, strict=True)]
     rows = []
@@ -200,22 +204,20 @@ def _check_all_dask(fits: Sequence[Fit], dirs: Sequence[Path], settings: CheckSe
                     region: Region | None, region_path: str | None, scheduler: str | None,
                     retries: int, timeout: float | None) -> list[CheckResult]:
     """Submit every card's partitions, then merge card by card in order."""
-    from eftsieve.check.engines.dask import cancel, collect_check, connect, submit_check
+    from eftsieve.check.engines.dask import collect_check, submit_check
+    from eftsieve.io.dask_client import cancel, client_map, connect
 
     with connect(scheduler) as client:
-        regs = _regions(fits, dirs, region, region_path, client)
-        subs = [None if f.samples is None else
-                submit_check(client, f, r, settings, write_flagged=True, region_path=rp,
+        regs = _regions(fits, dirs, region, region_path, client_map(client, retries=retries))
+        subs = [submit_check(client, f, r, settings, write_flagged=True, region_path=rp,
                              retries=retries)
                 for f, (r, rp) in zip(fits, regs, strict=True)]
         results = []
         try:
-            for fit, d, (r, rp), sub in zip(fits, dirs, regs, subs, strict=True):
-                results.append(gaussian_result(fit, r, settings, d, rp, "dask") if sub is None
-                               else collect_check(sub, d, timeout))
+            for d, sub in zip(dirs, subs, strict=True):
+                results.append(collect_check(sub, d, timeout))
         except BaseException:
             for s in subs:
-                if s is not None:
-                    cancel(s.futures)
+                cancel(s.futures)
             raise
     return results

@@ -14,7 +14,7 @@ as it goes, so memory stays bounded whatever the file size.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -135,28 +135,3 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
         inner = outer
     verdict[inner > band] = INSIDE
     return Verdicts(verdict, outer, worst, outer >= 0)
-
-
-@dataclass
-class Reservoir:
-    """A uniform random subsample of a stream of rows (smallest random keys kept)."""
-
-    size: int
-    rng: np.random.Generator
-    keys: np.ndarray = field(default_factory=lambda: np.empty(0))
-    data: np.ndarray | None = None
-    weights: np.ndarray | None = None
-
-    def add(self, values: np.ndarray, weights: np.ndarray | None) -> None:
-        keys = self.rng.random(len(values))
-        if self.data is None:
-            self.data = np.empty((0, values.shape[1]))
-            self.weights = None if weights is None else np.empty(0)
-        allk = np.concatenate([self.keys, keys])
-        alld = np.concatenate([self.data, values])
-        allw = None if weights is None else np.concatenate([self.weights, weights])
-        if len(allk) > self.size:
-            keep = np.argpartition(allk, self.size)[: self.size]
-            allk, alld = allk[keep], alld[keep]
-            allw = None if allw is None else allw[keep]
-        self.keys, self.data, self.weights = allk, alld, allw

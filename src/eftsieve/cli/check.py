@@ -69,9 +69,11 @@ def add_check_parser(sub: Any) -> None:
 
 def load_fit_arg(args: argparse.Namespace):
     """A Fit from a card, or from a bare samples file with --theory/--convention."""
+    from eftsieve.api import load_fit
     from eftsieve.errors import InputError
-    from eftsieve.fit.conventions import Convention
-    from eftsieve.fit.model import CONVENTION_NEEDS, fit_from_samples, load_fit
+    from eftsieve.fit.conventions import NONE, Convention, make_convention
+    from eftsieve.fit.model import fit_from_samples
+    from eftsieve.theories import get_theory
 
     path = Path(args.fit)
     if path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir():
@@ -84,17 +86,24 @@ def load_fit_arg(args: argparse.Namespace):
     given = {"pion_mass_mev": args.pion_mass, "mu_mev": args.scale,
              "gap_mev": getattr(args, "gap", None)}
     kin = {k: float(v) for k, v in given.items() if v is not None}
-    need = CONVENTION_NEEDS.get(conv_name)
-    if need is not None:
-        key, what = need
-        if key not in kin:
-            flag = _KINEMATIC_FLAGS[key]
-            raise InputError(None, flag, f"convention '{conv_name}' needs {what}",
-                             f"add {flag} MEV")
-        conv = Convention(conv_name, **{key: kin[key]})
+    try:
+        theory = get_theory(args.theory)
+    except KeyError as err:
+        raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
+    if conv_name == NONE:
+        conv = Convention(NONE)
+    elif conv_name not in theory.convention_specs:
+        raise InputError(None, "--convention", f"{theory.name} has no convention "
+                         f"'{conv_name}'", f"use one of {', '.join(theory.conventions)}")
     else:
-        conv = Convention(conv_name)
-    return fit_from_samples(path, args.theory, conv, weight_column=args.weight_column,
+        spec = theory.convention_specs[conv_name]
+        for key, what in spec.needs:
+            if key not in kin:
+                flag = _KINEMATIC_FLAGS[key]
+                raise InputError(None, flag, f"convention '{conv_name}' needs {what}",
+                                 f"add {flag} MEV")
+        conv = make_convention(spec, **{k: kin[k] for k, _ in spec.needs})
+    return fit_from_samples(path, theory, conv, weight_column=args.weight_column,
                             kinematics=kin)
 
 
@@ -223,14 +232,8 @@ def cmd_check_one(args: argparse.Namespace) -> int:
     settings = CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
                              chunk_rows=args.chunk_rows)
     unc = uncertainty_from_args(args)
-    multi = fit.samples is not None and fit.samples.is_multi_file
-    if args.engine or args.scheduler or multi:
-        from eftsieve.check.engines.local import check_with_engine
-
-        result = check_with_engine(args.engine or "local", fit, region, settings, outdir, rpath,
-                                   scheduler=args.scheduler, uncertainty=unc)
-    else:
-        result = run_check(fit, region, settings, outdir, rpath, unc)
+    result = run_check(fit, region, settings, outdir, rpath, unc,
+                       engine=args.engine or "local", scheduler=args.scheduler)
     _write_check_outputs(fit, result, outdir, args.no_plots)
     s = result.summary
     print(f"checked {s['n_total']} points of '{fit.name}' against {region.theory} "

@@ -40,7 +40,7 @@ def run(fit, region, args: argparse.Namespace, uncertainty=None):
     from eftsieve.impose import soft as softmod
     from eftsieve.impose.core import ImposeSettings, choose_mode, exact, reweight
     from eftsieve.stats.truncation import facet_uncertainty
-    from eftsieve.theories import get_theory
+    from eftsieve.theories import coordinate_map
     from eftsieve.tolerances import MIN_ESS
 
     has_like = bool(args.data or args.likelihood)
@@ -48,7 +48,7 @@ def run(fit, region, args: argparse.Namespace, uncertainty=None):
     settings = ImposeSettings(mode, args.samples, args.walkers, args.seed,
                               args.min_ess if args.min_ess is not None else MIN_ESS,
                               not args.no_progress)
-    cmap = get_theory(region.theory).coordinate_map(fit, region)
+    cmap = coordinate_map(fit, region)
     fu = None
     if uncertainty is not None and uncertainty.model != "none":
         fu = facet_uncertainty(region, uncertainty)
@@ -134,9 +134,9 @@ def impose_corner(result, fit, region, outdir: Path) -> Path:
     where the map is the identity on the constrained columns)."""
     from eftsieve.cli.check import region_columns
     from eftsieve.report.plots import save_corner
-    from eftsieve.theories import get_theory
+    from eftsieve.theories import coordinate_map
 
-    cmap = get_theory(region.theory).coordinate_map(fit, region)
+    cmap = coordinate_map(fit, region)
     before, after = result.before_samples.copy(), result.samples.copy()
     names = list(fit.names)
     cols = region_columns(None if cmap.jacobian is None else cmap.jacobian.tolist())

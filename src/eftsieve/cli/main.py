@@ -37,7 +37,8 @@ def _add_region_args(p: argparse.ArgumentParser) -> None:
                    help="pion mass(es) in MeV (default 139.57); several need --convention lr")
     p.add_argument("--fpi", type=float, default=None, metavar="MEV",
                    help="F_pi in MeV (default 92.07)")
-    p.add_argument("--convention", choices=["lbar", "lr"], default=None)
+    p.add_argument("--convention", default=None,
+                   help="convention of the region's coordinates (see `eftsieve theories`)")
     p.add_argument("--scale", type=float, default=None, metavar="MEV",
                    help="renormalisation scale mu in MeV for --convention lr (default 770)")
     p.add_argument("--grid", choices=["default", "fine"], default=None,
@@ -109,14 +110,22 @@ def cmd_theories(args: argparse.Namespace) -> int:
 
 
 def cmd_region(args: argparse.Namespace) -> int:
+    from eftsieve.errors import InputError
+    from eftsieve.executors import dask_map, serial
     from eftsieve.region.build import build_region, describe_region
+    from eftsieve.theories import get_theory
 
-    if (args.engine or args.scheduler) and args.theory != "scalar-eft":
-        from eftsieve.errors import InputError
-
+    try:
+        parallel = get_theory(args.theory).parallel_build
+    except KeyError as err:
+        raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
+    if (args.engine or args.scheduler) and not parallel:
         raise InputError(None, "--engine", f"{args.theory} regions are built in one process "
                          "(they take about a second)", "drop --engine/--scheduler")
-    region = build_region(args.theory, region_settings_from_args(args))
+    executor = dask_map(args.scheduler) if args.engine == "dask" else serial
+    settings = {k: v for k, v in region_settings_from_args(args).items()
+                if k not in ("engine", "scheduler")}
+    region = build_region(args.theory, settings, executor)
     region.save(args.output)
     if args.plot:
         from eftsieve.report.plots import save_region_plot

@@ -8,6 +8,8 @@ the semantics.
 
 from __future__ import annotations
 
+import json
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -16,7 +18,6 @@ import numpy as np
 from eftsieve.errors import InputError
 from eftsieve.fit.model import (
     FORMAT_VERSION,
-    KINEMATIC_KEYS,
     Fit,
     Parameter,
     Prior,
@@ -37,9 +38,7 @@ FIT_CARD_SCHEMA: dict[str, Any] = {
         "name": {"type": "string"},
         "theory": {"type": "string"},
         "description": {"type": "string"},
-        "kinematics": {"type": "object",
-                       "properties": {k: _NUM for k in KINEMATIC_KEYS},
-                       "additionalProperties": False},
+        "kinematics": {"type": "object", "additionalProperties": _NUM},
         "parameters": {"type": "array", "minItems": 1, "items": {
             "type": "object", "required": ["name"],
             "properties": {"name": {"type": "string"},
@@ -116,10 +115,6 @@ def _schema_stage(card: dict[str, Any], path: Path) -> None:
     kin = card.get("kinematics", {})
     if not isinstance(kin, dict):
         raise InputError(path, "kinematics", "must be a mapping", "see docs/formats.md")
-    for k in kin:
-        if k not in KINEMATIC_KEYS:
-            raise InputError(path, f"kinematics.{k}", "unknown kinematic input",
-                             f"allowed: {', '.join(KINEMATIC_KEYS)} (all in MeV)")
 
 
 def _gaussian(card: dict[str, Any], path: Path, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -197,21 +192,27 @@ def _prior(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> Prior | 
     return Prior(kinds, params)
 
 
-def fit_from_card(card: dict[str, Any], path: Path) -> Fit:
-    """Validate a parsed card (schema, then semantics) and build the Fit."""
-    from eftsieve.theories import get_theory
+def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], Any]) -> Fit:
+    """Validate a parsed card (schema, then semantics) and build the Fit.
 
+    ``get_theory`` looks a theory up by name (:func:`eftsieve.theories.get_theory`); the
+    theory supplies the parameter names, conventions and kinematic inputs it accepts.
+    """
     _schema_stage(card, path)
     try:
         theory = get_theory(card["theory"])
     except KeyError as err:
         raise InputError(path, "theory", str(err.args[0]), "run `eftsieve theories`") from err
     kin = {k: float(v) for k, v in card.get("kinematics", {}).items()}
+    for k in kin:
+        if k not in theory.kinematic_inputs:
+            raise InputError(path, f"kinematics.{k}", "unknown kinematic input",
+                             f"{theory.name} takes {', '.join(theory.kinematic_inputs)} (MeV)")
     params = []
     for i, p in enumerate(card["parameters"]):
         needs = p["name"] in theory.parameter_names
         conv = parse_convention(p.get("convention"), kin, path, f"parameters[{i}].convention",
-                                needs)
+                                needs, theory.convention_specs)
         if conv.name != "none" and p["name"] not in theory.parameter_names:
             raise InputError(path, f"parameters[{i}].name", f"unknown parameter '{p['name']}'",
                              f"accepted: {', '.join(theory.parameter_names)}; or give "
@@ -230,3 +231,40 @@ def fit_from_card(card: dict[str, Any], path: Path) -> Fit:
               _prior(card, path, names), path)
     theory.validate_fit(fit)
     return fit
+
+
+def read_card(path: str | Path) -> dict[str, Any]:
+    """Read a YAML or JSON fit card into a dict, with clear errors."""
+    p = Path(path)
+    if not p.is_file():
+        raise InputError(p, None, "file not found", "check the path")
+    text = p.read_text(encoding="utf-8")
+    try:
+        if p.suffix.lower() == ".json":
+            data = json.loads(text)
+        elif p.suffix.lower() in {".yaml", ".yml"}:
+            import yaml
+
+            data = yaml.safe_load(text)
+        else:
+            raise InputError(p, None, f"unsupported fit-card extension '{p.suffix}'",
+                             "use .yaml, .yml or .json")
+    except (json.JSONDecodeError, ValueError) as err:
+        raise InputError(p, None, f"cannot parse: {err}", "fix the syntax") from err
+    except ImportError as err:  # pragma: no cover - pyyaml is a dependency
+        raise InputError(p, None, "pyyaml is needed", "pip install pyyaml") from err
+    except Exception as err:  # yaml.YAMLError has no common import here
+        if type(err).__module__.startswith("yaml"):
+            raise InputError(p, None, f"cannot parse YAML: {err}", "fix the syntax") from err
+        raise
+    if not isinstance(data, dict):
+        raise InputError(p, None, "the card must be a mapping at top level",
+                         "see docs/formats.md")
+    return data
+
+
+def load_fit(path: str | Path, get_theory: Any) -> Fit:
+    """Load and validate a fit card (YAML or JSON); ``get_theory`` looks theories up by name
+    (the public :func:`eftsieve.load_fit` passes :func:`eftsieve.theories.get_theory`)."""
+    p = Path(path)
+    return fit_from_card(read_card(p), p, get_theory)

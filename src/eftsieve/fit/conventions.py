@@ -1,84 +1,104 @@
-"""Parameter conventions and the affine maps between them.
+"""Parameter conventions: how a parameter is defined, and exact affine maps between them.
 
-A *convention* says how a parameter is defined: ``lbar`` (the scale-independent
-constants of SU(2) ChPT, defined at a stated pion mass), ``lr`` (the renormalised
-constants l_i^r(mu) at a stated scale mu), or ``none`` for parameters that no theory
-constrains (nuisance parameters, spectators), which are carried through untouched.
+A :class:`Convention` is a name (declared by a theory, see
+:attr:`eftsieve.theories.base.Theory.convention_specs`) with the kinematic values it
+needs (a mass, a scale, ...).  The convention ``none`` marks parameters that no theory
+constrains (nuisance parameters, spectators); they are carried through untouched.
+Theories declare their conventions as :class:`ConventionSpec` entries; this module
+knows none of them by name.
 
-Use :func:`affine_map` to get the exact map between two sets of conventions, then
-:meth:`AffineMap.apply_points` for samples and :meth:`AffineMap.apply_cov` for a
-covariance.  The Jacobian is exact (the maps are affine), so round trips are exact to
-rounding.
-
-The SU(2) relation is Eq. (9.6)-(9.7) of Gasser & Leutwyler, Ann. Phys. 158 (1984) 142:
-
-    lbar_i = (32 pi^2 / gamma_i) l_i^r(mu) - ln(M^2 / mu^2),
-    gamma = (1/3, 2/3, -1/2, 2).
-
-Because l_i^r(mu) does not depend on the pion mass, lbar at one mass M maps to lbar at
-another mass M' by lbar_i(M') = lbar_i(M) + ln(M^2 / M'^2).
+:class:`AffineMap` holds an exact map y = J x + c between two coordinate systems, for
+samples (:meth:`AffineMap.apply_points`) and covariances (:meth:`AffineMap.apply_cov`).
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
-#: Common-practice default kinematics in MeV (charged pion mass of the PDG, F_pi in the
-#: 92 MeV normalisation, and the rho mass as renormalisation scale).  ``common practice``.
-DEFAULT_PION_MASS_MEV = 139.57
-DEFAULT_FPI_MEV = 92.07
-DEFAULT_MU_MEV = 770.0
-
-#: gamma_i of Gasser & Leutwyler, Ann. Phys. 158 (1984) 142, Eq. (9.7), for l_1..l_4.
-GAMMA_SU2 = {1: 1.0 / 3.0, 2: 2.0 / 3.0, 3: -0.5, 4: 2.0}
-
-CONVENTION_NAMES = ("lbar", "lr", "Lr", "projective", "dimensionful", "none")
+#: the convention of parameters that no theory constrains
+NONE = "none"
 
 
 @dataclass(frozen=True)
-class Convention:
-    """How one parameter is defined.
+class ConventionSpec:
+    """A convention that a theory offers.
 
     Attributes
     ----------
     name
-        ``lbar``, ``lr`` or ``none``.
-    pion_mass_mev
-        The pion mass at which ``lbar`` is defined (MeV); ``None`` otherwise.
-    mu_mev
-        The renormalisation scale of ``lr`` (MeV); ``None`` otherwise.
+        The convention's name in fit cards and on the command line.
+    needs
+        (kinematic key, meaning) pairs the convention needs, e.g.
+        ``(("mu_mev", "its renormalisation scale"),)``.
+    text
+        A format string describing a parameter in this convention, filled with the
+        kinematic values (``"l^r(mu) at mu = {mu_mev:g} MeV"``).
     """
 
     name: str
-    pion_mass_mev: float | None = None
-    mu_mev: float | None = None
-    gap_mev: float | None = None
+    needs: tuple[tuple[str, str], ...] = ()
+    text: str = ""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"name": self.name, "needs": [k for k, _ in self.needs], "text": self.text}
+
+
+@dataclass(frozen=True, init=False)
+class Convention:
+    """How one parameter is defined: a convention name and its kinematic values.
+
+    Attributes
+    ----------
+    name
+        The convention's name (``none`` for untransformed nuisance parameters).
+    values
+        The kinematic values it is defined at, as sorted (key, value) pairs in MeV.
+    text
+        A description of the convention with its values (from its :class:`ConventionSpec`).
+    """
+
+    name: str
+    values: tuple[tuple[str, float], ...]
+    text: str
+
+    def __init__(self, name: str, text: str = "", **values: float | None) -> None:
+        object.__setattr__(self, "name", name)
+        object.__setattr__(self, "values", tuple(sorted(
+            (k, float(v)) for k, v in values.items() if v is not None)))
+        object.__setattr__(self, "text", text)
+
+    def get(self, key: str) -> float | None:
+        """The kinematic value ``key`` (MeV), or None when the convention has none."""
+        return dict(self.values).get(key)
+
+    def __getattr__(self, key: str) -> float | None:
+        # kinematic values read as attributes (conv.mu_mev); other names are errors
+        if key.endswith("_mev"):
+            return dict(object.__getattribute__(self, "values")).get(key)
+        raise AttributeError(key)
+
+    def __eq__(self, other: object) -> bool:
+        return (isinstance(other, Convention) and self.name == other.name
+                and self.values == other.values)
+
+    def __hash__(self) -> int:
+        return hash((self.name, self.values))
 
     def to_dict(self) -> dict[str, object]:
-        out: dict[str, object] = {"name": self.name}
-        if self.pion_mass_mev is not None:
-            out["pion_mass_mev"] = self.pion_mass_mev
-        if self.mu_mev is not None:
-            out["mu_mev"] = self.mu_mev
-        if self.gap_mev is not None:
-            out["gap_mev"] = self.gap_mev
-        return out
+        return {"name": self.name, **dict(self.values)}
 
     def describe(self) -> str:
-        if self.name == "lbar":
-            return f"lbar at M_pi = {self.pion_mass_mev:g} MeV"
-        if self.name == "lr":
-            return f"l^r(mu) at mu = {self.mu_mev:g} MeV"
-        if self.name == "Lr":
-            return f"SU(3) L_i^r(mu) at mu = {self.mu_mev:g} MeV"
-        if self.name == "dimensionful":
-            return f"dimensionful coefficients with mass gap M = {self.gap_mev:g} MeV"
-        if self.name == "projective":
-            return "projective dimensionless ratios (g_k M^(2k-4) / g2)"
-        return "untransformed"
+        if self.text:
+            return self.text.format(**dict(self.values))
+        return "untransformed" if self.name == NONE else self.name
+
+
+def make_convention(spec: ConventionSpec, **values: float | None) -> Convention:
+    """A convention of ``spec`` with its kinematic values."""
+    return Convention(spec.name, spec.text, **values)
 
 
 @dataclass(frozen=True)
@@ -120,62 +140,3 @@ class AffineMap:
             "names_in": list(self.names_in),
             "names_out": list(self.names_out),
         }
-
-
-def lec_index(name: str) -> int | None:
-    """The index i of an SU(2) constant named ``lbar<i>`` or ``l<i>``; None otherwise."""
-    for prefix in ("lbar", "lr", "l"):
-        if name.startswith(prefix) and name[len(prefix):].isdigit():
-            i = int(name[len(prefix):])
-            return i if i in GAMMA_SU2 else None
-    return None
-
-
-def su2_scalar_map(index: int, source: Convention, target: Convention) -> tuple[float, float]:
-    """Scale a and shift c with target = a * source + c for the SU(2) constant l_index.
-
-    Goes through the mass-independent l^r(mu) of Gasser & Leutwyler (1984), Eq. (9.6).
-    """
-    gamma = GAMMA_SU2[index]
-    # source -> l^r at the source's own scale, written as lr = a1 * x + c1
-    if source.name == "lbar":
-        assert source.pion_mass_mev is not None  # guaranteed by the loaders
-        a1 = gamma / (32 * math.pi**2)
-        ref_mu = DEFAULT_MU_MEV
-        c1 = a1 * math.log(source.pion_mass_mev**2 / ref_mu**2)
-    elif source.name == "lr":
-        assert source.mu_mev is not None
-        a1, c1, ref_mu = 1.0, 0.0, source.mu_mev
-    else:
-        raise ValueError(f"no map from convention '{source.name}' for l{index}")
-    # l^r(mu) -> l^r(mu'): l^r(mu') = l^r(mu) + gamma/(32 pi^2) ln(mu^2/mu'^2)
-    if target.name == "lbar":
-        assert target.pion_mass_mev is not None
-        a2 = 32 * math.pi**2 / gamma
-        c2 = -math.log(target.pion_mass_mev**2 / ref_mu**2)
-        return a2 * a1, a2 * c1 + c2
-    if target.name == "lr":
-        assert target.mu_mev is not None
-        run = gamma / (32 * math.pi**2) * math.log(ref_mu**2 / target.mu_mev**2)
-        return a1, c1 + run
-    raise ValueError(f"no map to convention '{target.name}' for l{index}")
-
-
-def affine_map(
-    names: tuple[str, ...], sources: tuple[Convention, ...], targets: tuple[Convention, ...]
-) -> AffineMap:
-    """The diagonal affine map that moves each parameter from its source convention to its target.
-
-    Parameters whose source or target convention is ``none`` are passed through unchanged.
-    """
-    n = len(names)
-    jac = np.eye(n)
-    shift = np.zeros(n)
-    for k, (name, src, tgt) in enumerate(zip(names, sources, targets, strict=True)):
-        if src.name == "none" or tgt.name == "none" or src == tgt:
-            continue
-        index = lec_index(name)
-        if index is None:
-            raise ValueError(f"parameter '{name}' has no SU(2) convention map")
-        jac[k, k], shift[k] = su2_scalar_map(index, src, tgt)
-    return AffineMap(jac, shift, names, names)

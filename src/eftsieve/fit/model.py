@@ -14,7 +14,6 @@ Nothing is ever repaired silently.
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -22,13 +21,11 @@ from typing import Any
 import numpy as np
 
 from eftsieve.errors import InputError
-from eftsieve.fit.conventions import CONVENTION_NAMES, Convention
+from eftsieve.fit.conventions import NONE, Convention, ConventionSpec, make_convention
 from eftsieve.io.samples import SamplesSource, detect_format
 from eftsieve.tolerances import PSD_TOL, SYMMETRY_TOL
 
 FORMAT_VERSION = 1
-KINEMATIC_KEYS = ("pion_mass_mev", "fpi_mev", "mu_mev", "gap_mev", "kaon_mass_mev",
-                  "eta_mass_mev")
 
 
 @dataclass(frozen=True)
@@ -131,46 +128,8 @@ class Fit:
         return out
 
 
-def read_card(path: str | Path) -> dict[str, Any]:
-    """Read a YAML or JSON fit card into a dict, with clear errors."""
-    p = Path(path)
-    if not p.is_file():
-        raise InputError(p, None, "file not found", "check the path")
-    text = p.read_text(encoding="utf-8")
-    try:
-        if p.suffix.lower() == ".json":
-            data = json.loads(text)
-        elif p.suffix.lower() in {".yaml", ".yml"}:
-            import yaml
-
-            data = yaml.safe_load(text)
-        else:
-            raise InputError(p, None, f"unsupported fit-card extension '{p.suffix}'",
-                             "use .yaml, .yml or .json")
-    except (json.JSONDecodeError, ValueError) as err:
-        raise InputError(p, None, f"cannot parse: {err}", "fix the syntax") from err
-    except ImportError as err:  # pragma: no cover - pyyaml is a dependency
-        raise InputError(p, None, "pyyaml is needed", "pip install pyyaml") from err
-    except Exception as err:  # yaml.YAMLError has no common import here
-        if type(err).__module__.startswith("yaml"):
-            raise InputError(p, None, f"cannot parse YAML: {err}", "fix the syntax") from err
-        raise
-    if not isinstance(data, dict):
-        raise InputError(p, None, "the card must be a mapping at top level",
-                         "see docs/formats.md")
-    return data
-
-
-def load_fit(path: str | Path) -> Fit:
-    """Load and validate a fit card (YAML or JSON)."""
-    from eftsieve.fit.card import fit_from_card
-
-    p = Path(path)
-    return fit_from_card(read_card(p), p)
-
-
 def fit_from_samples(
-    path: str | Path, theory: str, convention: Convention, *, weight_column: str | None = None,
+    path: str | Path, theory: Any, convention: Convention, *, weight_column: str | None = None,
     kinematics: dict[str, float] | None = None, name: str | None = None,
 ) -> Fit:
     """A Fit from a bare samples file: every numeric column is a parameter.
@@ -179,22 +138,21 @@ def fit_from_samples(
     nuisance parameters (convention ``none``).
     """
     from eftsieve.io.samples import is_multi_file_path
-    from eftsieve.theories import get_theory
 
     p = Path(path)
     if not (p.is_file() or is_multi_file_path(p)):
         raise InputError(p, None, "file not found", "check the path")
-    th = get_theory(theory)
+    th = theory
     probe = SamplesSource(p, detect_format(p, None, "--samples"), ())
     cols = [c for c in probe.available_columns() if c != weight_column]
-    params = tuple(Parameter(c, convention if c in th.parameter_names else Convention("none"))
+    params = tuple(Parameter(c, convention if c in th.parameter_names else Convention(NONE))
                    for c in cols)
-    if not any(pp.convention.name != "none" for pp in params):
-        raise InputError(p, "columns", f"no column names a parameter of {theory}",
+    if not any(pp.convention.name != NONE for pp in params):
+        raise InputError(p, "columns", f"no column names a parameter of {th.name}",
                          f"accepted names: {', '.join(th.parameter_names)}")
     source = SamplesSource(p, probe.fmt, tuple(cols), weight_column)
     source.validate_columns()
-    fit = Fit(name or p.stem, theory, params, dict(kinematics or {}), samples=source, source=p)
+    fit = Fit(name or p.stem, th.name, params, dict(kinematics or {}), samples=source, source=p)
     th.validate_fit(fit)
     return fit
 
@@ -221,38 +179,34 @@ def check_covariance(cov: np.ndarray, n: int, path: Path | None, field_name: str
 
 
 def parse_convention(raw: Any, kin: dict[str, float], path: Path | None, where: str,
-                     needs_convention: bool) -> Convention:
-    """Parse a convention entry (a name or a mapping) and check its scale or mass."""
+                     needs_convention: bool, specs: dict[str, ConventionSpec]) -> Convention:
+    """Parse a convention entry (a name or a mapping) and check the kinematics it needs.
+
+    ``specs`` are the conventions the fit's theory offers
+    (:attr:`eftsieve.theories.base.Theory.convention_specs`).
+    """
+    accepted = ", ".join([*specs, NONE])
     if raw is None:
-        raw = "none" if not needs_convention else None
+        raw = NONE if not needs_convention else None
     if raw is None:
-        raise InputError(path, where, "missing convention",
-                         f"state one of {', '.join(CONVENTION_NAMES)}")
+        raise InputError(path, where, "missing convention", f"state one of {accepted}")
     extra: dict[str, Any] = {}
     if isinstance(raw, dict):
         extra = dict(raw)
         raw = extra.pop("name", None)
-    if raw not in CONVENTION_NAMES:
-        raise InputError(path, where, f"unknown convention '{raw}'",
-                         f"use one of {', '.join(CONVENTION_NAMES)}")
-    need = CONVENTION_NEEDS.get(raw)
-    if need is None:
-        return Convention(raw)
-    key, what = need
-    value = extra.get(key, kin.get(key))
-    if value is None:
-        raise InputError(path, where, f"convention '{raw}' needs {what}",
-                         f"add kinematics.{key} (MeV)")
-    return Convention(raw, **{key: _positive(value, path, f"{where}.{key}")})
-
-
-#: the kinematic input each convention needs: (field of Convention and card, meaning)
-CONVENTION_NEEDS = {
-    "lbar": ("pion_mass_mev", "the pion mass it is defined at"),
-    "lr": ("mu_mev", "its renormalisation scale"),
-    "Lr": ("mu_mev", "its renormalisation scale"),
-    "dimensionful": ("gap_mev", "the mass gap M"),
-}
+    if raw == NONE:
+        return Convention(NONE)
+    if raw not in specs:
+        raise InputError(path, where, f"unknown convention '{raw}'", f"use one of {accepted}")
+    spec = specs[raw]
+    values = {}
+    for key, what in spec.needs:
+        value = extra.get(key, kin.get(key))
+        if value is None:
+            raise InputError(path, where, f"convention '{raw}' needs {what}",
+                             f"add kinematics.{key} (MeV)")
+        values[key] = _positive(value, path, f"{where}.{key}")
+    return make_convention(spec, **values)
 
 
 def _positive(x: Any, path: Path | None, where: str) -> float:

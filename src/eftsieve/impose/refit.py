@@ -29,7 +29,8 @@ from typing import Any
 import numpy as np
 
 from eftsieve.errors import ConvergenceWarning, InputError, SamplingError
-from eftsieve.fit.model import Fit, check_covariance, read_card
+from eftsieve.fit.card import read_card
+from eftsieve.fit.model import Fit, check_covariance
 from eftsieve.impose.core import ImposeResult, ImposeSettings, _with_moments
 from eftsieve.region.model import Region
 from eftsieve.theories.base import CoordinateMap
@@ -132,7 +133,8 @@ def observables_loglike(data: ObservableData, fit: Fit) -> Callable[[np.ndarray]
     The fit's constants (in its conventions) are mapped to lbar at each observable's own
     pion mass (exact affine maps of :mod:`eftsieve.fit.conventions`).
     """
-    from eftsieve.fit.conventions import Convention, affine_map, lec_index
+    from eftsieve.fit.conventions import Convention
+    from eftsieve.theories.chpt_su2.conventions import affine_map, lec_index
     from eftsieve.theories.chpt_su2.observables import threshold_parameters
 
     idx = {}

@@ -16,7 +16,7 @@ from typing import Any
 from eftsieve.errors import InputError
 
 
-def _umask_mode() -> int:
+def umask_mode() -> int:
     """The mode a plain open() would give a new file (0o666 minus the umask)."""
     mask = os.umask(0)
     os.umask(mask)
@@ -52,7 +52,7 @@ def atomic_write_with(path: str | Path, writer) -> Path:
     os.close(fd)
     try:
         writer(Path(tmp))
-        os.chmod(tmp, _umask_mode())
+        os.chmod(tmp, umask_mode())
         os.replace(tmp, p)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

@@ -175,6 +175,11 @@ class SamplesSource:
     weight_column: str | None = None
 
     @property
+    def weighted(self) -> bool:
+        """True when the rows carry weights."""
+        return self.weight_column is not None
+
+    @property
     def is_multi_file(self) -> bool:
         """True when the path is a directory or a glob pattern."""
         return is_multi_file_path(self.path)

@@ -1,27 +1,37 @@
 """Building regions by theory name, and describing them in a few lines.
 
-Use :func:`build_region` from scripts; the command line calls it for ``eftsieve region``
-and ``eftsieve check`` without ``--region``.
+Use :func:`eftsieve.build_region` from scripts; :func:`build_regions` builds several
+independent regions with an executor (:mod:`eftsieve.executors`) chosen by the caller.
 """
 
 from __future__ import annotations
 
+import warnings
+from collections.abc import Sequence
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from eftsieve.errors import InputError
+from eftsieve.executors import Executor, InputFailure, raise_failures, serial
 from eftsieve.region.model import Region
 
 
-def build_region(theory: str, settings: dict[str, Any]) -> Region:
-    """Build the region of ``theory`` with the given settings (missing keys: defaults)."""
+def build_region(theory: str, settings: dict[str, Any],
+                 executor: Executor | None = None) -> Region:
+    """Build the region of ``theory``; unknown settings are an error naming the known ones.
+
+    ``executor`` runs the independent solves of theories that have them
+    (``Theory.parallel_build``); it never enters the region or its hash.
+    """
     from eftsieve.theories import get_theory
 
     try:
         th = get_theory(theory)
     except KeyError as err:
         raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
-    return th.build_region(settings)
+    th.check_settings(settings)
+    return th.build_region(dict(settings), executor=executor or serial)
 
 
 def describe_region(region: Region, path: str | Path | None = None) -> str:
@@ -37,3 +47,72 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
                      "positive spectra: consistent with every sum rule used)")
     lines.append(f"  hash {region.hash[:16]}")
     return "\n".join(lines)
+
+
+@dataclass(frozen=True)
+class RegionTask:
+    """One region build: ``build_region(theory, settings)``.
+
+    Attributes
+    ----------
+    theory
+        The theory name.
+    settings
+        The build settings.
+    label
+        A name for messages (default: theory and settings).
+    """
+
+    theory: str
+    settings: dict[str, Any]
+    label: str | None = None
+
+    def name(self, index: int, n: int) -> str:
+        what = self.label or f"{self.theory} {self.settings}"
+        return f"region build {index} of {n} ({what})"
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"theory": self.theory, "settings": dict(self.settings), "label": self.label}
+
+
+def build_region_task(theory: str, settings: dict[str, Any]
+                      ) -> tuple[Region, list[tuple[type[Warning], str]]] | InputFailure:
+    """Build one region (on a worker); its warnings are returned to be re-issued."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            region = build_region(theory, settings)
+        except InputError as err:
+            return InputFailure(-1, err.path, err.field, err.problem, err.hint)
+    return region, [(w.category, str(w.message)) for w in caught]
+
+
+def build_regions(tasks: Sequence[RegionTask | tuple[str, dict[str, Any]]],
+                  executor: Executor = serial) -> list[Region]:
+    """Build independent regions with ``executor``; the regions in task order.
+
+    Each task is a :class:`RegionTask` or a ``(theory, settings)`` pair.  Warnings raised
+    by a build (e.g. :class:`~eftsieve.errors.KinematicsWarning`) are re-issued here, and
+    a task that stopped on invalid input raises its InputError.
+    """
+    todo = [t if isinstance(t, RegionTask) else RegionTask(t[0], dict(t[1])) for t in tasks]
+    names = [t.name(i, len(todo)) for i, t in enumerate(todo)]
+    results = executor(build_region_task, [(t.theory, t.settings) for t in todo], names)
+    raise_failures(results)
+    out = []
+    for name, (region, caught) in zip(names, results, strict=True):
+        for category, message in caught:
+            warnings.warn(f"{name}: {message}", category, stacklevel=2)
+        out.append(region)
+    return out
+
+
+def parallel_region_builds(tasks: Sequence[RegionTask | tuple[str, dict[str, Any]]],
+                           scheduler: str | None = None, *, retries: int = 2,
+                           timeout: float | None = None) -> list[Region]:
+    """:func:`build_regions` on a Dask cluster (``scheduler``, or a local one)."""
+    from eftsieve.executors import dask_map
+    from eftsieve.io.dask_client import require_dask
+
+    require_dask()
+    return build_regions(tasks, dask_map(scheduler, retries=retries, timeout=timeout))

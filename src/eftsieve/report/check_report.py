@@ -6,6 +6,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
+from eftsieve.check.result import WorstPoint
 from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
 from eftsieve.report.cautions import ASSUMPTIONS, cautions_for
@@ -154,11 +155,11 @@ def uncertainty_block(s: dict[str, Any], region: Region) -> list:
             Table(("facet", "inequality", "sigma of the offset (median)", "Q"), tuple(frows))]
 
 
-def worst_block(worst: tuple[dict[str, Any], ...], limit: int = 10) -> list:
+def worst_block(worst: tuple[WorstPoint, ...], limit: int = 10) -> list:
     if not worst:
         return [Heading("Flagged points"), Para("No point violates a facet.")]
-    rows = tuple((str(w["row"]), ", ".join(_g(v, ".5g") for v in w["region_point"]),
-                  _g(w["min_margin"], ".4g"), w["facet"]) for w in worst[:limit])
+    rows = tuple((str(w.row), ", ".join(_g(v, ".5g") for v in w.region_point),
+                  _g(w.min_margin, ".4g"), w.facet) for w in worst[:limit])
     return [Heading("Most violated points"),
             Para("All outside and marginal rows, with every margin and certificate, are in "
                  "`flagged.csv`."),
@@ -171,7 +172,7 @@ def cautions_block(theory: str) -> list:
 
 
 def check_document(fit: Fit, region: Region, summary: dict[str, Any],
-                   worst: tuple[dict[str, Any], ...], images: dict[str, Path]) -> Document:
+                   worst: tuple[WorstPoint, ...], images: dict[str, Path]) -> Document:
     doc = Document(f"Positivity check: {fit.name}")
     doc.add(*fit_block(fit), *region_block(region), *mapping_block(summary),
             *stats_block(summary),

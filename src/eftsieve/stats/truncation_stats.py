@@ -20,7 +20,8 @@ from scipy import stats as sps
 
 from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
-from eftsieve.stats.accumulate import Accumulator, bayes_factor
+from eftsieve.stats.accumulate import Accumulator
+from eftsieve.stats.bayes import bayes_factor, draw_prior
 from eftsieve.stats.truncation import FacetUncertainty, prob_satisfies
 from eftsieve.theories.base import CoordinateMap
 
@@ -47,8 +48,6 @@ def prior_soft_probability(fit: Fit, region: Region, cmap: CoordinateMap,
                            fu: FacetUncertainty, seed: int,
                            n: int = 200_000) -> tuple[float | None, float | None, str]:
     """E_prior[P(satisfies)] by Monte Carlo over the fit card's prior."""
-    from eftsieve.check.run import draw_prior
-
     x, why = draw_prior(fit, cmap, n, np.random.default_rng(seed + 5))
     if x is None:
         return None, None, why

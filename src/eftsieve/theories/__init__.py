@@ -1,26 +1,36 @@
-"""Theories: named amplitude models with their parameter spaces.
+"""Theories: named amplitude models with their parameter spaces, as plug-ins.
 
-Use :func:`get_theory` to get a theory by name and :func:`available_theories` to list
-them.  Each theory module is imported only when asked for.
+Each theory is a sub-package ``eftsieve.theories.<name>`` whose ``theory`` module holds
+a ``THEORY`` object (a :class:`~eftsieve.theories.base.Theory`).  Registering a theory
+is one line of :data:`REGISTRY`; nothing outside this package names a theory.  Use
+:func:`get_theory` to get one by name, :func:`available_theories` to list them, and
+:func:`coordinate_map` for the map of a fit onto a region (through a matching when the
+fit belongs to another theory).
 """
 
 from __future__ import annotations
 
 from importlib import import_module
+from typing import TYPE_CHECKING
 
-from eftsieve.theories.base import Theory
+from eftsieve.theories.base import CoordinateMap, Theory
 
-_REGISTRY = {
+if TYPE_CHECKING:
+    from eftsieve.fit.model import Fit
+    from eftsieve.region.model import Region
+
+#: theory name -> module holding ``THEORY`` (imported only when asked for)
+REGISTRY = {
     "chpt-su2": "eftsieve.theories.chpt_su2.theory",
-    "scalar-eft": "eftsieve.theories.scalar_eft.theory",
     "chpt-su3": "eftsieve.theories.chpt_su3.theory",
+    "scalar-eft": "eftsieve.theories.scalar_eft.theory",
 }
 
 
 def available_theories() -> tuple[str, ...]:
     """Names of the theories that this installation provides."""
     names = []
-    for name, mod in _REGISTRY.items():
+    for name, mod in REGISTRY.items():
         try:
             import_module(mod)
         except ModuleNotFoundError:
@@ -31,10 +41,31 @@ def available_theories() -> tuple[str, ...]:
 
 def get_theory(name: str) -> Theory:
     """The theory called ``name``; KeyError with the accepted names otherwise."""
-    if name not in _REGISTRY:
+    if name not in REGISTRY:
         raise KeyError(f"unknown theory '{name}'; accepted: {', '.join(available_theories())}")
-    theory: Theory = import_module(_REGISTRY[name]).THEORY
+    theory: Theory = import_module(REGISTRY[name]).THEORY
     return theory
 
 
-__all__ = ["Theory", "available_theories", "get_theory"]
+def coordinate_map(fit: Fit, region: Region) -> CoordinateMap:
+    """The map of ``fit``'s parameters to ``region``'s coordinates.
+
+    The region's theory maps a fit of its own; a fit of another theory goes through that
+    theory's matching onto the region's (e.g. an SU(3) fit onto an SU(2) region), and
+    without one the pair is refused with an InputError.  Every engine calls this one
+    function, so every engine accepts the same pairs.
+    """
+    if fit.theory == region.theory:
+        return get_theory(region.theory).coordinate_map(fit, region)
+    try:
+        source = get_theory(fit.theory)
+    except KeyError as err:
+        from eftsieve.errors import InputError
+
+        raise InputError(fit.source, "theory", str(err.args[0]), "run `eftsieve theories`"
+                         ) from err
+    return source.matching_map(fit, region)
+
+
+__all__ = ["REGISTRY", "CoordinateMap", "Theory", "available_theories", "coordinate_map",
+           "get_theory"]

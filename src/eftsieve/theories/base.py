@@ -8,11 +8,14 @@ into the statistics of ``check`` or ``impose``.
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from eftsieve.executors import Executor, serial
+from eftsieve.fit.conventions import ConventionSpec
 from eftsieve.tolerances import MARGINAL_BAND
 
 if TYPE_CHECKING:
@@ -72,14 +75,54 @@ class Theory(ABC):
     parameter_names: tuple[str, ...] = ()
     #: the region's coordinates
     coordinates: tuple[str, ...] = ()
-    conventions: tuple[str, ...] = ()
+    #: the conventions its parameters may be stated in, by name
+    convention_specs: dict[str, ConventionSpec] = {}
     #: kinematic inputs: key -> (meaning, default or None)
     kinematic_inputs: dict[str, tuple[str, float | None]] = {}
     families: tuple[str, ...] = ()
+    #: the settings :meth:`build_region` accepts (unknown ones are an error)
+    setting_names: tuple[str, ...] = ()
+    #: what every report on this theory's regions must say besides the shared assumptions
+    cautions: tuple[str, ...] = ()
+    #: matchings onto other theories' regions: target theory -> "module:function", a
+    #: function (fit, region) -> CoordinateMap (imported only when used)
+    matchings: dict[str, str] = {}
+    #: whether a region build can use an executor for independent solves
+    parallel_build: bool = False
+
+    @property
+    def conventions(self) -> tuple[str, ...]:
+        """The names of the conventions its parameters may be stated in."""
+        return tuple(self.convention_specs)
+
+    def check_settings(self, settings: dict[str, Any]) -> None:
+        """Refuse settings this theory does not know, naming the ones it does."""
+        unknown = sorted(set(settings) - set(self.setting_names))
+        if unknown:
+            from eftsieve.errors import InputError
+
+            raise InputError(None, unknown[0], f"{self.name} has no region setting "
+                             f"'{unknown[0]}'", f"known settings: {', '.join(self.setting_names)}")
+
+    def matching_map(self, fit: Fit, region: Region) -> CoordinateMap:
+        """The map of a fit of this theory onto a region of another theory (a matching)."""
+        from importlib import import_module
+
+        from eftsieve.errors import InputError
+
+        target = self.matchings.get(region.theory)
+        if target is None:
+            raise InputError(None, "theory", f"region is for '{region.theory}' but the fit "
+                             f"is '{self.name}', and no matching between them is known",
+                             "build the region for the fit's theory")
+        module, func = target.split(":")
+        fn: Callable[[Fit, Region], CoordinateMap] = getattr(import_module(module), func)
+        return fn(fit, region)
 
     def describe(self) -> dict[str, Any]:
         """What ``eftsieve theories`` prints."""
         return {"name": self.name, "summary": self.summary,
+                "matchings": sorted(self.matchings),
                 "parameters": list(self.parameter_names),
                 "region_coordinates": list(self.coordinates),
                 "conventions": list(self.conventions),
@@ -91,8 +134,9 @@ class Theory(ABC):
         """Theory-specific semantic checks of a fit (raise InputError); none by default."""
 
     @abstractmethod
-    def build_region(self, settings: dict[str, Any]) -> Region:
-        """Build the region for the given settings."""
+    def build_region(self, settings: dict[str, Any], executor: Executor = serial) -> Region:
+        """Build the region for the given settings; ``executor`` maps independent solves
+        (it is the caller's choice and never enters the region)."""
 
     @abstractmethod
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:

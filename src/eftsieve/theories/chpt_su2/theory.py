@@ -41,17 +41,20 @@ from eftsieve.bounds.fixed_t import (
     t_derivative_combination,
 )
 from eftsieve.errors import InputError, KinematicsWarning
-from eftsieve.fit.conventions import (
-    DEFAULT_FPI_MEV,
-    DEFAULT_MU_MEV,
-    DEFAULT_PION_MASS_MEV,
-    Convention,
-    affine_map,
-    su2_scalar_map,
-)
+from eftsieve.executors import Executor, serial
+from eftsieve.fit.conventions import Convention
 from eftsieve.region.model import Facet, Region, irredundant
 from eftsieve.theories.base import CoordinateMap, Theory
 from eftsieve.theories.chpt_su2 import amplitude as pipi
+from eftsieve.theories.chpt_su2.conventions import (
+    CONVENTIONS,
+    DEFAULT_FPI_MEV,
+    DEFAULT_MU_MEV,
+    DEFAULT_PION_MASS_MEV,
+    affine_map,
+    convention,
+    lec_index,
+)
 from eftsieve.tolerances import MARGINAL_BAND, SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
@@ -181,6 +184,20 @@ def region_settings(families: tuple[str, ...] = FAMILIES,
             "convention": convention, "mu_mev": float(mu_mev), "grid": grid}
 
 
+#: cautions printed in every report on a chpt-su2 region (docs/physics.md)
+CAUTIONS = (
+    "The chpt-su2 bounds apply the exact inequalities to the one-loop (O(p^4)) amplitude: "
+    "they hold up to O(p^6) corrections, which grow with the pion mass and towards the "
+    "edge t -> 4 M_pi^2 of the kinematic domain.",
+    "Isospin limit: m_u = m_d and no electromagnetism; the charged and neutral pion "
+    "masses are equal.",
+    "Above M_pi ~ 400 MeV one-loop SU(2) ChPT itself is not trusted; bounds evaluated there "
+    "are flagged with a warning.",
+    "A point outside is in tension with causality, unitarity and crossing only within "
+    "the truncation; it is not a proof that the underlying theory is inconsistent.",
+)
+
+
 class ChptSU2(Theory):
     """One-loop SU(2) ChPT pi-pi scattering (Gasser & Leutwyler 1984)."""
 
@@ -188,7 +205,10 @@ class ChptSU2(Theory):
     summary = "one-loop SU(2) ChPT pi-pi scattering; positivity bounds on lbar1, lbar2"
     parameter_names = ("lbar1", "lbar2", "lbar3", "lbar4", "l1", "l2", "l3", "l4")
     coordinates = ("lbar1", "lbar2")
-    conventions = ("lbar", "lr")
+    convention_specs = CONVENTIONS
+    setting_names = ("families", "pion_masses_mev", "pion_mass_mev", "fpi_mev",
+                     "convention", "mu_mev", "grid")
+    cautions = CAUTIONS
     kinematic_inputs = {
         "pion_mass_mev": ("pion mass M_pi in MeV (lbar convention; region kinematics)",
                           DEFAULT_PION_MASS_MEV),
@@ -197,7 +217,14 @@ class ChptSU2(Theory):
     }
     families = FAMILIES
 
-    def build_region(self, settings: dict[str, Any]) -> Region:
+    def build_region(self, settings: dict[str, Any], executor: Executor = serial) -> Region:
+        settings = dict(settings)
+        if "pion_mass_mev" in settings:  # one mass, spelled as the fit card spells it
+            if "pion_masses_mev" in settings:
+                raise InputError(None, "pion_mass_mev", "give pion_mass_mev or "
+                                 "pion_masses_mev, not both", "drop one")
+            settings["pion_masses_mev"] = [settings.pop("pion_mass_mev")]
+        self.check_settings(settings)
         st = region_settings(tuple(settings.get("families", FAMILIES)),
                              tuple(settings.get("pion_masses_mev", (DEFAULT_PION_MASS_MEV,))),
                              settings.get("fpi_mev", DEFAULT_FPI_MEV),
@@ -217,13 +244,13 @@ class ChptSU2(Theory):
             facets = [Facet(f.normal, f.offset, f.family, f.channel,
                             {**f.point, "pion_mass_mev": m}, f.value, f.status, f.extra)
                       for f in base]
-            conv = Convention("lbar", pion_mass_mev=m)
+            conv = convention("lbar", pion_mass_mev=m)
             coords = ("lbar1", "lbar2")
         else:
-            conv = Convention("lr", mu_mev=st["mu_mev"])
+            conv = convention("lr", mu_mev=st["mu_mev"])
             coords = ("l1", "l2")
             for m in st["pion_masses_mev"]:
-                facets += _map_facets(base, Convention("lbar", pion_mass_mev=m), conv, m)
+                facets += _map_facets(base, convention("lbar", pion_mass_mev=m), conv, m)
         kept = irredundant(facets)
         conv_d = {**conv.to_dict(), "fpi_mev": st["fpi_mev"]}
         notes = ("F_pi does not enter the one-loop bounds on lbar1, lbar2 (it is recorded only)",
@@ -251,8 +278,6 @@ class ChptSU2(Theory):
 
     def validate_fit(self, fit: Fit) -> None:
         found: dict[int | None, str] = {}
-        from eftsieve.fit.conventions import lec_index
-
         for i, p in enumerate(fit.parameters):
             if p.convention.name in ("lbar", "lr"):
                 idx = lec_index(p.name)
@@ -267,14 +292,7 @@ class ChptSU2(Theory):
                                  "use lbar or lr")
 
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
-        from eftsieve.fit.conventions import lec_index
-
-        target = Convention(str(region.convention["name"]),
-                            region.convention.get("pion_mass_mev"),
-                            region.convention.get("mu_mev"))
-        if not any(p.convention.name in ("lbar", "lr") for p in fit.parameters) and any(
-                p.convention.name == "Lr" for p in fit.parameters):
-            return _su3_fit_map(fit, region, target)
+        target = region_convention(region)
         jac = np.zeros((2, len(fit.parameters)))
         shift = np.zeros(2)
         desc = []
@@ -294,35 +312,11 @@ class ChptSU2(Theory):
         return CoordinateMap(jac, shift, tuple(desc))
 
 
-def _su3_fit_map(fit: Fit, region: Region, target: Convention) -> CoordinateMap:
-    """An SU(3) fit of L1, L2, L3 at mu mapped onto this region through the one-loop
-    matching of Gasser & Leutwyler, Nucl. Phys. B250 (1985) 465 (see chpt_su3), then from
-    l^r(mu) to the region's convention.  Valid to the order of the matching."""
-    from eftsieve.theories.chpt_su3.theory import su2_matching_map
-
-    cols = {}
-    for i, p in enumerate(fit.parameters):
-        name = p.name.rstrip("r")
-        if p.convention.name == "Lr" and name in ("L1", "L2", "L3"):
-            cols[name] = i
-    if sorted(cols) != ["L1", "L2", "L3"]:
-        raise InputError(fit.source, "parameters", "matching to SU(2) needs L1, L2 and L3",
-                         "fit all three (convention Lr)")
-    mu = fit.parameters[cols["L1"]].convention.mu_mev
-    assert mu is not None
-    mk = float(fit.kinematics.get("kaon_mass_mev", 493.68))
-    match = su2_matching_map(mu, mk)
-    jac = np.zeros((2, len(fit.parameters)))
-    shift = np.zeros(2)
-    desc = []
-    for k, idx in enumerate((1, 2)):
-        a, c = su2_scalar_map(idx, Convention("lr", mu_mev=mu), target)
-        for j, name in enumerate(("L1", "L2", "L3")):
-            jac[k, cols[name]] = a * match.jacobian[k, j]
-        shift[k] = a * match.shift[k] + c
-        desc.append(f"{region.coordinates[k]} from l{idx}^r(mu = {mu:g} MeV) by the one-loop "
-                    f"SU(3) -> SU(2) matching (M_K = {mk:g} MeV)")
-    return CoordinateMap(jac, shift, tuple(desc))
+def region_convention(region: Region) -> Convention:
+    """The convention of a chpt-su2 region's coordinates (``lbar`` at M_pi or ``lr`` at mu)."""
+    name = str(region.convention["name"])
+    key = "pion_mass_mev" if name == "lbar" else "mu_mev"
+    return convention(name, **{key: region.convention.get(key)})
 
 
 THEORY = ChptSU2()
@@ -349,9 +343,9 @@ def _power_counting(region: Region, breakdown_mev: float | None) -> tuple[np.nda
         n = np.asarray(f.normal, dtype=float)
         x = n * f.offset / (n @ n)
         if conv_name == "lr":
-            src = Convention("lr", mu_mev=float(region.convention["mu_mev"]))
+            src = convention("lr", mu_mev=float(region.convention["mu_mev"]))
             amap = affine_map(("l1", "l2"), (src, src),
-                              (Convention("lbar", pion_mass_mev=m),) * 2)
+                              (convention("lbar", pion_mass_mev=m),) * 2)
             x = amap.apply_points(x)
         x1, x2 = CHANNELS[f.channel]
         f_over_m = fpi / m

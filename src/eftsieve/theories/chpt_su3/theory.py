@@ -29,15 +29,15 @@ import numpy as np
 
 from eftsieve.bounds.fixed_t import ScanSettings, best_facet, smallest_entry_one
 from eftsieve.errors import InputError
-from eftsieve.fit.conventions import (
+from eftsieve.executors import Executor, serial
+from eftsieve.fit.conventions import AffineMap, Convention, ConventionSpec
+from eftsieve.region.model import Facet, Region, irredundant
+from eftsieve.theories.base import CoordinateMap, Theory
+from eftsieve.theories.chpt_su2.conventions import (
     DEFAULT_FPI_MEV,
     DEFAULT_MU_MEV,
     DEFAULT_PION_MASS_MEV,
-    AffineMap,
-    Convention,
 )
-from eftsieve.region.model import Facet, Region, irredundant
-from eftsieve.theories.base import CoordinateMap, Theory
 from eftsieve.theories.chpt_su3.channels import CHANNELS, PROCESSES, ChannelFunctionals
 from eftsieve.tolerances import SMALL_COORDINATE_BAND
 
@@ -148,6 +148,23 @@ def channel_facets(st: dict[str, Any]) -> tuple[list[Facet], list[str]]:
     return facets, skipped
 
 
+#: cautions printed in every report on a chpt-su3 region (docs/physics.md)
+CAUTIONS = (
+    "The chpt-su3 bounds apply the exact inequalities to the one-loop (O(p^4)) SU(3) "
+    "amplitudes with the physical M_pi, M_K, M_eta: they hold up to O(p^6) corrections, "
+    "larger than in SU(2) (the expansion is in M_K/(4 pi F)), largest near "
+    "t -> 4 M_pi^2 and for pi K near s = 9 M_pi^2.",
+    "With physical masses only processes whose lowest s- and u-channel thresholds are "
+    "their elastic ones enter (pi pi, pi K); the others are listed as skipped above, since "
+    "positivity of their absorptive parts below the elastic threshold is not provable.",
+    "L_i^r(mu) are in the scheme of Gasser & Leutwyler, Nucl. Phys. B250 (1985) 465, at the "
+    "region's mu; a fit at another scale is run there with the one-loop Gamma_i.",
+    "Isospin limit: m_u = m_d and no electromagnetism.",
+    "A point outside is in tension with causality, unitarity and crossing only within "
+    "the truncation; it is not a proof that the underlying theory is inconsistent.",
+)
+
+
 class ChptSU3(Theory):
     """One-loop SU(3) ChPT meson-meson scattering (Gasser & Leutwyler 1985)."""
 
@@ -155,7 +172,14 @@ class ChptSU3(Theory):
     summary = "one-loop SU(3) ChPT meson-meson scattering; positivity bounds on L1, L2, L3"
     parameter_names = tuple(f"L{i}" for i in range(1, 9)) + tuple(f"L{i}r" for i in range(1, 9))
     coordinates = COORDINATES
-    conventions = (CONVENTION,)
+    convention_specs = {CONVENTION: ConventionSpec(
+        CONVENTION, (("mu_mev", "its renormalisation scale"),),
+        "SU(3) L_i^r(mu) at mu = {mu_mev:g} MeV")}
+    setting_names = ("families", "pion_mass_mev", "pion_masses_mev", "kaon_mass_mev",
+                     "eta_mass_mev", "mu_mev", "fpi_mev", "grid", "loops", "processes",
+                     "convention")
+    cautions = CAUTIONS
+    matchings = {"chpt-su2": "eftsieve.theories.chpt_su3.matching:su3_fit_map"}
     kinematic_inputs = {
         "pion_mass_mev": ("pion mass M_pi in MeV", DEFAULT_PION_MASS_MEV),
         "kaon_mass_mev": ("kaon mass M_K in MeV", DEFAULT_KAON_MASS_MEV),
@@ -165,7 +189,7 @@ class ChptSU3(Theory):
     }
     families = FAMILIES
 
-    def build_region(self, settings: dict[str, Any]) -> Region:
+    def build_region(self, settings: dict[str, Any], executor: Executor = serial) -> Region:
         settings = dict(settings)
         if "pion_masses_mev" in settings:  # the CLI's --pion-mass
             masses = list(settings.pop("pion_masses_mev"))

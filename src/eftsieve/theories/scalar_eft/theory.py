@@ -60,6 +60,8 @@ import numpy as np
 
 from eftsieve.bounds.sum_rules import SumRuleSolver, VerifySettings
 from eftsieve.errors import InputError, SolverError
+from eftsieve.executors import Executor, serial
+from eftsieve.fit.conventions import ConventionSpec
 from eftsieve.region.model import Facet, Region
 from eftsieve.theories.base import CoordinateMap, Theory
 from eftsieve.theories.scalar_eft.sum_rules import (
@@ -129,7 +131,6 @@ def low_energy_amplitude(couplings: dict[str, float], s: np.ndarray, t: np.ndarr
 DEFAULTS: dict[str, Any] = {
     "order": None, "spins": 40, "coordinates": ["g3t"], "directions": 64, "mass_points": 120,
     "y_min": 1e-4, "spin_exact_max": 2000, "verify_tol": 1e-6, "max_rounds": 25,
-    "engine": "local", "scheduler": None,
 }
 
 
@@ -186,11 +187,6 @@ def _settings(settings: dict[str, Any]) -> dict[str, Any]:
         if deg > s["order"]:
             raise InputError(None, "order", f"order {s['order']} is below the degree {deg} "
                              f"of {c}", f"use order >= {deg}")
-    if s["engine"] not in ("local", "dask"):
-        raise InputError(None, "--engine", f"unknown engine '{s['engine']}'", "local or dask")
-    if s["scheduler"] is not None and s["engine"] != "dask":
-        raise InputError(None, "--scheduler", "a scheduler address needs the dask engine",
-                         "add --engine dask")
     if s["order"] < 4 or s["spins"] < 2 or s["directions"] < 8 or s["mass_points"] < 8:
         raise InputError(None, "settings", "need order >= 4, spins >= 2, directions >= 8, "
                          "mass_points >= 8")
@@ -236,8 +232,7 @@ def _solve_direction(solver: SumRuleSolver, direction: np.ndarray) -> Any:
     return copy.deepcopy(solver).extremize(direction)
 
 
-def _two_dim(solver: SumRuleSolver, n_dir: int, engine: str = "local",
-             scheduler: str | None = None) -> Built:
+def _two_dim(solver: SumRuleSolver, n_dir: int, executor: Executor = serial) -> Built:
     """Support functions along the axes and ``n_dir`` directions (uniform in angle after
     scaling each axis by the width of the region); inner polygon = hull of the spectra."""
     from scipy.spatial import ConvexHull, QhullError
@@ -253,16 +248,14 @@ def _two_dim(solver: SumRuleSolver, n_dir: int, engine: str = "local",
     for th in 2 * np.pi * np.arange(n_dir) / n_dir:
         d = np.array([np.cos(th), np.sin(th)]) / width
         dirs.append(d / np.linalg.norm(d))
-    if engine == "dask":
-        # each direction on its own copy of the post-axes solver: independent LPs, each
-        # verified on its own (the cutting-plane states are not shared between directions)
-        from eftsieve.check.engines.dask import map_tasks
-
-        names = [f"scalar-eft direction {k} of {n_dir}" for k in range(n_dir)]
-        bounds += map_tasks(_solve_direction, [(solver, d) for d in dirs], names, scheduler)
-    else:
+    if executor is serial:
         for d in dirs:
             bounds.append(solver.extremize(d))
+    else:
+        # each direction on its own copy of the post-axes solver: independent LPs, each
+        # verified on its own (the cutting-plane states are not shared between directions)
+        names = [f"scalar-eft direction {k} of {n_dir}" for k in range(n_dir)]
+        bounds += executor(_solve_direction, [(solver, d) for d in dirs], names)
     outer = [_facet(b, b.direction, f"direction ({b.direction[0]:.6f}, {b.direction[1]:.6f})",
                     {"angle": float(np.arctan2(b.direction[1], b.direction[0]))})
              for b in bounds]
@@ -284,6 +277,29 @@ def _listed_names() -> tuple[tuple[str, ...], tuple[str, ...]]:
     return tuple(dims), tuple(n + "t" for n in dims if n != "g2")
 
 
+#: cautions printed in every report on a scalar-eft region (docs/physics.md)
+CAUTIONS = (
+    "The scalar-eft bounds assume a mass gap M below which only the massless scalar "
+    "propagates, and the low-energy expansion truncated at the stated order.",
+    "Inner points come from explicit positive spectra on a discrete grid of heavy states; "
+    "outer facets from dual functionals verified on a finer grid and asymptotically.",
+    "The inner spectra satisfy every sum rule and null constraint up to the stated order "
+    "only; higher null constraints can still exclude some of those points, so `inside` "
+    "means consistent with the bounds to that order.",
+    "The light sector is taken at tree level: loops of the massless scalar, which change "
+    "the dispersion relations, are neglected.",
+)
+
+
+#: the conventions of scalar-eft couplings
+CONVENTIONS = {
+    "projective": ConventionSpec("projective", (),
+                                 "projective dimensionless ratios (g_k M^(2k-4) / g2)"),
+    "dimensionful": ConventionSpec("dimensionful", (("gap_mev", "the mass gap M"),),
+                                   "dimensionful coefficients with mass gap M = {gap_mev:g} MeV"),
+}
+
+
 class ScalarEFT(Theory):
     """A massless real scalar with heavy states above a gap M (arXiv:2011.02957)."""
 
@@ -292,12 +308,16 @@ class ScalarEFT(Theory):
                "g_k M^(2k-4)/g2 from twice-subtracted dispersion relations and null constraints")
     parameter_names = _listed_names()[0] + _listed_names()[1]
     coordinates = ("g3t", "g4t")
-    conventions = ("projective", "dimensionful")
+    convention_specs = CONVENTIONS
     kinematic_inputs = {"gap_mev": ("mass gap M of the heavy states (MeV); needed by the "
                                     "dimensionful convention", None)}
     families = ("null-constraints",)
 
-    def build_region(self, settings: dict[str, Any]) -> Region:
+    setting_names = tuple(DEFAULTS)
+    cautions = CAUTIONS
+    parallel_build = True
+
+    def build_region(self, settings: dict[str, Any], executor: Executor = serial) -> Region:
         """Outer (verified dual) and inner (exact primal) sets; see :data:`DEFAULTS`."""
         s = _settings(settings)
         rules = derive_sum_rules(s["order"])
@@ -310,8 +330,7 @@ class ScalarEFT(Theory):
         if len(s["coordinates"]) == 1:
             outer, inner, verts = _one_dim(solver)
         else:
-            outer, inner, verts = _two_dim(solver, s["directions"], s["engine"],
-                                           s["scheduler"])
+            outer, inner, verts = _two_dim(solver, s["directions"], executor)
         conv = {"name": "projective", "definition": "g{D}t = g{D} M^(2(D-2)) / g2",
                 "amplitude": "Caron-Huot & Van Duong, arXiv:2011.02957, Eq. (2.3)",
                 "units": "mass gap M = 1"}
