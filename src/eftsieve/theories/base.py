@@ -76,6 +76,9 @@ class Theory(ABC):
     #: kinematic inputs: key -> (meaning, default or None)
     kinematic_inputs: dict[str, tuple[str, float | None]] = {}
     families: tuple[str, ...] = ()
+    #: the papers behind the theory (``eftsieve cite``): dicts with key, authors (a tuple),
+    #: title, year and a journal (with volume, pages) and/or an arXiv eprint id
+    references: tuple[dict[str, Any], ...] = ()
 
     def describe(self) -> dict[str, Any]:
         """What ``eftsieve theories`` prints."""

@@ -52,6 +52,7 @@ from eftsieve.fit.conventions import (
 from eftsieve.region.model import Facet, Region, irredundant
 from eftsieve.theories.base import CoordinateMap, Theory
 from eftsieve.theories.chpt_su2 import amplitude as pipi
+from eftsieve.theories.chpt_su2.references import REFERENCES
 from eftsieve.tolerances import MARGINAL_BAND, SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
@@ -196,6 +197,7 @@ class ChptSU2(Theory):
         "mu_mev": ("renormalisation scale mu in MeV (lr convention)", DEFAULT_MU_MEV),
     }
     families = FAMILIES
+    references = REFERENCES
 
     def build_region(self, settings: dict[str, Any]) -> Region:
         st = region_settings(tuple(settings.get("families", FAMILIES)),

@@ -39,6 +39,7 @@ from eftsieve.fit.conventions import (
 from eftsieve.region.model import Facet, Region, irredundant
 from eftsieve.theories.base import CoordinateMap, Theory
 from eftsieve.theories.chpt_su3.channels import CHANNELS, PROCESSES, ChannelFunctionals
+from eftsieve.theories.chpt_su3.references import REFERENCES
 from eftsieve.tolerances import SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
@@ -164,6 +165,7 @@ class ChptSU3(Theory):
         "mu_mev": ("renormalisation scale mu of L_i^r in MeV", DEFAULT_MU_MEV),
     }
     families = FAMILIES
+    references = REFERENCES
 
     def build_region(self, settings: dict[str, Any]) -> Region:
         settings = dict(settings)

@@ -62,6 +62,7 @@ from eftsieve.bounds.sum_rules import SumRuleSolver, VerifySettings
 from eftsieve.errors import InputError, SolverError
 from eftsieve.region.model import Facet, Region
 from eftsieve.theories.base import CoordinateMap, Theory
+from eftsieve.theories.scalar_eft.references import REFERENCES
 from eftsieve.theories.scalar_eft.sum_rules import (
     Poly,
     SumRule,
@@ -296,6 +297,7 @@ class ScalarEFT(Theory):
     kinematic_inputs = {"gap_mev": ("mass gap M of the heavy states (MeV); needed by the "
                                     "dimensionful convention", None)}
     families = ("null-constraints",)
+    references = REFERENCES
 
     def build_region(self, settings: dict[str, Any]) -> Region:
         """Outer (verified dual) and inner (exact primal) sets; see :data:`DEFAULTS`."""
