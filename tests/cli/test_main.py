@@ -8,8 +8,8 @@ import subprocess
 import sys
 import time
 
-from eftsieve.cli.main import main
 from eftsieve.cli import theories as theories_mod
+from eftsieve.cli.main import main
 
 
 def test_sigterm_is_one_line_and_143(monkeypatch, capsys):

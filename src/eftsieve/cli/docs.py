@@ -104,8 +104,8 @@ def update_cli_md(text: str, parser: argparse.ArgumentParser) -> str:
         start, end = _markers(verb)
         if table_in(text, verb) is None:
             raise ValueError(f"docs/cli.md has no '{start}' ... '{end}' block for '{verb}'")
-        text = re.sub(re.escape(start) + r"\n.*?" + re.escape(end),
-                      lambda _m, s=sub, a=start, b=end: f"{a}\n{options_table(s)}{b}",
+        block = f"{start}\n{options_table(sub)}{end}"
+        text = re.sub(re.escape(start) + r"\n.*?" + re.escape(end), lambda _m: block,
                       text, flags=re.S)
     return text
 

@@ -140,8 +140,11 @@ def refit_likelihood(fit: Fit, data: str | Path | ObservableData | None,
 
 def before_samples(fit: Fit, seed: int) -> tuple[np.ndarray, np.ndarray | None]:
     """The fit before positivity: its samples, or draws of its Gaussian summary."""
-    if fit.is_gaussian:
+    if fit.mean is not None and fit.cov is not None:
         rng = np.random.default_rng(seed + BEFORE_SEED_OFFSET)
         return rng.multivariate_normal(fit.mean, fit.cov, size=BEFORE_DRAWS), None
+    if fit.samples is None:
+        raise InputError(fit.source, "samples", "the fit has neither a mean nor samples",
+                         "give a mean and covariance or a samples file")
     chunk = fit.samples.read_all()
     return chunk.values, chunk.weights
