@@ -102,11 +102,10 @@ def update_cli_md(text: str, parser: argparse.ArgumentParser) -> str:
     """``text`` with every verb's table regenerated (markers must already be there)."""
     for verb, sub in verb_parsers(parser).items():
         start, end = _markers(verb)
-        if table_in(text, verb) is None:
+        m = re.search(re.escape(start) + r"\n.*?" + re.escape(end), text, re.S)
+        if m is None:
             raise ValueError(f"docs/cli.md has no '{start}' ... '{end}' block for '{verb}'")
-        block = f"{start}\n{options_table(sub)}{end}"
-        text = re.sub(re.escape(start) + r"\n.*?" + re.escape(end), lambda _m: block,
-                      text, flags=re.S)
+        text = text[:m.start()] + f"{start}\n{options_table(sub)}{end}" + text[m.end():]
     return text
 
 
