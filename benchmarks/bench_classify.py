@@ -85,7 +85,8 @@ def write_parquet(path: Path, n: int, rng: np.random.Generator, group: int = 1_0
 
 
 def run_check_process(card: Path, region: Path, out: Path, plots: bool) -> tuple[float, float]:
-    code = ("import resource, sys, time; from eftsieve.cli.main import main; t=time.perf_counter(); "
+    code = ("import resource, sys, time; from eftsieve.cli.main import main; "
+            "t=time.perf_counter(); "
             f"rc=main(['check', {str(card)!r}, '--region', {str(region)!r}, '-o', {str(out)!r}"
             + ("" if plots else ", '--no-plots'") + "]); "
             "print(time.perf_counter()-t, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss); "

@@ -21,8 +21,9 @@ def main() -> str:
 
     from eftsieve.api import load_fit
     from eftsieve.impose.core import ImposeSettings
-    from eftsieve.impose.refit import load_observables, log_prior_fn, observables_loglike, run_refit
+    from eftsieve.impose.refit import log_prior_fn, run_refit
     from eftsieve.theories import get_theory
+    from eftsieve.theories.chpt_su2.observables import load_observables, observables_loglike
 
     fit = load_fit(ROOT / "data_examples" / "aurora_posterior.yaml")
     th = get_theory("chpt-su2")
@@ -35,7 +36,7 @@ def main() -> str:
     t0 = time.perf_counter()
     res = run_refit(fit, region, cmap, loglike, settings, "demo observables")
     t_ours = time.perf_counter() - t0
-    ess_ours = res.summary["ess"]
+    ess_ours = res.figures["ess"]
 
     logprior = log_prior_fn(fit)
     a, b = region.arrays()

@@ -25,11 +25,15 @@ import yaml
 from eftsieve.api import load_fit
 from eftsieve.fit.conventions import Convention
 from eftsieve.impose.core import ImposeSettings
-from eftsieve.impose.refit import load_observables, observables_loglike, run_refit
+from eftsieve.impose.refit import run_refit
 from eftsieve.region.model import Region
 from eftsieve.theories import get_theory
 from eftsieve.theories.chpt_su2.conventions import affine_map
-from eftsieve.theories.chpt_su2.observables import threshold_parameters
+from eftsieve.theories.chpt_su2.observables import (
+    load_observables,
+    observables_loglike,
+    threshold_parameters,
+)
 
 HERE = Path(__file__).parent
 TRUE_LBAR = np.array([-2.0, 3.75, 2.9, 4.4])          # invented, at M_pi = 139.57 MeV

@@ -4,9 +4,12 @@ from __future__ import annotations
 
 import json
 
+import pytest
+
 from eftsieve.cli.main import main
 
 
+@pytest.mark.slow  # about 80 s; `make demo` runs the same job, and CI runs `make test` only
 def test_demo_end_to_end(tmp_path, capsys):
     out = tmp_path / "demo"
     assert main(["demo", "-o", str(out)]) == 0

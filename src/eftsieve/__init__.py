@@ -6,7 +6,16 @@ load only when a function needs them.
 
 from eftsieve import errors
 from eftsieve._version import __version__
-from eftsieve.api import build_region, check, get_theory, load_fit, load_region, theories
+from eftsieve.api import (
+    build_region,
+    check,
+    get_theory,
+    impose,
+    load_fit,
+    load_region,
+    load_samples,
+    theories,
+)
 from eftsieve.errors import EftsieveError, EftsieveWarning, InputError
 
 __all__ = [
@@ -18,7 +27,9 @@ __all__ = [
     "check",
     "errors",
     "get_theory",
+    "impose",
     "load_fit",
     "load_region",
+    "load_samples",
     "theories",
 ]

@@ -13,6 +13,7 @@ if TYPE_CHECKING:
     from eftsieve.check.result import CheckResult
     from eftsieve.executors import Executor
     from eftsieve.fit.model import Fit
+    from eftsieve.impose.core import ImposeResult
     from eftsieve.region.model import Region
     from eftsieve.theories.base import Theory
 
@@ -23,6 +24,60 @@ def load_fit(path: str | Path) -> Fit:
     from eftsieve.theories import get_theory
 
     return _load(path, get_theory)
+
+
+def load_samples(path: str | Path, theory: str, convention: str, *,
+                 weight_column: str | None = None, name: str | None = None,
+                 **kinematics: float) -> Fit:
+    """A fit from a bare samples file: every numeric column is a parameter.
+
+    Columns that ``theory`` knows get ``convention`` (with the kinematic values it needs,
+    e.g. ``mu_mev=770``); the others are carried through as nuisance parameters.
+    """
+    from eftsieve.errors import InputError
+    from eftsieve.fit.conventions import NONE, Convention, make_convention
+    from eftsieve.fit.model import fit_from_samples
+    from eftsieve.theories import get_theory
+
+    try:
+        th = get_theory(theory)
+    except KeyError as err:
+        raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
+    kin = {k: float(v) for k, v in kinematics.items() if v is not None}
+    if convention == NONE:
+        conv = Convention(NONE)
+    elif convention not in th.convention_specs:
+        raise InputError(None, "--convention", f"{th.name} has no convention '{convention}'",
+                         f"use one of {', '.join(th.conventions)}")
+    else:
+        spec = th.convention_specs[convention]
+        for key, what in spec.needs:
+            if key not in kin:
+                raise InputError(None, key, f"convention '{convention}' needs {what}",
+                                 f"give {key} (MeV)")
+        conv = make_convention(spec, **{k: kin[k] for k, _ in spec.needs})
+    return fit_from_samples(path, th, conv, weight_column=weight_column, kinematics=kin,
+                            name=name)
+
+
+def default_region(fit: Fit) -> Region:
+    """The region of the fit's theory at the fit's own kinematics (the theory's defaults
+    for everything else)."""
+    from eftsieve.theories import get_theory
+
+    th = get_theory(fit.theory)
+    return th.build_region(th.region_settings_for_fit(fit))
+
+
+def region_for(fit: Fit, region_path: str | Path | None, outdir: Path) -> tuple[Region, str]:
+    """The region file given (loaded and verified), or the fit's own region built with
+    :func:`default_region` and saved as ``outdir/region.json``; with the path used."""
+    if region_path is not None:
+        return load_region(region_path), str(region_path)
+    region = default_region(fit)
+    path = Path(outdir) / "region.json"
+    region.save(path)
+    return region, str(path)
 
 
 def load_region(path: str | Path) -> Region:
@@ -57,15 +112,33 @@ def check(fit: Fit, region: Region | None = None, *, draws: int = 200_000, seed:
     """
     from eftsieve.check.run import run_check
     from eftsieve.check.verdicts import CheckSettings
-    from eftsieve.theories import get_theory
 
     if region is None:
-        th = get_theory(fit.theory)
-        region = th.build_region(th.region_settings_for_fit(fit))
+        region = default_region(fit)
     settings = CheckSettings(draws=draws, seed=seed, marginal_band=band,
                              chunk_rows=chunk_rows)
     return run_check(fit, region, settings, None if outdir is None else Path(outdir),
                      region_file, uncertainty, engine=engine, scheduler=scheduler)
+
+
+def impose(fit: Fit, region: Region | None = None, *, mode: str | None = None,
+           samples: int = 20_000, seed: int = 0, uncertainty: Any = None, data: Any = None,
+           likelihood: Any = None, progress: bool = False) -> ImposeResult:
+    """Re-sample a fit with positivity imposed as a truncation of its prior.
+
+    ``mode`` is ``exact`` (Gaussian summaries), ``reweight`` (posterior samples) or
+    ``refit`` (with ``data``, an observables file, or ``likelihood``, a callable or
+    ``"module:function"``); None chooses from the fit.  Returns a frozen
+    :class:`~eftsieve.impose.core.ImposeResult`.
+    """
+    from eftsieve.impose.api import impose as _impose
+    from eftsieve.impose.core import ImposeSettings
+
+    if region is None:
+        region = default_region(fit)
+    settings = ImposeSettings(mode=mode, n_samples=samples, seed=seed, progress=progress)
+    return _impose(fit, region, mode=mode, settings=settings, uncertainty=uncertainty,
+                   data=data, likelihood=likelihood)
 
 
 def get_theory(name: str) -> Theory:

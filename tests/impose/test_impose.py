@@ -32,7 +32,7 @@ def test_exact_1d_marginal_is_truncnorm(rng):
     assert stats.kstest(x, ref.cdf).pvalue > 1e-3
     # the unconstrained coordinate keeps its normal marginal
     assert stats.kstest(res.samples[:, 0], stats.norm(0.5, np.sqrt(2.0)).cdf).pvalue > 1e-3
-    assert res.summary["p_inside_before"] == pytest.approx(stats.norm.sf(a), rel=1e-6)
+    assert res.figures["p_inside_before"] == pytest.approx(stats.norm.sf(a), rel=1e-6)
 
 
 def test_exact_wedge_normalisation_and_moments():
@@ -43,7 +43,7 @@ def test_exact_wedge_normalisation_and_moments():
     a = np.array([[0.0, 1.0], [1.0, 2.0]])
     b = np.array([1.5, 4.0])
     p_ref = stats.multivariate_normal(-a @ mean, a @ cov @ a.T).cdf(-b)
-    assert res.summary["p_inside_before"] == pytest.approx(p_ref, rel=2e-3)
+    assert res.figures["p_inside_before"] == pytest.approx(p_ref, rel=2e-3)
     pdf = stats.multivariate_normal(mean, cov).pdf
 
     def mom(f):
@@ -65,8 +65,8 @@ def test_exact_stays_efficient_at_tiny_probability():
     fit = gaussian_fit(mean, cov)
     res = exact(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings(n_samples=5000, seed=1))
     p_ref = stats.norm.sf(6 / np.sqrt(0.5)) ** 2
-    assert res.summary["p_inside_before"] == pytest.approx(p_ref, rel=0.02)
-    assert res.summary["acceptance"] > 0.3
+    assert res.figures["p_inside_before"] == pytest.approx(p_ref, rel=0.02)
+    assert res.figures["acceptance"] > 0.3
     assert len(res.samples) == 5000
 
 
@@ -86,7 +86,7 @@ def test_reweight_keeps_inside_rows_and_accounts_for_all(tmp_path):
     reg = region(((0, 1), 1.0))
     res = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings())
     inside = frame["lbar2"].to_numpy() >= 1.0
-    assert res.summary["n_samples"] + res.summary["n_dropped"] == res.summary["n_read"] == 20_000
+    assert res.figures["n_samples"] + res.figures["n_dropped"] == res.figures["n_read"] == 20_000
     assert res.rows.tolist() == np.nonzero(inside)[0].tolist()
     ref = stats.truncnorm(0.0, np.inf, loc=1.0, scale=1.0)
     assert res.samples[:, 1].mean() == pytest.approx(ref.mean(), abs=0.03)
@@ -113,7 +113,7 @@ def test_refit_linear_gaussian_toy():
 
     settings = ImposeSettings(mode="refit", n_samples=3000, walkers=24, seed=3, progress=False)
     res = run_refit(fit, reg, SU2.coordinate_map(fit, reg), loglike, settings, "toy")
-    s = res.summary
+    s = res.figures
     assert s["converged"] and 0.3 < s["acceptance"] < 0.9
     ref = stats.truncnorm((c - mu[1]) / sig, np.inf, loc=mu[1], scale=sig)
     ess = s["ess"]
@@ -133,7 +133,7 @@ def test_refit_refuses_to_call_a_short_chain_converged():
     with pytest.warns(ConvergenceWarning, match="not converged"):
         res = run_refit(fit, reg, SU2.coordinate_map(fit, reg),
                         lambda x: -0.5 * ((x - [0, 2]) ** 2).sum(axis=1), settings, "toy")
-    assert res.summary["converged"] is False
+    assert res.figures["converged"] is False
 
 
 def _chain_fit(tmp_path, rho, n):
@@ -159,7 +159,7 @@ def test_reweight_tau_of_an_ar1_chain(tmp_path):
     rho = 0.9
     fit = _chain_fit(tmp_path, rho, 1 << 18)
     reg = region(((0, 1), -50.0))
-    s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).summary
+    s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).figures
     assert s["n_dropped"] == 0
     assert s["tau_rows"] == pytest.approx((1 + rho) / (1 - rho), rel=0.2)
     assert s["ess_autocorr"] == pytest.approx(s["ess"] / s["tau_rows"])   # significant
@@ -168,7 +168,7 @@ def test_reweight_tau_of_an_ar1_chain(tmp_path):
 def test_reweight_of_independent_rows_has_tau_near_one(tmp_path):
     fit, _ = _samples_fit(tmp_path, 50_000, 1.0)
     reg = region(((0, 1), 1.0))
-    s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).summary
+    s = reweight(fit, reg, SU2.coordinate_map(fit, reg), ImposeSettings()).figures
     assert 0.75 < s["tau_rows"] < 1.35
     assert s["ess_autocorr"] == s["ess"]     # a tau within the noise of 1 counts as 1
 

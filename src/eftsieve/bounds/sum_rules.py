@@ -44,8 +44,8 @@ from eftsieve.bounds.lp import exact_spectrum
 from eftsieve.bounds.verify import (
     Verification,
     VerifySettings,
-    _tail_cutoff,
     evaluate,
+    tail_cutoff,
     verify_functional,
 )
 from eftsieve.errors import SolverError
@@ -407,14 +407,14 @@ class SumRuleSolver:
         from scipy.linalg import solve_triangular
 
         w_max = 10.0 ** (250.0 / (self.size - 1))  # w^E stays far from overflow
-        cut = _tail_cutoff(obj - np.tensordot(mult, self._nc, 1), target)
+        cut = tail_cutoff(obj - np.tensordot(mult, self._nc, 1), target)
         if cut is not None and cut <= w_max:
             return mult
         beta = solve_triangular(self._r, self._nc[:, -1, -1], trans="T")
         alpha = solve_triangular(self._r, beta) / float(beta @ beta)
         for k in range(-300, 20):
             trial = mult - 10.0**k * alpha
-            cut = _tail_cutoff(obj - np.tensordot(trial, self._nc, 1), target)
+            cut = tail_cutoff(obj - np.tensordot(trial, self._nc, 1), target)
             if cut is not None and cut <= w_max:
                 return trial
         return mult

@@ -14,7 +14,7 @@ bound only if B >= target for *every* state, not just on an LP grid.
   0 <= y <= min(1, w/j'): writing B = sum_k y^k F_k(w), each F_k with k >= 1 contributes
   at worst min(F_k, 0) min(1, w/j')^k.  This covers m -> infinity, J -> infinity and the
   fixed-impact-parameter limit w -> (bM/2)^2 at once.  Branch and bound in w runs up to a
-  domination cut-off W (:func:`_tail_cutoff`), beyond which the leading large-w
+  domination cut-off W (:func:`tail_cutoff`), beyond which the leading large-w
   coefficient dominates every negative term, so B >= target there too.
 
 The proven value is a lower bound of inf B, hence (in :mod:`eftsieve.bounds.sum_rules`)
@@ -276,7 +276,7 @@ def _scan_spins(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, An
     return out
 
 
-def _tail_cutoff(c: np.ndarray, target: float) -> float | None:
+def tail_cutoff(c: np.ndarray, target: float) -> float | None:
     """W with f >= target for every state with w >= W, or None if f is not bounded below.
 
     For y <= 1, f >= Q(w) = sum_p q_p w^p with q_p = c[p,p] + sum_{k>=1} min(c[p+k,p], 0).
@@ -334,7 +334,7 @@ def _scan_tail(c: np.ndarray, target: float, s: VerifySettings) -> dict[str, Any
         return (float(min(1.0, w / (spin * (spin + 1.0)))), spin,
                 float(at(np.array([w]), spin)[0]))
 
-    w_cut = _tail_cutoff(c, target)
+    w_cut = tail_cutoff(c, target)
     if w_cut is None:
         ws = np.logspace(0, 30, 61)
         bad = np.flatnonzero(value_fn(ws, ws) < target)
@@ -353,7 +353,7 @@ def verify_functional(c: np.ndarray, target: float, s: VerifySettings) -> Verifi
     """Prove B(y, J) = sum c[e,q] y^(e-q) w^q >= target for every y in (0, 1] and even J >= 0.
 
     Spins up to ``s.spin_exact_max`` one by one, larger spins through the continuous
-    relaxation and the domination cut-off of :func:`_tail_cutoff` (module docstring).
+    relaxation and the domination cut-off of :func:`tail_cutoff` (module docstring).
     """
     spins = _scan_spins(c, target, s)
     tail = _scan_tail(c, target, s)

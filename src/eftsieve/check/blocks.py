@@ -48,7 +48,6 @@ def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:
         return np.asarray(cmap(x), dtype=float)
     x = np.asarray(x, dtype=float)
     jac = cmap.jacobian
-    assert jac is not None
     out = np.empty((len(x), jac.shape[0]))
     for k in range(jac.shape[0]):
         col: np.ndarray | None = None

@@ -25,6 +25,8 @@ import numpy as np
 from eftsieve.errors import InputError, SamplingError
 from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
+from eftsieve.stats.ess import kish_ess
+from eftsieve.stats.gaussian import draw, psd_factor
 from eftsieve.theories.base import CoordinateMap
 from eftsieve.tolerances import MIN_ESS
 
@@ -77,9 +79,9 @@ class ImposeResult:
         The new samples (n, p) and weights (None if unweighted).
     before_samples, before_weights
         The fit's own samples (or draws of its Gaussian), for comparisons.
-    summary
+    figures
         Mode-specific figures: ``n_samples``, ``ess``, ``acceptance``, ``tau``,
-        ``p_inside_before``, moments before and after, ...
+        ``p_inside_before``, moments before and after, ... (summary.json)
     rows
         For ``reweight``, the original row index of each kept sample; else a draw index.
     """
@@ -90,11 +92,28 @@ class ImposeResult:
     weights: np.ndarray | None
     before_samples: np.ndarray
     before_weights: np.ndarray | None
-    summary: dict[str, Any] = field(default_factory=dict)
+    figures: dict[str, Any] = field(default_factory=dict)
     rows: np.ndarray | None = None
 
     def to_dict(self) -> dict[str, Any]:
-        return dict(self.summary)
+        return dict(self.figures)
+
+    def summary(self) -> str:
+        """A few lines: the mode, the sample count and each parameter before -> after."""
+        f = self.figures
+        lines = [f"imposed positivity ({self.mode}): {f.get('n_samples', len(self.samples))} "
+                 f"samples, ESS {f.get('ess', float('nan')):.4g}"]
+        before, after = f.get("before", {}), f.get("after", {})
+        for n in self.names:
+            if n in before and n in after:
+                b, a = before[n], after[n]
+                lines.append(f"  {n}: {b['mean']:.4g} +- {b['std']:.3g}  ->  "
+                             f"{a['mean']:.4g} +- {a['std']:.3g}")
+        return "\n".join(lines)
+
+    def __repr__(self) -> str:
+        return (f"ImposeResult(mode={self.mode!r}, n={len(self.samples)}, "
+                f"names={list(self.names)!r})")
 
 
 def choose_mode(fit: Fit, requested: str | None, has_likelihood: bool) -> str:
@@ -125,14 +144,6 @@ def moments(x: np.ndarray, w: np.ndarray | None, names: tuple[str, ...]) -> dict
     var = ww @ (x - mean) ** 2 / ww.sum()
     return {n: {"mean": float(m), "std": float(np.sqrt(v))}
             for n, m, v in zip(names, mean, var, strict=True)}
-
-
-def kish_ess(w: np.ndarray | None, n: int) -> float:
-    """Kish's effective sample size (sum w)^2 / sum w^2."""
-    if w is None:
-        return float(n)
-    s2 = float((w * w).sum())
-    return float(w.sum() ** 2 / s2) if s2 > 0 else 0.0
 
 
 def truncated_mean_tau(x: np.ndarray, w: np.ndarray | None, keep: np.ndarray
@@ -179,7 +190,9 @@ def significant_tau(tau: float | None, n_batches: int) -> float:
 def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
              settings: ImposeSettings) -> ImposeResult:
     """Keep the posterior samples inside the region (every row read is accounted for)."""
-    assert fit.samples is not None
+    if fit.samples is None:
+        raise InputError(fit.source, "samples", "mode 'reweight' needs posterior samples",
+                         "use --mode exact for a Gaussian summary")
     chunk = fit.samples.read_all()
     y = cmap(chunk.values)
     keep = region.contains(y)
@@ -210,7 +223,7 @@ def reweight(fit: Fit, region: Region, cmap: CoordinateMap,
                "tau": None, "p_inside_before": p_in,
                "kept_rows": "original row indices are in samples.parquet column 'row'"}
     res = ImposeResult("reweight", fit.names, chunk.values[keep], kw, chunk.values, w, summary)
-    return _with_moments(res, chunk.rows[keep])
+    return with_moments(res, chunk.rows[keep])
 
 
 def exact(fit: Fit, region: Region, cmap: CoordinateMap,
@@ -221,23 +234,25 @@ def exact(fit: Fit, region: Region, cmap: CoordinateMap,
     if not cmap.is_affine:
         raise InputError(fit.source, "parameters", "exact mode needs an affine map from the "
                          "fit's conventions to the region's", "use --mode refit")
-    assert fit.mean is not None and fit.cov is not None
+    if fit.mean is None or fit.cov is None:
+        raise InputError(fit.source, "mean", "mode 'exact' needs a Gaussian summary",
+                         "use --mode reweight for samples, or refit")
     a, b = cmap.pull_back(*region.arrays())
     rng = np.random.default_rng(settings.seed)
     ts = sample_truncated_normal(fit.mean, fit.cov, a, b, settings.n_samples, rng=rng)
-    before = rng.multivariate_normal(fit.mean, fit.cov, size=settings.n_samples)
+    before = draw(fit.mean, psd_factor(fit.cov), settings.n_samples, rng)
     prob = ts.probability
     summary = {"mode": "exact", "n_samples": int(len(ts.samples)), "ess": float(len(ts.samples)),
                "acceptance": ts.acceptance_rate, "n_proposed": ts.n_proposed, "tau": None,
                "p_inside_before": prob.probability, "p_inside_before_err": prob.std_error,
                "normalisation_method": prob.method}
     res = ImposeResult("exact", fit.names, ts.samples, None, before, None, summary)
-    return _with_moments(res, np.arange(len(ts.samples)))
+    return with_moments(res, np.arange(len(ts.samples)))
 
 
-def _with_moments(res: ImposeResult, rows: np.ndarray) -> ImposeResult:
+def with_moments(res: ImposeResult, rows: np.ndarray) -> ImposeResult:
     """Attach the moments before and after, and the row indices."""
-    s = dict(res.summary)
+    s = dict(res.figures)
     s["before"] = moments(res.before_samples, res.before_weights, res.names)
     s["after"] = moments(res.samples, res.weights, res.names)
     return ImposeResult(res.mode, res.names, res.samples, res.weights, res.before_samples,

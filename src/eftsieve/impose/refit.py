@@ -3,7 +3,8 @@
 The posterior is  prior(theta) * 1[theta in region] * L(theta).  The prior is the fit
 card's (independent uniform or normal factors); the likelihood is either
 
-- Gaussian observables from a data file (:class:`ObservableData`): values and a
+- Gaussian observables from a data file (the theory's library, e.g.
+  :mod:`eftsieve.theories.chpt_su2.observables`): values and a
   covariance of threshold parameters of the built-in library, each at its own M_pi and
   F_pi, so that lattice ensembles at several pion masses can be fitted together; or
 - a user's Python callable ``module:function`` returning the log-likelihood of one
@@ -22,16 +23,12 @@ import importlib
 import math
 import warnings
 from collections.abc import Callable
-from dataclasses import dataclass
-from pathlib import Path
-from typing import Any
 
 import numpy as np
 
 from eftsieve.errors import ConvergenceWarning, InputError, SamplingError
-from eftsieve.fit.card import read_card
-from eftsieve.fit.model import Fit, check_covariance
-from eftsieve.impose.core import ImposeResult, ImposeSettings, _with_moments
+from eftsieve.fit.model import Fit
+from eftsieve.impose.core import ImposeResult, ImposeSettings, with_moments
 from eftsieve.region.model import Region
 from eftsieve.theories.base import CoordinateMap
 
@@ -63,109 +60,6 @@ def log_prior_fn(fit: Fit) -> Callable[[np.ndarray], np.ndarray]:
     return logp
 
 
-@dataclass(frozen=True)
-class ObservableData:
-    """Gaussian observables: values, covariance, and where each was measured.
-
-    Attributes
-    ----------
-    names
-        Observable names of the built-in library (``a2_0`` ...).
-    pion_mass_mev, fpi_mev
-        The M_pi and F_pi of each observable.
-    values, cov
-        The measured values and their covariance.
-    source
-        The data file.
-    """
-
-    names: tuple[str, ...]
-    pion_mass_mev: np.ndarray
-    fpi_mev: np.ndarray
-    values: np.ndarray
-    cov: np.ndarray
-    source: Path
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"names": list(self.names), "pion_mass_mev": self.pion_mass_mev.tolist(),
-                "fpi_mev": self.fpi_mev.tolist(), "values": self.values.tolist(),
-                "source": str(self.source)}
-
-
-def load_observables(path: str | Path) -> ObservableData:
-    """Read an observables file (YAML/JSON, ``format_version: 1``)."""
-    from eftsieve.theories.chpt_su2.observables import OBSERVABLES
-
-    p = Path(path)
-    card = read_card(p)
-    if card.get("format_version") != 1:
-        raise InputError(p, "format_version", "missing or unsupported", "use format_version: 1")
-    obs = card.get("observables")
-    if not isinstance(obs, list) or not obs:
-        raise InputError(p, "observables", "must be a non-empty list", "see docs/formats.md")
-    names, ms, fs = [], [], []
-    for i, o in enumerate(obs):
-        if not isinstance(o, dict) or o.get("name") not in OBSERVABLES:
-            raise InputError(p, f"observables[{i}].name", f"unknown observable {o!r}",
-                             f"accepted: {', '.join(OBSERVABLES)}")
-        for key in ("pion_mass_mev", "fpi_mev"):
-            if not isinstance(o.get(key), (int, float)) or o[key] <= 0:
-                raise InputError(p, f"observables[{i}].{key}", "missing or not positive",
-                                 "give the value in MeV")
-        names.append(o["name"])
-        ms.append(float(o["pion_mass_mev"]))
-        fs.append(float(o["fpi_mev"]))
-    n = len(names)
-    values = np.asarray(card.get("values", []), dtype=float)
-    if values.shape != (n,):
-        raise InputError(p, "values", f"needs {n} numbers, one per observable", "")
-    cov = np.asarray(card.get("covariance", []), dtype=float)
-    check_covariance(cov, n, p, "covariance")
-    if np.linalg.eigvalsh(cov)[0] <= 0:
-        raise InputError(p, "covariance", "must be positive definite for a likelihood",
-                         "give a full-rank covariance")
-    return ObservableData(tuple(names), np.array(ms), np.array(fs), values, cov, p)
-
-
-def observables_loglike(data: ObservableData, fit: Fit) -> Callable[[np.ndarray], np.ndarray]:
-    """Vectorised Gaussian log-likelihood of the observables as functions of lbar1..lbar4.
-
-    The fit's constants (in its conventions) are mapped to lbar at each observable's own
-    pion mass (exact affine maps of :mod:`eftsieve.fit.conventions`).
-    """
-    from eftsieve.fit.conventions import Convention
-    from eftsieve.theories.chpt_su2.conventions import affine_map, lec_index
-    from eftsieve.theories.chpt_su2.observables import threshold_parameters
-
-    idx = {}
-    for i, p in enumerate(fit.parameters):
-        k = lec_index(p.name)
-        if k is not None and p.convention.name in ("lbar", "lr"):
-            idx[k] = i
-    if sorted(idx) != [1, 2, 3, 4]:
-        raise InputError(fit.source, "parameters", "the observables need lbar1..lbar4",
-                         "fit all four constants (lbar3, lbar4 may be spectators)")
-    cols = [idx[k] for k in (1, 2, 3, 4)]
-    convs = tuple(fit.parameters[c].convention for c in cols)
-    names4 = tuple(fit.parameters[c].name for c in cols)
-    groups: dict[tuple[float, float], list[int]] = {}
-    for j, key in enumerate(zip(data.pion_mass_mev, data.fpi_mev, strict=True)):
-        groups.setdefault(key, []).append(j)
-    maps = {key: affine_map(names4, convs, tuple(Convention("lbar", pion_mass_mev=key[0])
-                                                 for _ in range(4))) for key in groups}
-    prec = np.linalg.inv(data.cov)
-
-    def loglike(x: np.ndarray) -> np.ndarray:
-        pred = np.empty((len(x), len(data.names)))
-        for key, js in groups.items():
-            lb = maps[key].apply_points(x[:, cols])
-            pred[:, js] = threshold_parameters([data.names[j] for j in js], lb, key[0], key[1])
-        r = pred - data.values
-        return -0.5 * np.einsum("ni,ij,nj->n", r, prec, r)
-
-    return loglike
-
-
 def load_callable(spec: str) -> Callable[[np.ndarray], np.ndarray]:
     """Load ``module:function`` (the user's code) as a vectorised log-likelihood."""
     if ":" not in spec:
@@ -186,7 +80,9 @@ def load_callable(spec: str) -> Callable[[np.ndarray], np.ndarray]:
 
 def prior_box(fit: Fit) -> list[tuple[float, float]]:
     """The prior's support as a box (normal priors: mean +- 5 sigma)."""
-    assert fit.prior is not None
+    if fit.prior is None:
+        raise InputError(fit.source, "prior", "a refit needs the fit card's prior",
+                         "add a prior block (uniform or normal per parameter)")
     box = []
     for n in fit.names:
         a, b = fit.prior.params[n]
@@ -263,7 +159,7 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
     sampler.run_mcmc(p0, settings.n_samples, progress=settings.progress)
     res = _refit_result(fit, sampler, settings, likelihood_label, before)
     if soft is not None:
-        res.summary["truncation"] = "soft"
+        res.figures["truncation"] = "soft"
     return res
 
 
@@ -304,5 +200,5 @@ def _refit_result(fit: Fit, sampler, settings: ImposeSettings, label: str,
                "convergence_rule": f"steps >= {MIN_TAU_MULTIPLE} x max tau",
                "p_inside_before": None}
     bx, bw = before if before is not None else (chain, None)
-    return _with_moments(ImposeResult("refit", fit.names, chain, None, bx, bw, summary),
+    return with_moments(ImposeResult("refit", fit.names, chain, None, bx, bw, summary),
                          np.arange(len(chain)))

@@ -20,8 +20,10 @@ import numpy as np
 
 from eftsieve.errors import InputError, SamplingError
 from eftsieve.fit.model import Fit
-from eftsieve.impose.core import ImposeResult, ImposeSettings, _with_moments, kish_ess
+from eftsieve.impose.core import ImposeResult, ImposeSettings, with_moments
 from eftsieve.region.model import Region
+from eftsieve.stats.ess import kish_ess
+from eftsieve.stats.gaussian import draw, psd_factor
 from eftsieve.stats.truncation import FacetUncertainty, prob_satisfies
 from eftsieve.theories.base import CoordinateMap
 
@@ -31,7 +33,9 @@ MIN_ACCEPTANCE = 1e-4
 def soft_reweight(fit: Fit, region: Region, cmap: CoordinateMap, settings: ImposeSettings,
                   fu: FacetUncertainty) -> ImposeResult:
     """Multiply the posterior weights by P(x); every row is kept and accounted for."""
-    assert fit.samples is not None
+    if fit.samples is None:
+        raise InputError(fit.source, "samples", "mode 'reweight' needs posterior samples",
+                         "use --mode exact for a Gaussian summary")
     chunk = fit.samples.read_all()
     p = prob_satisfies(cmap(chunk.values), region, fu)
     w0 = np.ones(len(p)) if chunk.weights is None else chunk.weights
@@ -49,7 +53,7 @@ def soft_reweight(fit: Fit, region: Region, cmap: CoordinateMap, settings: Impos
                "p_inside_before": float((w0 * p).sum() / w0.sum())}
     res = ImposeResult("reweight", fit.names, chunk.values, w, chunk.values, chunk.weights,
                        summary)
-    return _with_moments(res, chunk.rows)
+    return with_moments(res, chunk.rows)
 
 
 def soft_exact(fit: Fit, region: Region, cmap: CoordinateMap, settings: ImposeSettings,
@@ -58,11 +62,11 @@ def soft_exact(fit: Fit, region: Region, cmap: CoordinateMap, settings: ImposeSe
     if fit.mean is None or fit.cov is None:
         raise InputError(fit.source, "mean", "mode 'exact' needs a Gaussian summary", "")
     rng = np.random.default_rng(settings.seed)
-    chol = np.linalg.cholesky(fit.cov)
+    factor = psd_factor(fit.cov)
     kept: list[np.ndarray] = []
     n_prop, n_acc, batch = 0, 0, max(4 * settings.n_samples, 10_000)
     while n_acc < settings.n_samples:
-        x = fit.mean + rng.standard_normal((batch, len(fit.mean))) @ chol.T
+        x = draw(fit.mean, factor, batch, rng)
         acc = rng.random(batch) < prob_satisfies(cmap(x), region, fu)
         kept.append(x[acc])
         n_prop += batch
@@ -72,14 +76,14 @@ def soft_exact(fit: Fit, region: Region, cmap: CoordinateMap, settings: ImposeSe
                                 f"{MIN_ACCEPTANCE:g}", "use hard truncation or --mode refit")
     samples = np.concatenate(kept)[: settings.n_samples]
     rate = n_acc / n_prop
-    before = fit.mean + rng.standard_normal((settings.n_samples, len(fit.mean))) @ chol.T
+    before = draw(fit.mean, factor, settings.n_samples, rng)
     summary = {"mode": "exact", "truncation": "soft", "n_samples": int(len(samples)),
                "ess": float(len(samples)), "acceptance": rate, "n_proposed": n_prop,
                "tau": None, "p_inside_before": rate,
                "p_inside_before_err": float(np.sqrt(rate * (1 - rate) / n_prop)),
                "normalisation_method": "accept-reject acceptance (E[P] under the Gaussian)"}
     res = ImposeResult("exact", fit.names, samples, None, before, None, summary)
-    return _with_moments(res, np.arange(len(samples)))
+    return with_moments(res, np.arange(len(samples)))
 
 
 def log_soft_indicator(region: Region, cmap: CoordinateMap,

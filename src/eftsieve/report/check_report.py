@@ -13,7 +13,7 @@ from eftsieve.report.cautions import ASSUMPTIONS, cautions_for
 from eftsieve.report.document import Bullets, Document, Heading, Image, Para, Table
 
 
-def _g(x: Any, fmt: str = ".4g") -> str:
+def fmt_g(x: Any, fmt: str = ".4g") -> str:
     if x is None:
         return "n/a"
     try:
@@ -69,9 +69,9 @@ def _batch_rows(s: dict[str, Any]) -> tuple[tuple[str, str], ...]:
                  f"not estimated ({s['n_batches']} batches of {s['batch_rows']} rows; "
                  "too few rows, or every row on one side)"),)
     return (("p_inside error, correlated draws (batch means)",
-             f"+- {_g(s['p_inside_mc_err_batch'], '.2g')} ({s['n_batches']} batches of "
+             f"+- {fmt_g(s['p_inside_mc_err_batch'], '.2g')} ({s['n_batches']} batches of "
              f"{s['batch_rows']} rows, in file order)"),
-            ("autocorrelation time of the inside indicator", _g(s["tau_inside"], ".3g")))
+            ("autocorrelation time of the inside indicator", fmt_g(s["tau_inside"], ".3g")))
 
 
 def _tau_note(s: dict[str, Any]) -> list:
@@ -101,25 +101,25 @@ def stats_block(s: dict[str, Any]) -> list:
             ("inside / marginal / outside",
              f"{s['n_inside']} / {s['n_marginal']} / {s['n_outside']}"),
             ("marginal band", f"{band:g} (distance to a facet, region coordinates)"),
-            ("p_inside", f"{_g(s['p_inside'], '.6g')} +- {_g(s['p_inside_err'], '.2g')} "
+            ("p_inside", f"{fmt_g(s['p_inside'], '.6g')} +- {fmt_g(s['p_inside_err'], '.2g')} "
                          f"({s['p_inside_method']})"),
-            ("p_inside (sample fraction)", f"{_g(s['p_inside_mc'], '.6g')} +- "
-                                           f"{_g(s['p_inside_mc_err'], '.2g')}"),
-            ("effective sample size", _g(s["ess"], ".6g")),
+            ("p_inside (sample fraction)", f"{fmt_g(s['p_inside_mc'], '.6g')} +- "
+                                           f"{fmt_g(s['p_inside_mc_err'], '.2g')}"),
+            ("effective sample size", fmt_g(s["ess"], ".6g")),
             *_batch_rows(s),
-            ("minimal Mahalanobis distance", _g(s["mahalanobis_min"])),
-            ("closest allowed point", ", ".join(_g(v, ".5g") for v in s["closest_point"])),
-            ("tension p-value (chi-bar-squared)", _g(s["tension_p"])),
-            ("tension (one-sided Gaussian sigma)", _g(s["tension_sigma"], ".3g")),
+            ("minimal Mahalanobis distance", fmt_g(s["mahalanobis_min"])),
+            ("closest allowed point", ", ".join(fmt_g(v, ".5g") for v in s["closest_point"])),
+            ("tension p-value (chi-bar-squared)", fmt_g(s["tension_p"])),
+            ("tension (one-sided Gaussian sigma)", fmt_g(s["tension_sigma"], ".3g")),
             ("Bayes factor (truncated / untruncated prior)",
-             _g(s["bayes_factor"]) + (f" +- {_g(s['bayes_factor_err'], '.2g')}"
+             fmt_g(s["bayes_factor"]) + (f" +- {fmt_g(s['bayes_factor_err'], '.2g')}"
                                       if s["bayes_factor"] is not None else "")
              + f" ({s['bayes_factor_note']})"))
     return [Heading("Statistics"), Table(("quantity", "value"), rows), *_tau_note(s),
             Para("The tension p-value uses the chi-bar-squared distribution of the minimal "
                  "Mahalanobis distance squared, with the weights of the least favourable "
                  "tangent cone of the region (Shapiro 1988; Silvapulle & Sen 2005, Sec. 3.4); "
-                 f"weights {', '.join(_g(w, '.3f') for w in s['chibar2_weights'])} "
+                 f"weights {', '.join(fmt_g(w, '.3f') for w in s['chibar2_weights'])} "
                  f"({s['tension_cone']}).")]
 
 
@@ -129,16 +129,16 @@ def uncertainty_block(s: dict[str, Any], region: Region) -> list:
         return []
     m = tu["model"]
     st = m["settings"]
-    rows = [("p_inside", _g(tu["hard"]["p_inside"], ".5g"),
-             f"{_g(tu['p_inside'], '.5g')} +- {_g(tu['p_inside_err'], '.2g')}"),
-            ("tension (sigma)", _g(tu["hard"]["tension_sigma"], ".3g"),
-             _g(tu["tension_sigma"], ".3g")),
-            ("tension p-value", _g(tu["hard"]["tension_p"]), _g(tu["tension_p"])),
-            ("Bayes factor", _g(tu["hard"]["bayes_factor"]), _g(tu["bayes_factor"]))]
+    rows = [("p_inside", fmt_g(tu["hard"]["p_inside"], ".5g"),
+             f"{fmt_g(tu['p_inside'], '.5g')} +- {fmt_g(tu['p_inside_err'], '.2g')}"),
+            ("tension (sigma)", fmt_g(tu["hard"]["tension_sigma"], ".3g"),
+             fmt_g(tu["tension_sigma"], ".3g")),
+            ("tension p-value", fmt_g(tu["hard"]["tension_p"]), fmt_g(tu["tension_p"])),
+            ("Bayes factor", fmt_g(tu["hard"]["bayes_factor"]), fmt_g(tu["bayes_factor"]))]
     frows = []
     for i, f in enumerate(region.facets):
-        q = "" if m["q"] is None else _g(m["q"][i], ".3g")
-        frows.append((str(i), f.inequality(region.coordinates), _g(m["sigma_median"][i], ".3g"),
+        q = "" if m["q"] is None else fmt_g(m["q"][i], ".3g")
+        frows.append((str(i), f.inequality(region.coordinates), fmt_g(m["sigma_median"][i], ".3g"),
                       q))
     text = (f"Model `{st['model']}`; verdict `uncertain` for {st['p_low']:g} < "
             f"P(satisfies every facet) < {st['p_high']:g} ({tu['n_uncertain']} points). "
@@ -149,7 +149,7 @@ def uncertainty_block(s: dict[str, Any], region: Region) -> list:
         text += (f" Breakdown scale Lambda_b = {m['breakdown_mev_used']:.6g} MeV; prior "
                  f"cbar^2 ~ ScaledInvChi2({st['nu0']:g}, {st['tau0']:g}^2); posterior "
                  f"ScaledInvChi2({post['nu']:g}, {post['tau2']:.3g}) from the coefficients "
-                 f"{', '.join(_g(c, '.3g') for c in m['coefficients'])}.")
+                 f"{', '.join(fmt_g(c, '.3g') for c in m['coefficients'])}.")
     return [Heading("Theory uncertainty of the bounds"), Para(text),
             Table(("quantity", "hard edges (none)", st["model"]), tuple(rows)),
             Table(("facet", "inequality", "sigma of the offset (median)", "Q"), tuple(frows))]
@@ -158,8 +158,8 @@ def uncertainty_block(s: dict[str, Any], region: Region) -> list:
 def worst_block(worst: tuple[WorstPoint, ...], limit: int = 10) -> list:
     if not worst:
         return [Heading("Flagged points"), Para("No point violates a facet.")]
-    rows = tuple((str(w.row), ", ".join(_g(v, ".5g") for v in w.region_point),
-                  _g(w.min_margin, ".4g"), w.facet) for w in worst[:limit])
+    rows = tuple((str(w.row), ", ".join(fmt_g(v, ".5g") for v in w.region_point),
+                  fmt_g(w.min_margin, ".4g"), w.facet) for w in worst[:limit])
     return [Heading("Most violated points"),
             Para("All outside and marginal rows, with every margin and certificate, are in "
                  "`flagged.csv`."),

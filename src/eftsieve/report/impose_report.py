@@ -7,7 +7,7 @@ from typing import Any
 
 from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
-from eftsieve.report.check_report import _g, cautions_block, fit_block, region_block
+from eftsieve.report.check_report import cautions_block, fit_block, fmt_g, region_block
 from eftsieve.report.document import Bullets, Document, Heading, Image, Para, Table
 
 MODE_TEXT = {
@@ -23,23 +23,24 @@ def impose_document(fit: Fit, region: Region, s: dict[str, Any],
                     images: dict[str, Path]) -> Document:
     doc = Document(f"Positivity imposed: {fit.name}")
     doc.add(Heading("Mode"), Para(f"`{s['mode']}`: {MODE_TEXT[s['mode']]}."))
-    rows = [("samples", str(s["n_samples"])), ("effective sample size", _g(s["ess"], ".5g")),
-            ("acceptance", _g(s.get("acceptance"), ".4g")),
-            ("P(inside) before", _g(s.get("p_inside_before"), ".5g"))]
+    rows = [("samples", str(s["n_samples"])), ("effective sample size", fmt_g(s["ess"], ".5g")),
+            ("acceptance", fmt_g(s.get("acceptance"), ".4g")),
+            ("P(inside) before", fmt_g(s.get("p_inside_before"), ".5g"))]
     if s["mode"] == "reweight":
         rows += [("rows read", str(s["n_read"])), ("rows dropped (outside)", str(s["n_dropped"]))]
         if s.get("tau_rows") is not None:
             rows += [("autocorrelation time of the rows (truncated means, file order)",
-                      _g(s["tau_rows"], ".3g")),
-                     ("effective sample size after autocorrelation", _g(s["ess_autocorr"], ".5g"))]
+                      fmt_g(s["tau_rows"], ".3g")),
+                     ("effective sample size after autocorrelation",
+                      fmt_g(s["ess_autocorr"], ".5g"))]
     if s["mode"] == "refit":
         rows += [("steps x walkers", f"{s['n_steps']} x {s['walkers']}"),
                  ("autocorrelation times", ", ".join(f"{k}: {v:.1f}" for k, v in s["tau"].items())),
                  ("converged", f"{s['converged']} ({s['convergence_rule']})"),
                  ("likelihood", s["likelihood"])]
     doc.add(Table(("quantity", "value"), tuple(rows)))
-    mrows = tuple((n, f"{_g(s['before'][n]['mean'])} +- {_g(s['before'][n]['std'], '.3g')}",
-                   f"{_g(s['after'][n]['mean'])} +- {_g(s['after'][n]['std'], '.3g')}")
+    mrows = tuple((n, f"{fmt_g(s['before'][n]['mean'])} +- {fmt_g(s['before'][n]['std'], '.3g')}",
+                   f"{fmt_g(s['after'][n]['mean'])} +- {fmt_g(s['after'][n]['std'], '.3g')}")
                   for n in fit.names)
     doc.add(Heading("How the posterior moved"), Table(("parameter", "before", "after"), mrows))
     if s["mode"] == "refit" and not s["converged"]:

@@ -33,6 +33,7 @@ import numpy as np
 from eftsieve.errors import SolverError
 from eftsieve.io.atomic import atomic_write_with
 from eftsieve.region.model import Region
+from eftsieve.stats.ess import kish_ess
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
@@ -334,11 +335,6 @@ def _hpd_levels(h: np.ndarray, fractions: Sequence[float]) -> list[float] | None
     return levels if ok and levels[-1] < flat[0] else None
 
 
-def _ess(w: np.ndarray | None, n: int) -> float:
-    """Kish effective sample size."""
-    return float(n) if w is None else float(w.sum() ** 2 / (w ** 2).sum())
-
-
 def _auto_limits(plane: _Plane, x: np.ndarray | None, w: np.ndarray | None) -> np.ndarray:
     """Limits that show the region's vertices near the data and the samples' 99 % range."""
     pts: list[np.ndarray] = []
@@ -519,14 +515,14 @@ def _draw_posterior_2d(ax: Axes, x: np.ndarray, w: np.ndarray | None) -> bool:
 
     central = _sample_range(x, w, 0.998)
     rng_ = _spread(central[:, 0], central[:, 1], 0.1)
-    bins = int(np.clip(np.sqrt(_ess(w, len(x))) / 1.5, 15, _HIST_BINS))
+    bins = int(np.clip(np.sqrt(kish_ess(w, len(x))) / 1.5, 15, _HIST_BINS))
     h, xe, ye = np.histogram2d(x[:, 0], x[:, 1], bins=bins, range=rng_, weights=w)
     h = np.pad(gaussian_filter(h, 1.2), 1)
     xc = np.r_[xe[0] - (xe[1] - xe[0]) / 2, (xe[1:] + xe[:-1]) / 2, xe[-1] + (xe[1] - xe[0]) / 2]
     yc = np.r_[ye[0] - (ye[1] - ye[0]) / 2, (ye[1:] + ye[:-1]) / 2, ye[-1] + (ye[1] - ye[0]) / 2]
     _scatter(ax, x, w)
     levels = _hpd_levels(h, HPD_LEVELS)
-    if levels is None or _ess(w, len(x)) < _MIN_ESS_CONTOURS:
+    if levels is None or kish_ess(w, len(x)) < _MIN_ESS_CONTOURS:
         return False
     ax.contourf(xc, yc, h.T, levels=[*levels, float(h.max()) * (1 + 1e-9)],
                 colors=[_tint(BLUE, 0.18), _tint(BLUE, 0.38)], zorder=2.5)
@@ -873,7 +869,7 @@ def _corner_layer(fig: Figure, x: np.ndarray, w: np.ndarray | None, ranges: np.n
     """One sample set drawn by ``corner`` into ``fig``."""
     import corner
 
-    contours = _ess(w, len(x)) >= _MIN_ESS_CONTOURS
+    contours = kish_ess(w, len(x)) >= _MIN_ESS_CONTOURS
     corner.corner(x, bins=_CORNER_BINS, weights=w, fig=fig, range=[tuple(r) for r in ranges],
                   color=colour, labels=list(names), smooth=1.0, levels=HPD_LEVELS,
                   plot_density=False, plot_contours=contours, fill_contours=contours,

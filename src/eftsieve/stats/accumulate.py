@@ -197,7 +197,8 @@ class Accumulator:
         return kish_ess_from_sums(self.sw, self.sw2)
 
     def moments(self) -> tuple[np.ndarray, np.ndarray]:
-        assert self.mean_sum is not None and self.outer_sum is not None
+        if self.mean_sum is None or self.outer_sum is None:
+            raise ValueError("no rows were summed: the moments are undefined")
         mean = self.mean_sum / self.sw
         cov = self.outer_sum / self.sw - np.outer(mean, mean)
         return mean, (cov + cov.T) / 2

@@ -26,6 +26,9 @@ REGISTRY = {
     "scalar-eft": "eftsieve.theories.scalar_eft.theory",
 }
 
+#: the theory of ``eftsieve region`` without --theory
+DEFAULT_THEORY = "chpt-su2"
+
 
 def available_theories() -> tuple[str, ...]:
     """Names of the theories that this installation provides."""
@@ -67,5 +70,5 @@ def coordinate_map(fit: Fit, region: Region) -> CoordinateMap:
     return source.matching_map(fit, region)
 
 
-__all__ = ["REGISTRY", "CoordinateMap", "Theory", "available_theories", "coordinate_map",
-           "get_theory"]
+__all__ = ["DEFAULT_THEORY", "REGISTRY", "CoordinateMap", "Theory", "available_theories",
+           "coordinate_map", "get_theory"]

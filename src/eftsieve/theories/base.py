@@ -118,6 +118,9 @@ class Theory(ABC):
         module, func = target.split(":")
         fn: Callable[[Fit, Region], CoordinateMap] = getattr(import_module(module), func)
         return fn(fit, region)
+    #: the papers behind the theory (``eftsieve cite``): dicts with key, authors (a tuple),
+    #: title, year and a journal (with volume, pages) and/or an arXiv eprint id
+    references: tuple[dict[str, Any], ...] = ()
 
     def describe(self) -> dict[str, Any]:
         """What ``eftsieve theories`` prints."""
@@ -145,6 +148,15 @@ class Theory(ABC):
     @abstractmethod
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
         """The map from the fit's parameters to the region's coordinates."""
+
+    def observable_likelihood(self, path: Any, fit: Fit
+                              ) -> tuple[Callable[[np.ndarray], np.ndarray], str]:
+        """The refit log-likelihood of an observables file, and its label; theories
+        without a library of observables raise InputError."""
+        from eftsieve.errors import InputError
+
+        raise InputError(path, None, f"theory '{self.name}' has no library of observables",
+                         "give --likelihood MODULE:FUNCTION instead")
 
     def marginal_band(self, region: Region) -> float:
         """The default marginal band of ``check`` in the region's coordinates.

@@ -54,12 +54,19 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 from functools import cache
+from pathlib import Path
+from typing import Any
 
 import numpy as np
 
+from eftsieve.errors import InputError
+from eftsieve.fit.card import read_card
+from eftsieve.fit.model import Fit, check_covariance
 from eftsieve.theories.chpt_su2.amplitude import full_amplitude
+from eftsieve.theories.chpt_su2.conventions import affine_map, convention, lec_index
 
 #: The allowed (isospin, l) pairs (Bose symmetry: even l for I = 0, 2, odd l for I = 1).
 ALLOWED_WAVES: tuple[tuple[int, int], ...] = ((0, 0), (1, 1), (0, 2), (2, 0), (2, 2))
@@ -370,3 +377,108 @@ def evaluate(name: str, lbar, pion_mass_mev: float, fpi_mev: float) -> Threshold
     value = threshold_parameter(name, lbar, pion_mass_mev, fpi_mev)
     return ThresholdParameter(name=name, isospin=iso, l=ell, kind=kind, value=value,
                               units=units(name))
+
+
+# ---- observables files: Gaussian data on threshold parameters, for refits -----------------
+@dataclass(frozen=True)
+class ObservableData:
+    """Gaussian observables: values, covariance, and where each was measured.
+
+    Attributes
+    ----------
+    names
+        Observable names of the built-in library (``a2_0`` ...).
+    pion_mass_mev, fpi_mev
+        The M_pi and F_pi of each observable.
+    values, cov
+        The measured values and their covariance.
+    source
+        The data file.
+    """
+
+    names: tuple[str, ...]
+    pion_mass_mev: np.ndarray
+    fpi_mev: np.ndarray
+    values: np.ndarray
+    cov: np.ndarray
+    source: Path
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"names": list(self.names), "pion_mass_mev": self.pion_mass_mev.tolist(),
+                "fpi_mev": self.fpi_mev.tolist(), "values": self.values.tolist(),
+                "source": str(self.source)}
+
+
+def load_observables(path: str | Path) -> ObservableData:
+    """Read an observables file (YAML/JSON, ``format_version: 1``)."""
+    p = Path(path)
+    card = read_card(p)
+    if card.get("format_version") != 1:
+        raise InputError(p, "format_version", "missing or unsupported", "use format_version: 1")
+    obs = card.get("observables")
+    if not isinstance(obs, list) or not obs:
+        raise InputError(p, "observables", "must be a non-empty list", "see docs/formats.md")
+    names, ms, fs = [], [], []
+    for i, o in enumerate(obs):
+        if not isinstance(o, dict) or o.get("name") not in OBSERVABLES:
+            raise InputError(p, f"observables[{i}].name", f"unknown observable {o!r}",
+                             f"accepted: {', '.join(OBSERVABLES)}")
+        for key in ("pion_mass_mev", "fpi_mev"):
+            if not isinstance(o.get(key), (int, float)) or o[key] <= 0:
+                raise InputError(p, f"observables[{i}].{key}", "missing or not positive",
+                                 "give the value in MeV")
+        names.append(o["name"])
+        ms.append(float(o["pion_mass_mev"]))
+        fs.append(float(o["fpi_mev"]))
+    n = len(names)
+    values = np.asarray(card.get("values", []), dtype=float)
+    if values.shape != (n,):
+        raise InputError(p, "values", f"needs {n} numbers, one per observable", "")
+    cov = np.asarray(card.get("covariance", []), dtype=float)
+    check_covariance(cov, n, p, "covariance")
+    if np.linalg.eigvalsh(cov)[0] <= 0:
+        raise InputError(p, "covariance", "must be positive definite for a likelihood",
+                         "give a full-rank covariance")
+    return ObservableData(tuple(names), np.array(ms), np.array(fs), values, cov, p)
+
+
+def observables_loglike(data: ObservableData, fit: Fit) -> Callable[[np.ndarray], np.ndarray]:
+    """Vectorised Gaussian log-likelihood of the observables as functions of lbar1..lbar4.
+
+    The fit's constants (in its conventions) are mapped to lbar at each observable's own
+    pion mass (exact affine maps of :mod:`eftsieve.theories.chpt_su2.conventions`).
+    """
+    idx = {}
+    for i, p in enumerate(fit.parameters):
+        k = lec_index(p.name)
+        if k is not None and p.convention.name in ("lbar", "lr"):
+            idx[k] = i
+    if sorted(idx) != [1, 2, 3, 4]:
+        raise InputError(fit.source, "parameters", "the observables need lbar1..lbar4",
+                         "fit all four constants (lbar3, lbar4 may be spectators)")
+    cols = [idx[k] for k in (1, 2, 3, 4)]
+    convs = tuple(fit.parameters[c].convention for c in cols)
+    names4 = tuple(fit.parameters[c].name for c in cols)
+    groups: dict[tuple[float, float], list[int]] = {}
+    for j, key in enumerate(zip(data.pion_mass_mev, data.fpi_mev, strict=True)):
+        groups.setdefault(key, []).append(j)
+    maps = {key: affine_map(names4, convs, tuple(convention("lbar", pion_mass_mev=key[0])
+                                                 for _ in range(4))) for key in groups}
+    prec = np.linalg.inv(data.cov)
+
+    def loglike(x: np.ndarray) -> np.ndarray:
+        pred = np.empty((len(x), len(data.names)))
+        for key, js in groups.items():
+            lb = maps[key].apply_points(x[:, cols])
+            pred[:, js] = threshold_parameters([data.names[j] for j in js], lb, key[0], key[1])
+        r = pred - data.values
+        return -0.5 * np.einsum("ni,ij,nj->n", r, prec, r)
+
+    return loglike
+
+
+def observable_likelihood(path: str | Path | ObservableData, fit: Fit
+                          ) -> tuple[Callable[[np.ndarray], np.ndarray], str]:
+    """The refit log-likelihood of an observables file (or its data), and its label."""
+    data = path if isinstance(path, ObservableData) else load_observables(path)
+    return observables_loglike(data, fit), f"observables {data.source}"

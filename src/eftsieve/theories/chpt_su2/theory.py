@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import logging
 import warnings
+from collections.abc import Callable
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -55,6 +56,7 @@ from eftsieve.theories.chpt_su2.conventions import (
     convention,
     lec_index,
 )
+from eftsieve.theories.chpt_su2.references import REFERENCES
 from eftsieve.tolerances import MARGINAL_BAND, SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
@@ -216,6 +218,7 @@ class ChptSU2(Theory):
         "mu_mev": ("renormalisation scale mu in MeV (lr convention)", DEFAULT_MU_MEV),
     }
     families = FAMILIES
+    references = REFERENCES
 
     def build_region(self, settings: dict[str, Any], executor: Executor = serial) -> Region:
         settings = dict(settings)
@@ -256,6 +259,13 @@ class ChptSU2(Theory):
         notes = ("F_pi does not enter the one-loop bounds on lbar1, lbar2 (it is recorded only)",
                  "s, t in certificates are in units of M_pi^2 of the facet's pion mass")
         return Region(self.name, coords, conv_d, tuple(kept), st, notes=notes)
+
+    def observable_likelihood(self, path: Any, fit: Fit
+                              ) -> tuple[Callable[[np.ndarray], np.ndarray], str]:
+        """The pi-pi threshold parameters of an observables file (docs/formats.md)."""
+        from eftsieve.theories.chpt_su2.observables import observable_likelihood
+
+        return observable_likelihood(path, fit)
 
     def marginal_band(self, region: Region) -> float:
         """1e-3 in lbar; 1e-6 in lr, whose l_i^r = gamma_i (lbar_i + ln(M^2/mu^2))/(32 pi^2)

@@ -39,6 +39,7 @@ from eftsieve.theories.chpt_su2.conventions import (
     DEFAULT_PION_MASS_MEV,
 )
 from eftsieve.theories.chpt_su3.channels import CHANNELS, PROCESSES, ChannelFunctionals
+from eftsieve.theories.chpt_su3.references import REFERENCES
 from eftsieve.tolerances import SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
@@ -188,6 +189,7 @@ class ChptSU3(Theory):
         "mu_mev": ("renormalisation scale mu of L_i^r in MeV", DEFAULT_MU_MEV),
     }
     families = FAMILIES
+    references = REFERENCES
 
     def build_region(self, settings: dict[str, Any], executor: Executor = serial) -> Region:
         settings = dict(settings)

@@ -64,6 +64,7 @@ from eftsieve.executors import Executor, serial
 from eftsieve.fit.conventions import ConventionSpec
 from eftsieve.region.model import Facet, Region
 from eftsieve.theories.base import CoordinateMap, Theory
+from eftsieve.theories.scalar_eft.references import REFERENCES
 from eftsieve.theories.scalar_eft.sum_rules import (
     Poly,
     SumRule,
@@ -312,6 +313,7 @@ class ScalarEFT(Theory):
     kinematic_inputs = {"gap_mev": ("mass gap M of the heavy states (MeV); needed by the "
                                     "dimensionful convention", None)}
     families = ("null-constraints",)
+    references = REFERENCES
 
     setting_names = tuple(DEFAULTS)
     cautions = CAUTIONS

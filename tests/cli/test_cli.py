@@ -11,7 +11,7 @@ import pytest
 
 from eftsieve.cli.main import main
 
-DATA = Path(__file__).parent / "fit"
+DATA = Path(__file__).parents[1] / "fit"
 
 
 def run_cli(*args: str) -> subprocess.CompletedProcess:

@@ -10,8 +10,8 @@ import eftsieve
 
 def test_all_is_exact():
     assert eftsieve.__all__ == ["EftsieveError", "EftsieveWarning", "InputError", "__version__",
-                                "build_region", "check", "errors", "get_theory", "load_fit",
-                                "load_region", "theories"]
+                                "build_region", "check", "errors", "get_theory", "impose",
+                                "load_fit", "load_region", "load_samples", "theories"]
 
 
 def test_import_does_not_load_heavy_libraries():

@@ -1,0 +1,199 @@
+"""Argument helpers shared by the verbs: fit, region, uncertainty and bare-samples options.
+
+Each ``add_*`` function adds a group of options to a parser; each ``*_from_args``
+function turns the parsed options into the library's own settings objects.  Parsing
+only: the library does the work.
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from eftsieve.theories import DEFAULT_THEORY
+
+if TYPE_CHECKING:
+    from eftsieve.fit.model import Fit
+    from eftsieve.region.model import Region
+    from eftsieve.stats.truncation import UncertaintySettings
+
+#: the command-line flag that gives each kinematic input of a bare samples file
+KINEMATIC_FLAGS = {"pion_mass_mev": "--pion-mass", "mu_mev": "--scale", "gap_mev": "--gap"}
+#: region option (argparse dest) -> the key of the region settings it fills
+REGION_SETTINGS = {"family": "families", "pion_mass": "pion_masses_mev", "fpi": "fpi_mev",
+                   "convention": "convention", "scale": "mu_mev", "grid": "grid",
+                   "order": "order", "spins": "spins", "coordinates": "coordinates"}
+
+
+def csv_list(text: str) -> list[str]:
+    """``a,b, c`` -> ``["a", "b", "c"]`` (empty items dropped)."""
+    return [t.strip() for t in text.split(",") if t.strip()]
+
+
+def add_region_args(p: argparse.ArgumentParser) -> None:
+    """The options that choose and tune a region build."""
+    p.add_argument("--theory", default=DEFAULT_THEORY,
+                   help=f"theory name (default {DEFAULT_THEORY}; see `eftsieve theories`)")
+    p.add_argument("--family", type=csv_list, default=None,
+                   help="comma-separated bound families (default: all of the theory)")
+    p.add_argument("--pion-mass", type=float, nargs="+", action="extend", default=None,
+                   metavar="MEV",
+                   help="pion mass(es) in MeV (default 139.57); several need a "
+                        "mass-independent convention")
+    p.add_argument("--fpi", type=float, default=None, metavar="MEV",
+                   help="F_pi in MeV (default 92.07)")
+    p.add_argument("--convention", default=None,
+                   help="convention of the region's coordinates (default: the theory's; "
+                        "see `eftsieve theories`)")
+    p.add_argument("--scale", type=float, default=None, metavar="MEV",
+                   help="renormalisation scale mu in MeV of a scale-dependent convention "
+                        "(default 770)")
+    p.add_argument("--grid", choices=["default", "fine"], default=None,
+                   help="kinematic scan density (theories with a kinematic scan)")
+    p.add_argument("--order", type=int, default=None,
+                   help="expansion order (theories with sum rules)")
+    p.add_argument("--spins", type=int, default=None, metavar="JMAX",
+                   help="spin cut-off of the heavy-state grid (theories with sum rules)")
+    p.add_argument("--coordinates", type=csv_list, default=None,
+                   help="region coordinates, e.g. g3t,g4t (theories that offer a choice)")
+    p.add_argument("--engine", choices=["local", "dask"], default=None,
+                   help="dask: solve the independent directions of a region build in parallel "
+                        "(theories with parallel builds)")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="dask scheduler address (default: a local cluster of 2 workers)")
+
+
+def region_settings_from_args(args: argparse.Namespace) -> dict[str, Any]:
+    """Collect the region options that were given (None means: theory default)."""
+    return {v: getattr(args, k) for k, v in REGION_SETTINGS.items()
+            if getattr(args, k, None) is not None}
+
+
+def add_fit_args(p: argparse.ArgumentParser, many: bool = False) -> None:
+    """The fit, its region, the output folder and the seed; then the bare-samples and
+    theory-uncertainty groups."""
+    if many:
+        p.add_argument("fit", nargs="+", help="fit card(s) (.yaml/.json) or a bare samples "
+                       "file (.csv/.parquet/.nc, a directory or glob of Parquet files)")
+    else:
+        p.add_argument("fit", help="fit card (.yaml/.json) or a bare samples file "
+                       "(.csv/.parquet/.nc)")
+    p.add_argument("--region", default=None, help="region file (default: build from the fit)")
+    p.add_argument("-o", "--output", default=None, metavar="DIR", help="output directory")
+    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    add_samples_args(p)
+    add_uncertainty_args(p)
+
+
+def add_samples_args(p: argparse.ArgumentParser) -> None:
+    """What a bare samples file (no fit card) needs: theory, convention, kinematics."""
+    g = p.add_argument_group("bare samples file (no fit card)")
+    g.add_argument("--theory", default=None, help="theory of a bare samples file")
+    g.add_argument("--convention", default=None, help="convention of a bare samples file")
+    g.add_argument("--pion-mass", type=float, default=None, metavar="MEV",
+                   help="pion mass of a bare samples file's convention, if it needs one")
+    g.add_argument("--scale", type=float, default=None, metavar="MEV",
+                   help="scale mu of a bare samples file's convention, if it needs one")
+    g.add_argument("--gap", type=float, default=None, metavar="MEV",
+                   help="mass gap M of a bare samples file's convention, if it needs one")
+    g.add_argument("--weight-column", default=None, help="weight column of a bare samples file")
+
+
+def add_uncertainty_args(p: argparse.ArgumentParser) -> None:
+    """The theory-uncertainty model of the bounds' offsets."""
+    g = p.add_argument_group("theory uncertainty of the bounds (docs/physics.md)")
+    g.add_argument("--theory-uncertainty", choices=["none", "fixed", "power-counting"],
+                   default="none", help="model of the facets' offset uncertainty")
+    g.add_argument("--sigma", default=None, metavar="FAMILY=S,...",
+                   help="fixed model: sigma per bound family, in the units of the bound")
+    g.add_argument("--breakdown", type=float, default=None, metavar="MEV",
+                   help="power-counting: breakdown scale Lambda_b (default 4 pi F_pi)")
+    g.add_argument("--coefficient-prior", default="1,1", metavar="NU0,TAU0",
+                   help="power-counting: scaled-inverse-chi2 prior of cbar^2 (default 1,1)")
+    g.add_argument("--thresholds", default="0.05,0.95", metavar="LOW,HIGH",
+                   help="P(satisfies) thresholds of the 'uncertain' verdict")
+
+
+def load_fit_arg(args: argparse.Namespace) -> Fit:
+    """A Fit from a card, or from a bare samples file with --theory/--convention."""
+    from eftsieve.api import load_fit, load_samples
+    from eftsieve.errors import InputError
+
+    path = Path(args.fit)
+    if path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir():
+        return load_fit(path)
+    if not args.theory or not args.convention:
+        raise InputError(path, None, "a bare samples file needs its theory and convention",
+                         "add --theory NAME --convention NAME (and --pion-mass, "
+                         "--scale or --gap)")
+    given = {"pion_mass_mev": args.pion_mass, "mu_mev": args.scale,
+             "gap_mev": getattr(args, "gap", None)}
+    try:
+        return load_samples(path, args.theory, args.convention,
+                            weight_column=args.weight_column, **given)
+    except InputError as err:  # name the flag that gives a missing kinematic input
+        if err.field in KINEMATIC_FLAGS:
+            flag = KINEMATIC_FLAGS[err.field]
+            raise InputError(None, flag, err.problem, f"add {flag} MEV") from err
+        raise
+
+
+def _pair(text: str, opt: str) -> tuple[float, float]:
+    from eftsieve.errors import InputError
+
+    try:
+        a, b = (float(v) for v in text.split(","))
+    except ValueError as err:
+        raise InputError(None, opt, f"expected two numbers 'A,B', got {text!r}", "") from err
+    return a, b
+
+
+def _sigmas(text: str | None) -> dict[str, float]:
+    from eftsieve.errors import InputError
+
+    sig: dict[str, float] = {}
+    for item in (text or "").split(","):
+        if not item.strip():
+            continue
+        if "=" not in item:
+            raise InputError(None, "--sigma", f"expected FAMILY=SIGMA, got {item!r}",
+                             "e.g. --sigma t-derivative=0.3")
+        k, v = item.split("=", 1)
+        try:
+            sig[k.strip()] = float(v)
+        except ValueError as err:
+            raise InputError(None, "--sigma", f"not a number: {v!r}", "") from err
+    return sig
+
+
+def uncertainty_from_args(args: argparse.Namespace) -> UncertaintySettings | None:
+    """UncertaintySettings from the command line (None for the model 'none')."""
+    from eftsieve.errors import InputError
+    from eftsieve.stats.truncation import UncertaintySettings
+
+    if args.theory_uncertainty == "none":
+        return None
+    sig = _sigmas(args.sigma)
+    if args.theory_uncertainty == "fixed" and not sig:
+        raise InputError(None, "--sigma", "the fixed model needs a sigma per bound family",
+                         "e.g. --sigma t-derivative=0.3,second-derivative=0.3")
+    nu0, tau0 = _pair(args.coefficient_prior, "--coefficient-prior")
+    lo, hi = _pair(args.thresholds, "--thresholds")
+    return UncertaintySettings(args.theory_uncertainty, sig, args.breakdown, nu0, tau0, lo, hi)
+
+
+def region_for(fit: Fit, args: argparse.Namespace, outdir: Path) -> tuple[Region, str]:
+    """The region from --region, or built from the fit and saved next to the outputs."""
+    from eftsieve.api import region_for as _region_for
+
+    return _region_for(fit, args.region, outdir)
+
+
+def input_files(fit: Fit, args: argparse.Namespace, *extra: str | None) -> list[Any]:
+    """Every input file of a run (the card, the region, the samples, extras), so that no
+    output is written over one of them."""
+    ins: list[Any] = [fit.source, args.region, *extra]
+    if fit.samples is not None:
+        ins.append(fit.samples.path)
+    return ins

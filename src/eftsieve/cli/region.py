@@ -1,0 +1,51 @@
+"""``eftsieve region``: build the allowed region of a theory and save it."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from typing import Any
+
+from eftsieve.cli.args import add_region_args, region_settings_from_args
+
+HELP = "build the allowed region of a theory"
+
+
+def add_parser(sub: Any) -> argparse.ArgumentParser:
+    p = sub.add_parser("region", help=HELP, description=HELP)
+    add_region_args(p)
+    p.add_argument("-o", "--output", required=True, help="region file to write (JSON)")
+    p.add_argument("--plot", default=None, help="also draw the region to this PNG")
+    p.add_argument("--json", action="store_true", help="print the region summary as JSON")
+    p.set_defaults(func=cmd_region)
+    return p
+
+
+def cmd_region(args: argparse.Namespace) -> int:
+    from eftsieve.api import build_region, get_theory
+    from eftsieve.errors import InputError
+    from eftsieve.executors import dask_map, serial
+    from eftsieve.region.build import describe_region
+
+    try:
+        parallel = get_theory(args.theory).parallel_build
+    except KeyError as err:
+        raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
+    if (args.engine or args.scheduler) and not parallel:
+        raise InputError(None, "--engine", f"{args.theory} regions are built in one process "
+                         "(they take about a second)", "drop --engine/--scheduler")
+    if args.scheduler and args.engine != "dask":
+        raise InputError(None, "--scheduler", "a scheduler address needs the dask engine",
+                         "add --engine dask")
+    executor = dask_map(args.scheduler) if args.engine == "dask" else serial
+    region = build_region(args.theory, executor=executor, **region_settings_from_args(args))
+    region.save(args.output)
+    if args.plot:
+        from eftsieve.report.plots import save_region_plot
+
+        save_region_plot(region, args.plot)
+    if args.json:
+        print(json.dumps(region.summary(), indent=2))
+    else:
+        print(describe_region(region, args.output))
+    return 0

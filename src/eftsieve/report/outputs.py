@@ -1,0 +1,193 @@
+"""Write the output set of a check or an impose run into one directory.
+
+The command line and the demo call these; a script may call them too.  Every file is
+written atomically (:mod:`eftsieve.io.atomic`), so a folder holds either the new file or
+the previous one.
+
+Use :func:`write_check_outputs` after a check (summary.json, report.md, report.html and
+the plots; ``flagged.csv`` is written by the check run itself) and
+:func:`write_impose_outputs` after an impose run (samples.parquet, optionally
+samples.csv, summary.json, report.md and the before/after corner plot).
+:data:`CHECK_OUTPUTS` and :data:`IMPOSE_OUTPUTS` name every file a run may write, so a
+caller can refuse an output folder that would overwrite an input
+(:func:`eftsieve.io.atomic.guard_inputs`).
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from eftsieve.check.run import CheckResult
+    from eftsieve.fit.model import Fit
+    from eftsieve.impose.core import ImposeResult
+    from eftsieve.region.model import Region
+
+#: every file a check may write into its output folder
+CHECK_OUTPUTS = ("summary.json", "flagged.csv", "report.md", "report.html", "corner.png",
+                 "region.png", "region.json")
+#: every file an impose run may write into its output folder
+IMPOSE_OUTPUTS = ("samples.parquet", "samples.csv", "summary.json", "corner_before_after.png",
+                  "report.md", "region.json")
+#: rows of each sample set drawn in the before/after corner plot
+CORNER_ROWS = 50_000
+
+
+def write_check_outputs(fit: Fit, result: CheckResult, outdir: str | Path, *,
+                        plots: bool = True) -> dict[str, Path]:
+    """Write summary.json, report.md, report.html and (with ``plots``) the PNG plots.
+
+    Parameters
+    ----------
+    fit
+        The checked fit.
+    result
+        What the check returned (its ``summary`` becomes summary.json).
+    outdir
+        The output folder (must exist).
+    plots
+        Draw region.png (1-D and 2-D regions) and corner.png.
+
+    Returns
+    -------
+    dict
+        Output name (``summary``, ``report_md``, ``report_html``, ``region``, ``corner``)
+        -> path written.
+    """
+    from eftsieve.io.atomic import atomic_write_json, atomic_write_text
+    from eftsieve.report.check_report import check_document
+    from eftsieve.report.document import to_html, to_markdown
+
+    outdir = Path(outdir)
+    images = check_plots(result, fit, outdir) if plots else {}
+    written = dict(images)
+    written["summary"] = atomic_write_json(outdir / "summary.json", result.summary)
+    doc = check_document(fit, result.region, result.summary, result.worst, images)
+    written["report_md"] = atomic_write_text(outdir / "report.md", to_markdown(doc))
+    written["report_html"] = atomic_write_text(outdir / "report.html", to_html(doc))
+    return written
+
+
+def check_plots(result: CheckResult, fit: Fit, outdir: Path) -> dict[str, Path]:
+    """region.png and corner.png of a check; returns the written paths."""
+    from eftsieve.report.plots import save_corner, save_region_plot
+
+    region = result.region
+    images: dict[str, Path] = {}
+    if region.dim in (1, 2) and len(result.plot_region_coords):
+        tu = result.summary.get("theory_uncertainty")
+        bands = (None if not tu else dict(enumerate(tu["model"]["sigma_median"])))
+        images["region"] = save_region_plot(region, outdir / "region.png",
+                                            samples=result.plot_region_coords,
+                                            weights=result.plot_weights, bands=bands)
+    # corner in region coordinates for the constrained parameters, the rest as they are
+    cmap_cols = region_columns(result.summary["coordinate_map"]["jacobian"])
+    data = result.plot_samples.copy()
+    names = list(fit.names)
+    for k, col in cmap_cols.items():
+        data[:, col] = result.plot_region_coords[:, k]
+        names[col] = f"{region.coordinates[k]} (region)"
+    if len(data) > 1 and np.all(np.ptp(data, axis=0) > 0):
+        images["corner"] = save_corner(outdir / "corner.png", data, names,
+                                       weights=result.plot_weights, region=region,
+                                       region_coords=cmap_cols)
+    return images
+
+
+def region_columns(jac: Any) -> dict[int, int]:
+    """Region coordinate k -> the single fit column it is made from (affine maps only)."""
+    if jac is None:
+        return {}
+    cols = {}
+    for k, row in enumerate(jac):
+        nz = [i for i, v in enumerate(row) if abs(v) > 0]
+        if len(nz) == 1:
+            cols[k] = nz[0]
+    return cols
+
+
+def impose_summary(fit: Fit, region: Region, result: ImposeResult,
+                   region_path: str | None) -> dict[str, Any]:
+    """summary.json of an impose run: the result's figures with the fit and the region."""
+    return {**result.figures, "fit": fit.name, "theory": fit.theory,
+            "region_hash": region.hash, "region_file": region_path}
+
+
+def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir: str | Path,
+                         *, region_path: str | None = None, csv: bool = False,
+                         plots: bool = True) -> dict[str, Any]:
+    """Write samples.parquet (and samples.csv), summary.json, report.md and the corner plot.
+
+    Parameters
+    ----------
+    fit, region, result
+        The fit, the region imposed and what :func:`eftsieve.impose.api.impose` returned.
+    outdir
+        The output folder (must exist).
+    region_path
+        The region file, recorded in summary.json.
+    csv
+        Also write samples.csv.
+    plots
+        Draw corner_before_after.png.
+
+    Returns
+    -------
+    dict
+        The summary written to summary.json.
+    """
+    from eftsieve.io.atomic import atomic_write_json, atomic_write_text
+    from eftsieve.report.document import to_markdown
+    from eftsieve.report.impose_report import impose_document
+
+    outdir = Path(outdir)
+    write_samples(result, outdir, csv)
+    images = {"corner": impose_corner(result, fit, region, outdir)} if plots else {}
+    summary = impose_summary(fit, region, result, region_path)
+    atomic_write_json(outdir / "summary.json", summary)
+    atomic_write_text(outdir / "report.md", to_markdown(
+        impose_document(fit, region, summary, images)))
+    return summary
+
+
+def write_samples(result: ImposeResult, outdir: Path, csv: bool) -> list[Path]:
+    """samples.parquet (and samples.csv): the parameters, a weight column and the row."""
+    import pandas as pd
+
+    from eftsieve.io.atomic import atomic_write_with
+
+    frame = pd.DataFrame(result.samples, columns=list(result.names))
+    frame["weight"] = 1.0 if result.weights is None else result.weights
+    frame["row"] = result.rows if result.rows is not None else np.arange(len(frame))
+    paths = [atomic_write_with(outdir / "samples.parquet",
+                               lambda t: frame.to_parquet(t, index=False))]
+    if csv:
+        paths.append(atomic_write_with(outdir / "samples.csv",
+                                       lambda t: frame.to_csv(t, index=False)))
+    return paths
+
+
+def impose_corner(result: ImposeResult, fit: Fit, region: Region, outdir: Path) -> Path:
+    """corner_before_after.png with the region boundary (in the fit's own coordinates
+    where the map is the identity on the constrained columns)."""
+    from eftsieve.report.plots import save_corner
+    from eftsieve.theories import coordinate_map
+
+    cmap = coordinate_map(fit, region)
+    before, after = result.before_samples.copy(), result.samples.copy()
+    names = list(fit.names)
+    cols = region_columns(None if cmap.jacobian is None else cmap.jacobian.tolist())
+    for k, c in cols.items():
+        before[:, c] = cmap(result.before_samples)[:, k]
+        after[:, c] = cmap(result.samples)[:, k]
+        names[c] = f"{region.coordinates[k]} (region)"
+    keep = min(len(before), CORNER_ROWS)
+    return save_corner(outdir / "corner_before_after.png", before[:keep], names,
+                       weights=None if result.before_weights is None
+                       else result.before_weights[:keep],
+                       region=region, region_coords=cols, overlay=after[:CORNER_ROWS],
+                       overlay_weights=None if result.weights is None
+                       else result.weights[:CORNER_ROWS], labels=("before", "after positivity"))
