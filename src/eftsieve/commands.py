@@ -34,6 +34,15 @@ def add_fit_args(p: argparse.ArgumentParser, many: bool = False) -> None:
     p.add_argument("--gap", type=float, default=None, metavar="MEV",
                    help="mass gap M of a bare samples file's dimensionful convention")
     p.add_argument("--weight-column", default=None, help="weight column of a bare samples file")
+    p.add_argument("--columns", default=None, metavar="SPEC",
+                   help="bare file: parameters to read, 'lbar1,lbar2' (names in order for "
+                        ".npy and emcee files) or 'lbar1=COL,lbar2=l[1],weight=w'")
+    p.add_argument("--burn-in", type=int, default=None, metavar="N",
+                   help="emcee/NetCDF file: drop the first N iterations of each walker/chain")
+    p.add_argument("--thin", type=int, default=None, metavar="K",
+                   help="emcee/NetCDF file: keep every K-th iteration after the burn-in")
+    p.add_argument("--keep-walkers", default=None, metavar="LIST",
+                   help="emcee/NetCDF file: walkers (chains) to keep, '0:16' or '0,3,5'")
     g = p.add_argument_group("theory uncertainty of the bounds (docs/physics.md)")
     g.add_argument("--theory-uncertainty", choices=["none", "fixed", "power-counting"],
                    default="none", help="model of the facets' offset uncertainty")
@@ -73,8 +82,13 @@ def load_fit_arg(args: argparse.Namespace):
     from eftsieve.errors import InputError
     from eftsieve.fit import CONVENTION_NEEDS, fit_from_samples, load_fit
 
+    from eftsieve.fit_formats.columns import parse_columns_flag
+    from eftsieve.fit_formats.gvar_json import is_gvar_json
+    from eftsieve.fit_formats.options import parse_options
+
     path = Path(args.fit)
-    if path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir():
+    if (path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir()
+            and not (path.suffix.lower() == ".json" and is_gvar_json(path))):
         return load_fit(path)
     if not args.theory or not args.convention:
         raise InputError(path, None, "a bare samples file needs its theory and convention",
@@ -94,8 +108,12 @@ def load_fit_arg(args: argparse.Namespace):
         conv = Convention(conv_name, **{key: kin[key]})
     else:
         conv = Convention(conv_name)
+    flags = {"burn_in": getattr(args, "burn_in", None), "thin": getattr(args, "thin", None),
+             "walkers": getattr(args, "keep_walkers", None)}
+    spec = getattr(args, "columns", None)
     return fit_from_samples(path, args.theory, conv, weight_column=args.weight_column,
-                            kinematics=kin)
+                            kinematics=kin, options=parse_options(flags, None, "--"),
+                            columns=None if spec is None else parse_columns_flag(spec))
 
 
 #: the command-line flag that gives each kinematic input of a bare samples file
