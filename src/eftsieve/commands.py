@@ -81,7 +81,6 @@ def load_fit_arg(args: argparse.Namespace):
     from eftsieve.conventions import Convention
     from eftsieve.errors import InputError
     from eftsieve.fit import CONVENTION_NEEDS, fit_from_samples, load_fit
-
     from eftsieve.fit_formats.columns import parse_columns_flag
     from eftsieve.fit_formats.gvar_json import is_gvar_json
     from eftsieve.fit_formats.options import parse_options

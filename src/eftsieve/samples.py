@@ -217,7 +217,8 @@ class SamplesSource:
             import pyarrow.parquet as pq
 
             return list(pq.ParquetFile(f).schema_arrow.names)
-        raise InputError(f, "samples.format", f"unknown format '{self.fmt}'", "")  # pragma: no cover
+        raise InputError(f, "samples.format", f"unknown format '{self.fmt}'",  # pragma: no cover
+                         "see docs/formats.md")
 
     def column_table(self, file: Path | None = None) -> ColumnTable:
         """The columns of the file (default: the first file), with aliases."""

@@ -78,7 +78,7 @@ def _variables(path: Path, ds: Any) -> list[tuple[str, Any]]:
 
 def _columns(path: Path, ds: Any) -> list[tuple[str, str, tuple[int, ...], str | None]]:
     """(label, variable, element index, alias) for every flat column."""
-    cols = []
+    cols: list[tuple[str, str, tuple[int, ...], str | None]] = []
     for name, v in _variables(path, ds):
         extra = v.shape[2:]
         if not extra:

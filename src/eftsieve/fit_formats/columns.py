@@ -137,7 +137,7 @@ def parse_columns(raw: Any, path: Path | str | None, where: str) -> ColumnsSpec 
                         path, where)
     if isinstance(raw, dict):
         weight = None
-        names: list[str] = []
+        keys: list[str] = []
         sources: list[str | int | None] = []
         for k, v in raw.items():
             if not isinstance(k, str) or isinstance(v, bool) or not isinstance(v, (str, int)):
@@ -149,9 +149,9 @@ def parse_columns(raw: Any, path: Path | str | None, where: str) -> ColumnsSpec 
             if k == WEIGHT_KEY:
                 weight = v
             else:
-                names.append(k)
+                keys.append(k)
                 sources.append(v)
-        return _checked(ColumnsSpec(tuple(names), tuple(sources), weight, False), path, where)
+        return _checked(ColumnsSpec(tuple(keys), tuple(sources), weight, False), path, where)
     raise InputError(path, where, "must be a list of names or a mapping NAME: COLUMN",
                      "see docs/formats.md, 'Columns'")
 
@@ -180,7 +180,9 @@ def parse_columns_flag(text: str, flag: str = "--columns") -> ColumnsSpec:
 
 
 def _split_outside_brackets(text: str) -> list[str]:
-    out, depth, cur = [], 0, []
+    out: list[str] = []
+    cur: list[str] = []
+    depth = 0
     for ch in text:
         depth += (ch == "[") - (ch == "]")
         if ch == "," and depth == 0:

@@ -62,7 +62,8 @@ def parse_walkers(raw: Any, path: Path | str | None, where: str) -> tuple[int, .
                 parts = [int(v) if v.strip() else None for v in raw.split(":")]
                 if len(parts) > 3 or parts[1] is None:
                     raise ValueError(raw)
-                out = tuple(range(*[0 if parts[0] is None else parts[0], *parts[1:]]))
+                step = parts[2] if len(parts) == 3 and parts[2] is not None else 1
+                out = tuple(range(parts[0] or 0, parts[1], step))
             else:
                 out = tuple(int(v) for v in raw.split(","))
         elif isinstance(raw, list) and all(isinstance(v, int) and not isinstance(v, bool)
