@@ -1,4 +1,5 @@
-"""Chunked readers for posterior-samples files (CSV, Parquet, NetCDF posterior groups).
+"""Chunked readers for posterior-samples files (CSV, Parquet; NetCDF posterior groups,
+emcee HDF5 backends and NumPy arrays through :mod:`eftsieve.fit_formats`).
 
 A :class:`SamplesSource` never holds a whole large file in memory: ``iter_chunks``
 yields bounded blocks with the original row index, the parameter values in the
