@@ -172,6 +172,8 @@ def _inputs(fit, args) -> list:
     ins = [fit.source, args.region]
     if fit.samples is not None:
         ins.append(fit.samples.path)
+    if fit.extra.get("gaussian_file"):
+        ins.append(fit.extra["gaussian_file"])
     return ins
 
 

@@ -242,6 +242,7 @@ def fit_from_card(card: dict[str, Any], path: Path) -> Fit:
         raise InputError(path, "parameters", "duplicate parameter names", "name each once")
     mean = cov = None
     source = None
+    extra: dict[str, Any] = {}
     if "mean" in card:
         mean, cov = _gaussian(card, path, len(names))
     elif "gaussian" in card:
@@ -249,9 +250,10 @@ def fit_from_card(card: dict[str, Any], path: Path) -> Fit:
 
         mean, cov, gfile = gaussian_from_card(card["gaussian"], path, names)
         check_covariance(cov, len(names), gfile, "covariance of the selected keys")
+        extra["gaussian_file"] = str(gfile)
     else:
         source = _samples(card, path, names)
     fit = Fit(card["name"], card["theory"], tuple(params), kin, mean, cov, source,
-              _prior(card, path, names), path)
+              _prior(card, path, names), path, extra)
     theory.validate_fit(fit)
     return fit
