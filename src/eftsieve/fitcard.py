@@ -177,8 +177,9 @@ def _samples(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> Sample
         raise InputError(path, "samples.format", f"{err.problem} in {file.name}",
                          err.hint) from err
     if fmt == "gvar-json":
-        raise InputError(path, "samples.format", f"{file.name} is a gvar JSON dump, a "
-                         "Gaussian summary", "write gaussian: {file: ..., keys: [...]}")
+        raise InputError(path, "samples.format", f"{file.name}: a .json file is read as a gvar "
+                         "JSON dump, a Gaussian summary", "write gaussian: {file: ..., keys: "
+                         "[...]}, or convert samples to .csv, .parquet or .npy")
     unknown = sorted(set(spec) - set(FIT_CARD_SCHEMA["properties"]["samples"]["properties"]))
     if unknown:
         raise InputError(path, f"samples.{unknown[0]}", "unknown field", "allowed: " + ", ".join(

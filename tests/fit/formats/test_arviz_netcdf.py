@@ -166,3 +166,12 @@ def test_group_option_is_refused_for_netcdf(files):
     with pytest.raises(InputError) as info:
         load_fit(card)
     assert_one_line(info, "g.yaml", "samples.group", "read from its 'posterior' group")
+
+
+def test_h5_extension_is_sniffed_netcdf_or_emcee(files, tmp_path):
+    import shutil
+
+    shutil.copy(files["folder"] / "named.nc", tmp_path / "posterior.h5")
+    fit = load_fit(write_card(tmp_path, {"samples": {"path": "posterior.h5"}}))
+    assert fit.samples.fmt == "netcdf"
+    assert np.array_equal(fit.samples.read_all().values, _chain_major(files["lbar"]))

@@ -218,3 +218,10 @@ def test_card_with_mean_and_gaussian_is_refused(lsq):
     with pytest.raises(InputError) as info:
         load_fit(card)
     assert_one_line(info, "both.yaml", "mean/samples", "exactly one")
+
+
+def test_samples_entry_pointing_at_a_gvar_dump_is_refused(lsq):
+    card = write_card(lsq["folder"], {"samples": {"path": "fit.json"}}, "as_samples.yaml")
+    with pytest.raises(InputError) as info:
+        load_fit(card)
+    assert_one_line(info, "as_samples.yaml", "samples.format", "gvar JSON dump")
