@@ -175,3 +175,10 @@ def test_h5_extension_is_sniffed_netcdf_or_emcee(files, tmp_path):
     fit = load_fit(write_card(tmp_path, {"samples": {"path": "posterior.h5"}}))
     assert fit.samples.fmt == "netcdf"
     assert np.array_equal(fit.samples.read_all().values, _chain_major(files["lbar"]))
+
+
+def test_xarray_without_open_datatree_reads_the_group(files, monkeypatch):
+    """Older xarray (no DataTree): the posterior group is opened on its own."""
+    monkeypatch.delattr(xr, "open_datatree")
+    fit = load_fit(write_card(files["folder"], {"samples": {"path": "named.nc"}}, "old.yaml"))
+    assert np.array_equal(fit.samples.read_all().values, _chain_major(files["lbar"]))
