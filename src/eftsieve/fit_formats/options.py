@@ -117,6 +117,8 @@ def check_applicable(options: ReadOptions, fmt: str, path: Path | str | None,
                              "'posterior' group", "remove the group option")
         return
     if not options.is_default:
-        raise InputError(path, prefix + "burn_in/thin/walkers/group", f"a {fmt} file holds "
+        where = ("--burn-in/--thin/--keep-walkers" if prefix == "--"
+                 else prefix + "burn_in/thin/walkers/group")
+        raise InputError(path, where, f"a {fmt} file holds "
                          "no chains to select from", "remove these options, or cut the "
                          "file before")
