@@ -27,6 +27,8 @@ from eftsieve.fit_formats.columns import ColumnTable
 from eftsieve.fit_formats.options import ReadOptions
 
 LOG_PROB = "log_prob"
+#: bytes of chain read per HDF5 access (several walkers at once, never more than this)
+READ_BUDGET = 256 << 20
 HOW_TO = "write it with emcee.backends.HDFBackend(path) passed to EnsembleSampler(backend=)"
 
 
@@ -137,11 +139,20 @@ def iter_frames(path: Path, labels: Sequence[str], chunk_rows: int,
                              "lower the burn-in or the thinning")
         dims = [int(lab) for lab in labels if lab != LOG_PROB]
         sl = slice(keep.start, keep.stop, keep.step)
-        for w in _walkers(path, options, nw):
-            block = g["chain"][sl, w, :]
-            cols: dict[str, np.ndarray] = {str(d): block[:, d] for d in dims}
-            if LOG_PROB in labels:
-                cols[LOG_PROB] = g["log_prob"][sl, w]
-            frame = pd.DataFrame(cols, copy=False)
-            for lo in range(0, len(frame), chunk_rows):
-                yield frame.iloc[lo:lo + chunk_rows]
+        walkers = _walkers(path, options, nw)
+        # read a few walkers per HDF5 access (each stored chunk spans several walkers)
+        per = max(1, min(g["chain"].chunks[1] if g["chain"].chunks else 1,
+                         READ_BUDGET // max(1, len(keep) * nd * 8)))
+        for lo_w in range(0, len(walkers), per):
+            group = walkers[lo_w:lo_w + per]
+            order = sorted(set(group))
+            block = g["chain"][sl, order, :]
+            lp = g["log_prob"][sl, order] if LOG_PROB in labels else None
+            for w in group:
+                k = order.index(w)
+                cols: dict[str, np.ndarray] = {str(d): block[:, k, d] for d in dims}
+                if lp is not None:
+                    cols[LOG_PROB] = lp[:, k]
+                frame = pd.DataFrame(cols, copy=False)
+                for lo in range(0, len(frame), chunk_rows):
+                    yield frame.iloc[lo:lo + chunk_rows]
