@@ -182,3 +182,16 @@ def test_xarray_without_open_datatree_reads_the_group(files, monkeypatch):
     monkeypatch.delattr(xr, "open_datatree")
     fit = load_fit(write_card(files["folder"], {"samples": {"path": "named.nc"}}, "old.yaml"))
     assert np.array_equal(fit.samples.read_all().values, _chain_major(files["lbar"]))
+
+
+def test_coordinate_label_shared_by_two_variables_needs_a_mapping(tmp_path):
+    lbar, _ = _draws()
+    idata = az.from_dict(posterior={"lbar": lbar, "shifted": lbar + 1.0},
+                         coords={"p": ["lbar1", "lbar2"]}, dims={"lbar": ["p"], "shifted": ["p"]})
+    _write(idata, tmp_path / "two.nc")
+    with pytest.raises(InputError) as info:
+        load_fit(write_card(tmp_path, {"samples": {"path": "two.nc"}}))
+    assert_one_line(info, "card.yaml", "samples.columns", "labels several columns")
+    fit = load_fit(write_card(tmp_path, {"samples": {"path": "two.nc", "columns": {
+        "lbar1": "shifted[0]", "lbar2": "shifted[1]"}}}, "mapped.yaml"))
+    assert np.array_equal(fit.samples.read_all().values, _chain_major(lbar + 1.0))

@@ -196,3 +196,12 @@ def test_bare_file_without_names_is_refused(chain):
     with pytest.raises(InputError) as info:
         load_fit_arg(args)
     assert_one_line(info, "chain.h5", "--columns", "stores no parameter names")
+
+
+def test_damaged_backend_is_refused(tmp_path):
+    _run(tmp_path / "damaged.h5", 4, 10)
+    with h5py.File(tmp_path / "damaged.h5", "a") as f:
+        f["mcmc"].attrs["iteration"] = 50  # more steps than stored
+    with pytest.raises(InputError) as info:
+        load_fit(write_card(tmp_path, {"samples": {"path": "damaged.h5"}}))
+    assert_one_line(info, "damaged.h5", "chain", "exceeds the stored 10 steps")

@@ -225,3 +225,13 @@ def test_samples_entry_pointing_at_a_gvar_dump_is_refused(lsq):
     with pytest.raises(InputError) as info:
         load_fit(card)
     assert_one_line(info, "as_samples.yaml", "samples.format", "gvar JSON dump")
+
+
+def test_dump_without_keys_or_shape_is_refused(lsq, tmp_path):
+    def edit(d):
+        d.pop("keys")
+        d.pop("layouts")
+    path = _edited(lsq, tmp_path, "nolayout.json", edit)
+    with pytest.raises(InputError) as info:
+        read_gvar_json(path)
+    assert_one_line(info, "nolayout.json", "gaussian.file:shape", "'keys' or 'shape'")
