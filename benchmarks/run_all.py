@@ -10,7 +10,8 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 SCRIPTS = ["bench_region.py", "bench_classify.py", "bench_exact.py", "bench_refit.py",
-           "bench_scalar_eft.py", "bench_su3.py", "bench_tension.py", "bench_dask.py"]
+           "bench_scalar_eft.py", "bench_su3.py", "bench_tension.py", "bench_dask.py",
+           "bench_readers.py"]
 
 
 def main() -> int:

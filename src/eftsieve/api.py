@@ -28,15 +28,22 @@ def load_fit(path: str | Path) -> Fit:
 
 def load_samples(path: str | Path, theory: str, convention: str, *,
                  weight_column: str | None = None, name: str | None = None,
-                 **kinematics: float) -> Fit:
-    """A fit from a bare samples file: every numeric column is a parameter.
+                 columns: str | None = None, burn_in: int | None = None,
+                 thin: int | None = None, walkers: str | None = None,
+                 **kinematics: float | None) -> Fit:
+    """A fit from a bare samples file (CSV, Parquet, NetCDF, emcee HDF5, .npy/.npz, or a
+    gvar JSON dump): every numeric column is a parameter, unless ``columns``
+    (``"lbar1,lbar2"`` or ``"lbar1=COL,lbar2=l[1],weight=w"``) selects and renames them.
 
     Columns that ``theory`` knows get ``convention`` (with the kinematic values it needs,
     e.g. ``mu_mev=770``); the others are carried through as nuisance parameters.
+    ``burn_in``, ``thin`` and ``walkers`` apply to sampler files (docs/formats.md).
     """
     from eftsieve.errors import InputError
     from eftsieve.fit.conventions import NONE, Convention, make_convention
     from eftsieve.fit.model import fit_from_samples
+    from eftsieve.io.readers.columns import parse_columns_flag
+    from eftsieve.io.readers.options import parse_options
     from eftsieve.theories import get_theory
 
     try:
@@ -56,8 +63,10 @@ def load_samples(path: str | Path, theory: str, convention: str, *,
                 raise InputError(None, key, f"convention '{convention}' needs {what}",
                                  f"give {key} (MeV)")
         conv = make_convention(spec, **{k: kin[k] for k, _ in spec.needs})
+    opts = parse_options({"burn_in": burn_in, "thin": thin, "walkers": walkers}, None, "--")
     return fit_from_samples(path, th, conv, weight_column=weight_column, kinematics=kin,
-                            name=name)
+                            name=name, options=opts,
+                            columns=None if columns is None else parse_columns_flag(columns))
 
 
 def default_region(fit: Fit) -> Region:

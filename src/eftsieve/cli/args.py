@@ -98,6 +98,15 @@ def add_samples_args(p: argparse.ArgumentParser) -> None:
     g.add_argument("--gap", type=float, default=None, metavar="MEV",
                    help="mass gap M of a bare samples file's convention, if it needs one")
     g.add_argument("--weight-column", default=None, help="weight column of a bare samples file")
+    g.add_argument("--columns", default=None, metavar="SPEC",
+                   help="bare file: parameters to read, 'a,b' (names in order for .npy and "
+                        "sampler files) or 'a=COL,b=l[1],weight=w'")
+    g.add_argument("--burn-in", type=int, default=None, metavar="N",
+                   help="emcee/NetCDF file: drop the first N iterations of each walker/chain")
+    g.add_argument("--thin", type=int, default=None, metavar="K",
+                   help="emcee/NetCDF file: keep every K-th iteration after the burn-in")
+    g.add_argument("--keep-walkers", default=None, metavar="LIST",
+                   help="emcee/NetCDF file: walkers (chains) to keep, '0:16' or '0,3,5'")
 
 
 def add_uncertainty_args(p: argparse.ArgumentParser) -> None:
@@ -119,9 +128,11 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
     """A Fit from a card, or from a bare samples file with --theory/--convention."""
     from eftsieve.api import load_fit, load_samples
     from eftsieve.errors import InputError
+    from eftsieve.fit.formats.gvar_json import is_gvar_json
 
     path = Path(args.fit)
-    if path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir():
+    if (path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir()
+            and not (path.suffix.lower() == ".json" and is_gvar_json(path))):
         return load_fit(path)
     if not args.theory or not args.convention:
         raise InputError(path, None, "a bare samples file needs its theory and convention",
@@ -131,7 +142,9 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
              "gap_mev": getattr(args, "gap", None)}
     try:
         return load_samples(path, args.theory, args.convention,
-                            weight_column=args.weight_column, **given)
+                            weight_column=args.weight_column, columns=args.columns,
+                            burn_in=args.burn_in, thin=args.thin, walkers=args.keep_walkers,
+                            **given)
     except InputError as err:  # name the flag that gives a missing kinematic input
         if err.field in KINEMATIC_FLAGS:
             flag = KINEMATIC_FLAGS[err.field]
@@ -196,4 +209,6 @@ def input_files(fit: Fit, args: argparse.Namespace, *extra: str | None) -> list[
     ins: list[Any] = [fit.source, args.region, *extra]
     if fit.samples is not None:
         ins.append(fit.samples.path)
+    if fit.extra.get("gaussian_file"):
+        ins.append(fit.extra["gaussian_file"])
     return ins

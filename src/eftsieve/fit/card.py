@@ -24,7 +24,9 @@ from eftsieve.fit.model import (
     check_covariance,
     parse_convention,
 )
-from eftsieve.io.samples import SamplesSource, detect_format
+from eftsieve.io.readers.columns import parse_columns, resolve_columns
+from eftsieve.io.readers.options import check_applicable, parse_options
+from eftsieve.io.samples import DECLARED_FORMATS, SamplesSource, detect_format
 
 _NUM = {"type": "number"}
 _MATRIX = {"type": "array", "items": {"type": "array", "items": _NUM}}
@@ -49,9 +51,22 @@ FIT_CARD_SCHEMA: dict[str, Any] = {
         "correlation": _MATRIX,
         "samples": {"type": "object", "required": ["path"], "properties": {
             "path": {"type": "string"},
-            "format": {"enum": ["csv", "parquet", "netcdf"]},
+            "format": {"enum": list(DECLARED_FORMATS)},
             "weight_column": {"type": "string"},
-            "columns": {"type": "object", "additionalProperties": {"type": "string"}}}},
+            "columns": {"oneOf": [
+                {"type": "array", "items": {"type": "string"}, "minItems": 1},
+                {"type": "object", "additionalProperties": {
+                    "type": ["string", "integer"]}}]},
+            "burn_in": {"type": "integer", "minimum": 0},
+            "thin": {"type": "integer", "minimum": 1},
+            "walkers": {"type": ["array", "string"], "items": {"type": "integer"}},
+            "group": {"type": "string"}}},
+        "gaussian": {"type": "object", "required": ["file"], "additionalProperties": False,
+                     "properties": {
+                         "file": {"type": "string"},
+                         "format": {"enum": ["gvar-json"]},
+                         "keys": {"type": ["array", "object"], "items": {"type": "string"},
+                                  "additionalProperties": {"type": "string"}}}},
         "prior": {"type": "object", "additionalProperties": {
             "type": "object",
             "properties": {"uniform": {"type": "array", "items": _NUM, "minItems": 2,
@@ -59,7 +74,7 @@ FIT_CARD_SCHEMA: dict[str, Any] = {
                            "normal": {"type": "array", "items": _NUM, "minItems": 2,
                                       "maxItems": 2}}}},
     },
-    "oneOf": [{"required": ["mean"]}, {"required": ["samples"]}],
+    "oneOf": [{"required": ["mean"]}, {"required": ["samples"]}, {"required": ["gaussian"]}],
 }
 
 _TOP_KEYS = set(FIT_CARD_SCHEMA["properties"])
@@ -108,10 +123,10 @@ def _schema_stage(card: dict[str, Any], path: Path) -> None:
         if not isinstance(p, dict) or not isinstance(p.get("name"), str):
             raise InputError(path, f"parameters[{i}].name", "missing or not a string",
                              "give each parameter a name")
-    has_g, has_s = "mean" in card, "samples" in card
-    if has_g == has_s:
+    if sum(k in card for k in ("mean", "samples", "gaussian")) != 1:
         raise InputError(path, "mean/samples", "give exactly one of a Gaussian summary "
-                         "(mean) or a samples file (samples)", "see docs/formats.md")
+                         "(mean, or a gaussian file) or a samples file (samples)",
+                         "see docs/formats.md")
     kin = card.get("kinematics", {})
     if not isinstance(kin, dict):
         raise InputError(path, "kinematics", "must be a mapping", "see docs/formats.md")
@@ -156,15 +171,21 @@ def _samples(card: dict[str, Any], path: Path, names: tuple[str, ...]) -> Sample
     except InputError as err:
         raise InputError(path, "samples.format", f"{err.problem} in {file.name}",
                          err.hint) from err
-    mapping = spec.get("columns", {}) or {}
-    if not isinstance(mapping, dict):
-        raise InputError(path, "samples.columns", "must map parameter names to columns", "")
-    for k in mapping:
-        if k not in names:
-            raise InputError(path, f"samples.columns.{k}", "not a parameter of this card",
-                             f"parameters: {', '.join(names)}")
-    cols = tuple(str(mapping.get(n, n)) for n in names)
-    source = SamplesSource(file, fmt, cols, spec.get("weight_column"))
+    if fmt == "gvar-json":
+        raise InputError(path, "samples.format", f"{file.name}: a .json file is read as a gvar "
+                         "JSON dump, a Gaussian summary", "write gaussian: {file: ..., keys: "
+                         "[...]}, or convert samples to .csv, .parquet or .npy")
+    unknown = sorted(set(spec) - set(FIT_CARD_SCHEMA["properties"]["samples"]["properties"]))
+    if unknown:
+        raise InputError(path, f"samples.{unknown[0]}", "unknown field", "allowed: " + ", ".join(
+            FIT_CARD_SCHEMA["properties"]["samples"]["properties"]))
+    options = parse_options(spec, path)
+    check_applicable(options, fmt, path)
+    columns = parse_columns(spec.get("columns"), path, "samples.columns")
+    probe = SamplesSource(file, fmt, (), options=options)
+    res = resolve_columns(columns, probe.column_table(), path, "samples.columns", names,
+                          spec.get("weight_column"))
+    source = SamplesSource(file, fmt, res.labels, res.weight, options)
     source.validate_columns()
     return source
 
@@ -223,12 +244,19 @@ def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], 
         raise InputError(path, "parameters", "duplicate parameter names", "name each once")
     mean = cov = None
     source = None
+    extra: dict[str, Any] = {}
     if "mean" in card:
         mean, cov = _gaussian(card, path, len(names))
+    elif "gaussian" in card:
+        from eftsieve.fit.formats.gaussian_card import gaussian_from_card
+
+        mean, cov, gfile = gaussian_from_card(card["gaussian"], path, names)
+        check_covariance(cov, len(names), gfile, "covariance of the selected keys")
+        extra["gaussian_file"] = str(gfile)
     else:
         source = _samples(card, path, names)
     fit = Fit(card["name"], card["theory"], tuple(params), kin, mean, cov, source,
-              _prior(card, path, names), path)
+              _prior(card, path, names), path, extra)
     theory.validate_fit(fit)
     return fit
 

@@ -22,6 +22,8 @@ import numpy as np
 
 from eftsieve.errors import InputError
 from eftsieve.fit.conventions import NONE, Convention, ConventionSpec, make_convention
+from eftsieve.io.readers.columns import ColumnsSpec
+from eftsieve.io.readers.options import ReadOptions
 from eftsieve.io.samples import SamplesSource, detect_format
 from eftsieve.tolerances import PSD_TOL, SYMMETRY_TOL
 
@@ -122,7 +124,9 @@ class Fit:
         if self.samples is not None:
             out["samples"] = {"path": str(self.samples.path), "format": self.samples.fmt,
                               "columns": list(self.samples.columns),
-                              "weight_column": self.samples.weight_column}
+                              "weight_column": self.samples.weight_column,
+                              "options": (None if self.samples.options is None
+                                          else self.samples.options.to_dict())}
         if self.prior is not None:
             out["prior"] = self.prior.to_dict()
         return out
@@ -131,28 +135,52 @@ class Fit:
 def fit_from_samples(
     path: str | Path, theory: Any, convention: Convention, *, weight_column: str | None = None,
     kinematics: dict[str, float] | None = None, name: str | None = None,
+    columns: ColumnsSpec | None = None, options: ReadOptions | None = None,
 ) -> Fit:
-    """A Fit from a bare samples file: every numeric column is a parameter.
+    """A Fit from a bare samples file (or gvar JSON dump): every numeric column is a
+    parameter, unless ``columns`` (``--columns``) selects and renames them.
 
     Columns that the theory knows get ``convention``; the others are carried through as
     nuisance parameters (convention ``none``).
     """
+    from eftsieve.io.readers.columns import resolve_columns
+    from eftsieve.io.readers.options import check_applicable
     from eftsieve.io.samples import is_multi_file_path
 
     p = Path(path)
     if not (p.is_file() or is_multi_file_path(p)):
         raise InputError(p, None, "file not found", "check the path")
     th = theory
-    probe = SamplesSource(p, detect_format(p, None, "--samples"), ())
-    cols = [c for c in probe.available_columns() if c != weight_column]
+    fmt = detect_format(p, None, "--samples")
+    opts = options or ReadOptions()
+    check_applicable(opts, fmt, None, "--")
+    mean = cov = source = None
+    if fmt == "gvar-json":
+        from eftsieve.fit.formats.gvar_json import read_gvar_json
+
+        if weight_column is not None or (columns is not None and columns.weight is not None):
+            raise InputError(p, "--weight-column", "a Gaussian summary has no weights",
+                             "remove the weight column")
+        keys = None if columns is None else [n if s is None else str(s) for n, s in
+                                             zip(columns.names, columns.sources, strict=True)]
+        g = read_gvar_json(p, keys, None if columns is None else columns.names, "--columns")
+        names, mean, cov = g.names, g.mean, g.cov
+        check_covariance(cov, len(names), p, "covariance of the selected keys")
+    else:
+        probe = SamplesSource(p, fmt, (), options=opts)
+        res = resolve_columns(columns, probe.column_table(), p, "--columns", None,
+                              weight_column)
+        names = res.names
+        source = SamplesSource(p, fmt, res.labels, res.weight, opts)
+        source.validate_columns()
     params = tuple(Parameter(c, convention if c in th.parameter_names else Convention(NONE))
-                   for c in cols)
+                   for c in names)
     if not any(pp.convention.name != NONE for pp in params):
         raise InputError(p, "columns", f"no column names a parameter of {th.name}",
-                         f"accepted names: {', '.join(th.parameter_names)}")
-    source = SamplesSource(p, probe.fmt, tuple(cols), weight_column)
-    source.validate_columns()
-    fit = Fit(name or p.stem, th.name, params, dict(kinematics or {}), samples=source, source=p)
+                         f"accepted names: {', '.join(th.parameter_names)}; select and "
+                         "rename with --columns lbar1=COLUMN,...")
+    fit = Fit(name or p.stem, th.name, params, dict(kinematics or {}), mean, cov, source,
+              source=p)
     th.validate_fit(fit)
     return fit
 

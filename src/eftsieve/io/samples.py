@@ -1,4 +1,5 @@
-"""Chunked readers for posterior-samples files (CSV, Parquet, NetCDF posterior groups).
+"""Chunked readers for posterior-samples files (CSV, Parquet; NetCDF posterior groups,
+emcee HDF5 backends and NumPy arrays through :mod:`eftsieve.io.readers`).
 
 A :class:`SamplesSource` never holds a whole large file in memory: ``iter_chunks``
 yields bounded blocks with the original row index, the parameter values in the
@@ -25,9 +26,13 @@ from typing import Any
 import numpy as np
 
 from eftsieve.errors import InputError
+from eftsieve.io.readers import dispatch
+from eftsieve.io.readers.columns import ColumnTable
+from eftsieve.io.readers.options import ReadOptions
 
 SUPPORTED_FORMATS = {".csv": "csv", ".parquet": "parquet", ".pq": "parquet", ".nc": "netcdf",
-                     ".netcdf": "netcdf", ".h5": "netcdf"}
+                     ".netcdf": "netcdf"}
+DECLARED_FORMATS = ("csv", "parquet", *dispatch.SAMPLES_FORMATS)
 PARQUET_SUFFIXES = (".parquet", ".pq")
 GLOB_CHARS = frozenset("*?[")
 DEFAULT_CHUNK_ROWS = 1_000_000
@@ -101,14 +106,15 @@ def detect_format(path: Path, declared: str | None, field: str = "samples.format
         return "parquet"
     if declared is not None:
         fmt = declared.lower()
-        if fmt not in {"csv", "parquet", "netcdf"}:
+        if fmt not in DECLARED_FORMATS:
             raise InputError(path, field, f"unsupported format '{declared}'",
-                             "use one of csv, parquet, netcdf")
+                             f"use one of {', '.join(DECLARED_FORMATS)}")
         return fmt
-    fmt_opt = SUPPORTED_FORMATS.get(path.suffix.lower())
+    fmt_opt = SUPPORTED_FORMATS.get(path.suffix.lower()) or dispatch.format_from_suffix(path)
     if fmt_opt is None:
         raise InputError(path, field, f"unsupported file extension '{path.suffix}'",
-                         "use .csv, .parquet or .nc, or state samples.format")
+                         "use .csv, .parquet, .nc, .h5, .npy or .npz, or state "
+                         "samples.format")
     return fmt_opt
 
 
@@ -162,17 +168,20 @@ class SamplesSource:
     path
         The file, or a directory or glob pattern of Parquet files.
     fmt
-        ``csv``, ``parquet`` or ``netcdf``.
+        ``csv``, ``parquet``, ``netcdf``, ``npy``, ``npz`` or ``emcee``.
     columns
         The file's column for each parameter, in parameter order.
     weight_column
         The weight column, or None.
+    options
+        Burn-in, thinning and walker selection of chain files (emcee, NetCDF).
     """
 
     path: Path
     fmt: str
     columns: tuple[str, ...]
     weight_column: str | None = None
+    options: ReadOptions | None = None
 
     @property
     def weighted(self) -> bool:
@@ -204,6 +213,8 @@ class SamplesSource:
     def available_columns(self, file: Path | None = None) -> list[str]:
         """The column names that the file (default: the first file) holds."""
         f = self.files()[0] if file is None else file
+        if self.fmt in dispatch.SAMPLES_FORMATS:
+            return dispatch.available(self.fmt, f, self.options)
         if self.fmt == "csv":
             import pandas as pd
 
@@ -212,7 +223,15 @@ class SamplesSource:
             import pyarrow.parquet as pq
 
             return list(pq.ParquetFile(f).schema_arrow.names)
-        return list(_netcdf_frame(f).columns)
+        raise InputError(f, "samples.format", f"unknown format '{self.fmt}'",  # pragma: no cover
+                         "see docs/formats.md")
+
+    def column_table(self, file: Path | None = None) -> ColumnTable:
+        """The columns of the file (default: the first file), with aliases."""
+        f = self.files()[0] if file is None else file
+        if self.fmt in dispatch.SAMPLES_FORMATS:
+            return dispatch.column_table(self.fmt, f, self.options)
+        return ColumnTable(tuple(self.available_columns(f)))
 
     def validate_columns(self) -> None:
         """Check that every mapped column exists in every file; name the missing ones."""
@@ -280,9 +299,7 @@ class SamplesSource:
                                          use_threads=False):
                 yield batch.to_pandas()
         else:
-            frame = _netcdf_frame(file)
-            for lo in range(0, len(frame), chunk_rows):
-                yield frame.iloc[lo:lo + chunk_rows][wanted]
+            yield from dispatch.iter_frames(self.fmt, file, wanted, chunk_rows, self.options)
 
     def _to_chunk(self, frame, start: int, part: FilePart) -> Chunk:
         n = len(frame)
@@ -329,23 +346,3 @@ def _rows_text(rows: np.ndarray, file_start: int | None = None, limit: int = 10)
         return f"{shown}{more} (0-based data rows)"
     return (f"{shown}{more} (0-based data rows, global across the sorted files; this file "
             f"starts at global row {file_start})")
-
-
-def _netcdf_frame(path: Path):
-    """Flatten the ``posterior`` group of a NetCDF file to one row per (chain, draw)."""
-    try:
-        import xarray as xr
-    except ImportError as err:
-        raise InputError(path, None, "reading NetCDF needs the optional extra",
-                         "pip install 'eftsieve[netcdf]'") from err
-    try:
-        ds = xr.open_dataset(path, group="posterior", engine="h5netcdf")
-    except OSError:
-        try:
-            ds = xr.open_dataset(path, engine="h5netcdf")
-        except (OSError, ValueError) as err:
-            raise InputError(path, None, f"cannot read NetCDF: {err}",
-                             "supply a NetCDF4 file with a 'posterior' group") from err
-    with ds:
-        frame = ds.to_dataframe().reset_index(drop=True)
-    return frame

@@ -1,0 +1,1 @@
+"""Readers of Gaussian summaries in other libraries' formats (gvar/lsqfit JSON dumps)."""
