@@ -9,7 +9,7 @@ import pytest
 
 from eftsieve.errors import InputError
 from eftsieve.io.samples import Chunk, FilePart, detect_format, resolve_files
-from tests.scale.conftest import FILE_ROWS, make_fit, write_parts
+from tests.check.conftest import FILE_ROWS, make_fit, write_parts
 
 
 def _frame(paths):

@@ -11,7 +11,7 @@ import yaml
 from eftsieve.check.many import SUMMARY_COLUMNS, check_many, write_summary_table
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError
-from tests.scale.conftest import comparable
+from tests.check.conftest import comparable
 
 SETTINGS = CheckSettings(draws=20_000, chunk_rows=30_000, plot_points=2000)
 PARAMS = [{"name": "lbar1", "convention": "lbar"}, {"name": "lbar2", "convention": "lbar"},

@@ -14,8 +14,8 @@ from eftsieve.check.engines.dask import connect, dask_check
 from eftsieve.check.engines.local import local_check
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError, TaskFailedError
-from tests.scale.conftest import FILE_ROWS, comparable, make_fit, write_parts
-from tests.scale.faults import FailAlways, KillAlways, KillOnce
+from tests.check.conftest import FILE_ROWS, comparable, make_fit, write_parts
+from tests.check.faults import FailAlways, KillAlways, KillOnce
 
 pytest.importorskip("distributed")
 
@@ -140,7 +140,7 @@ def test_missing_extra_gives_the_install_hint(dataset, region, monkeypatch):
 
 
 def test_a_partition_that_never_finishes_is_named(dataset, region, cluster, tmp_path):
-    from tests.scale.faults import Sleep
+    from tests.check.faults import Sleep
 
     with pytest.raises(TaskFailedError, match=r"partition 0 of 6 .*no result within 0.5 s"):
         dask_check(make_fit(dataset), region, SETTINGS, tmp_path,

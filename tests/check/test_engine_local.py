@@ -13,8 +13,8 @@ from eftsieve.check.run import run_check
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError
 from eftsieve.stats.accumulate import BLOCK
+from tests.check.conftest import FILE_ROWS, comparable, make_fit, write_parts
 from tests.helpers import gaussian_fit
-from tests.scale.conftest import FILE_ROWS, comparable, make_fit, write_parts
 
 SETTINGS = CheckSettings(plot_points=4000)
 

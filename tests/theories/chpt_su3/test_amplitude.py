@@ -23,7 +23,7 @@ from eftsieve.theories.chpt_su3.channels import (
     ChannelFunctionals,
 )
 from eftsieve.theories.chpt_su3.loops import PairMoments, jbar_unequal
-from tests.theories.su3_common import ES, ET, MU, PIPI, lagrangian_vertex, me, mk, momenta
+from tests.theories.chpt_su3.su3_common import ES, ET, MU, PIPI, lagrangian_vertex, me, mk, momenta
 
 
 # ---- loop functions against quadrature of the Feynman-parameter integral -----------

@@ -37,7 +37,17 @@ from eftsieve.theories.chpt_su3.theory import (
     su2_from_su3,
     su2_matching_map,
 )
-from tests.theories.su3_common import ES, MK, MPI, MU, PIPI, lagrangian_vertex, me, mk, momenta
+from tests.theories.chpt_su3.su3_common import (
+    ES,
+    MK,
+    MPI,
+    MU,
+    PIPI,
+    lagrangian_vertex,
+    me,
+    mk,
+    momenta,
+)
 
 
 @pytest.fixture(scope="module")
