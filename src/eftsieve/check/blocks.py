@@ -1,25 +1,19 @@
-"""Reproducible arithmetic of a partitioned check: the same bits whoever computes it.
+"""Reproducible arithmetic of a check: the same bits whoever computes it.
 
-The canonical summation order of a check over a multi-file source is: the files in
-sorted order, and within each file fixed blocks of :data:`eftsieve.stats.accumulate.BLOCK` rows
-counted from the file's first row (the last block of a file may be short).  Every
-per-row and per-block quantity below depends only on the rows of its block, never on
-how the file was read (chunk sizes), on which process computes it, or on how many BLAS
-threads that process runs:
+The canonical order of a check is: the partitions in order (the files of a samples
+source in sorted order, or the one partition of a Gaussian summary's draws), and within
+each partition fixed blocks of :data:`eftsieve.stats.accumulate.BLOCK` rows counted from
+its first row (the last block may be short).  Every per-row and per-block quantity
+depends only on the rows of its block, never on how the file was read (chunk sizes), on
+which process computes it, or on how many BLAS threads that process runs:
 
 - :func:`apply_map` evaluates an affine coordinate map column by column with numpy's
   element-wise operations.  A BLAS product ``x @ J.T`` is not used because its last bits
   depend on the batch size (numpy picks different kernels for one row and for many).
-- :func:`block_sums` computes one block's weighted sums with numpy's pairwise
-  reductions.  :class:`eftsieve.stats.accumulate.Accumulator` uses a BLAS ``w @ y`` for the first
-  moments, and OpenBLAS splits that product differently with 1 or with several threads
-  (Dask workers run one BLAS thread each), so its last bits depend on the machine.
-- :func:`absorb` adds one block's sums into an :class:`~eftsieve.stats.accumulate.Accumulator`
-  field by field, as the accumulator's own per-block update does, so that block sums
-  replayed in canonical order give the same bits wherever the blocks were computed.
-  The engines never call the accumulator's ``add``, they absorb whole blocks, which is
-  the per-file flush that the canonical order needs.  :func:`check_accumulator_layout`
-  stops a run if the accumulator gains a field that :func:`absorb` does not know.
+- :func:`eftsieve.stats.accumulate.block_sums` forms one block's weighted sums with
+  numpy's pairwise reductions (no BLAS), and
+  :meth:`eftsieve.stats.accumulate.Accumulator.absorb` adds blocks in canonical order:
+  every engine sums exactly these blocks in exactly this order.
 - :class:`Ranked` keeps the ``k`` smallest rows under the total order (key, row); the
   kept set is the same whatever the grouping of the rows, so per-partition selections
   merged on the client equal one selection over the whole stream.

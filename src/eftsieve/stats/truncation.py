@@ -231,8 +231,8 @@ def facet_uncertainty(region: Region, settings: UncertaintySettings) -> FacetUnc
 
     theory = get_theory(region.theory)
     lam = settings.breakdown_mev
-    if lam is None:  # 4 pi F_pi (naive dimensional analysis; common practice)
-        lam = 4 * math.pi * float(region.convention.get("fpi_mev", 92.07))
+    if lam is None:  # the theory's breakdown scale
+        lam = theory.default_breakdown_mev(region)
     q, coef = theory.power_counting(region, lam)
     b = np.abs(np.array([f.offset for f in region.facets], dtype=float))
     sigma_unit = b * q**2 / np.sqrt(1 - q**4)

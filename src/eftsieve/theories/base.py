@@ -166,6 +166,13 @@ class Theory(ABC):
         """
         return MARGINAL_BAND
 
+    def default_breakdown_mev(self, region: Region) -> float:
+        """The breakdown scale of the power-counting model when none is given."""
+        from eftsieve.errors import InputError
+
+        raise InputError(None, "--breakdown", f"theory '{self.name}' has no default "
+                         "breakdown scale", "give --breakdown MEV")
+
     def power_counting(self, region: Region,
                        breakdown_mev: float | None) -> tuple[np.ndarray, np.ndarray]:
         """Expansion parameter Q_j and the known expansion coefficients for each facet.

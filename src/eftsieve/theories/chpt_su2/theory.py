@@ -273,6 +273,10 @@ class ChptSU2(Theory):
         lr = str(region.convention.get("name")) == "lr"
         return SMALL_COORDINATE_BAND if lr else MARGINAL_BAND
 
+    def default_breakdown_mev(self, region: Region) -> float:
+        """4 pi F_pi (naive dimensional analysis; common practice)."""
+        return 4 * np.pi * float(region.convention.get("fpi_mev", DEFAULT_FPI_MEV))
+
     def power_counting(self, region: Region,
                        breakdown_mev: float | None) -> tuple[np.ndarray, np.ndarray]:
         """Q_j and the one-loop coefficients c_2,j at each facet (see _power_counting)."""
