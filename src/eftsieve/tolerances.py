@@ -21,3 +21,13 @@ FEASIBILITY_TOL = 1e-8
 REDUNDANCY_TOL = 1e-9
 #: Effective-sample-size floor below which `impose --mode reweight` refuses.
 MIN_ESS = 400.0
+#: Tension QP: largest relative violation of a facet by the QP's solution.
+QP_FEASIBILITY_TOL = 1e-6
+#: Tension QP: largest relative KKT stationarity residual of a verified solution.
+KKT_TOL = 1e-5
+#: Tension QP: most negative multiplier accepted as zero (dual feasibility).
+DUAL_SIGN_TOL = 1e-7
+#: Relative slack below which a facet counts as active at a point (tension cones).
+ACTIVE_TOL = 1e-7
+#: Relative slack below which a vertex candidate lies on a facet (tangent cones).
+VERTEX_TOL = 1e-9

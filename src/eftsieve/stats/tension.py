@@ -20,7 +20,14 @@ from scipy import stats as sps
 
 from eftsieve.errors import SolverError
 from eftsieve.region.model import Region
-from eftsieve.tolerances import FEASIBILITY_TOL
+from eftsieve.tolerances import (
+    ACTIVE_TOL,
+    DUAL_SIGN_TOL,
+    FEASIBILITY_TOL,
+    KKT_TOL,
+    QP_FEASIBILITY_TOL,
+    VERTEX_TOL,
+)
 
 
 @dataclass(frozen=True)
@@ -83,15 +90,15 @@ def closest_point(mean: np.ndarray, cov: np.ndarray, a: np.ndarray, b: np.ndarra
     xv = np.asarray(x.value, dtype=float)
     lam = np.asarray(cons[0].dual_value, dtype=float)
     scale = max(1.0, float(np.abs(b).max()) if len(b) else 1.0)
-    if (a @ xv - b).min() < -1e-6 * scale:
+    if (a @ xv - b).min() < -QP_FEASIBILITY_TOL * scale:
         raise SolverError("infeasible-solution", "tension QP: the solution violates a facet")
     grad = 2 * np.linalg.solve(cov, xv - mean)
     resid = grad - a.T @ lam
     gnorm = float(np.linalg.norm(grad))
-    if float(np.linalg.norm(resid)) > 1e-5 * max(1.0, gnorm) or (lam < -1e-7).any():
-        raise SolverError("kkt-failed", "tension QP: KKT conditions not met to 1e-5")
+    if float(np.linalg.norm(resid)) > KKT_TOL * max(1.0, gnorm) or (lam < -DUAL_SIGN_TOL).any():
+        raise SolverError("kkt-failed", f"tension QP: KKT conditions not met to {KKT_TOL:g}")
     # polish: project onto the active set exactly
-    active = np.nonzero((a @ xv - b) < 1e-7 * scale)[0]
+    active = np.nonzero((a @ xv - b) < ACTIVE_TOL * scale)[0]
     if len(active):
         xv = _project_active(mean, cov, a[active], b[active], xv)
     d2 = float((xv - mean) @ np.linalg.solve(cov, xv - mean))
@@ -197,7 +204,7 @@ def tension(mean: np.ndarray, cov: np.ndarray, region: Region,
     a, b = region.arrays()
     x, d2 = closest_point(mean, cov, a, b)
     scale = max(1.0, float(np.abs(b).max()))
-    active = tuple(int(i) for i in np.nonzero((a @ x - b) < 1e-7 * scale)[0])
+    active = tuple(int(i) for i in np.nonzero((a @ x - b) < ACTIVE_TOL * scale)[0])
     chol = np.linalg.cholesky(cov)
     best = (-1.0, np.zeros(len(mean) + 1), "")
     inside = d2 <= FEASIBILITY_TOL  # p = 1 whatever the cone: the facet cones suffice
@@ -229,8 +236,8 @@ def _candidate_cones(region: Region, a: np.ndarray, b: np.ndarray):
         v = np.linalg.solve(sub, b[list(subset)])
         slack = a @ v - b
         scale = max(1.0, float(np.abs(b).max()))
-        if (slack >= -1e-9 * scale).all():
-            rows = [int(j) for j in np.nonzero(slack < 1e-9 * scale)[0]]
+        if (slack >= -VERTEX_TOL * scale).all():
+            rows = [int(j) for j in np.nonzero(slack < VERTEX_TOL * scale)[0]]
             yield f"vertex {tuple(rows)}", rows
 
 

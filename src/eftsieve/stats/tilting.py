@@ -392,7 +392,8 @@ def find_tilt(geom: Geometry) -> Tilt:
         if best is None or tilt.log_bound < best.log_bound:
             best = tilt
         ref = tilt.point
-    assert best is not None  # the first round either succeeds or raises
+    if best is None:  # the first round either succeeds or raises; never reached
+        raise RuntimeError("minimax tilting produced no proposal")
     return best
 
 

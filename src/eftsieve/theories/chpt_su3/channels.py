@@ -167,17 +167,20 @@ class ChannelFunctionals:
         return (k0, amp3.third_mixed(self.amp, x, _E_S, _E_T, jets),
                 amp3.third_mixed(self.amp, x, _E_S, _E_S, jets))
 
+    def _domain(self) -> Domain:
+        if self.domain is None:
+            raise RuntimeError(f"channel {self.name} has no kinematic domain (a skipped process)")
+        return self.domain
+
     def second_derivative(self, cube: np.ndarray):
         """Evaluator of d^2T/ds^2 >= 0 over the domain (Manohar & Mateu, arXiv:0801.3222)."""
-        assert self.domain is not None
-        x = self.domain.points(cube)
+        x = self._domain().points(cube)
         k0 = self._loop_parts(x, 2)[0]
         return k0, np.broadcast_to(self.k, (len(x), 3)), {"s": x[:, 0], "t": x[:, 1]}
 
     def t_derivative(self, cube: np.ndarray):
         """Evaluator of the first t-derivative bound (best alpha), unequal thresholds."""
-        assert self.domain is not None
-        x = self.domain.points(cube)
+        x = self._domain().points(cube)
         k0, d_fixed_s, d_s3 = self._loop_parts(x, 3)
         cand, alpha = t_derivative_combination(k0, d_fixed_s, d_s3, x[:, 0], x[:, 2],
                                                self.domain.s_th, self.domain.u_th)
