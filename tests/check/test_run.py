@@ -107,7 +107,7 @@ def test_chpt_su3_default_band_fits_the_size_of_the_lecs():
 
     from eftsieve.theories import get_theory
 
-    card = Path(__file__).parents[1] / "data_examples" / "aurora_su3_gaussian.yaml"
+    card = Path(__file__).parents[2] / "data_examples" / "aurora_su3_gaussian.yaml"
     fit = load_fit(card)
     theory = get_theory("chpt-su3")
     reg = theory.build_region(theory.region_settings_for_fit(fit))

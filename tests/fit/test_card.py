@@ -10,7 +10,7 @@ import pytest
 from eftsieve.api import load_fit
 from eftsieve.errors import InputError
 
-DATA = Path(__file__).parent / "fit"
+DATA = Path(__file__).parent
 
 
 def test_gaussian_card_with_nuisance():
