@@ -54,7 +54,9 @@ def cmd_demo(args: argparse.Namespace) -> int:
     out.mkdir(parents=True, exist_ok=True)
     region = out / "region.json"
     print("eftsieve demo: INVENTED example scenario (fictional 'Aurora' lattice study)")
-    _run(["region", "--theory", "chpt-su2", "-o", str(region), "--plot", str(out / "region.png")])
+    # both bound families (t-derivative is opt-in; docs/physics.md, truncation study)
+    _run(["region", "--theory", "chpt-su2", "--family", "second-derivative,t-derivative",
+          "-o", str(region), "--plot", str(out / "region.png")])
     steps = [("check", "aurora_gaussian.yaml", "check_gaussian"),
              ("check", "aurora_posterior.yaml", "check_posterior"),
              ("impose", "aurora_gaussian.yaml", "impose_gaussian"),

@@ -215,11 +215,6 @@ def _check_truncation(truncation: str, heavy: float, masses: tuple[float, ...]) 
     if not np.isfinite(heavy) or heavy <= 0:
         raise InputError(None, "heavy_scale_mev", f"the heavy scale must be positive, got "
                          f"{heavy}", "give it in MeV (default 770)")
-    top = max_pion_mass_mev(heavy)
-    if max(masses) > top:
-        raise InputError(None, "--pion-mass", f"M_pi = {max(masses):g} MeV is too close to the "
-                         f"heavy scale {heavy:g} MeV for a truncation estimate (limit "
-                         f"{top:.0f} MeV)", "lower the mass or use truncation 'none'")
 
 
 def relaxed_facets(facets: list[Facet], heavy_scale_mev: float, pion_mass_mev: float,
@@ -263,9 +258,13 @@ class ChptSU2(Theory):
                              settings.get("heavy_scale_mev", HEAVY_SCALE_MEV))
         for m in st["pion_masses_mev"]:
             if m > MAX_TRUSTED_PION_MASS_MEV:
+                extra = (f"; the truncation allowance is extrapolated above "
+                         f"{max_pion_mass_mev(st['heavy_scale_mev']):.0f} MeV"
+                         if st["truncation"] != "none" and
+                         m > max_pion_mass_mev(st["heavy_scale_mev"]) else "")
                 warnings.warn(f"pion mass {m:g} MeV is above {MAX_TRUSTED_PION_MASS_MEV:g} MeV, "
-                              "where one-loop SU(2) ChPT is not trusted (docs/physics.md)",
-                              KinematicsWarning, stacklevel=2)
+                              "where one-loop SU(2) ChPT is not trusted (docs/physics.md)"
+                              + extra, KinematicsWarning, stacklevel=2)
         scan = FINE_SCAN if st["grid"] == "fine" else DEFAULT_SCAN
         base = lbar_facets(tuple(st["families"]), scan)
         one_loop: list[Facet] = []

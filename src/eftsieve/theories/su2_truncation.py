@@ -57,24 +57,21 @@ def truncation_shift(family: str, channel: str, pion_mass_mev: float,
     """The truncation shift of a one-loop facet at Lambda_h / M_pi (lbar units).
 
     Interpolated in log-log between the tabulated ratios (the shift is a smooth power
-    law, close to (M/Lambda)^2); above the largest ratio it is continued as (M/Lambda)^2.
-
-    Raises
-    ------
-    ValueError
-        When Lambda_h / M_pi is below the smallest tabulated ratio (the heavy scale is
-        then within 15% of the two-pion threshold, where no chiral estimate holds).
+    law, close to (M/Lambda)^2); outside the table it is continued as (M/Lambda)^2.
+    Below the smallest ratio (M_pi > Lambda_h/2.3, above the pion-mass warning) that
+    continuation is not calibrated: the heavy scale is then within 15% of the two-pion
+    threshold, where no chiral estimate holds.
     """
     ratio = heavy_scale_mev / pion_mass_mev
     vals = np.asarray(SHIFTS[(family, _SAME.get(channel, channel))])
     grid = np.asarray(RATIOS)
     if ratio < grid[0]:
-        raise ValueError(f"Lambda_h/M_pi = {ratio:.3g} is below {grid[0]:g}")
+        return float(vals[0] * (grid[0] / ratio) ** 2)
     if ratio >= grid[-1]:
         return float(vals[-1] * (grid[-1] / ratio) ** 2)
     return float(math.exp(np.interp(math.log(ratio), np.log(grid), np.log(vals))))
 
 
 def max_pion_mass_mev(heavy_scale_mev: float = HEAVY_SCALE_MEV) -> float:
-    """The largest pion mass at which the allowance is defined at all (Lambda_h/2.3)."""
+    """The largest pion mass at which the allowance is calibrated (Lambda_h/2.3)."""
     return heavy_scale_mev / RATIOS[0]
