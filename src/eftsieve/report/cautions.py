@@ -15,8 +15,10 @@ CHPT_CAUTIONS = (
     "edge t -> 4 M_pi^2 of the kinematic domain.",
     "Isospin limit: m_u = m_d and no electromagnetism; the charged and neutral pion "
     "masses are equal.",
-    "Above M_pi ~ 400 MeV one-loop SU(2) ChPT itself is not trusted; bounds evaluated there "
-    "are flagged with a warning.",
+    "By default the outer facets are relaxed by a truncation shift calibrated on "
+    "loop-consistent models (an estimate, not a bound); points that pass only the relaxed "
+    "facets are uncertain. Above M_pi = 300 MeV the tool warns: the estimate no longer "
+    "covers physical QCD there.",
     "A point outside is in tension with causality, unitarity and crossing only within "
     "the truncation; it is not a proof that the underlying theory is inconsistent.",
 )

@@ -44,7 +44,14 @@ def region_block(region: Region) -> list:
                    "of M_pi^2."),
               Table(("facet", "inequality", "family", "channel", "point", "status"),
                     tuple(rows))]
-    if region.inner_facets:
+    if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
+        blocks.append(Para(f"The inner set ({len(region.inner_facets)} facets) is the one-loop "
+                           "bound; the outer facets above are relaxed by each facet's "
+                           "truncation shift (calibrated on loop-consistent models, "
+                           f"truncation model `{region.settings.get('truncation')}`, heavy "
+                           f"scale {region.settings.get('heavy_scale_mev')} MeV; "
+                           "docs/physics.md). Points between them are `uncertain`."))
+    elif region.inner_facets:
         blocks.append(Para(f"The region also has an inner set of {len(region.inner_facets)} "
                            "facets, reached by explicit positive heavy-state spectra: points "
                            "inside it are consistent with every sum rule and null constraint "
