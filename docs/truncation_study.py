@@ -25,8 +25,9 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path[:0] = [str(ROOT / "src"), str(ROOT)]
 
-from eftsieve.theories.chpt_su2 import DEFAULT_SCAN, lbar_facets  # noqa: E402
 from tests.theories import loop_consistent as lc  # noqa: E402
+
+from eftsieve.theories.chpt_su2 import DEFAULT_SCAN, lbar_facets  # noqa: E402
 
 #: Lambda/M grid of the study (the quadrature of the helper needs Lambda/M > 2.2)
 RATIOS = (2.3, 2.5, 2.75, 3.0, 3.5, 4.0, 5.0, 5.52, 6.5, 8.0, 10.0, 14.0, 20.0, 40.0)
@@ -118,6 +119,11 @@ def plot(rows: dict, path: Path) -> None:
         lab = f"{fam}: {label(d['normal'])}"
         axes[0].plot(x, d["excess"], styles[fam], color=colors[ch], marker="o", ms=3, label=lab)
         axes[1].plot(x, d["shift"], styles[fam], color=colors[ch], marker="o", ms=3, label=lab)
+    for ax in axes:   # Lambda = 770 MeV (the default heavy scale) at 139.57 and 300 MeV
+        for m in (139.57, 300.0):
+            ax.axvline(m / 770.0, color="grey", lw=0.7, ls="-.")
+    axes[0].text(139.57 / 770 + 0.004, -5.5, "M=139.57\nL=770", fontsize=7, color="grey")
+    axes[0].text(300 / 770 + 0.004, -5.5, "M=300\nL=770", fontsize=7, color="grey")
     axes[0].axhline(0, color="k", lw=0.8)
     axes[0].set_ylim(-6, 4)
     axes[0].set_xlabel("M_pi / Lambda")

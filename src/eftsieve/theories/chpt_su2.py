@@ -282,8 +282,9 @@ class ChptSU2(Theory):
                 outer += _map_facets(relaxed_facets(base, st["heavy_scale_mev"], m),
                                      Convention("lbar", pion_mass_mev=m), conv, m)
         conv_d = {**conv.to_dict(), "fpi_mev": st["fpi_mev"]}
-        notes = ("F_pi does not enter the one-loop bounds on lbar1, lbar2 (it is recorded only)",
-                 "s, t in certificates are in units of M_pi^2 of the facet's pion mass")
+        notes: tuple[str, ...] = (
+            "F_pi does not enter the one-loop bounds on lbar1, lbar2 (it is recorded only)",
+            "s, t in certificates are in units of M_pi^2 of the facet's pion mass")
         if st["truncation"] == "none":
             return Region(self.name, coords, conv_d, tuple(irredundant(one_loop)), st,
                           notes=notes)

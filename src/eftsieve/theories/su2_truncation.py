@@ -15,7 +15,8 @@ of a model whose two-pion continuum is chiral up to the heavy scale Lambda_h
 ``uncertain`` and only points beyond the relaxed facets are ``outside``.
 
 The table below is printed by ``docs/truncation_study.py`` (default scan of the facets,
-161 x 81 domain grid of the models); tests/theories/test_truncation.py recomputes it.
+161 x 81 domain grid of the models); tests/theories/test_truncation_default.py
+recomputes part of it.
 """
 
 from __future__ import annotations
