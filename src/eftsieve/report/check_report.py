@@ -36,8 +36,10 @@ def region_block(region: Region) -> list:
     for i, f in enumerate(region.facets):
         pt = ", ".join(f"{k} = {v:g}" if k.endswith("_mev") else
                        f"{k} = {0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in f.point.items())
+        shift = f.extra.get("truncation_shift_region")
+        status = f.status if shift is None else f"{f.status}; truncation shift {shift:.3g}"
         rows.append((str(i), f.inequality(region.coordinates), f.family, f.channel, pt,
-                     f.status))
+                     status))
     blocks = [Heading("Region"),
               Para(f"Theory `{region.theory}` in ({', '.join(region.coordinates)}); {conv}. "
                    f"Content hash `{region.hash[:16]}`. Kinematic points s, t are in units "
