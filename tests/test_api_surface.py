@@ -20,3 +20,13 @@ def test_import_does_not_load_heavy_libraries():
             "if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == ""
+
+
+def test_public_functions_survive_importing_their_sub_packages():
+    """Regression: ``import eftsieve.check.run`` replaced the function ``eftsieve.check``."""
+    import eftsieve.check.run  # noqa: F401
+    import eftsieve.impose.api  # noqa: F401
+    import eftsieve.theories.base  # noqa: F401
+
+    assert callable(eftsieve.check) and callable(eftsieve.impose)
+    assert eftsieve.theories() == ("chpt-su2", "chpt-su3", "scalar-eft")

@@ -4,7 +4,10 @@ The public API (docs/api.md); heavy libraries (cvxpy, matplotlib, emcee, scipy.s
 load only when a function needs them.
 """
 
+import sys
+
 from eftsieve import errors
+from eftsieve._names import PublicModule
 from eftsieve._version import __version__
 from eftsieve.api import (
     build_region,
@@ -33,3 +36,6 @@ __all__ = [
     "load_samples",
     "theories",
 ]
+
+# the functions check, impose and theories share their names with sub-packages
+sys.modules[__name__].__class__ = PublicModule

@@ -42,7 +42,8 @@ def test_three_cards_one_table(cards, tmp_path):
     assert [r["n_total"] for r in many.rows] == [25_000, 40_003, 20_000]
     for row, d in zip(many.rows, many.outdirs, strict=True):
         assert set(row) == set(SUMMARY_COLUMNS)
-        assert row["n_inside"] + row["n_marginal"] + row["n_outside"] == row["n_total"]
+        assert row["n_inside"] + row["n_marginal"] + row["n_outside"] + row["n_uncertain"] \
+            == row["n_total"]
         assert {"summary.json", "flagged.csv", "region.json"} <= {p.name for p in d.iterdir()}
     # one region build shared by the three cards (same kinematics)
     assert len({r["region_hash"] for r in many.rows}) == 1

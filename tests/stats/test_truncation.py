@@ -50,7 +50,7 @@ def test_conjugate_posterior_of_the_coefficient_scale():
 
 def test_sigma_grows_with_the_pion_mass():
     sig = []
-    for m in (139.57, 250.0, 350.0):
+    for m in (139.57, 250.0, 300.0):
         reg = SU2.build_region({"pion_masses_mev": [m]})
         fu = facet_uncertainty(reg, UncertaintySettings("power-counting"))
         # Q = M max(1, sqrt|s|, sqrt|t|)/(4 pi F_pi); the best points sit at t = 4 M^2

@@ -32,7 +32,7 @@ from eftsieve.region.model import Region
 
 TABLE_NAME = "checks.csv"
 SUMMARY_COLUMNS = ("card", "fit", "theory", "n_total", "n_inside", "n_marginal", "n_outside",
-                   "p_inside", "p_inside_err", "p_inside_method", "tension_sigma",
+                   "n_uncertain", "p_inside", "p_inside_err", "p_inside_method", "tension_sigma",
                    "tension_p", "bayes_factor", "region_hash", "engine", "outdir")
 
 

@@ -5,7 +5,9 @@ its minimum signed margin and the most violated facet.  The marginal band is
 ``CheckSettings.marginal_band`` (in the region's coordinates, along the facet's unit
 normal).  With an inner set (regions whose inner and outer boundaries differ), a point
 is ``inside`` when it is inside the inner set by more than the band, ``outside`` when it
-violates an outer facet by more than the band, and ``marginal`` otherwise.
+violates an outer facet by more than the band, and ``marginal`` otherwise; where the
+outer facets are the inner ones relaxed by a truncation allowance (their certificates
+carry ``truncation_shift``), a point between them is ``uncertain``.
 
 :func:`run_check` streams a fit's samples (or draws a Gaussian summary with an explicit
 seed), accumulates the statistics of :mod:`eftsieve.stats.accumulate`, and writes the flagged rows
@@ -134,4 +136,7 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
     else:
         inner = outer
     verdict[inner > band] = INSIDE
+    if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
+        # the gap between inner and outer facets is a truncation allowance (chpt-su2)
+        verdict[(outer > band) & (inner <= band)] = UNCERTAIN
     return Verdicts(verdict, outer, worst, outer >= 0)

@@ -40,9 +40,20 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
     lines = [f"region for {region.theory} in ({', '.join(region.coordinates)}) [{conv}]"]
     if path is not None:
         lines[0] += f" -> {path}"
+    fams = sorted({f.family for f in region.facets})
+    truncation = region.settings.get("truncation") if isinstance(region.settings, dict) else None
+    if truncation is not None:
+        heavy = region.settings.get("heavy_scale_mev")
+        lines.append(f"  families: {', '.join(fams)}; truncation model: {truncation}"
+                     + (f" (heavy scale {heavy:g} MeV)" if truncation != "none" else ""))
     for f in region.facets:
-        lines.append(f"  {f.inequality(region.coordinates):<28} [{f.label()}; {f.status}]")
-    if region.inner_facets:
+        shift = f.extra.get("truncation_shift_region")
+        note = f"; relaxed by {shift:.3g} for truncation" if shift is not None else ""
+        lines.append(f"  {f.inequality(region.coordinates):<28} [{f.label()}; {f.status}{note}]")
+    if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
+        lines.append(f"  inner set: {len(region.inner_facets)} facets (the one-loop bounds; "
+                     "points between inner and outer facets are uncertain)")
+    elif region.inner_facets:
         lines.append(f"  inner set: {len(region.inner_facets)} facets (reached by explicit "
                      "positive spectra: consistent with every sum rule used)")
     lines.append(f"  hash {region.hash[:16]}")

@@ -37,15 +37,24 @@ def region_block(region: Region) -> list:
     for i, f in enumerate(region.facets):
         pt = ", ".join(f"{k} = {v:g}" if k.endswith("_mev") else
                        f"{k} = {0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in f.point.items())
+        shift = f.extra.get("truncation_shift_region")
+        status = f.status if shift is None else f"{f.status}; truncation shift {shift:.3g}"
         rows.append((str(i), f.inequality(region.coordinates), f.family, f.channel, pt,
-                     f.status))
+                     status))
     blocks = [Heading("Region"),
               Para(f"Theory `{region.theory}` in ({', '.join(region.coordinates)}); {conv}. "
                    f"Content hash `{region.hash[:16]}`. Kinematic points s, t are in units "
                    "of M_pi^2."),
               Table(("facet", "inequality", "family", "channel", "point", "status"),
                     tuple(rows))]
-    if region.inner_facets:
+    if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
+        blocks.append(Para(f"The inner set ({len(region.inner_facets)} facets) is the one-loop "
+                           "bound; the outer facets above are relaxed by each facet's "
+                           "truncation shift (calibrated on loop-consistent models, "
+                           f"truncation model `{region.settings.get('truncation')}`, heavy "
+                           f"scale {region.settings.get('heavy_scale_mev')} MeV; "
+                           "docs/physics.md). Points between them are `uncertain`."))
+    elif region.inner_facets:
         blocks.append(Para(f"The region also has an inner set of {len(region.inner_facets)} "
                            "facets, reached by explicit positive heavy-state spectra: points "
                            "inside it are consistent with every sum rule and null constraint "

@@ -215,20 +215,7 @@ def region_1d() -> Region:
     return THEORY.build_region({})
 
 
-def test_default_interval_brackets_and_matches_published(region_1d):
-    lo, hi = region_1d.facets
-    lo_out, hi_out = lo.offset, -hi.offset
-    lo_in, hi_in = region_1d.inner_vertices[0][0], region_1d.inner_vertices[1][0]
-    assert lo_out <= G3_LOW and hi_out >= G3_HIGH  # rigorous bounds lie outside the optimum
-    assert lo_out <= lo_in < hi_in <= hi_out       # inner inside outer
-    assert hi_in == pytest.approx(G3_HIGH, abs=1e-12)  # spin-0 exchange at m = M
-    for v in (lo_out, lo_in):
-        assert abs(v / G3_LOW - 1) < 5e-3
-    for v in (hi_out, hi_in):
-        assert abs(v / G3_HIGH - 1) < 5e-3
-    # the inner point is a spectrum satisfying the null constraints of the imposed order
-    # only; it may sit below the converged optimum by the truncation error (< 0.02% here)
-    assert lo_in - lo_out < 1e-4 * abs(lo_out)
+# the interval's ends: tests/theories/test_scalar_eft_acceptance.py
 
 
 def test_region_certificates_and_round_trip(region_1d, tmp_path):
