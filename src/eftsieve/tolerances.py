@@ -21,3 +21,10 @@ FEASIBILITY_TOL = 1e-8
 REDUNDANCY_TOL = 1e-9
 #: Effective-sample-size floor below which `impose --mode reweight` refuses.
 MIN_ESS = 400.0
+#: Positivity cones: a dual matrix Z is accepted as a certificate when its smallest
+#: eigenvalue is above -CONE_CERT_TOL times its largest (the deficit is then absorbed
+#: exactly into the facet, see eftsieve.bounds.cones.facet_from_dual).
+CONE_CERT_TOL = 1e-6
+#: Positivity cones: a membership solve whose verified margin (relative) is within this
+#: band of zero is not a verdict (``marginal``, boundary within the solver's accuracy).
+CONE_BOUNDARY_TOL = 1e-7

@@ -1,0 +1,149 @@
+"""The ``elastic`` family: E(u, v) = u_i v_j u_k v_l M^{ijkl} >= 0 for real product states.
+
+Deciding whether a bi-quadratic form is non-negative is hard in general, so this module
+keeps the two directions apart:
+
+* :func:`search_states` looks for a violating product state by alternating minimisation
+  (for fixed u the best v is the lowest eigenvector of A(u)_{jl} = M^{ijkl} u_i u_k, and
+  vice versa), from many random starts at once.  A state found with E < 0 is an exact
+  witness: it is re-evaluated directly.
+* :func:`prove_elastic` proves E >= 0 by branch and bound over u on the faces of the cube
+  [-1, 1]^n (u -> -u is a symmetry, so the faces w_m = +1 suffice): on a box with centre
+  w0 and half-widths h, A(w) = A(w0) + A(w0, d) + A(w0, d)^T + A(d, d) gives the rigorous
+  lower bound lambda_min(A(w0)) - 2 sum_k h_k |A(w0, e_k)|_F - sum_ik h_i h_k |A(e_i, e_k)|_F
+  of lambda_min(A(w)); a box whose bound is positive is proven, a box whose centre has a
+  negative eigenvalue gives a witness, the others are split.  Without a proof within the
+  cell budget the answer is "undecided", never a verdict.
+
+Only real u, v are used: this is the ``elastic`` family as defined in
+docs/physics_cones.md (complex product states give further bounds that lie between it
+and ``extremal``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+_EPS = float(np.finfo(float).eps)
+
+
+@dataclass(frozen=True)
+class ElasticProof:
+    """Outcome of :func:`prove_elastic`.
+
+    Attributes
+    ----------
+    outcome
+        ``proven`` (E >= 0 everywhere), ``violated`` (witness found) or ``undecided``.
+    cells
+        Boxes examined.
+    witness
+        (u, v, E) of a violating state, or None.
+    """
+
+    outcome: str
+    cells: int
+    witness: tuple[np.ndarray, np.ndarray, float] | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {"outcome": self.outcome, "cells": self.cells}
+        if self.witness is not None:
+            out["u"], out["v"], out["E"] = (self.witness[0].tolist(), self.witness[1].tolist(),
+                                            self.witness[2])
+        return out
+
+
+def _a_of_u(m: np.ndarray, u: np.ndarray) -> np.ndarray:
+    """A(u)_{jl} = M^{ijkl} u_i u_k, batched over u (B, n) -> (B, n, n), symmetrised."""
+    a = np.einsum("ijkl,bi,bk->bjl", m, u, u)
+    return 0.5 * (a + np.swapaxes(a, 1, 2))
+
+
+def _b_of_v(m: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """B(v)_{ik} = M^{ijkl} v_j v_l, batched, symmetrised."""
+    b = np.einsum("ijkl,bj,bl->bik", m, v, v)
+    return 0.5 * (b + np.swapaxes(b, 1, 2))
+
+
+def value(m: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """E(u, v) for unit-normalised batches of states."""
+    u = u / np.linalg.norm(u, axis=-1, keepdims=True)
+    v = v / np.linalg.norm(v, axis=-1, keepdims=True)
+    return np.einsum("ijkl,...i,...j,...k,...l->...", m, u, v, u, v)
+
+
+def search_states(m: np.ndarray, rng: np.random.Generator, starts: int = 128,
+                  sweeps: int = 60) -> tuple[np.ndarray, np.ndarray, float]:
+    """The lowest E(u, v) found by alternating minimisation from random starts.
+
+    Returns (u, v, E) with E re-evaluated directly.
+    """
+    n = m.shape[0]
+    u = np.concatenate([np.eye(n), rng.normal(size=(starts, n))])
+    u /= np.linalg.norm(u, axis=1, keepdims=True)
+    v = np.zeros_like(u)
+    for _ in range(sweeps):
+        _, vecs = np.linalg.eigh(_a_of_u(m, u))
+        v = vecs[:, :, 0]
+        _, vecs = np.linalg.eigh(_b_of_v(m, v))
+        u = vecs[:, :, 0]
+    vals = value(m, u, v)
+    best = int(np.argmin(vals))
+    return u[best], v[best], float(vals[best])
+
+
+def prove_elastic(m: np.ndarray, max_cells: int = 400_000, batch: int = 20_000,
+                  ) -> ElasticProof:
+    """Prove E(u, v) >= 0 for all real u, v by branch and bound (module docstring)."""
+    n = m.shape[0]
+    scale = float(np.abs(m).max())
+    if scale == 0:
+        return ElasticProof("proven", 0)
+    m = m / scale
+    m = 0.5 * (m + m.transpose(2, 3, 0, 1))  # E is unchanged; A(u) is then symmetric
+    # A(e_i, e_k) norms for the quadratic remainder
+    aik = np.einsum("ijkl->ikjl", m)
+    aik = 0.5 * (aik + np.swapaxes(aik, 2, 3))
+    quad = np.linalg.norm(aik, axis=(2, 3)) + np.linalg.norm(np.swapaxes(aik, 0, 1), axis=(2, 3))
+    quad = 0.5 * quad
+    centres, halves = [], []
+    for face in range(n):
+        c = np.zeros(n)
+        c[face] = 1.0
+        h = np.ones(n)
+        h[face] = 0.0
+        centres.append(c)
+        halves.append(h)
+    cen, hal = np.array(centres), np.array(halves)
+    done = 0
+    while len(cen):
+        if done >= max_cells:
+            return ElasticProof("undecided", done)
+        cb, hb = cen[:batch], hal[:batch]
+        cen, hal = cen[batch:], hal[batch:]
+        done += len(cb)
+        lam, vecs = np.linalg.eigh(_a_of_u(m, cb))
+        bad = np.nonzero(lam[:, 0] < 0)[0]
+        for b in bad[np.argsort(lam[bad, 0])][:3]:
+            e = float(value(m, cb[b], vecs[b, :, 0]))
+            if e < -64 * n * n * _EPS:
+                u = cb[b] / np.linalg.norm(cb[b])
+                return ElasticProof("violated", done, (u, vecs[b, :, 0], e * scale))
+        lin = np.linalg.norm(np.einsum("ijkl,bi->bkjl", m, cb), axis=(2, 3))  # |A(w0, e_k)|
+        lower = lam[:, 0] - 2 * np.einsum("bk,bk->b", hb, lin) - np.einsum(
+            "bi,ik,bk->b", hb, quad, hb) - 64 * n * n * _EPS
+        keep = lower <= 0
+        cb, hb = cb[keep], hb[keep]
+        if not len(cb):
+            continue
+        axis = np.argmax(hb, axis=1)
+        step = np.zeros_like(hb)
+        step[np.arange(len(hb)), axis] = hb[np.arange(len(hb)), axis] / 2
+        hb2 = hb.copy()
+        hb2[np.arange(len(hb)), axis] /= 2
+        cen = np.concatenate([cen, cb - step, cb + step])
+        hal = np.concatenate([hal, hb2, hb2])
+    return ElasticProof("proven", done)

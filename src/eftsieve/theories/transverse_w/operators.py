@@ -1,0 +1,65 @@
+"""The purely transverse SU(2) operators of ``transverse-w`` and their six modes.
+
+Basis of vector-boson-scattering analyses (Eboli, Gonzalez-Garcia & Mizukoshi,
+hep-ph/0606118, and later updates; definitions from memory):
+
+    O_T0 = Tr[W_{mu nu} W^{mu nu}] Tr[W_{alpha beta} W^{alpha beta}]
+    O_T1 = Tr[W_{alpha nu} W^{mu beta}] Tr[W_{mu beta} W^{alpha nu}]
+    O_T2 = Tr[W_{alpha mu} W^{mu beta}] Tr[W_{beta nu} W^{nu alpha}]
+
+with W_{mu nu} = i g (sigma^a / 2) W^a_{mu nu} and L = sum_i (f_Ti / Lambda^4) O_Ti.
+Four factors of i g/2 give the positive constant g^4/16, which does not change a cone;
+we set g = 1.  Only the abelian part of W^a_{mu nu} enters a four-point contact.
+
+Modes: three real isospin components W^1, W^2, W^3 (not W^+-) times the two linear
+polarisations x, y of the massless, unbroken phase: six modes.  Real components and
+real polarisations are self-conjugate, so crossing maps each mode to itself.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from eftsieve.bounds.contact import ModeSet, lower
+
+MODES = ModeSet("vector", 3, ("W1", "W2", "W3"))
+COEFFICIENTS = ("fT0", "fT1", "fT2")
+_PAULI = np.array([[[0, 1], [1, 0]], [[0, -1j], [1j, 0]], [[1, 0], [0, -1]]])
+
+
+def matrix_field(f: np.ndarray) -> np.ndarray:
+    """W^{mu nu} = i (sigma^a/2) W^{a, mu nu} as (..., 2, 2, 4, 4), indices up."""
+    return 0.5j * np.einsum("aij,...amn->...ijmn", _PAULI, f)
+
+
+def density_t0(a: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """Tr[W_{mu nu} W^{mu nu}] Tr[W_{alpha beta} W^{alpha beta}]."""
+    w = matrix_field(f)
+    tr = np.einsum("...ijmn,...jimn->...", lower(w, (-2, -1)), w)
+    return tr * tr
+
+
+def density_t1(a: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """Tr[W_{alpha nu} W^{mu beta}] Tr[W_{mu beta} W^{alpha nu}]."""
+    w = matrix_field(f)
+    wl = lower(w, (-2, -1))
+    t1 = np.einsum("...ijan,...jimb->...anmb", wl, w)      # Tr[W_{a n} W^{m b}]
+    t2 = np.einsum("...ijmb,...jian->...mban", wl, w)      # Tr[W_{m b} W^{a n}]
+    return np.einsum("...anmb,...mban->...", t1, t2)
+
+
+def density_t2(a: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """Tr[W_{alpha mu} W^{mu beta}] Tr[W_{beta nu} W^{nu alpha}]."""
+    w = matrix_field(f)
+    wl = lower(w, (-2, -1))
+    t1 = np.einsum("...ijam,...jimb->...ab", wl, w)        # Tr[W_{a m} W^{m b}] = T_a^b
+    t2 = np.einsum("...ijbn,...jina->...ba", wl, w)        # Tr[W_{b n} W^{n a}] = U_b^a
+    return np.einsum("...ab,...ba->...", t1, t2)
+
+
+OPERATORS = {"fT0": density_t0, "fT1": density_t1, "fT2": density_t2}
+
+
+def current_singlet_scalar(a: np.ndarray, f: np.ndarray) -> np.ndarray:
+    """J = W^a_{mu nu} W^{a, mu nu}: a heavy isosinglet scalar coupled to two W (rule-in)."""
+    return np.einsum("...amn,...amn->...", lower(f, (-2, -1)), f)
