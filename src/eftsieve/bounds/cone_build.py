@@ -35,7 +35,7 @@ from eftsieve.bounds.cones import (
     facet_from_states,
     verify_rho,
 )
-from eftsieve.bounds.elastic import prove_elastic, search_states
+from eftsieve.bounds.elastic import StateReduction, prove_elastic, search_states
 from eftsieve.bounds.sdp import ExtremalSDP
 from eftsieve.errors import SolverError
 
@@ -119,12 +119,15 @@ class ConeBuild:
 
 
 class _Builder:
-    def __init__(self, problem: ConeProblem, st: ConeSettings) -> None:
+    def __init__(self, problem: ConeProblem, st: ConeSettings,
+                 reduction: StateReduction | None = None) -> None:
         if st.family not in ("extremal", "elastic"):
             raise ValueError(f"unknown family '{st.family}'")
         if problem.rank() < problem.k:
             raise ValueError("the coefficients are not independent in the forward tensor")
-        self.p, self.st = problem, st
+        self.p, self.st, self.reduction = problem, st, reduction
+        if reduction is not None and reduction.defect(problem.tensors) > 1e-9:
+            raise ValueError("the state reduction's generators are not symmetries of M")
         self.rng = np.random.default_rng(st.seed)
         self.sdp = ExtremalSDP(problem)
         self.w = problem.tau()
@@ -150,12 +153,12 @@ class _Builder:
         else:
             self._shoot_elastic(d)
 
-    def _shoot_extremal(self, d: np.ndarray) -> None:
+    def _shoot_extremal(self, d: np.ndarray, with_facet: bool = True) -> None:
         res = self.sdp.shoot(self.c0, d, cap=1e6)
         self.solves += 1
         if res.status not in _OK or res.rho is None:
             return
-        if res.z is not None:
+        if with_facet and res.z is not None:
             cert = facet_from_dual(self.p, res.z)
             if cert is not None:
                 self.facets.append(cert)
@@ -181,19 +184,35 @@ class _Builder:
             lam = float(e0 / -ed)
         return lam
 
+    def prove_elastic_point(self, c: np.ndarray) -> tuple[str, Any]:
+        """``proven``/``violated``/``undecided`` for the elastic cone at c: the extremal
+        certificate first (extremal is inside elastic), then branch and bound."""
+        res = self.sdp.membership(c)
+        self.solves += 1
+        if res.rho is not None and res.value > 0:
+            ok, _, _ = verify_rho(self.p, c / np.linalg.norm(c), res.rho)
+            if ok:
+                return "proven", "extremal rho"
+        proof = prove_elastic(self.p.tensor(c), self.st.elastic_cells,
+                              reduction=self.reduction)
+        return proof.outcome, proof
+
     def _shoot_elastic(self, d: np.ndarray) -> None:
         lam = self._dinkelbach(d, 1e6)
-        for delta in (10 * self.st.shrink, 100 * self.st.shrink, 1000 * self.st.shrink):
+        for delta in (10 * self.st.shrink, 100 * self.st.shrink, 1000 * self.st.shrink,
+                      5000 * self.st.shrink):
             c_in = self.c0 + (1 - delta) * lam * d
-            proof = prove_elastic(self.p.tensor(c_in), self.st.elastic_cells)
-            self.solves += 1
-            if proof.outcome == "proven":
+            outcome, proof = self.prove_elastic_point(c_in)
+            if outcome == "proven":
                 self.inner.append(c_in / (self.w @ c_in))
                 return
-            if proof.outcome == "violated" and proof.witness is not None:
+            if outcome == "violated" and proof.witness is not None:
                 u, v, _ = proof.witness
                 self.facets.append(facet_from_states(self.p, u, v))
                 lam = self._dinkelbach(d, lam)
+        # no proof near the elastic boundary: keep the extremal inner point (extremal is
+        # inside elastic), but not its dual facet (not valid for elastic)
+        self._shoot_extremal(d, with_facet=False)
 
     # ---- geometry on the slice ---------------------------------------------------------------
     def to_slice(self, c: np.ndarray) -> np.ndarray:
@@ -239,12 +258,14 @@ class _Builder:
         return frac, float(np.sqrt(max(frac, 1.0 / len(x)) / len(x)))
 
 
-def build_cone(problem: ConeProblem, settings: ConeSettings | None = None) -> ConeBuild:
+def build_cone(problem: ConeProblem, settings: ConeSettings | None = None,
+               reduction: StateReduction | None = None) -> ConeBuild:
     """Outer facets and inner rays of the cone, refined until the shell is small (module
-    docstring).  Raises SolverError when no verified interior point exists."""
+    docstring).  ``reduction`` (elastic only) speeds up the elastic proofs.  Raises
+    SolverError when no verified interior point exists."""
     st = settings or ConeSettings()
     t_start = time.perf_counter()
-    bld = _Builder(problem, st)
+    bld = _Builder(problem, st, reduction)
     for j in range(problem.k - 1):
         bld.shoot(bld.basis[:, j])
         bld.shoot(-bld.basis[:, j])

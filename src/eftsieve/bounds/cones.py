@@ -179,27 +179,60 @@ def _eig_error(z: np.ndarray) -> float:
     return 8 * z.shape[-1] * np.finfo(float).eps * float(np.linalg.norm(z))
 
 
-def facet_from_dual(problem: ConeProblem, z: np.ndarray) -> FacetCertificate | None:
-    """A valid facet from a (numerical) dual matrix Z, or None when Z is not near-PSD.
+def certificate_matrix(factors: list[list[float]]) -> np.ndarray:
+    """Z = (Zt + Zt^x)/2 with Zt = sum_k l_k z_k z_k^T from stored ``[l_k, *z_k]`` rows."""
+    f = np.asarray(factors, dtype=float)
+    zt = np.einsum("k,kp,kq->pq", f[:, 0], f[:, 1:], f[:, 1:])
+    return 0.5 * (zt + cross(zt))
 
-    Z is made symmetric and crossing-symmetric (the linear form on crossing-symmetric M
-    only sees that part), its eigenvalues are re-evaluated, and a negative smallest
-    eigenvalue -e is absorbed exactly by adding (e + rounding) tau to the normal.
+
+def facet_from_dual(problem: ConeProblem, z: np.ndarray) -> FacetCertificate | None:
+    """A valid facet from a (numerical) dual matrix Z, or None when Z is far from PSD.
+
+    Z is symmetrised and its eigenpairs above ``1e-12`` of the largest are kept (the
+    stored certificate, a PSD Zt); the linear form on crossing-symmetric M sees only
+    Zc = (Zt + Zt^x)/2, whose eigenvalues are re-evaluated; a negative smallest eigenvalue
+    -e is absorbed exactly by adding (e + rounding) tau to the normal (module docstring).
     """
     z = 0.5 * (z + z.T)
-    z = 0.5 * (z + cross(z))
-    lam = np.linalg.eigvalsh(z)
-    top = float(np.abs(lam).max())
+    lam, vec = np.linalg.eigh(z)
+    top = float(np.abs(lam).max()) if len(lam) else 0.0
     if top == 0 or lam[0] < -CONE_CERT_TOL * top:
         return None
-    repair = max(-float(lam[0]), 0.0) + _eig_error(z)
-    normal = 0.5 * np.einsum("pq,apq->a", z, problem.matrices()) + repair * problem.tau()
+    keep = lam > 1e-12 * top
+    factors = np.column_stack([lam[keep] / top, vec[:, keep].T]).tolist()
+    return _facet_from_factors(problem, factors)
+
+
+def _facet_from_factors(problem: ConeProblem, factors: list[list[float]],
+                        ) -> FacetCertificate | None:
+    zc = certificate_matrix(factors)
+    lmin = float(np.linalg.eigvalsh(zc)[0])
+    top = float(np.abs(zc).max())
+    if lmin < -CONE_CERT_TOL * top:
+        return None
+    repair = max(-lmin, 0.0) + _eig_error(zc)
+    normal = 0.5 * np.einsum("pq,apq->a", zc, problem.matrices()) + repair * problem.tau()
     norm = float(np.linalg.norm(normal))
     if norm == 0:
         return None
-    zs = z / norm
-    data = {"Z": np.round(zs, 15).tolist()}
-    return FacetCertificate(normal / norm, "dual-psd", float(lam[0] / top), repair / norm, data)
+    return FacetCertificate(normal / norm, "dual-psd", lmin / top, repair / norm,
+                            {"Z_factors": factors, "scale": norm})
+
+
+def verify_certificate(problem: ConeProblem, cert: dict[str, Any],
+                       normal: np.ndarray) -> bool:
+    """Recompute a stored facet from its certificate alone and compare the normals."""
+    if cert.get("kind") == "product-state":
+        again = facet_from_states(problem, np.asarray(cert["u"]), np.asarray(cert["v"]))
+    elif cert.get("kind") == "dual-psd":
+        got = _facet_from_factors(problem, cert["Z_factors"])
+        if got is None:
+            return False
+        again = got
+    else:
+        return False
+    return bool(np.allclose(again.normal, normal, rtol=0, atol=1e-12))
 
 
 def facet_from_states(problem: ConeProblem, u: np.ndarray, v: np.ndarray) -> FacetCertificate:
@@ -226,7 +259,7 @@ def check_facet_on_cone(problem: ConeProblem, cert: FacetCertificate,
     rho = g @ np.swapaxes(g, 1, 2)
     m = rho + cross(rho)
     if cert.kind == "dual-psd":
-        z = np.asarray(cert.data["Z"])
+        z = certificate_matrix(cert.data["Z_factors"]) / cert.data["scale"]
         tau_m = 0.5 * np.einsum("bijij->b", m.reshape(draws, *(problem.n,) * 4))
         vals = 0.5 * np.einsum("pq,bpq->b", z, m) + cert.repair * tau_m
         scale = np.abs(z).sum() * np.abs(m).max(axis=(1, 2))

@@ -22,7 +22,8 @@ and ``extremal``).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -54,6 +55,48 @@ class ElasticProof:
             out["u"], out["v"], out["E"] = (self.witness[0].tolist(), self.witness[1].tolist(),
                                             self.witness[2])
         return out
+
+
+@dataclass(frozen=True)
+class StateReduction:
+    """A symmetry reduction of the product states u (supplied by a theory).
+
+    Every real unit u is claimed equivalent, under a symmetry R of every M_a
+    (M^{ijkl} = R_ii' R_jj' R_kk' R_ll' M^{i'j'k'l'}, applied to both u and v), to
+    ``fn(theta)`` for some theta in the box [lo, hi]; then min_{u,v} E = min_theta
+    lambda_min(A(fn(theta))).  The claim that the family meets every orbit is the
+    theory's (stated in ``description``); that the ``generators`` are symmetries is checked
+    by :meth:`defect`.
+
+    Attributes
+    ----------
+    fn
+        (B, p) -> (B, n) unit vectors.
+    lo, hi
+        The parameter box.
+    lipschitz
+        L with |fn(a) - fn(b)|_2 <= L |a - b|_inf.
+    generators
+        Orthogonal (n, n) matrices acting on the modes.
+    description
+        Why the family meets every orbit.
+    """
+
+    fn: Callable[[np.ndarray], np.ndarray]
+    lo: np.ndarray
+    hi: np.ndarray
+    lipschitz: float
+    generators: tuple[np.ndarray, ...] = field(default_factory=tuple)
+    description: str = ""
+
+    def defect(self, tensors: np.ndarray) -> float:
+        """Largest relative change of the M_a under the generators (0 for a symmetry)."""
+        scale = float(np.abs(tensors).max())
+        worst = 0.0
+        for r in self.generators:
+            moved = np.einsum("ai,bj,ck,dl,xijkl->xabcd", r, r, r, r, tensors)
+            worst = max(worst, float(np.abs(moved - tensors).max()) / scale)
+        return worst
 
 
 def _a_of_u(m: np.ndarray, u: np.ndarray) -> np.ndarray:
@@ -96,19 +139,27 @@ def search_states(m: np.ndarray, rng: np.random.Generator, starts: int = 128,
 
 
 def prove_elastic(m: np.ndarray, max_cells: int = 400_000, batch: int = 20_000,
-                  ) -> ElasticProof:
-    """Prove E(u, v) >= 0 for all real u, v by branch and bound (module docstring)."""
+                  reduction: StateReduction | None = None) -> ElasticProof:
+    """Prove E(u, v) >= 0 for all real u, v by branch and bound (module docstring).
+
+    With a ``reduction`` the boxes live in its parameter space and the centre's u is
+    fn(theta0); |u - u0| <= L max(h) bounds the perturbation.
+    """
+    if reduction is not None:
+        return _prove_reduced(m, reduction, max_cells, batch)
     n = m.shape[0]
     scale = float(np.abs(m).max())
     if scale == 0:
         return ElasticProof("proven", 0)
     m = m / scale
     m = 0.5 * (m + m.transpose(2, 3, 0, 1))  # E is unchanged; A(u) is then symmetric
-    # A(e_i, e_k) norms for the quadratic remainder
+    # the quadratic remainder: |A(d, d)| <= sum_ik |d_i||d_k| |A(e_i, e_k)|_F, and also
+    # <= |d|^2 sigma_max(Q) with Q[(i,k),(j,l)] = M^{ijkl}
     aik = np.einsum("ijkl->ikjl", m)
     aik = 0.5 * (aik + np.swapaxes(aik, 2, 3))
     quad = np.linalg.norm(aik, axis=(2, 3)) + np.linalg.norm(np.swapaxes(aik, 0, 1), axis=(2, 3))
     quad = 0.5 * quad
+    sigma_q = float(np.linalg.norm(aik.reshape(n * n, n * n), 2))
     centres, halves = [], []
     for face in range(n):
         c = np.zeros(n)
@@ -132,9 +183,13 @@ def prove_elastic(m: np.ndarray, max_cells: int = 400_000, batch: int = 20_000,
             if e < -64 * n * n * _EPS:
                 u = cb[b] / np.linalg.norm(cb[b])
                 return ElasticProof("violated", done, (u, vecs[b, :, 0], e * scale))
-        lin = np.linalg.norm(np.einsum("ijkl,bi->bkjl", m, cb), axis=(2, 3))  # |A(w0, e_k)|
-        lower = lam[:, 0] - 2 * np.einsum("bk,bk->b", hb, lin) - np.einsum(
-            "bi,ik,bk->b", hb, quad, hb) - 64 * n * n * _EPS
+        lk = np.einsum("ijkl,bi->bkjl", m, cb)                   # L_k = A(w0, e_k)
+        gram = np.einsum("bkjl,bqjl->bkq", lk, lk)
+        lin = np.minimum(np.einsum("bk,bk->b", hb, np.sqrt(np.einsum("bkk->bk", gram))),
+                         np.linalg.norm(hb, axis=1) * np.sqrt(np.linalg.eigvalsh(gram)[:, -1]))
+        h2 = np.einsum("bk,bk->b", hb, hb)
+        quadb = np.minimum(np.einsum("bi,ik,bk->b", hb, quad, hb), h2 * sigma_q)
+        lower = lam[:, 0] - 2 * lin - quadb - 64 * n * n * _EPS
         keep = lower <= 0
         cb, hb = cb[keep], hb[keep]
         if not len(cb):
@@ -144,6 +199,58 @@ def prove_elastic(m: np.ndarray, max_cells: int = 400_000, batch: int = 20_000,
         step[np.arange(len(hb)), axis] = hb[np.arange(len(hb)), axis] / 2
         hb2 = hb.copy()
         hb2[np.arange(len(hb)), axis] /= 2
+        cen = np.concatenate([cen, cb - step, cb + step])
+        hal = np.concatenate([hal, hb2, hb2])
+    return ElasticProof("proven", done)
+
+
+def _remainder_norms(m: np.ndarray) -> tuple[np.ndarray, float]:
+    n = m.shape[0]
+    aik = np.einsum("ijkl->ikjl", m)
+    aik = 0.5 * (aik + np.swapaxes(aik, 2, 3))
+    return aik, float(np.linalg.norm(aik.reshape(n * n, n * n), 2))
+
+
+def _prove_reduced(m: np.ndarray, red: StateReduction, max_cells: int, batch: int,
+                   ) -> ElasticProof:
+    n = m.shape[0]
+    scale = float(np.abs(m).max())
+    if scale == 0:
+        return ElasticProof("proven", 0)
+    m = m / scale
+    m = 0.5 * (m + m.transpose(2, 3, 0, 1))
+    _, sigma_q = _remainder_norms(m)
+    lo, hi = np.asarray(red.lo, dtype=float), np.asarray(red.hi, dtype=float)
+    cen, hal = ((lo + hi) / 2)[None, :], ((hi - lo) / 2)[None, :]
+    done = 0
+    while len(cen):
+        if done >= max_cells:
+            return ElasticProof("undecided", done)
+        cb, hb = cen[:batch], hal[:batch]
+        cen, hal = cen[batch:], hal[batch:]
+        done += len(cb)
+        u0 = red.fn(cb)
+        lam, vecs = np.linalg.eigh(_a_of_u(m, u0))
+        b = int(np.argmin(lam[:, 0]))
+        if lam[b, 0] < 0:
+            e = float(value(m, u0[b], vecs[b, :, 0]))
+            if e < -64 * n * n * _EPS:
+                return ElasticProof("violated", done, (u0[b], vecs[b, :, 0], e * scale))
+        lk = np.einsum("ijkl,bi->bkjl", m, u0)
+        gram = np.einsum("bkjl,bqjl->bkq", lk, lk)
+        delta = red.lipschitz * hb.max(axis=1)
+        lower = (lam[:, 0] - 2 * delta * np.sqrt(np.linalg.eigvalsh(gram)[:, -1])
+                 - delta**2 * sigma_q - 64 * n * n * _EPS)
+        keep = lower <= 0
+        cb, hb = cb[keep], hb[keep]
+        if not len(cb):
+            continue
+        axis = np.argmax(hb, axis=1)
+        rows = np.arange(len(hb))
+        step = np.zeros_like(hb)
+        step[rows, axis] = hb[rows, axis] / 2
+        hb2 = hb.copy()
+        hb2[rows, axis] /= 2
         cen = np.concatenate([cen, cb - step, cb + step])
         hal = np.concatenate([hal, hb2, hb2])
     return ElasticProof("proven", done)

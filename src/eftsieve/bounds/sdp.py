@@ -121,15 +121,21 @@ class ExtremalSDP:
             problem.tau() @ self._cv == 1, self._t3 <= 1])
 
     def _solve(self, prob: Any) -> str:
+        """Solve; an inaccurate solve shows in the returned status (cvxpy's warning about
+        it is absorbed, the status says the same)."""
+        import warnings
+
         import cvxpy as cp
 
-        try:
-            prob.solve(solver=self.solver)
-        except cp.error.SolverError:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", UserWarning)
             try:
-                prob.solve(solver="SCS", eps=1e-9, max_iters=200_000)
-            except cp.error.SolverError as err:
-                return f"solver_error: {err}"
+                prob.solve(solver=self.solver)
+            except cp.error.SolverError:
+                try:
+                    prob.solve(solver="SCS", eps=1e-9, max_iters=200_000)
+                except cp.error.SolverError as err:
+                    return f"solver_error: {err}"
         return str(prob.status)
 
     def membership(self, c: np.ndarray) -> SDPResult:

@@ -63,3 +63,36 @@ OPERATORS = {"fT0": density_t0, "fT1": density_t1, "fT2": density_t2}
 def current_singlet_scalar(a: np.ndarray, f: np.ndarray) -> np.ndarray:
     """J = W^a_{mu nu} W^{a, mu nu}: a heavy isosinglet scalar coupled to two W (rule-in)."""
     return np.einsum("...amn,...amn->...", lower(f, (-2, -1)), f)
+
+
+def _reduced_states(theta: np.ndarray) -> np.ndarray:
+    """u(theta) = cos(theta) |W1 x> + sin(theta) |W2 y> (modes ordered W1x, W1y, W2x, ...)."""
+    t = np.asarray(theta, dtype=float)[:, 0]
+    u = np.zeros((len(t), 6))
+    u[:, 0], u[:, 3] = np.cos(t), np.sin(t)
+    return u
+
+
+def _rotation(axis: int, angle: float, dim: int) -> np.ndarray:
+    r = np.eye(dim)
+    i, j = [k for k in range(dim) if k != axis][:2] if dim == 3 else (0, 1)
+    c, s = np.cos(angle), np.sin(angle)
+    r[i, i], r[i, j], r[j, i], r[j, j] = c, -s, s, c
+    return r
+
+
+def state_reduction():
+    """Product states u as a real 3x2 matrix U[a, pol]: O(3) isospin x O(2) polarisation
+    symmetry acts as U -> O U R^T, and the singular value decomposition brings every unit
+    U to diag(cos theta, sin theta) with 0 <= theta <= pi/4 (common practice)."""
+    from eftsieve.bounds.elastic import StateReduction
+
+    gens = []
+    for axis in range(3):
+        gens.append(np.kron(_rotation(axis, 0.7, 3), np.eye(2)))
+    gens.append(np.kron(np.diag([-1.0, 1.0, 1.0]), np.eye(2)))
+    gens.append(np.kron(np.eye(3), _rotation(2, 0.9, 2)))
+    gens.append(np.kron(np.eye(3), np.diag([1.0, -1.0])))
+    return StateReduction(_reduced_states, np.array([0.0]), np.array([np.pi / 4]), 1.0,
+                          tuple(gens), "O(3) isospin x O(2) polarisation; singular values of "
+                          "the 3x2 matrix U[a, pol] of u")
