@@ -14,6 +14,10 @@ _REGISTRY = {
     "chpt-su2": "eftsieve.theories.chpt_su2",
     "scalar-eft": "eftsieve.theories.scalar_eft",
     "chpt-su3": "eftsieve.theories.chpt_su3",
+    "photon-quartic": "eftsieve.theories.photon_quartic.theory",
+    "higgs-quartic": "eftsieve.theories.higgs_quartic.theory",
+    "ew-chiral": "eftsieve.theories.ew_chiral.theory",
+    "transverse-w": "eftsieve.theories.transverse_w.theory",
 }
 
 
