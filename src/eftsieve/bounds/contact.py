@@ -39,7 +39,7 @@ import numpy as np
 
 METRIC = np.array([1.0, -1.0, -1.0, -1.0])
 #: points of the discrete Cauchy integral that extracts s^n coefficients
-CAUCHY_POINTS = 16
+CAUCHY_POINTS = 8
 #: relative size of s^0, s^1 terms above which a "contact" density is rejected
 CONTACT_PURITY_TOL = 1e-9
 

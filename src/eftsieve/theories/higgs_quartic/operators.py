@@ -86,3 +86,24 @@ def current_triplet(component: int):
         dp, dpc = doublet_derivatives(dphi)
         return np.einsum("...am,ab,...bm->...", dpc, _PAULI[component], lower(dp, (-1,)))
     return current
+
+
+def doublet(phi: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Phi and Phi^dag (..., 2) from the real components (formal conjugate)."""
+    r = 1 / np.sqrt(2)
+    p = np.stack([phi[..., 0] + 1j * phi[..., 1], phi[..., 2] + 1j * phi[..., 3]], axis=-1) * r
+    pc = np.stack([phi[..., 0] - 1j * phi[..., 1], phi[..., 2] - 1j * phi[..., 3]], axis=-1) * r
+    return p, pc
+
+
+def current_vector(component: int | None):
+    """J_mu = i (Phi^dag T d_mu Phi - d_mu Phi^dag T Phi), T = 1 (singlet, component None)
+    or sigma^a: the current of a heavy vector (rule-in model), contravariant index."""
+    gen = np.eye(2) if component is None else _PAULI[component]
+
+    def current(phi: np.ndarray, dphi: np.ndarray) -> np.ndarray:
+        p, pc = doublet(phi)
+        dp, dpc = doublet_derivatives(dphi)
+        return 1j * (np.einsum("...a,ab,...bm->...m", pc, gen, dp)
+                     - np.einsum("...am,ab,...b->...m", dpc, gen, p))
+    return current
