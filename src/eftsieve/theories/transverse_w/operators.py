@@ -96,3 +96,26 @@ def state_reduction():
     return StateReduction(_reduced_states, np.array([0.0]), np.array([np.pi / 4]), 1.0,
                           tuple(gens), "O(3) isospin x O(2) polarisation; singular values of "
                           "the 3x2 matrix U[a, pol] of u")
+
+
+def current_scalar(kind: str, component: int = 0):
+    """Currents of heavy scalars coupled to two W (rule-in models): ``singlet`` W^a.W^a,
+    ``pseudo`` W^a.Wtilde^a, ``quintet`` T^k_ab W^a.W^b with T^k the five symmetric
+    traceless 3x3 matrices (isospin 2)."""
+    from eftsieve.bounds.lorentz import dual, ff
+
+    quintet = [np.diag([1.0, -1.0, 0.0]) / np.sqrt(2), np.diag([1.0, 1.0, -2.0]) / np.sqrt(6)]
+    for i, j in ((0, 1), (0, 2), (1, 2)):
+        t = np.zeros((3, 3))
+        t[i, j] = t[j, i] = 1 / np.sqrt(2)
+        quintet.append(t)
+
+    def current(a: np.ndarray, f: np.ndarray) -> np.ndarray:
+        if kind == "singlet":
+            return sum(ff(f[..., k, :, :], f[..., k, :, :]) for k in range(3))
+        if kind == "pseudo":
+            return sum(ff(f[..., k, :, :], dual(f[..., k, :, :])) for k in range(3))
+        t = quintet[component]
+        return sum(t[i, j] * ff(f[..., i, :, :], f[..., j, :, :])
+                   for i in range(3) for j in range(3) if t[i, j])
+    return current
