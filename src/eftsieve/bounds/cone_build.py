@@ -70,7 +70,7 @@ class ConeSettings:
     shell_target: float = 1e-3
     max_rounds: int = 30
     rays_per_round: int = 12
-    shrink: float = 1e-5
+    shrink: float = 1e-7
     mc_points: int = 200_000
     seed: int = 0
     elastic_cells: int = 300_000
@@ -162,7 +162,8 @@ class _Builder:
             cert = facet_from_dual(self.p, res.z)
             if cert is not None:
                 self.facets.append(cert)
-        for delta in (self.st.shrink, 10 * self.st.shrink, 100 * self.st.shrink):
+        for delta in (self.st.shrink, 10 * self.st.shrink, 100 * self.st.shrink,
+                      1000 * self.st.shrink):
             c_in = self.c0 + (1 - delta) * res.value * d
             ok, _, _ = verify_rho(self.p, c_in, (1 - delta) * res.rho + delta * self.rho0)
             if ok:
@@ -200,7 +201,7 @@ class _Builder:
     def _shoot_elastic(self, d: np.ndarray) -> None:
         lam = self._dinkelbach(d, 1e6)
         for delta in (10 * self.st.shrink, 100 * self.st.shrink, 1000 * self.st.shrink,
-                      5000 * self.st.shrink):
+                      10_000 * self.st.shrink):
             c_in = self.c0 + (1 - delta) * lam * d
             outcome, proof = self.prove_elastic_point(c_in)
             if outcome == "proven":

@@ -204,6 +204,18 @@ def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str
     return codes, tuple(statuses)
 
 
+def _min_form(cols: list[np.ndarray], a: np.ndarray) -> np.ndarray:
+    """min_j a_j . x over the rows of a, column by column, in place (O(n) memory)."""
+    best = np.full(len(cols[0]), np.inf)
+    work = np.empty(len(cols[0]))
+    for row in a:
+        np.multiply(cols[0], row[0], out=work)
+        for col, coef in zip(cols[1:], row[1:], strict=True):
+            work += coef * col
+        np.minimum(best, work, out=best)
+    return best
+
+
 def classify_cone(region: Region, points: np.ndarray, chunk: int = 1_000_000,
                   solve_shell: bool = True) -> tuple[np.ndarray, np.ndarray, dict[int, str]]:
     """Verdicts for many points: facet tests, then exact solves for the shell only.
@@ -216,10 +228,12 @@ def classify_cone(region: Region, points: np.ndarray, chunk: int = 1_000_000,
     codes = np.full(len(pts), MARGINAL, dtype=np.int8)
     shell = np.zeros(len(pts), dtype=bool)
     for s in range(0, len(pts), chunk):
-        x = pts[s:s + chunk]
-        scale = np.abs(x).max(axis=1) * FACET_TEST_BAND
-        out_m = (x @ a_out.T).min(axis=1)
-        in_m = (x @ a_in.T).min(axis=1)
+        cols = [np.ascontiguousarray(pts[s:s + chunk, j]) for j in range(pts.shape[1])]
+        scale = np.abs(cols[0])
+        for col in cols[1:]:
+            np.maximum(scale, np.abs(col), out=scale)
+        scale *= FACET_TEST_BAND
+        out_m, in_m = _min_form(cols, a_out), _min_form(cols, a_in)
         c = codes[s:s + chunk]
         c[out_m < -scale] = OUTSIDE
         c[in_m > scale] = INSIDE
