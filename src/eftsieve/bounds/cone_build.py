@@ -240,12 +240,12 @@ class _Builder:
     def inner_normals(self) -> np.ndarray:
         from scipy.spatial import ConvexHull
 
-        ys = self.to_slice(np.array(self.inner))
+        ys = _distinct(self.to_slice(np.array(self.inner)))
         dim = self.p.k - 1
         if dim == 1:
             eqs = np.array([[1.0, -ys.max()], [-1.0, ys.min()]])
         else:
-            eqs = ConvexHull(ys).equations
+            eqs = ConvexHull(_essential(ys)).equations
         a, b = eqs[:, :dim], eqs[:, dim]
         normals = -(a @ self.basis.T) - (b - a @ (self.basis.T @ self.c0))[:, None] * self.w
         normals = np.vstack([normals, self.w])
@@ -257,6 +257,39 @@ class _Builder:
         inner = (x @ self.inner_normals().T >= 0).all(axis=1)
         frac = float(np.mean(outer & ~inner))
         return frac, float(np.sqrt(max(frac, 1.0 / len(x)) / len(x)))
+
+
+def _distinct(ys: np.ndarray, rel: float = 1e-6) -> np.ndarray:
+    """Drop points within ``rel`` (of the spread) of an earlier one.  Dropping inner points
+    only shrinks the inner cone, so this is always safe; it removes the sliver facets that
+    near-duplicate rays at a vertex would add to the hull."""
+    scale = float(np.abs(ys).max()) or 1.0
+    kept: list[np.ndarray] = []
+    for y in ys:
+        if all(np.abs(y - z).max() > rel * scale for z in kept):
+            kept.append(y)
+    return np.array(kept)
+
+
+def _essential(ys: np.ndarray, rel: float = 1e-6) -> np.ndarray:
+    """Hull vertices, dropping each whose removal loses less than ``rel`` of the hull's
+    volume (safe: a smaller inner set; fewer facets for the fast facet test)."""
+    from scipy.spatial import ConvexHull, QhullError
+
+    pts = ys[ConvexHull(ys).vertices]
+    total = ConvexHull(pts).volume
+    i = 0
+    while i < len(pts) and len(pts) > ys.shape[1] + 1:
+        rest = np.delete(pts, i, axis=0)
+        try:
+            vol = ConvexHull(rest).volume
+        except QhullError:  # a degenerate remainder: keep the point
+            vol = 0.0
+        if total - vol < rel * total:
+            pts = rest
+        else:
+            i += 1
+    return pts
 
 
 def build_cone(problem: ConeProblem, settings: ConeSettings | None = None,
@@ -271,7 +304,8 @@ def build_cone(problem: ConeProblem, settings: ConeSettings | None = None,
         bld.shoot(bld.basis[:, j])
         bld.shoot(-bld.basis[:, j])
     rounds, frac = 0, (1.0, 0.0)
-    for rounds in range(1, st.max_rounds + 1):
+    while rounds < st.max_rounds:
+        rounds += 1
         if len(bld.inner) < problem.k:
             raise SolverError("too few inner points", "cone build: rays did not verify")
         frac = bld.shell()

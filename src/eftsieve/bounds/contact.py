@@ -187,13 +187,13 @@ def _forward_jets(modes: ModeSet, s: complex) -> list[tuple[np.ndarray, np.ndarr
 
 def s_coefficients(amplitude_of_s: Callable[[complex], np.ndarray], radius: float = 1.0,
                    points: int = CAUCHY_POINTS) -> np.ndarray:
-    """Taylor coefficients a_0 .. a_(points/2 - 1) in s of an analytic function, by a
+    """Taylor coefficients a_0 .. a_(points - 1) in s of an analytic function, by a
     discrete Cauchy integral on |s| = radius (trapezoid rule, exact for polynomials of
     degree < points)."""
     nodes = radius * np.exp(2j * np.pi * (np.arange(points) + 0.5) / points)
     vals = np.stack([amplitude_of_s(z) for z in nodes])
     return np.stack([np.mean(vals * (nodes ** (-m)).reshape(-1, *([1] * (vals.ndim - 1))),
-                             axis=0) for m in range(points // 2)])
+                             axis=0) for m in range(points)])
 
 
 def forward_tensor(density: Density, modes: ModeSet) -> np.ndarray:

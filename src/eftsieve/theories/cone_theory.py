@@ -8,13 +8,13 @@ bases) and a thin ``theory.py`` that fills in a :class:`ConeTheory`.  The cone e
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from eftsieve.bounds.contact import Density, ModeSet, forward_tensor
 from eftsieve.bounds.cones import ConeProblem
+from eftsieve.bounds.contact import Density, ModeSet, forward_tensor
 from eftsieve.errors import InputError
 from eftsieve.theories.base import CoordinateMap, Theory
 
@@ -37,7 +37,8 @@ CONE_CAUTIONS = (
 
 
 def problem_from_operators(coefficients: tuple[str, ...], modes: ModeSet,
-                           operators: dict[str, Density], info: dict[str, Any]) -> ConeProblem:
+                           operators: Mapping[str, Density], info: dict[str, Any],
+                           ) -> ConeProblem:
     """The ConeProblem with each M_a computed from its operator's density."""
     tensors = np.stack([forward_tensor(operators[c], modes) for c in coefficients])
     return ConeProblem(coefficients, modes.labels, tensors,
@@ -52,7 +53,7 @@ class ConeTheory(Theory):
     families = CONE_FAMILIES
     #: the operators' modes and densities, coefficient name -> density
     modes: ModeSet
-    operators: dict[str, Density] = {}
+    operators: Mapping[str, Density] = {}
     basis: str = ""
     #: other bases a fit may use: name -> (parameter names, J) with coordinates = J @ params
     alt_bases: dict[str, tuple[tuple[str, ...], np.ndarray]] = {}

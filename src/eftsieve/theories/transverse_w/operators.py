@@ -102,7 +102,7 @@ def current_scalar(kind: str, component: int = 0):
     """Currents of heavy scalars coupled to two W (rule-in models): ``singlet`` W^a.W^a,
     ``pseudo`` W^a.Wtilde^a, ``quintet`` T^k_ab W^a.W^b with T^k the five symmetric
     traceless 3x3 matrices (isospin 2)."""
-    from eftsieve.bounds.lorentz import dual, ff
+    from eftsieve.bounds.lorentz import dual
 
     quintet = [np.diag([1.0, -1.0, 0.0]) / np.sqrt(2), np.diag([1.0, 1.0, -2.0]) / np.sqrt(6)]
     for i, j in ((0, 1), (0, 2), (1, 2)):
@@ -112,10 +112,9 @@ def current_scalar(kind: str, component: int = 0):
 
     def current(a: np.ndarray, f: np.ndarray) -> np.ndarray:
         if kind == "singlet":
-            return sum(ff(f[..., k, :, :], f[..., k, :, :]) for k in range(3))
+            return np.einsum("...amn,...amn->...", lower(f, (-2, -1)), f)
         if kind == "pseudo":
-            return sum(ff(f[..., k, :, :], dual(f[..., k, :, :])) for k in range(3))
+            return np.einsum("...amn,...amn->...", lower(f, (-2, -1)), dual(f))
         t = quintet[component]
-        return sum(t[i, j] * ff(f[..., i, :, :], f[..., j, :, :])
-                   for i in range(3) for j in range(3) if t[i, j])
+        return np.einsum("ab,...amn,...bmn->...", t, lower(f, (-2, -1)), f)
     return current
