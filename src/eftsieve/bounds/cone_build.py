@@ -35,7 +35,12 @@ from eftsieve.bounds.cones import (
     facet_from_states,
     verify_rho,
 )
-from eftsieve.bounds.elastic import StateReduction, prove_elastic, search_states
+from eftsieve.bounds.elastic import (
+    StateReduction,
+    prove_elastic,
+    search_reduced,
+    search_states,
+)
 from eftsieve.bounds.sdp import ExtremalSDP
 from eftsieve.errors import SolverError
 
@@ -174,7 +179,10 @@ class _Builder:
         t0, td = self.p.tensor(self.c0), self.p.tensor(d)
         scale = float(np.abs(t0).max() + np.abs(td).max())
         for _ in range(40):
-            u, v, e = search_states(t0 + lam * td, self.rng, starts=48, sweeps=30)
+            if self.reduction is not None:
+                u, v, e = search_reduced(t0 + lam * td, self.reduction)
+            else:
+                u, v, e = search_states(t0 + lam * td, self.rng, starts=48, sweeps=30)
             if e >= -1e-12 * scale * max(1.0, lam):
                 break
             cert = facet_from_states(self.p, u, v)
@@ -187,21 +195,27 @@ class _Builder:
 
     def prove_elastic_point(self, c: np.ndarray) -> tuple[str, Any]:
         """``proven``/``violated``/``undecided`` for the elastic cone at c: the extremal
-        certificate first (extremal is inside elastic), then branch and bound."""
-        res = self.sdp.membership(c)
+        certificate first (extremal is inside elastic), then branch and bound; with a
+        symmetry reduction the (fast) reduced branch and bound goes first."""
         self.solves += 1
+        if self.reduction is not None:
+            proof = prove_elastic(self.p.tensor(c), self.st.elastic_cells,
+                                  reduction=self.reduction)
+            if proof.outcome != "undecided":
+                return proof.outcome, proof
+        res = self.sdp.membership(c)
         if res.rho is not None and res.value > 0:
             ok, _, _ = verify_rho(self.p, c / np.linalg.norm(c), res.rho)
             if ok:
                 return "proven", "extremal rho"
-        proof = prove_elastic(self.p.tensor(c), self.st.elastic_cells,
-                              reduction=self.reduction)
+        if self.reduction is not None:
+            return proof.outcome, proof
+        proof = prove_elastic(self.p.tensor(c), self.st.elastic_cells)
         return proof.outcome, proof
 
     def _shoot_elastic(self, d: np.ndarray) -> None:
         lam = self._dinkelbach(d, 1e6)
-        for delta in (10 * self.st.shrink, 100 * self.st.shrink, 1000 * self.st.shrink,
-                      10_000 * self.st.shrink):
+        for delta in (1e3 * self.st.shrink, 1e4 * self.st.shrink, 1e5 * self.st.shrink):
             c_in = self.c0 + (1 - delta) * lam * d
             outcome, proof = self.prove_elastic_point(c_in)
             if outcome == "proven":

@@ -138,6 +138,20 @@ def search_states(m: np.ndarray, rng: np.random.Generator, starts: int = 128,
     return u[best], v[best], float(vals[best])
 
 
+def search_reduced(m: np.ndarray, red: StateReduction, points: int = 2048,
+                   ) -> tuple[np.ndarray, np.ndarray, float]:
+    """The lowest E(u, v) over a grid of the reduced family u = fn(theta) (v exact, the
+    lowest eigenvector of A(u)); (u, v, E) with E re-evaluated directly."""
+    lo, hi = np.asarray(red.lo, dtype=float), np.asarray(red.hi, dtype=float)
+    per_axis = max(2, int(round(points ** (1 / len(lo)))))
+    axes = [np.linspace(a, b, per_axis) for a, b in zip(lo, hi, strict=True)]
+    theta = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, len(lo))
+    u = red.fn(theta)
+    lam, vecs = np.linalg.eigh(_a_of_u(m, u))
+    b = int(np.argmin(lam[:, 0]))
+    return u[b], vecs[b, :, 0], float(value(m, u[b], vecs[b, :, 0]))
+
+
 def prove_elastic(m: np.ndarray, max_cells: int = 400_000, batch: int = 20_000,
                   reduction: StateReduction | None = None) -> ElasticProof:
     """Prove E(u, v) >= 0 for all real u, v by branch and bound (module docstring).
