@@ -326,3 +326,9 @@ def test_cone_build_rejects_bad_settings(photon_problem):
     with pytest.raises(ValueError, match="family"):
         build_cone(photon_problem, ConeSettings(family="bogus"))
     assert ConeSettings().to_dict()["family"] == "extremal"
+
+
+def test_same_build_gives_the_same_region_hash(photon_problem, photon_region):
+    # regression: the build's wall time was stored in the region and changed its hash
+    again = cone_region("photon-quartic", build_cone(photon_problem), {"name": "none"})
+    assert again.hash == photon_region.hash

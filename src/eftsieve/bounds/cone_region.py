@@ -76,8 +76,10 @@ def cone_region(theory: str, build: ConeBuild, convention: dict[str, Any],
     inner = [Facet(tuple(float(x) for x in n), 0.0, build.family, "inner cone (hull of "
                    "verified rays)", {}, 0.0, "verified", {"kind": "inner"})
              for n in build.inner_normals]
+    # wall time is left out so that the same build gives the same hash
+    stats = {k: v for k, v in build.stats.items() if k != "seconds"}
     settings = {"family": build.family, "cone_problem": p.to_dict(),
-                "shell_fraction": list(build.shell_fraction), "build": build.stats}
+                "shell_fraction": list(build.shell_fraction), "build": stats}
     return Region(theory, p.coefficients, convention, tuple(facets), settings,
                   tuple(inner), tuple(tuple(float(x) for x in r) for r in build.inner_rays),
                   notes=notes)
