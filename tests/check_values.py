@@ -75,3 +75,18 @@ def s_p_wave_closed(lbar, f):
 # (a_0^0, a_0^2 published; the slopes and a_1^1 by projecting A = (s - M^2)/F^2).
 LEADING_ORDER = {"a0_0": 7 / (32 * _PI), "a2_0": -1 / (16 * _PI), "b0_0": 1 / (4 * _PI),
                  "b2_0": -1 / (8 * _PI), "a1_1": 1 / (24 * _PI)}
+
+# Lovasz, "On the Shannon capacity of a graph", IEEE Trans. Inf. Theory 25 (1979) 1:
+# the theta function of the 5-cycle is sqrt(5).
+LOVASZ_THETA_C5 = 5 ** 0.5
+
+# Choi, "Positive semidefinite biquadratic forms", Linear Algebra Appl. 12 (1975) 95
+# (from memory): F(x, y) = x1^2 y1^2 + x2^2 y2^2 + x3^2 y3^2
+#   - 2 (x1 x2 y1 y2 + x2 x3 y2 y3 + x3 x1 y3 y1) + 2 (x1^2 y2^2 + x2^2 y3^2 + x3^2 y1^2)
+# is >= 0 and not a sum of squares.  Terms as ((i, j, k, l), coefficient) of
+# u_i v_j u_k v_l with u = x, v = y (0-based).
+CHOI_FORM_TERMS = (
+    ((0, 0, 0, 0), 1.0), ((1, 1, 1, 1), 1.0), ((2, 2, 2, 2), 1.0),
+    ((0, 0, 1, 1), -2.0), ((1, 1, 2, 2), -2.0), ((2, 2, 0, 0), -2.0),
+    ((0, 1, 0, 1), 2.0), ((1, 2, 1, 2), 2.0), ((2, 0, 2, 0), 2.0),
+)

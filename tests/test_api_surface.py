@@ -29,4 +29,4 @@ def test_public_functions_survive_importing_their_sub_packages():
     import eftsieve.theories.base  # noqa: F401
 
     assert callable(eftsieve.check) and callable(eftsieve.impose)
-    assert eftsieve.theories() == ("chpt-su2", "chpt-su3", "scalar-eft")
+    assert "chpt-su2" in eftsieve.theories()

@@ -31,3 +31,10 @@ DUAL_SIGN_TOL = 1e-7
 ACTIVE_TOL = 1e-7
 #: Relative slack below which a vertex candidate lies on a facet (tangent cones).
 VERTEX_TOL = 1e-9
+#: Positivity cones: a dual matrix Z is accepted as a certificate when its smallest
+#: eigenvalue is above -CONE_CERT_TOL times its largest (the deficit is then absorbed
+#: exactly into the facet, see eftsieve.bounds.cones.facet_from_dual).
+CONE_CERT_TOL = 1e-6
+#: Positivity cones: a membership solve whose verified margin (relative) is within this
+#: band of zero is not a verdict (``marginal``, boundary within the solver's accuracy).
+CONE_BOUNDARY_TOL = 1e-7

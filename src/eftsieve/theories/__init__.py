@@ -24,6 +24,10 @@ REGISTRY = {
     "chpt-su2": "eftsieve.theories.chpt_su2.theory",
     "chpt-su3": "eftsieve.theories.chpt_su3.theory",
     "scalar-eft": "eftsieve.theories.scalar_eft.theory",
+    "photon-quartic": "eftsieve.theories.photon_quartic.theory",
+    "higgs-quartic": "eftsieve.theories.higgs_quartic.theory",
+    "ew-chiral": "eftsieve.theories.ew_chiral.theory",
+    "transverse-w": "eftsieve.theories.transverse_w.theory",
 }
 
 #: the theory of ``eftsieve region`` without --theory

@@ -1,0 +1,249 @@
+"""Positivity cones as Regions, and exact verdicts for points in the shell.
+
+* :func:`cone_region` turns a :class:`eftsieve.bounds.cone_build.ConeBuild` into an
+  :class:`eftsieve.region.Region`: every facet reads ``normal . c >= 0`` (offset 0) and
+  carries its certificate in ``extra``; the inner cone's facets and rays are stored as
+  the region's inner set; the forward tensors themselves are stored in
+  ``settings["cone_problem"]`` so that a saved region can re-decide any point.
+* :func:`shell_membership` decides points exactly, one solve per point: ``inside`` only
+  with a verified rho (extremal) or a proof (elastic), ``outside`` only with a verified
+  separating certificate, and ``marginal`` with the reason otherwise.
+* :func:`classify_cone` is the fast path: the facet test against the inner and outer
+  cones, then :func:`shell_membership` for the points between them.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+from typing import Any
+
+import numpy as np
+
+from eftsieve.bounds.cone_build import ConeBuild
+from eftsieve.bounds.cones import (
+    INSIDE,
+    MARGINAL,
+    OUTSIDE,
+    ConeProblem,
+    FacetCertificate,
+    facet_from_dual,
+    facet_from_states,
+    verify_rho,
+)
+from eftsieve.bounds.elastic import StateReduction, prove_elastic, search_states
+from eftsieve.region.model import Facet, Region
+from eftsieve.tolerances import CONE_BOUNDARY_TOL
+
+#: relative band of the fast facet test inside which a point goes to the exact solve
+FACET_TEST_BAND = 1e-12
+
+
+def prune(certs: tuple[FacetCertificate, ...], tol: float = 1e-7) -> list[FacetCertificate]:
+    """Drop facets implied (to ``tol``) by the others.  Dropping a valid facet can only
+    enlarge an outer cone, so a loose tolerance is safe."""
+    from scipy.optimize import linprog
+
+    keep = list(range(len(certs)))
+    for i in range(len(certs)):
+        others = [j for j in keep if j != i]
+        if not others:
+            continue
+        a = np.array([certs[j].normal for j in others])
+        res = linprog(certs[i].normal, A_ub=-a, b_ub=np.zeros(len(others)),
+                      bounds=[(-1, 1)] * len(certs[i].normal), method="highs")
+        if res.status == 0 and res.fun >= -tol:
+            keep.remove(i)
+    return [certs[i] for i in keep]
+
+
+def _channel(cert: FacetCertificate, modes: tuple[str, ...]) -> str:
+    if cert.kind == "product-state":
+        def top(vec: list[float]) -> str:
+            v = np.asarray(vec)
+            i = np.argsort(-np.abs(v))[:2]
+            return " + ".join(f"{v[j]:+.3g} {modes[j]}" for j in i if abs(v[j]) > 1e-3)
+        return f"product state u = {top(cert.data['u'])}; v = {top(cert.data['v'])}"
+    return f"dual PSD matrix of rank {len(cert.data['Z_factors'])}"
+
+
+def cone_region(theory: str, build: ConeBuild, convention: dict[str, Any],
+                notes: tuple[str, ...] = ()) -> Region:
+    """The Region of a built cone (module docstring)."""
+    p = build.problem
+    facets = [Facet(tuple(float(x) for x in c.normal), 0.0, build.family,
+                    _channel(c, p.modes), {}, 0.0, "verified",
+                    {"certificate": c.to_dict()}) for c in prune(build.outer)]
+    inner = [Facet(tuple(float(x) for x in n), 0.0, build.family, "inner cone (hull of "
+                   "verified rays)", {}, 0.0, "verified", {"kind": "inner"})
+             for n in build.inner_normals]
+    # wall time is left out so that the same build gives the same hash
+    stats = {k: v for k, v in build.stats.items() if k != "seconds"}
+    settings = {"family": build.family, "cone_problem": p.to_dict(),
+                "shell_fraction": list(build.shell_fraction), "build": stats}
+    return Region(theory, p.coefficients, convention, tuple(facets), settings,
+                  tuple(inner), tuple(tuple(float(x) for x in r) for r in build.inner_rays),
+                  notes=notes)
+
+
+# ---- exact verdicts -------------------------------------------------------------------------
+@lru_cache(maxsize=8)
+def _sdp_for(key: bytes, coefficients: tuple[str, ...], modes: tuple[str, ...]) -> Any:
+    from eftsieve.bounds.sdp import ExtremalSDP
+
+    n, k = len(modes), len(coefficients)
+    tensors = np.frombuffer(key, dtype=float).reshape(k, n, n, n, n)
+    return ExtremalSDP(ConeProblem(coefficients, modes, tensors.copy()))
+
+
+def sdp_for(problem: ConeProblem) -> Any:
+    """The (cached) :class:`eftsieve.bounds.sdp.ExtremalSDP` of a problem."""
+    return _sdp_for(problem.tensors.tobytes(), problem.coefficients, problem.modes)
+
+
+def _extremal_one(problem: ConeProblem, x: np.ndarray) -> tuple[int, str]:
+    sdp = sdp_for(problem)
+    res = sdp.membership(x)
+    if res.rho is None:
+        return MARGINAL, f"marginal: SDP not solved (status {res.status})"
+    unit = x / np.linalg.norm(x)
+    ok, lam_rel, _ = verify_rho(problem, unit, res.rho)
+    if ok and lam_rel > CONE_BOUNDARY_TOL:
+        return INSIDE, f"inside: verified rho, lambda_min/max|rho| = {lam_rel:.3g} " \
+                       f"(solver {res.status})"
+    if res.value < 0 and res.z is not None:
+        cert = facet_from_dual(problem, res.z)
+        if cert is not None:
+            val = float(cert.normal @ unit)
+            if val < -CONE_BOUNDARY_TOL:
+                return OUTSIDE, f"outside: verified dual certificate, n.c/|c| = {val:.3g} " \
+                                f"(solver {res.status})"
+    return MARGINAL, f"marginal: within the solver's accuracy of the boundary " \
+                     f"(t* = {res.value:.3g}, solver {res.status})"
+
+
+def _elastic_one(problem: ConeProblem, x: np.ndarray, rng: np.random.Generator,
+                 cells: int, reduction: StateReduction | None) -> tuple[int, str]:
+    unit = x / np.linalg.norm(x)
+    m = problem.tensor(unit)
+    u, v, e = search_states(m, rng)
+    scale = float(np.abs(m).max())
+    if e < -CONE_BOUNDARY_TOL * scale:
+        n_uv = facet_from_states(problem, u, v).normal @ unit
+        return OUTSIDE, f"outside: product state with E/|M| = {e / scale:.3g} (n.c = {n_uv:.3g})"
+    verdict, why = _extremal_one(problem, x)
+    if verdict == INSIDE:
+        return INSIDE, "inside (elastic): " + why.split(": ", 1)[1]
+    proof = prove_elastic(m, cells, reduction=reduction)
+    if proof.outcome == "proven":
+        return INSIDE, f"inside: branch-and-bound proof over product states ({proof.cells} cells)"
+    if proof.outcome == "violated" and proof.witness is not None:
+        return OUTSIDE, f"outside: product state with E = {proof.witness[2]:.3g}"
+    return MARGINAL, f"marginal: elastic positivity undecided within {proof.cells} cells"
+
+
+def problem_of(cone: Region | ConeProblem) -> tuple[ConeProblem, str | None]:
+    """The ConeProblem (and family, for a Region) behind a region or problem."""
+    if isinstance(cone, ConeProblem):
+        return cone, None
+    try:
+        return ConeProblem.from_dict(cone.settings["cone_problem"]), str(cone.settings["family"])
+    except KeyError as err:
+        raise ValueError(f"region of '{cone.theory}' is not a positivity cone") from err
+
+
+def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str | None = None,
+                     seed: int = 0, elastic_cells: int = 300_000,
+                     reduction: StateReduction | None = None,
+                     ) -> tuple[np.ndarray, tuple[str, ...]]:
+    """Exact verdicts for points, one solve per point: (codes, statuses).
+
+    Parameters
+    ----------
+    cone
+        A cone Region (family taken from it) or a ConeProblem (give ``family``).
+    points
+        Shape (m, k), in the cone's coordinates.
+    family
+        ``extremal`` or ``elastic``; overrides the region's.
+    seed
+        Seed of the product-state search (elastic).
+    elastic_cells
+        Cell budget of each elastic proof.
+    reduction
+        The theory's product-state reduction (elastic; optional, checked before use).
+
+    Returns
+    -------
+    codes
+        int8 array: 0 inside, 1 marginal, 2 outside (the codes of eftsieve.check).
+    statuses
+        One line per point: the verdict, what proves it and the solver status, or why
+        there is no verdict.
+    """
+    problem, fam = problem_of(cone)
+    fam = family or fam
+    if fam not in ("extremal", "elastic"):
+        raise ValueError(f"unknown family '{fam}'; use extremal or elastic")
+    pts = np.atleast_2d(np.asarray(points, dtype=float))
+    if pts.shape[1] != problem.k:
+        raise ValueError(f"points must have {problem.k} columns, got {pts.shape[1]}")
+    if reduction is not None and reduction.defect(problem.tensors) > 1e-9:
+        raise ValueError("the state reduction's generators are not symmetries of M")
+    rng = np.random.default_rng(seed)
+    codes = np.full(len(pts), MARGINAL, dtype=np.int8)
+    statuses = []
+    for i, x in enumerate(pts):
+        if not np.isfinite(x).all():
+            statuses.append("marginal: non-finite point")
+            continue
+        if not np.any(x):
+            statuses.append("marginal: the origin is the cone's apex (on the boundary)")
+            continue
+        code, why = (_extremal_one(problem, x) if fam == "extremal"
+                     else _elastic_one(problem, x, rng, elastic_cells, reduction))
+        codes[i] = code
+        statuses.append(why)
+    return codes, tuple(statuses)
+
+
+def _min_form(cols: list[np.ndarray], a: np.ndarray) -> np.ndarray:
+    """min_j a_j . x over the rows of a, column by column, in place (O(n) memory)."""
+    best = np.full(len(cols[0]), np.inf)
+    work = np.empty(len(cols[0]))
+    for row in a:
+        np.multiply(cols[0], row[0], out=work)
+        for col, coef in zip(cols[1:], row[1:], strict=True):
+            work += coef * col
+        np.minimum(best, work, out=best)
+    return best
+
+
+def classify_cone(region: Region, points: np.ndarray, chunk: int = 1_000_000,
+                  solve_shell: bool = True) -> tuple[np.ndarray, np.ndarray, dict[int, str]]:
+    """Verdicts for many points: facet tests, then exact solves for the shell only.
+
+    Returns (codes, in_shell mask, statuses of the shell points by index).
+    """
+    pts = np.asarray(points, dtype=float)
+    a_out, _ = region.arrays()
+    a_in, _ = region.arrays(inner=True)
+    codes = np.full(len(pts), MARGINAL, dtype=np.int8)
+    shell = np.zeros(len(pts), dtype=bool)
+    for s in range(0, len(pts), chunk):
+        cols = [np.ascontiguousarray(pts[s:s + chunk, j]) for j in range(pts.shape[1])]
+        scale = np.abs(cols[0])
+        for col in cols[1:]:
+            np.maximum(scale, np.abs(col), out=scale)
+        scale *= FACET_TEST_BAND
+        out_m, in_m = _min_form(cols, a_out), _min_form(cols, a_in)
+        c = codes[s:s + chunk]
+        c[out_m < -scale] = OUTSIDE
+        c[in_m > scale] = INSIDE
+        shell[s:s + chunk] = c == MARGINAL
+    statuses: dict[int, str] = {}
+    if solve_shell and shell.any():
+        idx = np.nonzero(shell)[0]
+        sub, why = shell_membership(region, pts[idx])
+        codes[idx] = sub
+        statuses = dict(zip(idx.tolist(), why, strict=True))
+    return codes, shell, statuses
