@@ -4,9 +4,12 @@ from __future__ import annotations
 
 from eftsieve.theories.cone_theory import ConeTheory
 from eftsieve.theories.ew_chiral import operators as ops
+from eftsieve.theories.ew_chiral.references import REFERENCES
 
 
 class EwChiral(ConeTheory):
+
+    references = REFERENCES
     name = "ew-chiral"
     summary = "electroweak chiral Lagrangian, Goldstone limit; positivity cone of alpha4, alpha5"
     parameter_names = ops.COEFFICIENTS

@@ -6,9 +6,12 @@ import numpy as np
 
 from eftsieve.theories.cone_theory import ConeTheory
 from eftsieve.theories.higgs_quartic import operators as ops
+from eftsieve.theories.higgs_quartic.references import REFERENCES
 
 
 class HiggsQuartic(ConeTheory):
+
+    references = REFERENCES
     name = "higgs-quartic"
     summary = "Higgs-doublet scattering at dimension 8; positivity cone of f_S0, f_S1, f_S2"
     parameter_names = ops.COEFFICIENTS + ("C1", "C2", "C3")

@@ -6,9 +6,12 @@ import numpy as np
 
 from eftsieve.theories.cone_theory import ConeTheory
 from eftsieve.theories.photon_quartic import operators as ops
+from eftsieve.theories.photon_quartic.references import REFERENCES
 
 
 class PhotonQuartic(ConeTheory):
+
+    references = REFERENCES
     name = "photon-quartic"
     summary = "light-by-light scattering at dimension 8; positivity cone of zeta1, zeta2"
     parameter_names = ops.COEFFICIENTS + ops.ALT_COEFFICIENTS

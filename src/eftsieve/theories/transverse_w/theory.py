@@ -4,9 +4,12 @@ from __future__ import annotations
 
 from eftsieve.theories.cone_theory import ConeTheory
 from eftsieve.theories.transverse_w import operators as ops
+from eftsieve.theories.transverse_w.references import REFERENCES
 
 
 class TransverseW(ConeTheory):
+
+    references = REFERENCES
     name = "transverse-w"
     summary = "transverse W scattering at dimension 8; positivity cone of f_T0, f_T1, f_T2"
     parameter_names = ops.COEFFICIENTS
