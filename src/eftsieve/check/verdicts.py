@@ -43,6 +43,11 @@ class CheckSettings:
         Rows read per chunk from a samples file.
     plot_points
         Size of the uniform subsample kept for plots.
+    flagged_format
+        ``csv`` (flagged.csv) or ``parquet`` (flagged.parquet) for the rows not inside.
+    blas_threads
+        BLAS threads inside the check (1 by default: the streaming check multiplies
+        n x 2 arrays, where threads only spin; None leaves the process's setting).
     """
 
     draws: int = 200_000
@@ -50,6 +55,15 @@ class CheckSettings:
     marginal_band: float | None = None
     chunk_rows: int = 1_000_000
     plot_points: int = 50_000
+    flagged_format: str = "csv"
+    blas_threads: int | None = 1
+
+    def __post_init__(self) -> None:
+        if self.flagged_format not in ("csv", "parquet"):
+            from eftsieve.errors import InputError
+
+            raise InputError(None, "--flagged-format", f"unknown format "
+                             f"'{self.flagged_format}'", "use csv or parquet")
 
     def band(self, region: Region) -> float:
         """The marginal band for ``region``: the one given, else its theory's default
@@ -65,7 +79,8 @@ class CheckSettings:
 
     def to_dict(self) -> dict[str, Any]:
         return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,
-                "chunk_rows": self.chunk_rows, "plot_points": self.plot_points}
+                "chunk_rows": self.chunk_rows, "plot_points": self.plot_points,
+                "flagged_format": self.flagged_format}
 
 
 @dataclass(frozen=True)
