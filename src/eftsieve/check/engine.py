@@ -22,7 +22,14 @@ from typing import Any
 
 import numpy as np
 
-from eftsieve.check.blocks import Ranked, apply_map, empty_ranked, iter_blocks, sample_keys
+from eftsieve.check.blocks import (
+    Ranked,
+    Selection,
+    apply_map,
+    empty_ranked,
+    iter_blocks,
+    sample_keys,
+)
 from eftsieve.check.outputs import FlaggedRows, FlaggedWriter
 from eftsieve.check.result import N_WORST, CheckResult, WorstPoint, summarize
 from eftsieve.check.verdicts import CheckSettings, Verdicts, classify
@@ -202,11 +209,9 @@ class Cutoffs:
     worst: float = 0.0
 
     @classmethod
-    def of(cls, sample: Ranked, k_sample: int, worst: Ranked) -> Cutoffs:
+    def of(cls, sample: Selection, worst: Selection) -> Cutoffs:
         """The cut-offs implied by a partition's selections so far."""
-        s = float(sample.keys.max()) if len(sample) >= k_sample > 0 else 1.0
-        w = float(worst.keys.max()) if len(worst) >= N_WORST else 0.0
-        return cls(s, min(w, 0.0))
+        return cls(min(sample.cutoff, 1.0), min(worst.cutoff, 0.0))
 
     def to_dict(self) -> dict[str, Any]:
         return {"sample": self.sample, "worst": self.worst}
@@ -235,14 +240,16 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator,
         if len(sel):
             flagged = FlaggedRows(block.rows[sel], block.values[sel], y[sel], v.verdict[sel],
                                   v.min_margin[sel], v.worst[sel])
-    neg = np.flatnonzero(v.min_margin < 0) if cut.worst >= 0 else np.flatnonzero(
-        v.min_margin <= cut.worst)
+    neg = np.flatnonzero(v.min_margin < 0 if cut.worst >= 0 else v.min_margin <= cut.worst)
     worst = Ranked(v.min_margin[neg], block.rows[neg], (y[neg], v.worst[neg])).smallest(N_WORST)
     r = keys.random(len(block.rows))
-    cand = np.flatnonzero(r <= cut.sample) if cut.sample < 1.0 else slice(None)
-    w = None if block.weights is None else block.weights[cand]
-    sample = Ranked(r[cand], block.rows[cand], (np.hstack([block.values[cand], y[cand]]), w)
-                    ).smallest(st.plot_points)
+    if cut.sample < 1.0:
+        cand = np.flatnonzero(r <= cut.sample)
+        r, rows, vals, yc = r[cand], block.rows[cand], block.values[cand], y[cand]
+        w = None if block.weights is None else block.weights[cand]
+    else:
+        rows, vals, yc, w = block.rows, block.values, y, block.weights
+    sample = Ranked(r, rows, (np.hstack([vals, yc]), w)).smallest(st.plot_points)
     return BlockOutput(int(block.rows[0]), len(block.rows),
                        block_sums(y, block.weights, v.verdict, v.satisfies, soft), flagged, worst,
                        sample)
@@ -258,16 +265,16 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
     keys = sample_keys(job.settings.seed, job.part.start)
     dim = job.region.dim
     blocks: list[BlockSums] = []
-    worst = empty_worst(dim)
-    sample = empty_sample(len(job.fit.names) + dim, job.source.weighted)
+    worst = Selection(empty_worst(dim), N_WORST)
+    sample = Selection(empty_sample(len(job.fit.names) + dim, job.source.weighted),
+                       job.settings.plot_points)
     flagged: list[FlaggedRows] = []
-    k = job.settings.plot_points
     n = 0
     for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
-        out = process_block(job, block, keys, Cutoffs.of(sample, k, worst))
+        out = process_block(job, block, keys, Cutoffs.of(sample, worst))
         n += out.n
-        worst = worst.merged(out.worst, N_WORST)
-        sample = sample.merged(out.sample, k)
+        worst.add(out.worst)
+        sample.add(out.sample)
         if sink is not None:
             sink(out)
             continue
@@ -275,7 +282,7 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
         if out.flagged is not None:
             flagged.append(out.flagged)
     return PartitionResult(job.part.index, str(job.part.path), job.part.start, n,
-                           tuple(blocks), tuple(flagged), worst, sample)
+                           tuple(blocks), tuple(flagged), worst.result(), sample.result())
 
 
 def partition_task(job: PartitionJob, hook: Callable[[FilePart], None] | None = None
@@ -313,8 +320,9 @@ class CheckMerger:
         self.fit, self.region, self.settings, self.parts = fit, region, settings, parts
         self.flagged = flagged
         self.acc = Accumulator(region.dim)
-        self.worst = empty_worst(region.dim)
-        self.sample = empty_sample(len(fit.names) + region.dim, weighted)
+        self.worst = Selection(empty_worst(region.dim), N_WORST)
+        self.sample = Selection(empty_sample(len(fit.names) + region.dim, weighted),
+                                settings.plot_points)
         self.n_merged = 0
         self.done: list[dict[str, Any]] = []
 
@@ -322,8 +330,8 @@ class CheckMerger:
         """Merge one block (the next in row order)."""
         self._expect_row(out.first_row, "block")
         self._absorb(out.sums, out.flagged)
-        self.worst = self.worst.merged(out.worst, N_WORST)
-        self.sample = self.sample.merged(out.sample, self.settings.plot_points)
+        self.worst.add(out.worst)
+        self.sample.add(out.sample)
 
     def add_partition(self, res: PartitionResult) -> None:
         """Merge one whole partition (the next in row order) and verify its rows."""
@@ -339,8 +347,8 @@ class CheckMerger:
         if self.flagged is not None:
             for rows in res.flagged:
                 self.flagged.write_rows(rows)
-        self.worst = self.worst.merged(res.worst, N_WORST)
-        self.sample = self.sample.merged(res.sample, self.settings.plot_points)
+        self.worst.add(res.worst)
+        self.sample.add(res.sample)
         self.end_partition(res.index, res.first_row, res.n_rows)
 
     def end_partition(self, index: int, first_row: int, n_rows: int) -> None:
@@ -388,14 +396,14 @@ class CheckMerger:
                engine: dict[str, Any]) -> CheckResult:
         """The check result (with the engine and its partitions, worst points, subsample)."""
         self.check_complete()
-        worst = self.worst.ordered()
+        worst = self.worst.result().ordered()
         points, facet_idx = worst.payload
         facets = self.region.facets
         worst_rows = tuple(WorstPoint(int(r), tuple(float(v) for v in y), float(m),
                                       facets[int(f)].label())
                            for m, r, y, f in zip(worst.keys, worst.rows, points, facet_idx,
                                                  strict=True))
-        sample = self.sample.ordered()
+        sample = self.sample.result().ordered()
         data = sample.payload[0]
         k = len(self.fit.names)
         return summarize(self.fit, self.region, cmap, self.settings, self.acc, region_path,

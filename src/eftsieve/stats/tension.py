@@ -16,7 +16,7 @@ from itertools import combinations
 from typing import Any
 
 import numpy as np
-from scipy import stats as sps
+from scipy import special
 
 from eftsieve.errors import SolverError
 from eftsieve.region.model import Region
@@ -181,7 +181,7 @@ def chibar2_sf(x: float, weights: np.ndarray) -> float:
     """P(chi-bar-squared >= x) = sum_i w_i P(chi^2_i >= x), with chi^2_0 a point mass at 0."""
     p = float(weights[0]) * (1.0 if x <= 0 else 0.0)
     for i in range(1, len(weights)):
-        p += float(weights[i]) * float(sps.chi2.sf(x, i))
+        p += float(weights[i]) * float(special.chdtrc(i, x))  # scipy.stats.chi2.sf
     return min(max(p, 0.0), 1.0)
 
 
@@ -213,7 +213,7 @@ def tension(mean: np.ndarray, cov: np.ndarray, region: Region,
     p, w, cone = best
     if inside:
         p = 1.0
-    sigma = float(sps.norm.isf(p)) if p < 1.0 else 0.0
+    sigma = float(-special.ndtri(p))  # scipy.stats.norm.isf if p < 1.0 else 0.0
     return Tension(math.sqrt(d2), x, active, w, p, max(sigma, 0.0), cone)
 
 
