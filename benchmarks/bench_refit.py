@@ -16,6 +16,7 @@ the baseline threw away most of its walkers.
 
 from __future__ import annotations
 
+import os
 import sys
 import time
 import warnings
@@ -25,7 +26,8 @@ import numpy as np
 from common import load, one_core, spread, table, target
 
 ROOT = Path(__file__).resolve().parents[1]
-STEPS, WALKERS, REPEAT = 3000, 32, 3
+STEPS, WALKERS = int(os.environ.get("BENCH_STEPS", "3000")), 32
+REPEAT = 3
 
 
 def emcee_ess(sampler, steps: int) -> float:

@@ -31,7 +31,7 @@ import numpy as np
 from common import load, one_core, spread, table, target, times
 
 ROWS = int(float(os.environ.get("BENCH_ROWS", "2e7")))
-FLAG_ROWS = 2_000_000
+FLAG_ROWS = int(float(os.environ.get("BENCH_FLAG_ROWS", "2e6")))
 CARD = ("format_version: 1\nname: bench\ntheory: chpt-su2\nkinematics: {pion_mass_mev: 139.57}\n"
         "parameters: [{name: lbar1, convention: lbar}, {name: lbar2, convention: lbar}]\n"
         "samples: {path: s.parquet}\n")
