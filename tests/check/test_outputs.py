@@ -16,7 +16,7 @@ from eftsieve.check import outputs
 from eftsieve.check.engines.local import local_check
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError
-from tests.scale.conftest import make_fit, region, write_parts  # noqa: F401 (fixture)
+from tests.scale.conftest import make_fit, write_parts
 
 
 @pytest.fixture(scope="module")

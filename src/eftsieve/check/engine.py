@@ -5,9 +5,9 @@
 needs: the sums of every block, the partition's flagged rows (one
 :class:`~eftsieve.check.outputs.FlaggedRows` per block, numbers only; the client's
 :class:`~eftsieve.check.outputs.FlaggedWriter` formats them block by block in Arrow),
-and the partition's candidates for the worst points and for the plot subsample.  :class:`CheckMerger` takes
-blocks or whole partitions strictly in global row order, writes the flagged rows, and
-refuses any gap, overlap or missing partition with an error that names it.  The local
+and the partition's candidates for the worst points and for the plot subsample.
+:class:`CheckMerger` takes blocks or whole partitions strictly in global row order,
+writes the flagged rows, and refuses any gap, overlap or missing partition with an error that names it.  The local
 engine feeds it block by block in-process, the Dask engine partition by partition from
 the workers; both call the same block function and write flagged rows in the same
 per-block batches, so their results are bit-identical.
@@ -389,8 +389,8 @@ class CheckMerger:
                                   "rows read", "report a bug")
         n_flag = int(self.acc.counts[1:].sum())
         if self.flagged is not None and self.flagged.n != n_flag:
-            raise TaskFailedError(self.flagged.path.name, f"{self.flagged.n} rows written but {n_flag} "
-                                  "rows are not inside", "report a bug")
+            raise TaskFailedError(self.flagged.path.name, f"{self.flagged.n} rows written "
+                                  f"but {n_flag} rows are not inside", "report a bug")
 
     def result(self, cmap: CoordinateMap, region_path: str | None,
                engine: dict[str, Any]) -> CheckResult:
