@@ -8,9 +8,9 @@ needs: the sums of every block, the partition's flagged rows (one
 and the partition's candidates for the worst points and for the plot subsample.
 :class:`CheckMerger` takes blocks or whole partitions strictly in global row order,
 writes the flagged rows, and refuses any gap, overlap or missing partition with an
-error that names it.  The local engine feeds it block by block in-process, the Dask engine partition by partition from
-the workers; both call the same block function and write flagged rows in the same
-per-block batches, so their results are bit-identical.
+error that names it.  The local engine feeds it block by block in-process, the Dask
+engine partition by partition from the workers; both call the same block function and
+write flagged rows in the same per-block batches, so their results are bit-identical.
 """
 
 from __future__ import annotations
