@@ -307,27 +307,3 @@ def _unweighted_sums(y: np.ndarray, verdict: np.ndarray, satisfies: np.ndarray) 
     return BlockSums(n=n, counts=counts, sw=float(n), sw2=float(n), sw_in=n_in, sw2_in=n_in,
                      sw_in_inner=float(counts[0]), sw_soft=n_in, sw2p=n_in, sw2_soft_dev=n_in,
                      mean_sum=mean, outer_sum=outer, batch_w=bw, batch_in=bi)
-
-
-def absorb(acc: Accumulator, b: BlockSums) -> None:
-    """Add one block's sums to ``acc`` in the way of its per-block update.
-
-    ``acc`` must be fed only through this function (never through ``acc.add``), so that
-    it holds no pending rows; the result is then the accumulator of the blocks taken in
-    the order they were absorbed, and every sum is a left-to-right sum over blocks.
-    """
-    acc.n_total += b.n
-    acc.counts += b.counts
-    acc.sw += b.sw
-    acc.sw2 += b.sw2
-    acc.sw_in += b.sw_in
-    acc.sw2_in += b.sw2_in
-    acc.sw_in_inner += b.sw_in_inner
-    acc.sw_soft += b.sw_soft
-    acc._sw2p += b.sw2p
-    acc.sw2_soft_dev += b.sw2_soft_dev
-    acc.mean_sum = b.mean_sum.copy() if acc.mean_sum is None else acc.mean_sum + b.mean_sum
-    acc.outer_sum = (b.outer_sum.copy() if acc.outer_sum is None
-                     else acc.outer_sum + b.outer_sum)
-    acc.batch_w.append(b.batch_w)
-    acc.batch_in.append(b.batch_in)
