@@ -23,7 +23,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import minimize
 
 from eftsieve.region.model import Facet
 
@@ -89,6 +88,8 @@ def _polish(evaluate: Evaluator, start: np.ndarray, start_b: float,
     def negb(c: np.ndarray) -> float:
         b, _ = normalised_offsets(evaluate, c[None, :])
         return float(-b[0]) if np.isfinite(b[0]) else 1e30
+
+    from scipy.optimize import minimize  # lazy: a check never builds a region
 
     res = minimize(negb, start, method="L-BFGS-B", bounds=[(0.0, 1.0)] * len(start),
                    options={"ftol": 1e-15, "gtol": 1e-11, "maxiter": 30})

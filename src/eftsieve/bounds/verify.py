@@ -24,6 +24,7 @@ lives here so that this module does not depend on the LP machinery.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 from typing import Any
@@ -122,6 +123,12 @@ def _powers(x: np.ndarray, n: int) -> np.ndarray:
     return np.asarray(x, dtype=float)[:, None] ** np.arange(n)
 
 
+@functools.lru_cache(maxsize=64)
+def _binomials(n: int) -> tuple[np.ndarray, ...]:
+    """Row k: C(e, k) for e = k..n-1, as floats (made once per degree)."""
+    return tuple(np.array([float(math.comb(e, k)) for e in range(k, n)]) for k in range(n))
+
+
 def _lower_poly(a: np.ndarray, aa: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
     """Rigorous lower bounds of p(x) = sum_e a[:, e] x^e over cells [lo, hi] with 0 <= lo.
 
@@ -136,9 +143,9 @@ def _lower_poly(a: np.ndarray, aa: np.ndarray, lo: np.ndarray, hi: np.ndarray) -
     m, r = 0.5 * (lo + hi), 0.5 * (hi - lo)
     pm, pr = _powers(m, n), _powers(r, n)
     tay = np.zeros(m.shape)
+    binoms = _binomials(n)
     for k in range(n):
-        binom = np.array([float(math.comb(e, k)) for e in range(k, n)])
-        tk = (a[:, k:] * binom * pm[:, : n - k]).sum(1)
+        tk = (a[:, k:] * binoms[k] * pm[:, : n - k]).sum(1)
         tay = tay + (tk if k == 0 else -np.abs(tk) * pr[:, k])
     return np.maximum(mono, tay) - 8.0 * (n + 2) * _EPS * (aa * ph).sum(1)
 
@@ -217,6 +224,15 @@ def _mp_spin_lower(c: np.ndarray, spins: np.ndarray, lo: np.ndarray, hi: np.ndar
 
 
 def _spin_cells(j: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The starting cells of every spin (copies of a cached set: the same for every
+    functional verified at the same spins)."""
+    lo, hi, owner = _spin_cells_cached(tuple(float(x) for x in j))
+    return lo.copy(), hi.copy(), owner.copy()
+
+
+@functools.lru_cache(maxsize=16)
+def _spin_cells_cached(jt: tuple[float, ...]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    j = np.array(jt)
     base = np.linspace(0.0, 1.0, 17)
     wgrid = np.logspace(-2, 4, 25)
     lo, hi, owner = [], [], []

@@ -54,21 +54,41 @@ def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:
 
 def iter_blocks(chunks: Iterable[Chunk], block: int = BLOCK) -> Iterator[Chunk]:
     """Regroup the chunks of one file into blocks of exactly ``block`` rows (the last
-    one shorter), counted from the first row of the stream."""
+    one shorter), counted from the first row of the stream.
+
+    A block inside one chunk is a view; only blocks that straddle chunks are copied.
+    """
     pending: list[Chunk] = []
     n = 0
     for chunk in chunks:
-        if len(chunk.rows):
-            pending.append(chunk)
-            n += len(chunk.rows)
+        if not len(chunk.rows):
+            continue
+        pending.append(chunk)
+        n += len(chunk.rows)
         while n >= block:
-            joined = _join(pending)
-            yield _cut(joined, 0, block)
-            rest = _cut(joined, block, n)
-            pending = [rest] if len(rest.rows) else []
+            head, pending = _take(pending, block)
             n -= block
+            yield head
     if n:
         yield _join(pending)
+
+
+def _take(chunks: list[Chunk], k: int) -> tuple[Chunk, list[Chunk]]:
+    """The first ``k`` rows of ``chunks`` (which hold at least k) and the rest."""
+    first = chunks[0]
+    if len(first.rows) >= k:
+        rest = _cut(first, k, len(first.rows))
+        return _cut(first, 0, k), ([rest] if len(rest.rows) else []) + chunks[1:]
+    parts, got, i = [], 0, 0
+    while got < k:
+        c = chunks[i]
+        need = min(k - got, len(c.rows))
+        parts.append(_cut(c, 0, need))
+        got += need
+        if need < len(c.rows):
+            return _join(parts), [_cut(c, need, len(c.rows))] + chunks[i + 1:]
+        i += 1
+    return _join(parts), chunks[i:]
 
 
 def _join(chunks: list[Chunk]) -> Chunk:
@@ -157,6 +177,59 @@ class Ranked:
     def ordered(self) -> Ranked:
         """The rows sorted by (key, row)."""
         return self.take(np.lexsort((self.rows, self.keys)))
+
+
+class Selection:
+    """The ``k`` smallest rows by (key, row) of a stream of :class:`Ranked` pieces.
+
+    Pieces are filtered by the current cut-off (the largest key kept once ``k`` rows are
+    held: no row above it can enter) and buffered; the buffer is merged only when it
+    holds ``k`` rows, so each block costs O(its candidates), not O(k).  The result is
+    :meth:`Ranked.merged` of every piece, whatever the grouping.
+    """
+
+    def __init__(self, empty: Ranked, k: int) -> None:
+        self.kept, self.k = empty, k
+        self.pending: list[Ranked] = []
+        self.n_pending = 0
+
+    @property
+    def cutoff(self) -> float:
+        """Keys above this cannot enter (inf until ``k`` rows are held)."""
+        if self.k <= 0:
+            return -np.inf
+        return float(self.kept.keys.max()) if len(self.kept) >= self.k else np.inf
+
+    def add(self, piece: Ranked) -> None:
+        """Offer a piece (rows after every row offered before)."""
+        cut = self.cutoff
+        if cut < np.inf:
+            piece = piece.take(np.flatnonzero(piece.keys <= cut))
+        if not len(piece):
+            return
+        self.pending.append(piece)
+        self.n_pending += len(piece)
+        if self.n_pending >= max(self.k, 1):
+            self.flush()
+
+    def flush(self) -> None:
+        if self.pending:
+            self.kept = concat([self.kept, *self.pending]).smallest(self.k)
+        self.pending, self.n_pending = [], 0
+
+    def result(self) -> Ranked:
+        """The ``k`` smallest rows of everything offered."""
+        self.flush()
+        return self.kept.smallest(self.k)
+
+
+def concat(pieces: list[Ranked]) -> Ranked:
+    """The rows of every piece, one after another."""
+    pay = tuple(None if any(p.payload[i] is None for p in pieces) else
+                np.concatenate([p.payload[i] for p in pieces])
+                for i in range(len(pieces[0].payload)))
+    return Ranked(np.concatenate([p.keys for p in pieces]),
+                  np.concatenate([p.rows for p in pieces]), pay)
 
 
 def empty_ranked(widths: tuple[int | None, ...], dtypes: tuple[Any, ...]) -> Ranked:

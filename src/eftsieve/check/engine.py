@@ -2,31 +2,35 @@
 
 :func:`run_partition` checks the rows of one file block by block (see
 :mod:`eftsieve.check.blocks` for the canonical order) and returns everything the client
-needs: the sums of every block, the partition's flagged rows already formatted as
-flagged.csv lines (by :class:`~eftsieve.check.run.FlaggedWriter` itself, one call per
-block, so the formatting work is spread over the workers), and the partition's
-candidates for the worst points and for the plot subsample.  :class:`CheckMerger` takes
-blocks or whole partitions strictly in global row order, writes the flagged rows, and
-refuses any gap, overlap or missing partition with an error that names it.  The local
-engine feeds it block by block in-process, the Dask engine partition by partition from
-the workers; both call the same block function and write flagged rows in the same
-per-block batches, so their results are bit-identical.
+needs: the sums of every block, the partition's flagged rows (one
+:class:`~eftsieve.check.outputs.FlaggedRows` per block, numbers only; the client's
+:class:`~eftsieve.check.outputs.FlaggedWriter` formats them block by block in Arrow),
+and the partition's candidates for the worst points and for the plot subsample.
+:class:`CheckMerger` takes blocks or whole partitions strictly in global row order,
+writes the flagged rows, and refuses any gap, overlap or missing partition with an
+error that names it.  The local engine feeds it block by block in-process, the Dask
+engine partition by partition from the workers; both call the same block function and
+write flagged rows in the same per-block batches, so their results are bit-identical.
 """
 
 from __future__ import annotations
 
-import os
-import shutil
-import tempfile
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-from eftsieve.check.blocks import Ranked, apply_map, empty_ranked, iter_blocks, sample_keys
-from eftsieve.check.outputs import FlaggedWriter
+from eftsieve.check.blocks import (
+    Ranked,
+    Selection,
+    apply_map,
+    empty_ranked,
+    iter_blocks,
+    sample_keys,
+)
+from eftsieve.check.outputs import FlaggedRows, FlaggedWriter
 from eftsieve.check.result import N_WORST, CheckResult, WorstPoint, summarize
 from eftsieve.check.verdicts import CheckSettings, Verdicts, classify
 from eftsieve.errors import InputError, TaskFailedError
@@ -37,6 +41,27 @@ from eftsieve.region.model import Region
 from eftsieve.stats.accumulate import Accumulator, BlockSums, block_sums
 from eftsieve.stats.truncation import FacetUncertainty, prob_satisfies, verdicts_from_probability
 from eftsieve.theories.base import CoordinateMap
+
+
+@contextmanager
+def blas_threads(n: int | None) -> Iterator[None]:
+    """Limit BLAS (and OpenMP) threads to ``n`` within the block (None: unchanged).
+
+    The streaming check multiplies n x 2 arrays, where BLAS threads only spin (they
+    doubled the CPU time on a 2-core machine).  Uses threadpoolctl when installed;
+    without it the command line sets ``OPENBLAS_NUM_THREADS`` and friends at process
+    start (:mod:`eftsieve.cli`), and this does nothing.
+    """
+    if n is None:
+        yield
+        return
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:
+        yield
+        return
+    with threadpool_limits(limits=n):
+        yield
 
 
 def describe_part(part: FilePart, n_parts: int) -> str:
@@ -86,34 +111,6 @@ class PartitionJob:
 
 
 @dataclass(frozen=True)
-class FlaggedRows:
-    """The flagged (marginal or outside) rows of one block.
-
-    Attributes
-    ----------
-    rows, values, y
-        Global rows, fit values and region coordinates.
-    verdict, min_margin, worst
-        Verdicts, smallest margins and most violated facets of those rows.
-    """
-
-    rows: np.ndarray
-    values: np.ndarray
-    y: np.ndarray
-    verdict: np.ndarray
-    min_margin: np.ndarray
-    worst: np.ndarray
-
-    def to_dict(self) -> dict[str, Any]:
-        return {"rows": self.rows.tolist(), "verdict": self.verdict.tolist()}
-
-    def write(self, writer: FlaggedWriter) -> None:
-        """Append these rows to ``writer`` (one call per block, in row order)."""
-        writer.write(Chunk(self.rows, self.values, None), self.y, self.verdict,
-                     self.min_margin, self.worst)
-
-
-@dataclass(frozen=True)
 class BlockOutput:
     """What one block contributes.
 
@@ -154,8 +151,8 @@ class PartitionResult:
         Its first global row and the rows it checked.
     blocks
         The sums of its blocks, in order.
-    flagged_csv, n_flagged
-        Its flagged rows as flagged.csv lines (no header), and how many.
+    flagged
+        Its flagged rows, one entry per block that has any, in row order.
     worst, sample
         Its candidates for the worst points and for the plot subsample.
     """
@@ -165,8 +162,7 @@ class PartitionResult:
     first_row: int
     n_rows: int
     blocks: tuple[BlockSums, ...]
-    flagged_csv: str
-    n_flagged: int
+    flagged: tuple[FlaggedRows, ...]
     worst: Ranked
     sample: Ranked
 
@@ -174,6 +170,10 @@ class PartitionResult:
         return {"index": self.index, "file": self.file, "first_row": self.first_row,
                 "n_rows": self.n_rows, "n_blocks": len(self.blocks),
                 "n_flagged": self.n_flagged}
+
+    @property
+    def n_flagged(self) -> int:
+        return sum(len(f) for f in self.flagged)
 
 
 
@@ -188,9 +188,45 @@ def empty_sample(width: int, weighted: bool) -> Ranked:
     return empty_ranked((width, None), (float, float if weighted else None))
 
 
-def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator) -> BlockOutput:
-    """Classify one block and compute everything it contributes."""
+@dataclass(frozen=True)
+class Cutoffs:
+    """Keys above which a row can no longer enter a partition's selections.
+
+    A partition that already holds ``k`` rows with keys at most ``t`` keeps no later row
+    with a key above ``t`` (later rows have larger row numbers, so ties go to the rows
+    held), so skipping those rows leaves the (key, row)-smallest selection exactly as it
+    was: the same rows in every engine, chunk size and file split.
+
+    Attributes
+    ----------
+    sample
+        Largest plot-subsample key still admitted (1.0: every row).
+    worst
+        Largest min margin still admitted to the worst points (0.0: every violation).
+    """
+
+    sample: float = 1.0
+    worst: float = 0.0
+
+    @classmethod
+    def of(cls, sample: Selection, worst: Selection) -> Cutoffs:
+        """The cut-offs implied by a partition's selections so far."""
+        return cls(min(sample.cutoff, 1.0), min(worst.cutoff, 0.0))
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"sample": self.sample, "worst": self.worst}
+
+
+def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator,
+                  cut: Cutoffs | None = None) -> BlockOutput:
+    """Classify one block and compute everything it contributes.
+
+    ``keys`` draws one plot-subsample key per row (always, so that it stays positioned at
+    the next row); only rows under the :class:`Cutoffs` become candidates, so the cost of
+    the subsample and of the worst points falls as the partition proceeds.
+    """
     st = job.settings
+    cut = cut or Cutoffs()
     y = apply_map(job.cmap, block.values)
     v = classify(y, job.region, st.band(job.region))
     soft = None
@@ -204,41 +240,19 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator) ->
         if len(sel):
             flagged = FlaggedRows(block.rows[sel], block.values[sel], y[sel], v.verdict[sel],
                                   v.min_margin[sel], v.worst[sel])
-    neg = np.flatnonzero(v.min_margin < 0)
+    neg = np.flatnonzero(v.min_margin < 0 if cut.worst >= 0 else v.min_margin <= cut.worst)
     worst = Ranked(v.min_margin[neg], block.rows[neg], (y[neg], v.worst[neg])).smallest(N_WORST)
     r = keys.random(len(block.rows))
-    sample = Ranked(r, block.rows, (np.hstack([block.values, y]), block.weights)
-                    ).smallest(st.plot_points)
+    if cut.sample < 1.0:
+        cand = np.flatnonzero(r <= cut.sample)
+        r, rows, vals, yc = r[cand], block.rows[cand], block.values[cand], y[cand]
+        w = None if block.weights is None else block.weights[cand]
+    else:
+        rows, vals, yc, w = block.rows, block.values, y, block.weights
+    sample = Ranked(r, rows, (np.hstack([vals, yc]), w)).smallest(st.plot_points)
     return BlockOutput(int(block.rows[0]), len(block.rows),
                        block_sums(y, block.weights, v.verdict, v.satisfies, soft), flagged, worst,
                        sample)
-
-
-class FlaggedText:
-    """flagged.csv lines of one partition, written by a private
-    :class:`~eftsieve.check.run.FlaggedWriter` into a temporary directory (so the bytes
-    are exactly what the writer makes) and returned without the header."""
-
-    def __init__(self, fit: Fit, region: Region) -> None:
-        self.dir = tempfile.mkdtemp(prefix="eftsieve-flagged-")
-        self.writer = FlaggedWriter(Path(self.dir) / "flagged.csv", fit, region)
-        self.writer.fh.flush()
-        self.header = os.path.getsize(self.writer.tmp)
-
-    def text(self) -> tuple[str, int]:
-        """The lines written, and their count; removes the temporary files."""
-        try:
-            self.writer.fh.flush()
-            with open(self.writer.tmp, "rb") as fh:
-                fh.seek(self.header)
-                body = fh.read().decode("utf-8")
-            return body, self.writer.n
-        finally:
-            self.close()
-
-    def close(self) -> None:
-        self.writer.abort()
-        shutil.rmtree(self.dir, ignore_errors=True)
 
 
 def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None = None
@@ -251,29 +265,24 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
     keys = sample_keys(job.settings.seed, job.part.start)
     dim = job.region.dim
     blocks: list[BlockSums] = []
-    worst = empty_worst(dim)
-    sample = empty_sample(len(job.fit.names) + dim, job.source.weighted)
-    text = FlaggedText(job.fit, job.region) if job.write_flagged and sink is None else None
+    worst = Selection(empty_worst(dim), N_WORST)
+    sample = Selection(empty_sample(len(job.fit.names) + dim, job.source.weighted),
+                       job.settings.plot_points)
+    flagged: list[FlaggedRows] = []
     n = 0
-    try:
-        for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
-            out = process_block(job, block, keys)
-            n += out.n
-            if sink is not None:
-                sink(out)
-                continue
-            blocks.append(out.sums)
-            if text is not None and out.flagged is not None:
-                out.flagged.write(text.writer)
-            worst = worst.merged(out.worst, N_WORST)
-            sample = sample.merged(out.sample, job.settings.plot_points)
-    except BaseException:
-        if text is not None:
-            text.close()
-        raise
-    csv_text, n_flagged = text.text() if text is not None else ("", 0)
+    for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
+        out = process_block(job, block, keys, Cutoffs.of(sample, worst))
+        n += out.n
+        worst.add(out.worst)
+        sample.add(out.sample)
+        if sink is not None:
+            sink(out)
+            continue
+        blocks.append(out.sums)
+        if out.flagged is not None:
+            flagged.append(out.flagged)
     return PartitionResult(job.part.index, str(job.part.path), job.part.start, n,
-                           tuple(blocks), csv_text, n_flagged, worst, sample)
+                           tuple(blocks), tuple(flagged), worst.result(), sample.result())
 
 
 def partition_task(job: PartitionJob, hook: Callable[[FilePart], None] | None = None
@@ -286,7 +295,8 @@ def partition_task(job: PartitionJob, hook: Callable[[FilePart], None] | None = 
     if hook is not None:
         hook(job.part)
     try:
-        return run_partition(job)
+        with blas_threads(job.settings.blas_threads):
+            return run_partition(job)
     except InputError as err:
         return InputFailure(job.part.index, err.path, err.field, err.problem, err.hint)
 
@@ -310,8 +320,9 @@ class CheckMerger:
         self.fit, self.region, self.settings, self.parts = fit, region, settings, parts
         self.flagged = flagged
         self.acc = Accumulator(region.dim)
-        self.worst = empty_worst(region.dim)
-        self.sample = empty_sample(len(fit.names) + region.dim, weighted)
+        self.worst = Selection(empty_worst(region.dim), N_WORST)
+        self.sample = Selection(empty_sample(len(fit.names) + region.dim, weighted),
+                                settings.plot_points)
         self.n_merged = 0
         self.done: list[dict[str, Any]] = []
 
@@ -319,8 +330,8 @@ class CheckMerger:
         """Merge one block (the next in row order)."""
         self._expect_row(out.first_row, "block")
         self._absorb(out.sums, out.flagged)
-        self.worst = self.worst.merged(out.worst, N_WORST)
-        self.sample = self.sample.merged(out.sample, self.settings.plot_points)
+        self.worst.add(out.worst)
+        self.sample.add(out.sample)
 
     def add_partition(self, res: PartitionResult) -> None:
         """Merge one whole partition (the next in row order) and verify its rows."""
@@ -333,11 +344,11 @@ class CheckMerger:
                                   "it persists")
         for sums in res.blocks:
             self._absorb(sums, None)
-        if self.flagged is not None and res.n_flagged:
-            self.flagged.fh.write(res.flagged_csv)
-            self.flagged.n += res.n_flagged
-        self.worst = self.worst.merged(res.worst, N_WORST)
-        self.sample = self.sample.merged(res.sample, self.settings.plot_points)
+        if self.flagged is not None:
+            for rows in res.flagged:
+                self.flagged.write_rows(rows)
+        self.worst.add(res.worst)
+        self.sample.add(res.sample)
         self.end_partition(res.index, res.first_row, res.n_rows)
 
     def end_partition(self, index: int, first_row: int, n_rows: int) -> None:
@@ -363,7 +374,7 @@ class CheckMerger:
     def _absorb(self, sums: BlockSums, flagged: FlaggedRows | None) -> None:
         self.acc.absorb(sums)
         if flagged is not None and self.flagged is not None:
-            flagged.write(self.flagged)
+            self.flagged.write_rows(flagged)
         self.n_merged += sums.n
 
     def check_complete(self) -> None:
@@ -378,21 +389,21 @@ class CheckMerger:
                                   "rows read", "report a bug")
         n_flag = int(self.acc.counts[1:].sum())
         if self.flagged is not None and self.flagged.n != n_flag:
-            raise TaskFailedError("flagged.csv", f"{self.flagged.n} rows written but {n_flag} "
-                                  "rows are not inside", "report a bug")
+            raise TaskFailedError(self.flagged.path.name, f"{self.flagged.n} rows written "
+                                  f"but {n_flag} rows are not inside", "report a bug")
 
     def result(self, cmap: CoordinateMap, region_path: str | None,
                engine: dict[str, Any]) -> CheckResult:
         """The check result (with the engine and its partitions, worst points, subsample)."""
         self.check_complete()
-        worst = self.worst.ordered()
+        worst = self.worst.result().ordered()
         points, facet_idx = worst.payload
         facets = self.region.facets
         worst_rows = tuple(WorstPoint(int(r), tuple(float(v) for v in y), float(m),
                                       facets[int(f)].label())
                            for m, r, y, f in zip(worst.keys, worst.rows, points, facet_idx,
                                                  strict=True))
-        sample = self.sample.ordered()
+        sample = self.sample.result().ordered()
         data = sample.payload[0]
         k = len(self.fit.names)
         return summarize(self.fit, self.region, cmap, self.settings, self.acc, region_path,

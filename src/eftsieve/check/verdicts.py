@@ -45,6 +45,11 @@ class CheckSettings:
         Rows read per chunk from a samples file.
     plot_points
         Size of the uniform subsample kept for plots.
+    flagged_format
+        ``csv`` (flagged.csv) or ``parquet`` (flagged.parquet) for the rows not inside.
+    blas_threads
+        BLAS threads inside the check (1 by default: the streaming check multiplies
+        n x 2 arrays, where threads only spin; None leaves the process's setting).
     """
 
     draws: int = 200_000
@@ -52,6 +57,15 @@ class CheckSettings:
     marginal_band: float | None = None
     chunk_rows: int = 1_000_000
     plot_points: int = 50_000
+    flagged_format: str = "csv"
+    blas_threads: int | None = 1
+
+    def __post_init__(self) -> None:
+        if self.flagged_format not in ("csv", "parquet"):
+            from eftsieve.errors import InputError
+
+            raise InputError(None, "--flagged-format", f"unknown format "
+                             f"'{self.flagged_format}'", "use csv or parquet")
 
     def band(self, region: Region) -> float:
         """The marginal band for ``region``: the one given, else its theory's default
@@ -67,7 +81,8 @@ class CheckSettings:
 
     def to_dict(self) -> dict[str, Any]:
         return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,
-                "chunk_rows": self.chunk_rows, "plot_points": self.plot_points}
+                "chunk_rows": self.chunk_rows, "plot_points": self.plot_points,
+                "flagged_format": self.flagged_format}
 
 
 @dataclass(frozen=True)
@@ -104,8 +119,22 @@ class Verdicts:
                 "min_margin": self.min_margin.tolist(), "worst": self.worst.tolist()}
 
 
+#: up to this many facets the margins are formed one facet at a time (O(n) memory)
+FEW_FACETS = 8
+#: cells (facets x rows) of one tile of the many-facet path (fits in the L2 cache)
+TILE_CELLS = 1 << 16
+
+
 def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Smallest margin and its facet, one facet at a time (O(n) memory)."""
+    """Smallest margin ``min_j (a_j . y - b_j)`` and its (first) facet, per row.
+
+    Every margin is ``((y_0 a_j0 + y_1 a_j1) + ...) - b_j`` in element-wise double
+    arithmetic, whichever path runs, so the values (and ties, resolved to the lowest
+    facet) have the same bits for any batch of rows.  Few facets: one facet at a time;
+    many: tiles of (facets x rows) reduced along the facet axis.
+    """
+    if len(b) > FEW_FACETS:
+        return _min_margin_tiled(y, a, b)
     n = len(y)
     best = np.full(n, np.inf)
     arg = np.zeros(n, dtype=np.int32)
@@ -119,6 +148,26 @@ def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray
         np.minimum(best, m, out=best)
         arg[better] = j
     return best, arg
+
+
+def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray
+                      ) -> tuple[np.ndarray, np.ndarray]:
+    n = len(y)
+    best = np.empty(n)
+    arg = np.empty(n, dtype=np.intp)
+    yt = np.ascontiguousarray(y.T)
+    step = max(256, TILE_CELLS // len(b))
+    ac = [np.ascontiguousarray(a[:, k:k + 1]) for k in range(a.shape[1])]
+    bc = b[:, None]
+    for lo in range(0, n, step):
+        hi = min(n, lo + step)
+        tile = ac[0] * yt[0, lo:hi]
+        for k in range(1, len(ac)):
+            tile += ac[k] * yt[k, lo:hi]
+        tile -= bc
+        tile.argmin(axis=0, out=arg[lo:hi])
+        tile.min(axis=0, out=best[lo:hi])
+    return best, arg.astype(np.int32)
 
 
 def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verdicts:

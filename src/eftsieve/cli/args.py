@@ -57,9 +57,10 @@ def add_region_args(p: argparse.ArgumentParser) -> None:
                    help="spin cut-off of the heavy-state grid (theories with sum rules)")
     p.add_argument("--coordinates", type=csv_list, default=None,
                    help="region coordinates, e.g. g3t,g4t (theories that offer a choice)")
-    p.add_argument("--engine", choices=["local", "dask"], default=None,
-                   help="dask: solve the independent directions of a region build in parallel "
-                        "(theories with parallel builds)")
+    p.add_argument("--engine", choices=["local", "processes", "dask"], default=None,
+                   help="processes (a local process pool, one per core) or dask: solve the "
+                        "independent directions of a region build in parallel (theories "
+                        "with parallel builds; the region's hash does not depend on it)")
     p.add_argument("--scheduler", default=None, metavar="ADDRESS",
                    help="dask scheduler address (default: a local cluster of 2 workers)")
 

@@ -43,6 +43,9 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("--chunk-rows", type=int, default=1_000_000,
                    help="rows per chunk (default 1000000)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
+    p.add_argument("--flagged-format", choices=["csv", "parquet"], default="csv",
+                   help="file of the rows not inside: flagged.csv or flagged.parquet "
+                        "(default csv)")
     p.set_defaults(func=cmd_check)
     return p
 
@@ -51,7 +54,7 @@ def _settings(args: argparse.Namespace) -> Any:
     from eftsieve.check.verdicts import CheckSettings
 
     return CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
-                         chunk_rows=args.chunk_rows)
+                         chunk_rows=args.chunk_rows, flagged_format=args.flagged_format)
 
 
 def cmd_check(args: argparse.Namespace) -> int:

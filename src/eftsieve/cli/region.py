@@ -24,7 +24,7 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
 def cmd_region(args: argparse.Namespace) -> int:
     from eftsieve.api import build_region, get_theory
     from eftsieve.errors import InputError
-    from eftsieve.executors import dask_map, serial
+    from eftsieve.executors import dask_map, processes, serial
     from eftsieve.region.build import describe_region
 
     try:
@@ -37,7 +37,15 @@ def cmd_region(args: argparse.Namespace) -> int:
     if args.scheduler and args.engine != "dask":
         raise InputError(None, "--scheduler", "a scheduler address needs the dask engine",
                          "add --engine dask")
-    executor = dask_map(args.scheduler) if args.engine == "dask" else serial
+    if args.engine == "dask":
+        executor = dask_map(args.scheduler)
+    elif args.engine == "processes":
+        import os
+
+        cores = os.sched_getaffinity(0) if hasattr(os, "sched_getaffinity") else None
+        executor = processes(max(1, len(cores) if cores else (os.cpu_count() or 1)))
+    else:
+        executor = serial
     region = build_region(args.theory, executor=executor, **region_settings_from_args(args))
     region.save(args.output)
     if args.plot:

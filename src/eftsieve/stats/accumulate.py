@@ -261,8 +261,12 @@ def block_sums(y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
 
     The scalar sums that the accumulator forms with numpy reductions are the same
     expressions here (so the same bits); its dot and matrix products are replaced by
-    element-wise products and one pairwise reduction each.
+    element-wise products and one pairwise reduction each.  Without weights and without
+    an uncertainty model every weight sum is a count, exact in a double (below 2**53), so
+    counts replace the reductions over ones with the same bits.
     """
+    if w is None and soft is None:
+        return _unweighted_sums(y, verdict, satisfies)
     ww = np.ones(len(y)) if w is None else np.asarray(w, dtype=float)
     k = y.shape[1]
     cols = [np.ascontiguousarray(y[:, i]) for i in range(k)]
@@ -283,3 +287,23 @@ def block_sums(y: np.ndarray, w: np.ndarray | None, verdict: np.ndarray,
         sw2_soft_dev=float((w2 * (sp * sp)).sum()), mean_sum=mean, outer_sum=outer,
         batch_w=bw, batch_in=bi)
 
+
+def _unweighted_sums(y: np.ndarray, verdict: np.ndarray, satisfies: np.ndarray) -> BlockSums:
+    """:func:`block_sums` with unit weights and hard verdicts: counts for the weight sums
+    (w * c is c exactly, so the moments are the same reductions)."""
+    n, k = y.shape
+    cols = [np.ascontiguousarray(y[:, i]) for i in range(k)]
+    mean = np.array([float(c.sum()) for c in cols])
+    outer = np.empty((k, k))
+    for i in range(k):
+        for j in range(i, k):
+            outer[i, j] = outer[j, i] = float((cols[i] * cols[j]).sum())
+    counts = np.bincount(verdict, minlength=N_VERDICTS).astype(np.int64)
+    n_in = float(np.count_nonzero(satisfies))
+    starts = np.arange(0, n, BATCH)
+    bw = np.minimum(BATCH, n - starts).astype(float)
+    bi = (np.add.reduceat(satisfies.view(np.int8), starts, dtype=np.int64).astype(float)
+          if n else np.zeros(0))
+    return BlockSums(n=n, counts=counts, sw=float(n), sw2=float(n), sw_in=n_in, sw2_in=n_in,
+                     sw_in_inner=float(counts[0]), sw_soft=n_in, sw2p=n_in, sw2_soft_dev=n_in,
+                     mean_sum=mean, outer_sum=outer, batch_w=bw, batch_in=bi)

@@ -45,7 +45,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 from eftsieve.errors import InputError
 from eftsieve.region.model import Region
@@ -112,6 +112,8 @@ class ScalePosterior:
 
     def distribution(self):
         """cbar^2 as scipy.stats.invgamma(nu/2, scale = nu tau^2/2)."""
+        from scipy import stats
+
         return stats.invgamma(self.nu / 2, scale=self.nu * self.tau2 / 2)
 
     def cbar_quantiles(self, n: int = N_QUANTILES) -> np.ndarray:

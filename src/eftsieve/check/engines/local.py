@@ -14,7 +14,14 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from eftsieve.check.engine import CheckMerger, PartitionJob, finish, prepare, run_partition
+from eftsieve.check.engine import (
+    CheckMerger,
+    PartitionJob,
+    blas_threads,
+    finish,
+    prepare,
+    run_partition,
+)
 from eftsieve.check.outputs import flagged_output
 from eftsieve.check.result import CheckResult
 from eftsieve.check.verdicts import CheckSettings
@@ -47,9 +54,15 @@ def local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path 
     CheckResult
         With ``engine`` naming this engine and its partitions.
     """
+    with blas_threads(settings.blas_threads):
+        return _local_check(fit, region, settings, outdir, region_path, uncertainty)
+
+
+def _local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | None,
+                 region_path: str | None, uncertainty: Any) -> CheckResult:
     prep = prepare(fit, region, settings, uncertainty)
     parts = prep.source.file_parts()
-    with flagged_output(outdir, fit, region) as flagged:
+    with flagged_output(outdir, fit, region, settings.flagged_format) as flagged:
         merger = CheckMerger(fit, region, settings, parts, flagged, prep.source.weighted)
         for part in parts:
             job = PartitionJob(part, fit, prep.source, region, prep.cmap, settings,

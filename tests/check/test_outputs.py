@@ -1,0 +1,74 @@
+"""The flagged output (check/outputs.py): exact round trip of CSV and Parquet, and the cell cap.
+
+The oracles are outside the writer: the input Parquet file read with pyarrow (the fit
+values must come back bit for bit), numpy's ``A y - b`` for the margins (Region.margins),
+and Python's ``float()`` of the CSV text (shortest round-trip repr, common practice).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pyarrow.csv as pcsv
+import pyarrow.parquet as pq
+import pytest
+
+from eftsieve.check import outputs
+from eftsieve.check.engines.local import local_check
+from eftsieve.check.verdicts import CheckSettings
+from eftsieve.errors import InputError
+from tests.check.conftest import make_fit, write_parts
+
+
+@pytest.fixture(scope="module")
+def flagged_pair(tmp_path_factory, region):
+    d = tmp_path_factory.mktemp("flagged")
+    (path,) = write_parts(d / "in", (90_000,), seed=11)
+    fit = make_fit(path)
+    res = {}
+    for fmt in ("csv", "parquet"):
+        local_check(fit, region, CheckSettings(plot_points=1000, flagged_format=fmt), d / fmt)
+        res[fmt] = d / fmt / f"flagged.{fmt}"
+    return path, res
+
+
+def test_csv_and_parquet_read_back_exactly(flagged_pair, region):
+    src, files = flagged_pair
+    csv = pcsv.read_csv(files["csv"])
+    par = pq.read_table(files["parquet"])
+    assert csv.column_names == par.column_names
+    assert csv.num_rows == par.num_rows > 1000
+    for name in csv.column_names:
+        a, b = csv[name].to_numpy(), par[name].to_numpy()
+        if a.dtype.kind == "f":
+            assert np.array_equal(a.view(np.int64), b.view(np.int64)), name  # same bits
+        else:
+            assert a.tolist() == b.tolist(), name
+    rows = csv["row"].to_numpy()
+    inp = pq.read_table(src)
+    for p in ("lbar1", "lbar2", "nu"):
+        np.testing.assert_array_equal(csv[p].to_numpy(), inp[p].to_numpy()[rows])
+    y = np.column_stack([csv[f"{c} (region)"].to_numpy() for c in region.coordinates])
+    m = np.column_stack([csv[f"margin_{i}"].to_numpy() for i in range(len(region.facets))])
+    np.testing.assert_allclose(m, region.margins(y), rtol=1e-12, atol=1e-12)
+    np.testing.assert_array_equal(csv["min_margin"].to_numpy(), m.min(axis=1))
+    assert set(csv["verdict"].to_pylist()) <= {"marginal", "outside", "uncertain"}  # every verdict but inside
+
+
+def test_csv_text_is_the_shortest_round_trip_form(flagged_pair):
+    _, files = flagged_pair
+    lines = files["csv"].read_text().splitlines()[1:200]
+    par = pq.read_table(files["parquet"]).slice(0, 199)
+    first = [float(line.split(",")[2]) for line in lines]
+    assert first == par["lbar1"].to_pylist()
+
+
+def test_cell_cap_does_not_change_the_bytes(flagged_pair, region, monkeypatch, tmp_path):
+    src, files = flagged_pair
+    monkeypatch.setattr(outputs, "MAX_CELLS", 97)  # a few rows per slice
+    local_check(make_fit(src), region, CheckSettings(plot_points=1000), tmp_path)
+    assert (tmp_path / "flagged.csv").read_bytes() == files["csv"].read_bytes()
+
+
+def test_unknown_format_is_an_input_error():
+    with pytest.raises(InputError, match="flagged-format"):
+        CheckSettings(flagged_format="xlsx")
