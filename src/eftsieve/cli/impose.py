@@ -55,19 +55,22 @@ def settings_from_args(args: argparse.Namespace) -> Any:
 
 def cmd_impose(args: argparse.Namespace) -> int:
     from eftsieve.impose.api import impose
-    from eftsieve.io.atomic import guard_inputs
+    from eftsieve.io.outset import output_set
     from eftsieve.report.outputs import IMPOSE_OUTPUTS, write_impose_outputs
 
     fit = load_fit_arg(args)
     outdir = Path(args.output or f"{Path(args.fit).stem}_impose")
-    guard_inputs([outdir / n for n in IMPOSE_OUTPUTS], input_files(fit, args, args.data))
-    outdir.mkdir(parents=True, exist_ok=True)
-    region, rpath = region_for(fit, args, outdir)
-    result = impose(fit, region, settings=settings_from_args(args),
-                    uncertainty=uncertainty_from_args(args), data=args.data,
-                    likelihood=args.likelihood)
-    summary = write_impose_outputs(fit, region, result, outdir, region_path=rpath,
-                                   csv=args.csv, plots=not args.no_plots)
+    settings = settings_from_args(args)
+    unc = uncertainty_from_args(args)
+    with output_set(outdir, input_files(fit, args, args.data),
+                    known=IMPOSE_OUTPUTS) as stage:
+        region, rpath = region_for(fit, args, stage)
+        if args.region is None:  # built and saved into the set: record its final place
+            rpath = str(outdir / "region.json")
+        result = impose(fit, region, settings=settings, uncertainty=unc, data=args.data,
+                        likelihood=args.likelihood)
+        summary = write_impose_outputs(fit, region, result, stage, region_path=rpath,
+                                       csv=args.csv, plots=not args.no_plots)
     corr = summary.get("ess_autocorr")
     ess = f"ESS {summary['ess']:.0f}" + ("" if corr is None else
                                          f" ({corr:.0f} after autocorrelation)")
