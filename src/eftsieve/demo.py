@@ -105,15 +105,14 @@ class _Steps:
         return result.summary
 
     def impose(self, card: Path, sub: str, region_path: Path) -> dict[str, Any]:
-        from eftsieve.api import load_fit
+        from eftsieve.api import load_fit, load_region
         from eftsieve.impose.api import impose
         from eftsieve.impose.core import ImposeSettings
-        from eftsieve.region.model import Region
         from eftsieve.report.outputs import IMPOSE_OUTPUTS, write_impose_outputs
 
         fit = load_fit(card)
         outdir = self._prepare(fit, sub, IMPOSE_OUTPUTS, (region_path,))
-        region = Region.load(region_path)
+        region = load_region(region_path)
         result = impose(fit, region, settings=ImposeSettings(progress=False))
         summary = write_impose_outputs(fit, region, result, outdir,
                                        region_path=self._final(str(region_path)))

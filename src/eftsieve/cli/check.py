@@ -15,6 +15,9 @@ from eftsieve.cli.args import (
     add_fit_args,
     input_files,
     load_fit_arg,
+    nonnegative_float,
+    positive_int,
+    probability,
     region_for,
     uncertainty_from_args,
 )
@@ -33,14 +36,14 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
                         "(needs the [dask] extra); default: one process")
     p.add_argument("--scheduler", default=None, metavar="ADDRESS",
                    help="dask scheduler address (default: a local cluster of 2 workers)")
-    p.add_argument("--draws", type=int, default=200_000,
+    p.add_argument("--draws", type=positive_int, default=200_000,
                    help="draws from a Gaussian summary (default 200000)")
-    p.add_argument("--band", type=float, default=None,
+    p.add_argument("--band", type=nonnegative_float, default=None,
                    help=f"marginal band in region coordinates (default: the theory's, "
                         f"{MARGINAL_BAND:g}; 1e-06 for l_i^r and L_i^r coordinates)")
-    p.add_argument("--fail-below", type=float, default=None, metavar="P",
+    p.add_argument("--fail-below", type=probability, default=None, metavar="P",
                    help=f"exit with code {EXIT_BELOW_THRESHOLD} when p_inside < P")
-    p.add_argument("--chunk-rows", type=int, default=1_000_000,
+    p.add_argument("--chunk-rows", type=positive_int, default=1_000_000,
                    help="rows per chunk (default 1000000)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
     p.set_defaults(func=cmd_check)
@@ -63,8 +66,8 @@ def cmd_check(args: argparse.Namespace) -> int:
 
 
 def cmd_check_many(args: argparse.Namespace) -> int:
+    from eftsieve.api import load_region
     from eftsieve.check.many import check_many
-    from eftsieve.region.model import Region
     from eftsieve.report.outputs import write_check_outputs
 
     if uncertainty_from_args(args) is not None:
@@ -78,7 +81,7 @@ def cmd_check_many(args: argparse.Namespace) -> int:
     inputs = [args.region, *args.fit]
     with output_set(outdir, inputs) as stage:
         many = check_many([Path(f) for f in args.fit], _settings(args), stage,
-                          region=Region.load(args.region) if args.region else None,
+                          region=load_region(args.region) if args.region else None,
                           region_path=args.region, engine=args.engine or "local",
                           scheduler=args.scheduler, final_outdir=outdir,
                           loader=lambda p: load_fit_arg(argparse.Namespace(

@@ -14,6 +14,8 @@ from eftsieve.cli.args import (
     add_fit_args,
     input_files,
     load_fit_arg,
+    positive_float,
+    positive_int,
     region_for,
     uncertainty_from_args,
 )
@@ -31,10 +33,11 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     like.add_argument("--data", default=None, help="observables file for refit (YAML/JSON)")
     like.add_argument("--likelihood", default=None, metavar="MODULE:FUNCTION",
                       help="a Python log-likelihood for refit (runs your own code)")
-    p.add_argument("--samples", type=int, default=20_000,
+    p.add_argument("--samples", type=positive_int, default=20_000,
                    help="samples (exact) or steps per walker (refit); default 20000")
-    p.add_argument("--walkers", type=int, default=32, help="emcee walkers (refit; default 32)")
-    p.add_argument("--min-ess", type=float, default=None,
+    p.add_argument("--walkers", type=positive_int, default=32,
+                   help="emcee walkers (refit; default 32)")
+    p.add_argument("--min-ess", type=positive_float, default=None,
                    help="effective-sample-size floor of reweight (default 400)")
     p.add_argument("--csv", action="store_true", help="also write samples.csv")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
