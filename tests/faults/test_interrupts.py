@@ -26,6 +26,8 @@ from tests.faults.builders import GOOD_CARD, card_text
 SRC = str(Path(__file__).resolve().parents[2] / "src")
 #: draws of the long run: long enough that every signal point below lands mid-run
 LONG_DRAWS = "6000000"
+#: draws of the first of two concurrent runs: it must outlast the second one's start-up
+BUSY_DRAWS = "30000000"
 
 
 def _env() -> dict[str, str]:
@@ -55,9 +57,9 @@ def setup(tmp_path_factory, su2_region):
     return d, prev
 
 
-def _long_run(d: Path, out: Path) -> subprocess.Popen:
+def _long_run(d: Path, out: Path, draws: str = LONG_DRAWS) -> subprocess.Popen:
     return subprocess.Popen(_cli("check", str(d / "card.yaml"), "--region",
-                                 str(d / "region.json"), "-o", str(out), "--draws", LONG_DRAWS,
+                                 str(d / "region.json"), "-o", str(out), "--draws", draws,
                                  "--chunk-rows", "200000", "--no-plots"),
                             env=_env(), stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                             text=True)
@@ -78,18 +80,24 @@ def _wait_for_lock(out: Path, proc: subprocess.Popen, timeout: float = 60) -> No
 
 @pytest.mark.parametrize("sig,code,word", [(signal.SIGINT, 130, "interrupted"),
                                            (signal.SIGTERM, 143, "terminated")])
-@pytest.mark.parametrize("delay", [0.0, 1.5])
+@pytest.mark.parametrize("delay", [pytest.param(0.0, marks=pytest.mark.slow), 1.5,
+                                   pytest.param(3.0, marks=pytest.mark.slow)])
 def test_signal_leaves_previous_set(setup, tmp_path, sig, code, word, delay):
     d, prev = setup
     out = tmp_path / "out"
     shutil.copytree(prev, out)
     before = _digest(out)
     proc = _long_run(d, out)
-    _wait_for_lock(out, proc)  # the run is past its imports and holds the folder
-    time.sleep(delay)
-    assert proc.poll() is None, "the long run ended before the signal; raise LONG_DRAWS"
-    proc.send_signal(sig)
-    _, err = proc.communicate(timeout=60)
+    try:
+        _wait_for_lock(out, proc)  # the run is past its imports and holds the folder
+        time.sleep(delay)
+        assert proc.poll() is None, "the long run ended before the signal; raise LONG_DRAWS"
+        proc.send_signal(sig)
+        _, err = proc.communicate(timeout=60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+            proc.communicate()
     assert proc.returncode == code, err
     assert "Traceback" not in err
     assert err.strip().splitlines() == [f"eftsieve check: {word}"], err
@@ -110,23 +118,48 @@ def test_signal_in_fresh_folder_leaves_nothing(setup, tmp_path):
     assert _leftovers(out) == []
 
 
-def test_second_run_into_busy_folder_fails_at_once(setup, tmp_path):
+def test_second_run_into_locked_folder_fails_at_once(setup, tmp_path):
+    """The lock is held here (deterministic); the run started meanwhile refuses at once."""
+    from eftsieve.io.outset import _lock
+
+    d, prev = setup
+    out = tmp_path / "locked"
+    shutil.copytree(prev, out)
+    before = _digest(out)
+    with _lock(out.resolve()):
+        res = subprocess.run(_cli("check", str(d / "card.yaml"), "--region",
+                                  str(d / "region.json"), "-o", str(out), "--draws", "2000",
+                                  "--no-plots"), env=_env(), capture_output=True, text=True,
+                             timeout=120)
+    assert res.returncode == 2, res.stderr
+    assert res.stderr.strip().splitlines() == [res.stderr.strip()]
+    assert "another eftsieve run is writing this output folder" in res.stderr
+    assert _digest(out) == before
+    assert _leftovers(out) == []
+
+
+@pytest.mark.slow
+def test_two_concurrent_runs(setup, tmp_path):
+    """Two real processes into one folder: the second fails, the first completes."""
     from eftsieve.io.outset import verify_manifest
 
     d, _ = setup
     out = tmp_path / "busy"
-    first = _long_run(d, out)
-    _wait_for_lock(out, first)
-    t0 = time.monotonic()
-    second = subprocess.run(_cli("check", str(d / "card.yaml"), "--region",
-                                 str(d / "region.json"), "-o", str(out), "--draws", "2000",
-                                 "--no-plots"), env=_env(), capture_output=True, text=True,
-                            timeout=120)
-    assert second.returncode == 2, second.stderr
-    assert "another eftsieve run" in second.stderr
-    assert len(second.stderr.strip().splitlines()) == 1
-    assert time.monotonic() - t0 < 30  # at once: no classification was done
-    _, err = first.communicate(timeout=300)
+    first = _long_run(d, out, draws=BUSY_DRAWS)
+    try:
+        _wait_for_lock(out, first)
+        second = subprocess.run(_cli("check", str(d / "card.yaml"), "--region",
+                                     str(d / "region.json"), "-o", str(out), "--draws", "2000",
+                                     "--no-plots"), env=_env(), capture_output=True, text=True,
+                                timeout=120)
+        assert first.poll() is None, "the first run ended too early; raise BUSY_DRAWS"
+        assert second.returncode == 2, second.stderr
+        assert "another eftsieve run" in second.stderr
+        _, err = first.communicate(timeout=600)
+    finally:
+        if first.poll() is None:
+            first.kill()
+            first.communicate()
     assert first.returncode == 0, err
     assert verify_manifest(out) == []
     assert _leftovers(out) == []
@@ -150,7 +183,10 @@ def test_full_disk_tmpfs(setup, tmp_path):
         out = disk / "out"
         shutil.copytree(prev, out)
         before = _digest(out)
-        res = subprocess.run(_cli("check", str(d / "card.yaml"), "--region",
+        # a mean mostly outside the region: many flagged rows, far more than 1 MiB
+        (d / "outside.yaml").write_text(card_text({**GOOD_CARD, "mean": [1.0, 1.6]},
+                                                  "outside.yaml"))
+        res = subprocess.run(_cli("check", str(d / "outside.yaml"), "--region",
                                   str(d / "region.json"), "-o", str(out), "--draws", "400000",
                                   "--no-plots"), env=_env(), capture_output=True, text=True,
                              timeout=300)
