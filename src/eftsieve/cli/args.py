@@ -70,6 +70,11 @@ def nonnegative_float(text: str) -> float:
     return float(value)
 
 
+def finite_float(text: str) -> float:
+    """argparse type: any finite number."""
+    return float(_number(text, float))
+
+
 def probability(text: str) -> float:
     """argparse type: a number in [0, 1]."""
     value = _number(text, float)

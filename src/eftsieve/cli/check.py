@@ -13,11 +13,11 @@ from typing import Any
 
 from eftsieve.cli.args import (
     add_fit_args,
+    finite_float,
     input_files,
     load_fit_arg,
     nonnegative_float,
     positive_int,
-    probability,
     region_for,
     uncertainty_from_args,
 )
@@ -41,7 +41,7 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("--band", type=nonnegative_float, default=None,
                    help=f"marginal band in region coordinates (default: the theory's, "
                         f"{MARGINAL_BAND:g}; 1e-06 for l_i^r and L_i^r coordinates)")
-    p.add_argument("--fail-below", type=probability, default=None, metavar="P",
+    p.add_argument("--fail-below", type=finite_float, default=None, metavar="P",
                    help=f"exit with code {EXIT_BELOW_THRESHOLD} when p_inside < P")
     p.add_argument("--chunk-rows", type=positive_int, default=1_000_000,
                    help="rows per chunk (default 1000000)")

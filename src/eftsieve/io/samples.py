@@ -239,7 +239,7 @@ class SamplesSource:
         if self.fmt in dispatch.SAMPLES_FORMATS:
             with read_errors(f, self.fmt):
                 table = dispatch.column_table(self.fmt, f, self.options)
-            check_width(f, list(table.names))
+            check_width(f, list(table.labels))
             return table
         return ColumnTable(tuple(self.available_columns(f)))
 
