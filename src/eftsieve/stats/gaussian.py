@@ -63,8 +63,11 @@ def reduce_to_subspace(mean: np.ndarray, w: np.ndarray, a: np.ndarray, b: np.nda
     g = a @ w
     h = b - a @ mean
     norms = np.linalg.norm(g, axis=1)
-    amp = np.linalg.norm(a, axis=1) * max(1.0, float(np.abs(mean).max(initial=0.0)))
-    flat = norms <= FEASIBILITY_TOL * np.maximum(amp, 1e-300)
-    unreachable = bool((h[flat] > FEASIBILITY_TOL * np.maximum(amp[flat], 1.0)).any())
+    # relative to the Gaussian's own scale (its largest standard deviation), so that
+    # the test does not depend on the units of the fit
+    wscale = float(np.linalg.norm(w, axis=0).max(initial=0.0))
+    flat = norms <= FEASIBILITY_TOL * np.linalg.norm(a, axis=1) * wscale
+    size = np.maximum(1.0, np.maximum(np.abs(b), np.abs(a @ mean)))
+    unreachable = bool((h[flat] > FEASIBILITY_TOL * size[flat]).any())
     keep = ~flat
     return g[keep] / norms[keep, None], h[keep] / norms[keep], unreachable
