@@ -92,8 +92,11 @@ def region_for(fit: Fit, region_path: str | Path | None, outdir: Path) -> tuple[
 def load_region(path: str | Path) -> Region:
     """Read a region file and verify its content hash."""
     from eftsieve.region.model import Region
+    from eftsieve.theories import check_region
 
-    return Region.load(path)
+    region = Region.load(path)
+    check_region(region, path)
+    return region
 
 
 def build_region(theory: str, *, executor: Executor | None = None, **settings: Any) -> Region:

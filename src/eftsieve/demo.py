@@ -65,8 +65,9 @@ def examples_dir() -> Path:
 class _Steps:
     """The demo's runs, each writing one sub-folder of ``out``."""
 
-    def __init__(self, out: Path) -> None:
-        self.out = out
+    def __init__(self, out: Path, shown: Path) -> None:
+        self.out = out  # the staging folder of the output set
+        self.shown = shown  # where it ends up: recorded paths name this
         self.summaries: dict[str, dict[str, Any]] = {}
 
     def _prepare(self, fit: Fit, sub: str, outputs: tuple[str, ...],
@@ -81,6 +82,11 @@ class _Steps:
         outdir.mkdir(parents=True, exist_ok=True)
         return outdir
 
+    def _final(self, path: str) -> str:
+        """A path inside the staging folder, as it will be once the set is in place."""
+        p = Path(path)
+        return str(self.shown / p.relative_to(self.out)) if self.out in p.parents else path
+
     def check(self, card: Path, sub: str, region_path: Path | None, draws: int = 200_000,
               uncertainty: UncertaintySettings | None = None) -> dict[str, Any]:
         from eftsieve.api import load_fit, region_for
@@ -92,24 +98,24 @@ class _Steps:
         outdir = self._prepare(fit, sub, CHECK_OUTPUTS, () if region_path is None
                                else (region_path,))
         region, rpath = region_for(fit, region_path, outdir)
+        rpath = self._final(rpath)
         result = run_check(fit, region, CheckSettings(draws=draws), outdir, rpath, uncertainty)
         write_check_outputs(fit, result, outdir)
         self.summaries[sub] = result.summary
         return result.summary
 
     def impose(self, card: Path, sub: str, region_path: Path) -> dict[str, Any]:
-        from eftsieve.api import load_fit
+        from eftsieve.api import load_fit, load_region
         from eftsieve.impose.api import impose
         from eftsieve.impose.core import ImposeSettings
-        from eftsieve.region.model import Region
         from eftsieve.report.outputs import IMPOSE_OUTPUTS, write_impose_outputs
 
         fit = load_fit(card)
         outdir = self._prepare(fit, sub, IMPOSE_OUTPUTS, (region_path,))
-        region = Region.load(region_path)
+        region = load_region(region_path)
         result = impose(fit, region, settings=ImposeSettings(progress=False))
         summary = write_impose_outputs(fit, region, result, outdir,
-                                       region_path=str(region_path))
+                                       region_path=self._final(str(region_path)))
         self.summaries[sub] = summary
         return summary
 
@@ -130,12 +136,20 @@ def run_demo(outdir: str | Path = "demo_output",
         if echo is not None:
             echo(text)
 
+    from eftsieve.io.outset import output_set
+
     ex = examples_dir()
     out = Path(outdir)
-    out.mkdir(parents=True, exist_ok=True)
     say(HEADER)
-    region = _aurora_region(out, ex / "aurora_gaussian.yaml")
-    steps = _Steps(out)
+    with output_set(out, [ex]) as stage:
+        steps = _Steps(stage, out)
+        _demo_steps(ex, out, steps, say)
+    return DemoResult(out, tuple(lines), dict(steps.summaries))
+
+
+def _demo_steps(ex: Path, out: Path, steps: _Steps, say: Callable[[str], None]) -> None:
+    """Every step of the demo, written into ``steps.out``; lines name the final ``out``."""
+    region = _aurora_region(steps.out, ex / "aurora_gaussian.yaml")
     g = steps.check(ex / "aurora_gaussian.yaml", "check_gaussian", region)
     p = steps.check(ex / "aurora_posterior.yaml", "check_posterior", region)
     ig = steps.impose(ex / "aurora_gaussian.yaml", "impose_gaussian", region)
@@ -160,7 +174,6 @@ def run_demo(outdir: str | Path = "demo_output",
         s = steps.check(scalar, "check_scalar", None, SHORT_DRAWS)
         say(f"  {s['theory']} fit: p_inside = {s['p_inside']:.3f}, tension "
             f"{s['tension_sigma']:.2f} sigma ({out / 'check_scalar' / 'report.html'})")
-    return DemoResult(out, tuple(lines), dict(steps.summaries))
 
 
 def _aurora_region(out: Path, card: Path) -> Path:

@@ -114,6 +114,20 @@ class TaskFailedError(EftsieveError):
         super().__init__(f"{task}: {problem}" + (f" (fix: {hint})" if hint else ""))
 
 
+class OutputError(EftsieveError):
+    """An output folder or file cannot be written: in use by another run, a full disk,
+    no permission.  The previous output set (if any) is left as it was."""
+
+    exit_code = 2
+
+    def __init__(self, path: str | Path | None, problem: str, hint: str = "") -> None:
+        self.path = None if path is None else str(path)
+        self.problem = problem
+        self.hint = hint
+        super().__init__(f"{self.path or '<output>'}: {problem}"
+                         + (f" (fix: {hint})" if hint else ""))
+
+
 class EftsieveWarning(UserWarning):
     """Base class of every warning issued by eftsieve."""
 

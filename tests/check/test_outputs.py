@@ -51,7 +51,7 @@ def test_csv_and_parquet_read_back_exactly(flagged_pair, region):
     m = np.column_stack([csv[f"margin_{i}"].to_numpy() for i in range(len(region.facets))])
     np.testing.assert_allclose(m, region.margins(y), rtol=1e-12, atol=1e-12)
     np.testing.assert_array_equal(csv["min_margin"].to_numpy(), m.min(axis=1))
-    assert set(csv["verdict"].to_pylist()) <= {"marginal", "outside", "uncertain"}  # every verdict but inside
+    assert set(csv["verdict"].to_pylist()) <= {"marginal", "outside", "uncertain"}
 
 
 def test_csv_text_is_the_shortest_round_trip_form(flagged_pair):

@@ -89,7 +89,7 @@ def test_outputs_never_overwrite_inputs(tmp_path, capsys):
     card = tmp_path / "summary.json"
     card.write_text((DATA / "good_errors.json").read_text())
     assert main(["check", str(card), "-o", str(tmp_path), "--no-plots"]) == 2
-    assert "overwrite an input" in capsys.readouterr().err
+    assert "contains the input" in capsys.readouterr().err
 
 
 def test_bare_samples_file_with_flags(tmp_path, capsys):

@@ -40,10 +40,13 @@ def test_terminating_a_real_run_leaves_no_partial_file(tmp_path):
     proc = subprocess.Popen([sys.executable, "-m", "eftsieve.cli", "demo", "-o", str(out)],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
     deadline = time.monotonic() + 120
-    while not (out / "region.json").exists() and time.monotonic() < deadline:
-        time.sleep(0.2)         # wait until it is working
+    lock = tmp_path / ".demo.lock"  # the run holds its output folder: it is working
+    while not lock.exists() and time.monotonic() < deadline:
+        time.sleep(0.2)
+    time.sleep(2.0)
     proc.send_signal(signal.SIGTERM)
     stdout, stderr = proc.communicate(timeout=120)
     assert proc.returncode == 143, stderr
     assert stderr.strip().splitlines() == ["eftsieve demo: terminated"]
-    assert not [p for p in out.rglob(".*")]   # atomic writes: no temporary file is left
+    assert not out.exists()  # atomic output sets: nothing from the interrupted run
+    assert not list(tmp_path.glob(".demo.*"))  # no staging folder or lock left

@@ -117,7 +117,8 @@ def _region_plan(fits: Sequence[Fit]) -> tuple[list[tuple[str, dict[str, Any]]],
 
 
 def _regions(fits: Sequence[Fit], dirs: Sequence[Path], region: Region | None,
-             region_path: str | None, executor: Executor) -> list[tuple[Region, str | None]]:
+             region_path: str | None, executor: Executor,
+             shown: Path) -> list[tuple[Region, str | None]]:
     """The region of each fit: the one given, or built (once per distinct settings)."""
     if region is not None:
         return [(region, region_path)] * len(fits)
@@ -129,7 +130,7 @@ def _regions(fits: Sequence[Fit], dirs: Sequence[Path], region: Region | None,
     for d, i in zip(dirs, which, strict=True):
         path = d / "region.json"
         built[i].save(path)
-        out.append((built[i], str(path)))
+        out.append((built[i], str(shown / d.name / "region.json")))
     return out
 
 
@@ -143,7 +144,8 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
                region: Region | None = None, region_path: str | None = None,
                engine: str = "local", scheduler: str | None = None, retries: int = 2,
                loader: Callable[[Path], Fit] | None = None,
-               partition_timeout: float | None = None) -> ManyResult:
+               partition_timeout: float | None = None,
+               final_outdir: str | Path | None = None) -> ManyResult:
     """Check several fit cards; one table row per card, in the order given.
 
     Parameters
@@ -163,6 +165,10 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
         Dask options (see :func:`~eftsieve.check.engines.dask.dask_check`).
     loader
         Turns a path into a Fit (default :func:`eftsieve.fit.model.load_fit`).
+    final_outdir
+        Where ``outdir`` will end up when it is a staging folder
+        (:func:`eftsieve.io.outset.output_set`): the paths recorded in the table and the
+        summaries name it, and no input may lie there.
     """
     if engine not in ENGINES:
         raise InputError(None, "--engine", f"unknown engine '{engine}'",
@@ -183,32 +189,39 @@ def check_many(cards: Sequence[str | Path], settings: CheckSettings, outdir: str
     outs = [Path(outdir) / TABLE_NAME]
     outs += [d / n for d in dirs for n in ("flagged.csv", "summary.json", "region.json")]
     guard_inputs(outs, ins)
+    shown = Path(final_outdir) if final_outdir is not None else Path(outdir)
+    if final_outdir is not None:
+        from eftsieve.io.outset import refuse_inputs
+
+        refuse_inputs(shown, ins)
     for d in dirs:
         d.mkdir(parents=True, exist_ok=True)
     if engine == "dask":
         results = _check_all_dask(fits, dirs, settings, region, region_path, scheduler,
-                                  retries, partition_timeout)
+                                  retries, partition_timeout, shown)
     else:
-        regs = _regions(fits, dirs, region, region_path, serial)
+        regs = _regions(fits, dirs, region, region_path, serial, shown)
         results = [local_check(f, r, settings, d, rp)
                    for f, d, (r, rp) in zip(fits, dirs, regs, strict=True)]
     rows = []
     for p, d, res in zip(paths, dirs, results, strict=True):
         atomic_write_json(d / "summary.json", res.summary)
-        rows.append(table_row(p, d, res.summary))
+        rows.append(table_row(p, shown / d.name, res.summary))
     table = write_summary_table(rows, Path(outdir) / TABLE_NAME)
     return ManyResult(tuple(rows), tuple(results), tuple(fits), tuple(dirs), table)
 
 
 def _check_all_dask(fits: Sequence[Fit], dirs: Sequence[Path], settings: CheckSettings,
                     region: Region | None, region_path: str | None, scheduler: str | None,
-                    retries: int, timeout: float | None) -> list[CheckResult]:
+                    retries: int, timeout: float | None,
+                    shown: Path) -> list[CheckResult]:
     """Submit every card's partitions, then merge card by card in order."""
     from eftsieve.check.engines.dask import collect_check, submit_check
     from eftsieve.io.dask_client import cancel, client_map, connect
 
     with connect(scheduler) as client:
-        regs = _regions(fits, dirs, region, region_path, client_map(client, retries=retries))
+        regs = _regions(fits, dirs, region, region_path, client_map(client, retries=retries),
+                        shown)
         subs = [submit_check(client, f, r, settings, write_flagged=True, region_path=rp,
                              retries=retries)
                 for f, (r, rp) in zip(fits, regs, strict=True)]

@@ -7,13 +7,14 @@ command line and summary.json are made from; :func:`summarize` forms it from the
 
 from __future__ import annotations
 
+import logging
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
 from eftsieve.check.verdicts import CheckSettings
-from eftsieve.errors import InputError
+from eftsieve.errors import InputError, SolverError
 from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
 from eftsieve.stats.accumulate import Accumulator, BatchMeans
@@ -187,12 +188,27 @@ def gaussian_probability(fit: Fit, region: Region, cmap: CoordinateMap,
     """P(inside) of a Gaussian summary by minimax tilting (Botev 2017, arXiv:1603.04166)."""
     if fit.mean is None or fit.cov is None or not cmap.is_affine:
         return None
+    from eftsieve.stats.gaussian import reduce_to_subspace, whitening
     from eftsieve.stats.tmvn import polytope_probability
 
     a, b = region.arrays()
     ap, bp = cmap.pull_back(a, b)
-    res = polytope_probability(fit.mean, fit.cov, ap, bp, rng=np.random.default_rng(seed + 2))
-    return res.probability, res.std_error, res.method
+    rng = np.random.default_rng(seed + 2)
+    w = whitening(fit.cov)
+    if w.shape[1] == len(fit.mean):  # full rank: the polytope in the fit's coordinates
+        try:
+            res = polytope_probability(fit.mean, fit.cov, ap, bp, rng=rng)
+        except SolverError as err:  # e.g. a mean 1e8 sigma outside: keep the sample fraction
+            logging.getLogger(__name__).warning("minimax tilting failed (%s); p_inside is "
+                                                "the sample fraction", err)
+            return None
+        return res.probability, res.std_error, res.method
+    # a singular covariance: the Gaussian lives on a subspace, integrate over it
+    g, h, unreachable = reduce_to_subspace(fit.mean, w, ap, bp)
+    if unreachable or not len(h):
+        return (0.0 if unreachable else 1.0), 0.0, "degenerate Gaussian (exact)"
+    res = polytope_probability(np.zeros(w.shape[1]), np.eye(w.shape[1]), g, h, rng=rng)
+    return res.probability, res.std_error, f"{res.method} on the covariance's subspace"
 
 
 def region_moments(fit: Fit, cmap: CoordinateMap, acc: Accumulator
@@ -210,7 +226,8 @@ def summarize(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSett
               acc: Accumulator, region_file: str | None, **extra: Any) -> CheckResult:
     """The check result from the merged sums (``extra``: engine, worst, plot subsample)."""
     if acc.n_total == 0:
-        raise InputError(fit.source, "samples", "no rows to check", "supply samples")
+        raise InputError(fit.samples.path if fit.samples else fit.source, "samples",
+                         "no rows to check", "supply samples")
     if acc.sw <= 0:
         src = fit.samples
         raise InputError(src.path if src else fit.source, src.weight_column if src else None,

@@ -61,11 +61,24 @@ class CheckSettings:
     blas_threads: int | None = 1
 
     def __post_init__(self) -> None:
-        if self.flagged_format not in ("csv", "parquet"):
-            from eftsieve.errors import InputError
+        import math
 
+        from eftsieve.errors import InputError
+
+        if self.flagged_format not in ("csv", "parquet"):
             raise InputError(None, "--flagged-format", f"unknown format "
                              f"'{self.flagged_format}'", "use csv or parquet")
+
+        for name in ("draws", "chunk_rows", "plot_points"):
+            if int(getattr(self, name)) < 1:
+                raise InputError(None, name, f"must be at least 1, got {getattr(self, name)}",
+                                 "give a positive number")
+        if int(self.seed) < 0:
+            raise InputError(None, "seed", f"must be 0 or more, got {self.seed}", "")
+        band = self.marginal_band
+        if band is not None and not (math.isfinite(band) and band >= 0):
+            raise InputError(None, "marginal_band", f"must be a finite number >= 0, got {band}",
+                             "give a band in region coordinates, or None")
 
     def band(self, region: Region) -> float:
         """The marginal band for ``region``: the one given, else its theory's default

@@ -8,6 +8,7 @@ only: the library does the work.
 from __future__ import annotations
 
 import argparse
+import math
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -26,6 +27,62 @@ REGION_SETTINGS = {"family": "families", "pion_mass": "pion_masses_mev", "fpi": 
                    "order": "order", "spins": "spins", "coordinates": "coordinates"}
 
 
+def _number(text: str, kind: type) -> Any:
+    try:
+        value = kind(text)
+    except ValueError as err:
+        raise argparse.ArgumentTypeError(f"expected {'an integer' if kind is int else 'a number'}"
+                                         f", got {text!r}") from err
+    if kind is float and not math.isfinite(value):
+        raise argparse.ArgumentTypeError(f"must be a finite number, got {text!r}")
+    return value
+
+
+def positive_int(text: str) -> int:
+    """argparse type: an integer >= 1."""
+    value = _number(text, int)
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"must be at least 1, got {value}")
+    return int(value)
+
+
+def nonnegative_int(text: str) -> int:
+    """argparse type: an integer >= 0."""
+    value = _number(text, int)
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"must be 0 or more, got {value}")
+    return int(value)
+
+
+def positive_float(text: str) -> float:
+    """argparse type: a finite number > 0 (masses, scales)."""
+    value = _number(text, float)
+    if value <= 0:
+        raise argparse.ArgumentTypeError(f"must be positive, got {value:g}")
+    return float(value)
+
+
+def nonnegative_float(text: str) -> float:
+    """argparse type: a finite number >= 0 (bands)."""
+    value = _number(text, float)
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"must be 0 or more, got {value:g}")
+    return float(value)
+
+
+def finite_float(text: str) -> float:
+    """argparse type: any finite number."""
+    return float(_number(text, float))
+
+
+def probability(text: str) -> float:
+    """argparse type: a number in [0, 1]."""
+    value = _number(text, float)
+    if not 0 <= value <= 1:
+        raise argparse.ArgumentTypeError(f"must lie in [0, 1], got {value:g}")
+    return float(value)
+
+
 def csv_list(text: str) -> list[str]:
     """``a,b, c`` -> ``["a", "b", "c"]`` (empty items dropped)."""
     return [t.strip() for t in text.split(",") if t.strip()]
@@ -37,23 +94,23 @@ def add_region_args(p: argparse.ArgumentParser) -> None:
                    help=f"theory name (default {DEFAULT_THEORY}; see `eftsieve theories`)")
     p.add_argument("--family", type=csv_list, default=None,
                    help="comma-separated bound families (default: all of the theory)")
-    p.add_argument("--pion-mass", type=float, nargs="+", action="extend", default=None,
+    p.add_argument("--pion-mass", type=positive_float, nargs="+", action="extend", default=None,
                    metavar="MEV",
                    help="pion mass(es) in MeV (default 139.57); several need a "
                         "mass-independent convention")
-    p.add_argument("--fpi", type=float, default=None, metavar="MEV",
+    p.add_argument("--fpi", type=positive_float, default=None, metavar="MEV",
                    help="F_pi in MeV (default 92.07)")
     p.add_argument("--convention", default=None,
                    help="convention of the region's coordinates (default: the theory's; "
                         "see `eftsieve theories`)")
-    p.add_argument("--scale", type=float, default=None, metavar="MEV",
+    p.add_argument("--scale", type=positive_float, default=None, metavar="MEV",
                    help="renormalisation scale mu in MeV of a scale-dependent convention "
                         "(default 770)")
     p.add_argument("--grid", choices=["default", "fine"], default=None,
                    help="kinematic scan density (theories with a kinematic scan)")
-    p.add_argument("--order", type=int, default=None,
+    p.add_argument("--order", type=positive_int, default=None,
                    help="expansion order (theories with sum rules)")
-    p.add_argument("--spins", type=int, default=None, metavar="JMAX",
+    p.add_argument("--spins", type=nonnegative_int, default=None, metavar="JMAX",
                    help="spin cut-off of the heavy-state grid (theories with sum rules)")
     p.add_argument("--coordinates", type=csv_list, default=None,
                    help="region coordinates, e.g. g3t,g4t (theories that offer a choice)")
@@ -82,7 +139,7 @@ def add_fit_args(p: argparse.ArgumentParser, many: bool = False) -> None:
                        "(.csv/.parquet/.nc)")
     p.add_argument("--region", default=None, help="region file (default: build from the fit)")
     p.add_argument("-o", "--output", default=None, metavar="DIR", help="output directory")
-    p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
+    p.add_argument("--seed", type=nonnegative_int, default=0, help="random seed (default 0)")
     add_samples_args(p)
     add_uncertainty_args(p)
 
@@ -92,19 +149,19 @@ def add_samples_args(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("bare samples file (no fit card)")
     g.add_argument("--theory", default=None, help="theory of a bare samples file")
     g.add_argument("--convention", default=None, help="convention of a bare samples file")
-    g.add_argument("--pion-mass", type=float, default=None, metavar="MEV",
+    g.add_argument("--pion-mass", type=positive_float, default=None, metavar="MEV",
                    help="pion mass of a bare samples file's convention, if it needs one")
-    g.add_argument("--scale", type=float, default=None, metavar="MEV",
+    g.add_argument("--scale", type=positive_float, default=None, metavar="MEV",
                    help="scale mu of a bare samples file's convention, if it needs one")
-    g.add_argument("--gap", type=float, default=None, metavar="MEV",
+    g.add_argument("--gap", type=positive_float, default=None, metavar="MEV",
                    help="mass gap M of a bare samples file's convention, if it needs one")
     g.add_argument("--weight-column", default=None, help="weight column of a bare samples file")
     g.add_argument("--columns", default=None, metavar="SPEC",
                    help="bare file: parameters to read, 'a,b' (names in order for .npy and "
                         "sampler files) or 'a=COL,b=l[1],weight=w'")
-    g.add_argument("--burn-in", type=int, default=None, metavar="N",
+    g.add_argument("--burn-in", type=nonnegative_int, default=None, metavar="N",
                    help="emcee/NetCDF file: drop the first N iterations of each walker/chain")
-    g.add_argument("--thin", type=int, default=None, metavar="K",
+    g.add_argument("--thin", type=positive_int, default=None, metavar="K",
                    help="emcee/NetCDF file: keep every K-th iteration after the burn-in")
     g.add_argument("--keep-walkers", default=None, metavar="LIST",
                    help="emcee/NetCDF file: walkers (chains) to keep, '0:16' or '0,3,5'")
@@ -117,7 +174,7 @@ def add_uncertainty_args(p: argparse.ArgumentParser) -> None:
                    default="none", help="model of the facets' offset uncertainty")
     g.add_argument("--sigma", default=None, metavar="FAMILY=S,...",
                    help="fixed model: sigma per bound family, in the units of the bound")
-    g.add_argument("--breakdown", type=float, default=None, metavar="MEV",
+    g.add_argument("--breakdown", type=positive_float, default=None, metavar="MEV",
                    help="power-counting: breakdown scale Lambda_b (default 4 pi F_pi)")
     g.add_argument("--coefficient-prior", default="1,1", metavar="NU0,TAU0",
                    help="power-counting: scaled-inverse-chi2 prior of cbar^2 (default 1,1)")

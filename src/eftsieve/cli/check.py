@@ -13,8 +13,11 @@ from typing import Any
 
 from eftsieve.cli.args import (
     add_fit_args,
+    finite_float,
     input_files,
     load_fit_arg,
+    nonnegative_float,
+    positive_int,
     region_for,
     uncertainty_from_args,
 )
@@ -33,14 +36,14 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
                         "(needs the [dask] extra); default: one process")
     p.add_argument("--scheduler", default=None, metavar="ADDRESS",
                    help="dask scheduler address (default: a local cluster of 2 workers)")
-    p.add_argument("--draws", type=int, default=200_000,
+    p.add_argument("--draws", type=positive_int, default=200_000,
                    help="draws from a Gaussian summary (default 200000)")
-    p.add_argument("--band", type=float, default=None,
+    p.add_argument("--band", type=nonnegative_float, default=None,
                    help=f"marginal band in region coordinates (default: the theory's, "
                         f"{MARGINAL_BAND:g}; 1e-06 for l_i^r and L_i^r coordinates)")
-    p.add_argument("--fail-below", type=float, default=None, metavar="P",
+    p.add_argument("--fail-below", type=finite_float, default=None, metavar="P",
                    help=f"exit with code {EXIT_BELOW_THRESHOLD} when p_inside < P")
-    p.add_argument("--chunk-rows", type=int, default=1_000_000,
+    p.add_argument("--chunk-rows", type=positive_int, default=1_000_000,
                    help="rows per chunk (default 1000000)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
     p.add_argument("--flagged-format", choices=["csv", "parquet"], default="csv",
@@ -66,8 +69,8 @@ def cmd_check(args: argparse.Namespace) -> int:
 
 
 def cmd_check_many(args: argparse.Namespace) -> int:
+    from eftsieve.api import load_region
     from eftsieve.check.many import check_many
-    from eftsieve.region.model import Region
     from eftsieve.report.outputs import write_check_outputs
 
     if uncertainty_from_args(args) is not None:
@@ -75,16 +78,20 @@ def cmd_check_many(args: argparse.Namespace) -> int:
 
         raise InputError(None, "--theory-uncertainty", "several cards run without a "
                          "theory-uncertainty model", "check the cards one at a time")
+    from eftsieve.io.outset import output_set
+
     outdir = Path(args.output or "checks")
-    many = check_many([Path(f) for f in args.fit], _settings(args), outdir,
-                      region=Region.load(args.region) if args.region else None,
-                      region_path=args.region, engine=args.engine or "local",
-                      scheduler=args.scheduler,
-                      loader=lambda p: load_fit_arg(argparse.Namespace(**{**vars(args),
-                                                                          "fit": str(p)})))
-    for fit, res, d in zip(many.fits, many.results, many.outdirs, strict=True):
-        write_check_outputs(fit, res, d, plots=not args.no_plots)
-    print(f"checked {len(many.fits)} fits; table {many.table}")
+    inputs = [args.region, *args.fit]
+    with output_set(outdir, inputs) as stage:
+        many = check_many([Path(f) for f in args.fit], _settings(args), stage,
+                          region=load_region(args.region) if args.region else None,
+                          region_path=args.region, engine=args.engine or "local",
+                          scheduler=args.scheduler, final_outdir=outdir,
+                          loader=lambda p: load_fit_arg(argparse.Namespace(
+                              **{**vars(args), "fit": str(p)})))
+        for fit, res, d in zip(many.fits, many.results, many.outdirs, strict=True):
+            write_check_outputs(fit, res, d, plots=not args.no_plots)
+    print(f"checked {len(many.fits)} fits; table {outdir / many.table.name}")
     for row in many.rows:
         print("  " + ", ".join(f"{k}={v}" for k, v in row.items()
                                if k in ("fit", "n_total", "p_inside", "tension_sigma")))
@@ -95,19 +102,20 @@ def cmd_check_many(args: argparse.Namespace) -> int:
 
 def cmd_check_one(args: argparse.Namespace) -> int:
     from eftsieve.check.run import run_check
-    from eftsieve.io.atomic import guard_inputs
+    from eftsieve.io.outset import output_set
     from eftsieve.report.outputs import CHECK_OUTPUTS, write_check_outputs
 
     fit = load_fit_arg(args)
     outdir = Path(args.output or f"{Path(args.fit).stem}_check")
-    guard_inputs([outdir / n for n in CHECK_OUTPUTS], input_files(fit, args))
-    outdir.mkdir(parents=True, exist_ok=True)
-    region, rpath = region_for(fit, args, outdir)
     settings = _settings(args)
     unc = uncertainty_from_args(args)
-    result = run_check(fit, region, settings, outdir, rpath, unc,
-                       engine=args.engine or "local", scheduler=args.scheduler)
-    write_check_outputs(fit, result, outdir, plots=not args.no_plots)
+    with output_set(outdir, input_files(fit, args), known=CHECK_OUTPUTS) as stage:
+        region, rpath = region_for(fit, args, stage)
+        if args.region is None:  # built and saved into the set: record its final place
+            rpath = str(outdir / "region.json")
+        result = run_check(fit, region, settings, stage, rpath, unc,
+                           engine=args.engine or "local", scheduler=args.scheduler)
+        write_check_outputs(fit, result, stage, plots=not args.no_plots)
     _print_summary(fit.name, region, rpath, result.summary, args.theory_uncertainty)
     print(f"  report: {outdir / 'report.html'}")
     s = result.summary

@@ -14,6 +14,8 @@ from eftsieve.cli.args import (
     add_fit_args,
     input_files,
     load_fit_arg,
+    positive_float,
+    positive_int,
     region_for,
     uncertainty_from_args,
 )
@@ -31,10 +33,11 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     like.add_argument("--data", default=None, help="observables file for refit (YAML/JSON)")
     like.add_argument("--likelihood", default=None, metavar="MODULE:FUNCTION",
                       help="a Python log-likelihood for refit (runs your own code)")
-    p.add_argument("--samples", type=int, default=20_000,
+    p.add_argument("--samples", type=positive_int, default=20_000,
                    help="samples (exact) or steps per walker (refit); default 20000")
-    p.add_argument("--walkers", type=int, default=32, help="emcee walkers (refit; default 32)")
-    p.add_argument("--min-ess", type=float, default=None,
+    p.add_argument("--walkers", type=positive_int, default=32,
+                   help="emcee walkers (refit; default 32)")
+    p.add_argument("--min-ess", type=positive_float, default=None,
                    help="effective-sample-size floor of reweight (default 400)")
     p.add_argument("--csv", action="store_true", help="also write samples.csv")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
@@ -55,19 +58,22 @@ def settings_from_args(args: argparse.Namespace) -> Any:
 
 def cmd_impose(args: argparse.Namespace) -> int:
     from eftsieve.impose.api import impose
-    from eftsieve.io.atomic import guard_inputs
+    from eftsieve.io.outset import output_set
     from eftsieve.report.outputs import IMPOSE_OUTPUTS, write_impose_outputs
 
     fit = load_fit_arg(args)
     outdir = Path(args.output or f"{Path(args.fit).stem}_impose")
-    guard_inputs([outdir / n for n in IMPOSE_OUTPUTS], input_files(fit, args, args.data))
-    outdir.mkdir(parents=True, exist_ok=True)
-    region, rpath = region_for(fit, args, outdir)
-    result = impose(fit, region, settings=settings_from_args(args),
-                    uncertainty=uncertainty_from_args(args), data=args.data,
-                    likelihood=args.likelihood)
-    summary = write_impose_outputs(fit, region, result, outdir, region_path=rpath,
-                                   csv=args.csv, plots=not args.no_plots)
+    settings = settings_from_args(args)
+    unc = uncertainty_from_args(args)
+    with output_set(outdir, input_files(fit, args, args.data),
+                    known=IMPOSE_OUTPUTS) as stage:
+        region, rpath = region_for(fit, args, stage)
+        if args.region is None:  # built and saved into the set: record its final place
+            rpath = str(outdir / "region.json")
+        result = impose(fit, region, settings=settings, uncertainty=unc, data=args.data,
+                        likelihood=args.likelihood)
+        summary = write_impose_outputs(fit, region, result, stage, region_path=rpath,
+                                       csv=args.csv, plots=not args.no_plots)
     corr = summary.get("ess_autocorr")
     ess = f"ESS {summary['ess']:.0f}" + ("" if corr is None else
                                          f" ({corr:.0f} after autocorrelation)")

@@ -94,6 +94,27 @@ def _configure_logging(debug: bool) -> None:
         handler.setLevel(level)
 
 
+def _environment_line(err: BaseException) -> str:
+    """One line for an error of the machine rather than of eftsieve: a full disk, a file
+    that cannot be read or written, too little memory or stack."""
+    import errno
+
+    if isinstance(err, RecursionError):
+        return ("an input is nested too deeply to read (fix: check that the file is a fit "
+                "card, samples or region file)")
+    if isinstance(err, MemoryError):
+        return ("out of memory (fix: use fewer --draws, a smaller --chunk-rows, or split the "
+                "samples into Parquet parts)")
+    if not isinstance(err, OSError):  # pragma: no cover - the three classes above
+        return str(err)
+    where = err.filename if getattr(err, "filename", None) else "a file"
+    if err.errno in (errno.ENOSPC, getattr(errno, "EDQUOT", errno.ENOSPC)):
+        return (f"{where}: no space left on the device (fix: free some space or choose "
+                "another output folder; the previous output set is unchanged)")
+    reason = err.strerror or type(err).__name__
+    return f"{where}: {reason} (fix: check the path and its permissions)"
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``eftsieve`` command."""
     parser = build_parser()
@@ -130,6 +151,11 @@ def _run(args: argparse.Namespace) -> int:
 
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return EXIT_BROKEN_PIPE
+    except (OSError, RecursionError, MemoryError) as err:  # the environment, not a bug
+        if args.debug:
+            raise
+        print(f"eftsieve {args.verb}: error: {_environment_line(err)}", file=sys.stderr)
+        return EXIT_USAGE
     except Exception as err:  # an internal error: say so, point to --debug
         if args.debug:
             raise

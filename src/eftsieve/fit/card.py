@@ -8,7 +8,6 @@ the semantics.
 
 from __future__ import annotations
 
-import json
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -132,6 +131,37 @@ def _schema_stage(card: dict[str, Any], path: Path) -> None:
         raise InputError(path, "kinematics", "must be a mapping", "see docs/formats.md")
 
 
+def _kinematics(raw: dict[str, Any], path: Path) -> dict[str, float]:
+    """Kinematic inputs: finite numbers, and positive masses and scales (``*_mev``)."""
+    kin = {}
+    for k, v in raw.items():
+        where = f"kinematics.{k}"
+        if isinstance(v, bool) or not isinstance(v, (int, float)):
+            raise InputError(path, where, f"must be a number, got {v!r}",
+                             "give the value in MeV, e.g. 139.57")
+        if not np.isfinite(v) or (str(k).endswith("_mev") and v <= 0):
+            raise InputError(path, where, f"must be a finite positive number, got {v!r}",
+                             "give the value in MeV, e.g. 139.57")
+        kin[str(k)] = float(v)
+    return kin
+
+
+def check_mean(mean: np.ndarray, path: Path | None, where: str) -> None:
+    """A mean is finite and inside the range where squares do not overflow."""
+    from eftsieve.io import limits
+
+    if not np.isfinite(mean).all():
+        i = int(np.argmin(np.isfinite(mean)))
+        raise InputError(path, where, f"entry {i} is not finite ({mean[i]})",
+                         "give finite numbers")
+    big = np.abs(mean) > limits.MAX_ABS_VALUE
+    if big.any():
+        i = int(np.argmax(big))
+        raise InputError(path, where, f"entry {i} ({mean[i]:.3g}) is outside the supported "
+                         f"range |x| <= {limits.MAX_ABS_VALUE:g}",
+                         "rescale the parameter (e.g. a different unit)")
+
+
 def _gaussian(card: dict[str, Any], path: Path, n: int) -> tuple[np.ndarray, np.ndarray]:
     mean = _num_list(card["mean"], path, "mean", n)
     if "covariance" in card:
@@ -145,8 +175,9 @@ def _gaussian(card: dict[str, Any], path: Path, n: int) -> tuple[np.ndarray, np.
         raise InputError(path, "covariance", "a Gaussian summary needs covariance or errors",
                          "add covariance, or errors (+ correlation)")
     err = _num_list(card["errors"], path, "errors", n)
-    if (err < 0).any():
-        raise InputError(path, "errors", "negative standard error", "errors must be >= 0")
+    if not np.isfinite(err).all() or (err < 0).any():
+        raise InputError(path, "errors", "negative or non-finite standard error",
+                         "errors must be finite and >= 0")
     corr = (_matrix(card["correlation"], path, "correlation") if "correlation" in card
             else np.eye(n))
     check_covariance(corr, n, path, "correlation")
@@ -224,7 +255,7 @@ def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], 
         theory = get_theory(card["theory"])
     except KeyError as err:
         raise InputError(path, "theory", str(err.args[0]), "run `eftsieve theories`") from err
-    kin = {k: float(v) for k, v in card.get("kinematics", {}).items()}
+    kin = _kinematics(card.get("kinematics", {}), path)
     for k in kin:
         if k not in theory.kinematic_inputs:
             raise InputError(path, f"kinematics.{k}", "unknown kinematic input",
@@ -255,36 +286,39 @@ def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], 
         extra["gaussian_file"] = str(gfile)
     else:
         source = _samples(card, path, names)
+    if mean is not None:
+        check_mean(mean, path, "mean" if "mean" in card else "gaussian.file")
     fit = Fit(card["name"], card["theory"], tuple(params), kin, mean, cov, source,
               _prior(card, path, names), path, extra)
     theory.validate_fit(fit)
     return fit
 
 
-def read_card(path: str | Path) -> dict[str, Any]:
-    """Read a YAML or JSON fit card into a dict, with clear errors."""
-    p = Path(path)
-    if not p.is_file():
-        raise InputError(p, None, "file not found", "check the path")
-    text = p.read_text(encoding="utf-8")
-    try:
-        if p.suffix.lower() == ".json":
-            data = json.loads(text)
-        elif p.suffix.lower() in {".yaml", ".yml"}:
-            import yaml
+def _card_error(path: Path, problem: str, hint: str) -> InputError:
+    return InputError(path, None, problem, hint)
 
-            data = yaml.safe_load(text)
-        else:
-            raise InputError(p, None, f"unsupported fit-card extension '{p.suffix}'",
-                             "use .yaml, .yml or .json")
-    except (json.JSONDecodeError, ValueError) as err:
-        raise InputError(p, None, f"cannot parse: {err}", "fix the syntax") from err
-    except ImportError as err:  # pragma: no cover - pyyaml is a dependency
-        raise InputError(p, None, "pyyaml is needed", "pip install pyyaml") from err
-    except Exception as err:  # yaml.YAMLError has no common import here
-        if type(err).__module__.startswith("yaml"):
-            raise InputError(p, None, f"cannot parse YAML: {err}", "fix the syntax") from err
-        raise
+
+def read_card(path: str | Path) -> dict[str, Any]:
+    """Read a YAML or JSON fit card into a dict, with clear errors.
+
+    Refused with an :class:`~eftsieve.errors.InputError` naming the file: a missing or
+    unreadable file, a folder, a file over :data:`eftsieve.io.limits.MAX_CARD_BYTES`,
+    text that is not UTF-8, syntax errors, duplicate keys, nesting deeper than
+    :data:`eftsieve.io.limits.MAX_NESTING`, and a top level that is not a mapping.
+    """
+    from eftsieve.io import limits
+    from eftsieve.io.textfile import parse_json, parse_yaml, read_text
+
+    p = Path(path)
+    suffix = p.suffix.lower()
+    if suffix not in {".json", ".yaml", ".yml"}:
+        raise InputError(p, None, f"unsupported fit-card extension '{p.suffix}'",
+                         "use .yaml, .yml or .json")
+    text = read_text(p, limits.MAX_CARD_BYTES, _card_error, "fit card")
+    if suffix == ".json":
+        data = parse_json(text, p, _card_error, limits.MAX_NESTING)
+    else:
+        data = parse_yaml(text, p, _card_error, limits.MAX_NESTING)
     if not isinstance(data, dict):
         raise InputError(p, None, "the card must be a mapping at top level",
                          "see docs/formats.md")

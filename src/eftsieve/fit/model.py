@@ -192,6 +192,12 @@ def check_covariance(cov: np.ndarray, n: int, path: Path | None, field_name: str
                          f"give a {n}x{n} matrix")
     if not np.isfinite(cov).all():
         raise InputError(path, field_name, "holds NaN or inf", "give finite numbers")
+    from eftsieve.io import limits
+
+    if np.max(np.abs(cov), initial=0.0) > limits.MAX_ABS_VALUE ** 2 / 1e6:
+        raise InputError(path, field_name, "entries are outside the supported range (standard "
+                         f"deviations above {limits.MAX_ABS_VALUE / 1e3:g})",
+                         "rescale the parameters (e.g. a different unit)")
     scale = max(float(np.max(np.abs(cov))), 1e-300)
     asym = float(np.max(np.abs(cov - cov.T)))
     if asym > SYMMETRY_TOL * scale:

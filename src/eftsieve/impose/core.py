@@ -237,17 +237,31 @@ def exact(fit: Fit, region: Region, cmap: CoordinateMap,
     if fit.mean is None or fit.cov is None:
         raise InputError(fit.source, "mean", "mode 'exact' needs a Gaussian summary",
                          "use --mode reweight for samples, or refit")
+    from eftsieve.stats.gaussian import reduce_to_subspace, whitening
+
     a, b = cmap.pull_back(*region.arrays())
     rng = np.random.default_rng(settings.seed)
-    ts = sample_truncated_normal(fit.mean, fit.cov, a, b, settings.n_samples, rng=rng)
+    w = whitening(fit.cov)
+    if w.shape[1] == len(fit.mean):
+        ts = sample_truncated_normal(fit.mean, fit.cov, a, b, settings.n_samples, rng=rng)
+        samples = ts.samples
+    else:  # a singular covariance: truncate the Gaussian on its subspace
+        g, h, unreachable = reduce_to_subspace(fit.mean, w, a, b)
+        if unreachable or not len(h) or w.shape[1] == 0:
+            raise SamplingError("the fit's covariance is singular and the region leaves "
+                                "nothing to truncate on its subspace (probability 0 or 1)",
+                                "give the full covariance, or check the fit without impose")
+        ts = sample_truncated_normal(np.zeros(w.shape[1]), np.eye(w.shape[1]), g, h,
+                                     settings.n_samples, rng=rng)
+        samples = fit.mean + ts.samples @ w.T
     before = draw(fit.mean, psd_factor(fit.cov), settings.n_samples, rng)
     prob = ts.probability
-    summary = {"mode": "exact", "n_samples": int(len(ts.samples)), "ess": float(len(ts.samples)),
+    summary = {"mode": "exact", "n_samples": int(len(samples)), "ess": float(len(samples)),
                "acceptance": ts.acceptance_rate, "n_proposed": ts.n_proposed, "tau": None,
                "p_inside_before": prob.probability, "p_inside_before_err": prob.std_error,
                "normalisation_method": prob.method}
-    res = ImposeResult("exact", fit.names, ts.samples, None, before, None, summary)
-    return with_moments(res, np.arange(len(ts.samples)))
+    res = ImposeResult("exact", fit.names, samples, None, before, None, summary)
+    return with_moments(res, np.arange(len(samples)))
 
 
 def with_moments(res: ImposeResult, rows: np.ndarray) -> ImposeResult:

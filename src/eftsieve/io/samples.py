@@ -19,13 +19,14 @@ from __future__ import annotations
 
 import glob
 from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 
-from eftsieve.errors import InputError
+from eftsieve.errors import EftsieveError, InputError
 from eftsieve.io.readers import dispatch
 from eftsieve.io.readers.columns import ColumnTable
 from eftsieve.io.readers.options import ReadOptions
@@ -36,6 +37,8 @@ DECLARED_FORMATS = ("csv", "parquet", *dispatch.SAMPLES_FORMATS)
 PARQUET_SUFFIXES = (".parquet", ".pq")
 GLOB_CHARS = frozenset("*?[")
 DEFAULT_CHUNK_ROWS = 1_000_000
+#: cells (rows x columns) of one CSV chunk at most: bounds the memory of wide files
+CSV_CELLS_PER_CHUNK = 1 << 24
 
 
 @dataclass(frozen=True)
@@ -213,12 +216,16 @@ class SamplesSource:
     def available_columns(self, file: Path | None = None) -> list[str]:
         """The column names that the file (default: the first file) holds."""
         f = self.files()[0] if file is None else file
+        with read_errors(f, self.fmt):
+            names = self._columns_of(f)
+        check_width(f, names)
+        return names
+
+    def _columns_of(self, f: Path) -> list[str]:
         if self.fmt in dispatch.SAMPLES_FORMATS:
             return dispatch.available(self.fmt, f, self.options)
         if self.fmt == "csv":
-            import pandas as pd
-
-            return list(pd.read_csv(f, nrows=0).columns)
+            return csv_header(f)
         if self.fmt == "parquet":
             import pyarrow.parquet as pq
 
@@ -230,7 +237,10 @@ class SamplesSource:
         """The columns of the file (default: the first file), with aliases."""
         f = self.files()[0] if file is None else file
         if self.fmt in dispatch.SAMPLES_FORMATS:
-            return dispatch.column_table(self.fmt, f, self.options)
+            with read_errors(f, self.fmt):
+                table = dispatch.column_table(self.fmt, f, self.options)
+            check_width(f, list(table.labels))
+            return table
         return ColumnTable(tuple(self.available_columns(f)))
 
     def validate_columns(self) -> None:
@@ -261,7 +271,7 @@ class SamplesSource:
                   ) -> Iterator[Chunk]:
         """Yield the validated chunks of one file, rows numbered from ``part.start``."""
         start = part.start
-        for frame in self._iter_frames(chunk_rows, part.path):
+        for frame in _guarded(self._iter_frames(chunk_rows, part.path), part.path, self.fmt):
             chunk = self._to_chunk(frame, start, part)
             start += len(chunk.rows)
             yield chunk
@@ -289,7 +299,13 @@ class SamplesSource:
         if self.fmt == "csv":
             import pandas as pd
 
-            yield from pd.read_csv(file, usecols=wanted, chunksize=chunk_rows)
+            # every column is parsed, so that a row with an extra field is an error (with
+            # usecols pandas would drop it silently); wide files get shorter chunks
+            width = max(1, len(csv_header(file)))
+            rows = min(chunk_rows, max(1024, CSV_CELLS_PER_CHUNK // width))
+            with pd.read_csv(file, chunksize=rows, encoding="utf-8") as reader:
+                for frame in reader:
+                    yield frame[wanted]
         elif self.fmt == "parquet":
             import pyarrow.parquet as pq
 
@@ -316,6 +332,14 @@ class SamplesSource:
             raise InputError(where, "samples",
                              f"NaN or inf in row(s) {_rows_text(rows[bad], first)}",
                              "remove or repair those rows; nothing is repaired silently")
+        from eftsieve.io import limits
+
+        huge = (np.abs(values) > limits.MAX_ABS_VALUE).any(axis=1)
+        if huge.any():
+            raise InputError(where, "samples", f"values outside the supported range |x| <= "
+                             f"{limits.MAX_ABS_VALUE:g} in row(s) "
+                             f"{_rows_text(rows[huge], first)}",
+                             "rescale the parameter or remove those rows")
         weights = None
         if self.weight_column:
             weights = frame[self.weight_column].to_numpy(dtype=float)
@@ -352,13 +376,107 @@ class BatchFrame:
         return np.column_stack(cols) if cols else np.empty((len(self), 0), dtype=dtype)
 
 
+@contextmanager
+def read_errors(path: Path, fmt: str) -> Iterator[None]:
+    """Turn a reader library's error on ``path`` into an InputError naming the file."""
+    try:
+        yield
+    except EftsieveError:
+        raise
+    except UnicodeDecodeError as err:
+        raise InputError(path, None, f"the {fmt} file is not UTF-8 text (byte "
+                         f"0x{err.object[err.start]:02x} at offset {err.start})",
+                         "save it as UTF-8") from err
+    except MemoryError as err:
+        raise InputError(path, None, f"the {fmt} file is too large to read",
+                         "split it into Parquet parts") from err
+    except (OSError, ValueError, TypeError, KeyError, IndexError, EOFError) as err:
+        raise InputError(path, None, f"cannot read the file as {fmt}: "
+                         f"{type(err).__name__}: {_short(err)}",
+                         f"check that it is a complete {fmt} file") from err
+    except Exception as err:  # pyarrow's and h5py's own error classes
+        if type(err).__module__.split(".")[0] in ("pyarrow", "h5py", "pandas", "xarray",
+                                                  "netCDF4", "h5netcdf"):
+            raise InputError(path, None, f"cannot read the file as {fmt}: "
+                             f"{type(err).__name__}: {_short(err)}",
+                             f"check that it is a complete {fmt} file") from err
+        raise
+
+
+def _short(err: BaseException, limit: int = 200) -> str:
+    text = " ".join(str(err).split())
+    return text if len(text) <= limit else text[:limit] + "..."
+
+
+def _guarded(frames: Iterator[Any], path: Path, fmt: str) -> Iterator[Any]:
+    """The frames of a reader, its errors turned into InputErrors naming ``path``."""
+    it = iter(frames)
+    try:
+        while True:
+            with read_errors(path, fmt):
+                try:
+                    frame = next(it)
+                except StopIteration:
+                    return
+            yield frame
+    finally:  # a caller that stops early (an error in a later chunk) closes the reader
+        close = getattr(it, "close", None)
+        if close is not None:
+            close()
+
+
+def check_width(path: Path, names: list[str]) -> None:
+    """Refuse absurd widths and duplicate column names."""
+    from eftsieve.io import limits
+
+    if len(names) > limits.MAX_COLUMNS:
+        raise InputError(path, None, f"the file has {len(names)} columns (the cap is "
+                         f"{limits.MAX_COLUMNS})", "keep only the parameter columns")
+    seen: set[str] = set()
+    for n in names:
+        if n in seen:
+            raise InputError(path, None, f"duplicate column '{n}'",
+                             "give every column a distinct name")
+        seen.add(n)
+
+
+def csv_header(path: Path) -> list[str]:
+    """The column names of a CSV file, read from its first line only (capped)."""
+    import csv
+
+    from eftsieve.io import limits
+    from eftsieve.io.textfile import decode_utf8
+
+    with open(path, "rb") as fh:
+        raw = fh.readline(limits.MAX_HEADER_BYTES + 1)
+    if not raw:
+        raise InputError(path, None, "the file is empty (no header line)",
+                         "write a header line of column names and the samples")
+    if len(raw) > limits.MAX_HEADER_BYTES:
+        raise InputError(path, None, f"the header line is over {limits.MAX_HEADER_BYTES} "
+                         "bytes (too many columns)", "keep only the parameter columns")
+
+    def make(p: Path, problem: str, hint: str) -> InputError:
+        return InputError(p, None, problem, hint)
+    text = decode_utf8(raw, path, make)
+    line = text.rstrip("\r\n")
+    if any(ord(c) < 32 and c != "\t" for c in line):
+        raise InputError(path, None, "the header line holds control bytes: not a text CSV "
+                         "file", "give a CSV file (UTF-8 text, a header line of names)")
+    names = next(csv.reader([line]), [])
+    if not names or all(not n.strip() for n in names):
+        raise InputError(path, None, "the header line is empty",
+                         "write a header line of column names")
+    return [n.strip() for n in names]
+
+
 def _parquet_rows(path: Path) -> int:
     """Rows of a Parquet file, from its metadata."""
     import pyarrow.parquet as pq
 
     try:
         return int(pq.ParquetFile(path).metadata.num_rows)
-    except (OSError, ValueError) as err:
+    except Exception as err:  # pyarrow's errors: ArrowInvalid, OSError, ...
         raise InputError(path, None, f"cannot read Parquet metadata: {err}",
                          "supply a valid Parquet file") from err
 

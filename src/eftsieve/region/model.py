@@ -201,6 +201,11 @@ class Region:
 
     def save(self, path: str | Path) -> Path:
         """Write the region as JSON, atomically."""
+        from eftsieve.errors import InputError
+
+        if Path(path).is_dir():
+            raise InputError(path, "-o", "is a folder, not a region file name",
+                             "give a file name such as region.json")
         return atomic_write_json(path, self.to_dict())
 
     @classmethod
@@ -213,25 +218,30 @@ class Region:
                 raise RegionFileError(path, "content hash mismatch: the file was edited or "
                                       "corrupted; rebuild it with `eftsieve region`",
                                       expected_hash=found, found_hash=str(stored))
-            return cls(
+            _check_body(d, path)
+            region = cls(
                 d["theory"], tuple(d["coordinates"]), dict(d["convention"]),
                 tuple(Facet.from_dict(f) for f in d["facets"]), dict(d.get("settings", {})),
                 tuple(Facet.from_dict(f) for f in d.get("inner_facets", [])),
                 tuple(tuple(float(x) for x in v) for v in d.get("inner_vertices", [])),
                 str(d.get("eftsieve_version", "")), tuple(d.get("notes", [])))
         except (KeyError, TypeError, ValueError) as err:
-            raise RegionFileError(path, f"malformed region file ({err})") from err
+            raise RegionFileError(path, f"malformed region file ({type(err).__name__}: "
+                                  f"{err})") from err
+        _check_geometry(region, path)
+        return region
 
     @classmethod
     def load(cls, path: str | Path) -> Region:
         """Read a region file and verify its content hash."""
+        from eftsieve.io import limits
+        from eftsieve.io.textfile import parse_json, read_text
+
         p = Path(path)
-        if not p.is_file():
-            raise RegionFileError(p, "file not found")
-        try:
-            data = json.loads(p.read_text(encoding="utf-8"))
-        except json.JSONDecodeError as err:
-            raise RegionFileError(p, f"not valid JSON ({err})") from err
+        text = read_text(p, limits.MAX_REGION_BYTES, _region_error, "region file")
+        data = parse_json(text, p, _region_error, limits.MAX_NESTING)
+        if not isinstance(data, dict):
+            raise RegionFileError(p, "malformed region file (not a JSON object)")
         return cls.from_dict(data, p)
 
     def summary(self) -> dict[str, Any]:
@@ -240,6 +250,85 @@ class Region:
                 "convention": self.convention, "n_facets": len(self.facets),
                 "facets": [f.to_dict() for f in self.facets], "hash": self.hash,
                 "settings": self.settings}
+
+
+#: facet statuses that say the solve behind a facet failed (never a bound)
+_FAILED_STATUS = ("infeasible", "unbounded", "fail", "error", "inaccurate", "timeout",
+                  "max_iter", "unknown")
+
+
+def _malformed(path: Any, field: str, problem: str) -> RegionFileError:
+    return RegionFileError(path, f"region is empty or malformed: {field}: {problem} "
+                           "(fix: rebuild it with `eftsieve region`)")
+
+
+def _check_body(d: dict[str, Any], path: Any) -> None:
+    """Shapes and values of a region file's body, before any geometry."""
+    version = d.get("region_format_version")
+    if version != REGION_FORMAT_VERSION:
+        raise RegionFileError(path, f"region_format_version: unsupported value {version!r} "
+                              f"(this eftsieve reads {REGION_FORMAT_VERSION}; rebuild it with "
+                              "`eftsieve region`)")
+    if not isinstance(d.get("theory"), str):
+        raise _malformed(path, "theory", "must be a string")
+    coords = d.get("coordinates")
+    if (not isinstance(coords, list) or not coords
+            or not all(isinstance(c, str) for c in coords) or len(set(coords)) != len(coords)):
+        raise _malformed(path, "coordinates", "must be a non-empty list of distinct names")
+    conv = d.get("convention")
+    if not isinstance(conv, dict):
+        raise _malformed(path, "convention", "must be a mapping")
+    for k, v in conv.items():
+        if k.endswith("_mev") and v is not None and (
+                isinstance(v, bool) or not isinstance(v, (int, float))
+                or not np.isfinite(v) or v <= 0):
+            raise _malformed(path, f"convention.{k}", f"must be a positive mass, got {v!r}")
+    for key in ("facets", "inner_facets"):
+        facets = d.get(key, [])
+        if not isinstance(facets, list) or (key == "facets" and not facets):
+            raise _malformed(path, key, "no facets")
+        for i, f in enumerate(facets):
+            _check_facet(f, len(coords), path, f"{key}[{i}]")
+
+
+def _check_facet(f: Any, dim: int, path: Any, where: str) -> None:
+    if not isinstance(f, dict):
+        raise _malformed(path, where, "must be a mapping")
+    n, off = f.get("normal"), f.get("offset")
+    if not isinstance(n, list) or len(n) != dim:
+        raise _malformed(path, f"{where}.normal", f"must list {dim} numbers, one per "
+                         "coordinate")
+    nums = [*n, off]
+    if not all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in nums):
+        raise _malformed(path, where, "normal and offset must be numbers")
+    if not np.all(np.isfinite(nums)):
+        raise _malformed(path, where, "normal or offset is not finite")
+    if not np.any(np.asarray(n, dtype=float) != 0):
+        raise _malformed(path, f"{where}.normal", "is zero")
+    status = str(f.get("status", "optimal")).lower()
+    if any(bad in status for bad in _FAILED_STATUS):
+        raise RegionFileError(path, f"{where}.status: '{status}': the solve behind this "
+                              "facet did not succeed, so it is no bound (fix: rebuild the "
+                              "region with `eftsieve region`)")
+
+
+def _check_geometry(region: Region, path: Any) -> None:
+    """The region has an interior (a ball of positive radius fits inside)."""
+    from scipy.optimize import linprog
+
+    a, b = region.arrays()
+    scale = max(1.0, float(np.max(np.abs(b))))
+    box = 1e6 * scale
+    c = np.zeros(region.dim + 1)
+    c[-1] = -1.0
+    res = linprog(c, A_ub=np.hstack([-a, np.ones((len(b), 1))]), b_ub=-b,
+                  bounds=[(-box, box)] * region.dim + [(0, box)], method="highs")
+    if res.status == 2 or (res.status == 0 and res.x[-1] <= 1e-9 * scale):
+        raise _malformed(path, "facets", "the facets leave no interior (empty or flat)")
+
+
+def _region_error(path: Path, problem: str, hint: str) -> RegionFileError:
+    return RegionFileError(path, problem + (f" (fix: {hint})" if hint else ""))
 
 
 def content_hash(body: dict[str, Any]) -> str:

@@ -90,11 +90,30 @@ def check_plots(result: CheckResult, fit: Fit, outdir: Path) -> dict[str, Path]:
     for k, col in cmap_cols.items():
         data[:, col] = result.plot_region_coords[:, k]
         names[col] = f"{region.coordinates[k]} (region)"
-    if len(data) > 1 and np.all(np.ptp(data, axis=0) > 0):
+    keep = plotted_columns(len(names), cmap_cols)
+    data, names = data[:, keep], [names[i] for i in keep]
+    cmap_cols = {k: keep.index(c) for k, c in cmap_cols.items() if c in keep}
+    if corner_drawable(data):
         images["corner"] = save_corner(outdir / "corner.png", data, names,
                                        weights=result.plot_weights, region=region,
                                        region_coords=cmap_cols)
     return images
+
+
+def plotted_columns(n: int, constrained: dict[int, int]) -> list[int]:
+    """The columns drawn in a corner plot: the constrained ones first, then the others,
+    at most :data:`eftsieve.io.limits.MAX_PLOT_COLUMNS` in all (fit order kept)."""
+    from eftsieve.io import limits
+
+    first = sorted(set(constrained.values()))
+    rest = [i for i in range(n) if i not in first]
+    return sorted((first + rest)[:limits.MAX_PLOT_COLUMNS])
+
+
+def corner_drawable(data: np.ndarray) -> bool:
+    """A corner plot needs more rows than columns and a spread in every column."""
+    return bool(len(data) > data.shape[1] + 1 and np.all(np.isfinite(data))
+                and np.all(np.ptp(data, axis=0) > 0))
 
 
 def region_columns(jac: Any) -> dict[int, int]:
@@ -145,7 +164,8 @@ def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir:
 
     outdir = Path(outdir)
     write_samples(result, outdir, csv)
-    images = {"corner": impose_corner(result, fit, region, outdir)} if plots else {}
+    corner = impose_corner(result, fit, region, outdir) if plots else None
+    images = {"corner": corner} if corner is not None else {}
     summary = impose_summary(fit, region, result, region_path)
     atomic_write_json(outdir / "summary.json", summary)
     atomic_write_text(outdir / "report.md", to_markdown(
@@ -170,7 +190,8 @@ def write_samples(result: ImposeResult, outdir: Path, csv: bool) -> list[Path]:
     return paths
 
 
-def impose_corner(result: ImposeResult, fit: Fit, region: Region, outdir: Path) -> Path:
+def impose_corner(result: ImposeResult, fit: Fit, region: Region,
+                  outdir: Path) -> Path | None:
     """corner_before_after.png with the region boundary (in the fit's own coordinates
     where the map is the identity on the constrained columns)."""
     from eftsieve.report.plots import save_corner
@@ -184,7 +205,14 @@ def impose_corner(result: ImposeResult, fit: Fit, region: Region, outdir: Path) 
         before[:, c] = cmap(result.before_samples)[:, k]
         after[:, c] = cmap(result.samples)[:, k]
         names[c] = f"{region.coordinates[k]} (region)"
+    shown = plotted_columns(len(names), cols)
+    if shown != list(range(len(names))):
+        before, after = before[:, shown], after[:, shown]
+        names = [names[i] for i in shown]
+        cols = {k: shown.index(c) for k, c in cols.items() if c in shown}
     keep = min(len(before), CORNER_ROWS)
+    if not corner_drawable(before[:keep]) or not corner_drawable(after[:CORNER_ROWS]):
+        return None
     return save_corner(outdir / "corner_before_after.png", before[:keep], names,
                        weights=None if result.before_weights is None
                        else result.before_weights[:keep],

@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from eftsieve.tolerances import FEASIBILITY_TOL, PSD_TOL
+
 
 def psd_factor(cov: np.ndarray) -> np.ndarray:
     """A factor L with L L^T = cov, for positive semi-definite ``cov`` (eigenvalues clipped
@@ -38,3 +40,34 @@ def draw(mean: np.ndarray, factor: np.ndarray, n: int, rng: np.random.Generator)
             col += z[:, j] * factor[k, j]
         out[:, k] = col
     return out
+
+
+def whitening(cov: np.ndarray) -> np.ndarray:
+    """W (k, r) with cov = W W^T, from the eigen decomposition; eigenvalues below
+    :data:`~eftsieve.tolerances.PSD_TOL` times the largest are dropped, so a singular
+    (positive semi-definite) covariance gives r < k: the Gaussian lives on a subspace."""
+    e, v = np.linalg.eigh(np.asarray(cov, dtype=float))
+    top = float(e.max()) if e.size else 0.0
+    keep = e > PSD_TOL * top if top > 0 else np.zeros(len(e), dtype=bool)
+    return v[:, keep] * np.sqrt(e[keep])
+
+
+def reduce_to_subspace(mean: np.ndarray, w: np.ndarray, a: np.ndarray, b: np.ndarray
+                       ) -> tuple[np.ndarray, np.ndarray, bool]:
+    """The polytope ``a x >= b`` in whitened coordinates z (x = mean + W z, z ~ N(0, I_r)).
+
+    Returns unit-norm rows ``g`` and ``h`` with ``g z >= h``.  Rows the Gaussian cannot
+    move (a W = 0, a direction of zero variance) are dropped when the mean satisfies
+    them; the flag says whether one is violated (then no draw can reach the polytope).
+    """
+    g = a @ w
+    h = b - a @ mean
+    norms = np.linalg.norm(g, axis=1)
+    # relative to the Gaussian's own scale (its largest standard deviation), so that
+    # the test does not depend on the units of the fit
+    wscale = float(np.linalg.norm(w, axis=0).max(initial=0.0))
+    flat = norms <= FEASIBILITY_TOL * np.linalg.norm(a, axis=1) * wscale
+    size = np.maximum(1.0, np.maximum(np.abs(b), np.abs(a @ mean)))
+    unreachable = bool((h[flat] > FEASIBILITY_TOL * size[flat]).any())
+    keep = ~flat
+    return g[keep] / norms[keep, None], h[keep] / norms[keep], unreachable

@@ -20,6 +20,7 @@ from scipy import special
 
 from eftsieve.errors import SolverError
 from eftsieve.region.model import Region
+from eftsieve.stats.gaussian import reduce_to_subspace, whitening
 from eftsieve.tolerances import (
     ACTIVE_TOL,
     DUAL_SIGN_TOL,
@@ -69,55 +70,63 @@ class Tension:
 
 def closest_point(mean: np.ndarray, cov: np.ndarray, a: np.ndarray, b: np.ndarray,
                   ) -> tuple[np.ndarray, float]:
-    """Solve min (x - mean)^T cov^-1 (x - mean) s.t. a x >= b as a QP (cvxpy, Clarabel).
+    """Solve min (x - mean)^T cov^+ (x - mean) s.t. a x >= b, scale-free.
 
-    The solution is verified (primal feasibility and the KKT stationarity residual); an
-    inaccurate or failed solve raises SolverError.
+    The QP is posed in whitened coordinates z (x = mean + W z, cov = W W^T, see
+    :func:`whitening`) with unit-norm constraint rows and the right-hand side scaled to
+    order one, so that its tolerances do not depend on the units of the fit (covariances
+    from 1e-30 to 1e30 behave alike).  A singular covariance is allowed: the distance is
+    measured within its subspace, and is infinite when the region lies off it.  The
+    solution (cvxpy + Clarabel) is verified through the KKT conditions and polished on
+    its active set; a failed or inaccurate solve raises SolverError.
     """
-    if len(b) == 0 or (a @ mean - b).min() >= 0:
-        # the mean satisfies every facet: it is the minimiser (distance 0), no QP needed
-        # (and no cvxpy import, about a second of a check's start-up)
-        return np.array(mean, dtype=float), 0.0
+    w = whitening(cov)
+    if w.shape[1] == 0:  # a point mass: inside or not
+        inside = bool((a @ mean - b >= -FEASIBILITY_TOL * np.maximum(1.0, np.abs(b))).all())
+        return mean.copy(), (0.0 if inside else math.inf)
+    g, h, unreachable = reduce_to_subspace(mean, w, a, b)
+    if unreachable:
+        return mean.copy(), math.inf
+    if not len(h) or h.max() <= 0:  # the mean satisfies every facet
+        return mean.copy(), 0.0
+    scale = float(np.abs(h).max())
+    u = _unit_qp(g, h / scale)
+    z = scale * u
+    return mean + w @ z, float(z @ z)
+
+
+def _unit_qp(g: np.ndarray, h: np.ndarray) -> np.ndarray:
+    """min |u|^2 s.t. g u >= h, with unit rows g and max |h| = 1; verified and polished."""
     import cvxpy as cp
 
-    k = len(mean)
-    chol = np.linalg.cholesky(np.linalg.inv(cov))
-    x = cp.Variable(k)
-    cons = [a @ x >= b]
-    prob = cp.Problem(cp.Minimize(cp.sum_squares(chol.T @ (x - mean))), cons)
+    u = cp.Variable(g.shape[1])
+    cons = [g @ u >= h]
+    prob = cp.Problem(cp.Minimize(cp.sum_squares(u)), cons)
     try:
         prob.solve(solver=cp.CLARABEL)
     except cp.error.SolverError as err:
         raise SolverError("error", f"tension QP ({err})") from err
-    if prob.status != cp.OPTIMAL or x.value is None:
+    if prob.status != cp.OPTIMAL or u.value is None:
         raise SolverError(str(prob.status), "tension QP (minimal Mahalanobis distance)")
-    xv = np.asarray(x.value, dtype=float)
+    uv = np.asarray(u.value, dtype=float)
     lam = np.asarray(cons[0].dual_value, dtype=float)
-    scale = max(1.0, float(np.abs(b).max()) if len(b) else 1.0)
-    if (a @ xv - b).min() < -QP_FEASIBILITY_TOL * scale:
+    if (g @ uv - h).min() < -QP_FEASIBILITY_TOL:
         raise SolverError("infeasible-solution", "tension QP: the solution violates a facet")
-    grad = 2 * np.linalg.solve(cov, xv - mean)
-    resid = grad - a.T @ lam
-    gnorm = float(np.linalg.norm(grad))
-    if float(np.linalg.norm(resid)) > KKT_TOL * max(1.0, gnorm) or (lam < -DUAL_SIGN_TOL).any():
+    resid = 2 * uv - g.T @ lam
+    if float(np.linalg.norm(resid)) > KKT_TOL * max(1.0, 2 * float(np.linalg.norm(uv))) or (
+            lam < -DUAL_SIGN_TOL).any():
         raise SolverError("kkt-failed", f"tension QP: KKT conditions not met to {KKT_TOL:g}")
-    # polish: project onto the active set exactly
-    active = np.nonzero((a @ xv - b) < ACTIVE_TOL * scale)[0]
-    if len(active):
-        xv = _project_active(mean, cov, a[active], b[active], xv)
-    d2 = float((xv - mean) @ np.linalg.solve(cov, xv - mean))
-    return xv, max(d2, 0.0)
-
-
-def _project_active(mean, cov, a_act, b_act, fallback):
-    """Exact minimiser on the affine set a_act x = b_act (if the KKT signs hold)."""
-    m = a_act @ cov @ a_act.T
-    try:
-        lam = np.linalg.solve(m, b_act - a_act @ mean)
-    except np.linalg.LinAlgError:
-        return fallback
-    x = mean + cov @ a_act.T @ lam
-    return x if (lam >= -1e-12).all() else fallback
+    active = np.nonzero((g @ uv - h) < ACTIVE_TOL)[0]
+    if len(active):  # polish: the exact minimiser on the active set, if its signs hold
+        ga = g[active]
+        try:
+            mult = np.linalg.solve(ga @ ga.T, h[active])
+        except np.linalg.LinAlgError:
+            return uv
+        exact = ga.T @ mult
+        if (mult >= -1e-12).all() and (g @ exact - h).min() >= -1e-9:
+            return exact
+    return uv
 
 
 def cone_weights(g: np.ndarray, rng: np.random.Generator, n: int = 200_000) -> np.ndarray:
@@ -209,19 +218,26 @@ def tension(mean: np.ndarray, cov: np.ndarray, region: Region,
     x, d2 = closest_point(mean, cov, a, b)
     scale = max(1.0, float(np.abs(b).max()))
     active = tuple(int(i) for i in np.nonzero((a @ x - b) < ACTIVE_TOL * scale)[0])
-    chol = np.linalg.cholesky(cov)
-    best = (-1.0, np.zeros(len(mean) + 1), "")
+    wf = whitening(cov)
+    best = (-1.0, np.zeros(wf.shape[1] + 1), "")
+    if not math.isfinite(d2):  # the region is off the Gaussian's subspace
+        return Tension(math.inf, x, active, best[1], 0.0, math.inf, "off the subspace")
     inside = d2 <= FEASIBILITY_TOL  # p = 1 whatever the cone: the facet cones suffice
     cones = ((f"facet {i}", [i]) for i in range(len(b))) if inside else _candidate_cones(
         region, a, b)
     for cone, rows in cones:
         # the distance to a cone C is the norm of the projection onto its polar cone, so
         # its chi-bar-squared weights are those of C reversed: v_i = w_(k-i)(C)
-        w = cone_weights(a[rows] @ chol, rng)[::-1]
+        g = a[rows] @ wf
+        g = g[np.linalg.norm(g, axis=1) > 0]
+        if not len(g) or wf.shape[1] == 0:
+            continue
+        w = cone_weights(g / np.linalg.norm(g, axis=1)[:, None], rng)[::-1]
         p = chibar2_sf(d2, w)
         if p > best[0]:
             best = (p, w, cone)
     p, w, cone = best
+    p = max(p, 0.0)
     if inside:
         p = 1.0
     sigma = float(-special.ndtri(p))  # scipy.stats.norm.isf if p < 1.0 else 0.0

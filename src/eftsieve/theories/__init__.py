@@ -54,6 +54,27 @@ def get_theory(name: str) -> Theory:
     return theory
 
 
+def check_region(region: Region, path: object = None) -> None:
+    """A loaded region names a known theory, its coordinates are parameters of that
+    theory and its convention is one the theory offers; RegionFileError otherwise."""
+    from eftsieve.errors import RegionFileError
+
+    fix = "(fix: rebuild it with `eftsieve region`)"
+    try:
+        theory = get_theory(region.theory)
+    except KeyError as err:
+        raise RegionFileError(path, f"theory: {err.args[0]} {fix}") from err
+    unknown = [c for c in region.coordinates if c not in theory.parameter_names]
+    if unknown:
+        raise RegionFileError(path, f"coordinates: '{unknown[0]}' is not a parameter of "
+                              f"{theory.name} {fix}")
+    name = region.convention.get("name")
+    if name not in theory.convention_specs:
+        raise RegionFileError(path, f"convention.name: '{name}' is not a convention of "
+                              f"{theory.name} (it offers {', '.join(theory.convention_specs)}) "
+                              f"{fix}")
+
+
 def coordinate_map(fit: Fit, region: Region) -> CoordinateMap:
     """The map of ``fit``'s parameters to ``region``'s coordinates.
 
@@ -75,4 +96,4 @@ def coordinate_map(fit: Fit, region: Region) -> CoordinateMap:
 
 
 __all__ = ["DEFAULT_THEORY", "REGISTRY", "CoordinateMap", "Theory", "available_theories",
-           "coordinate_map", "get_theory"]
+           "check_region", "coordinate_map", "get_theory"]

@@ -373,10 +373,11 @@ class ChptSU2(Theory):
 
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
         target = region_convention(region)
-        jac = np.zeros((2, len(fit.parameters)))
-        shift = np.zeros(2)
+        jac = np.zeros((region.dim, len(fit.parameters)))
+        shift = np.zeros(region.dim)
         desc = []
-        for k, idx in enumerate((1, 2)):
+        for k, cname in enumerate(region.coordinates):  # by name, not by position
+            idx = lec_index(cname)
             cols = [i for i, p in enumerate(fit.parameters)
                     if p.convention.name in ("lbar", "lr") and lec_index(p.name) == idx]
             if not cols:

@@ -1,0 +1,205 @@
+"""The fault catalogue (issue 17): every case of catalogue.yaml, run in-process.
+
+Each case starts from a folder of good inputs (a Gaussian card, a samples card with its
+CSV, the default chpt-su2 region) and an output folder holding a complete previous
+output set, changes or adds the files the case names, runs ``eftsieve`` through
+:func:`eftsieve.cli.main.main` and asserts:
+
+* the exit code the case records, and no traceback;
+* an error case prints one line that holds the case's message fragment and names the
+  file or option at fault;
+* no input changed (SHA-256 of every file in the case folder outside the output);
+* the output folder holds the complete previous set, unchanged (or, for a case that
+  succeeds, a new complete set whose manifest checks out); no staging, old-set or lock
+  files are left beside it.
+"""
+
+from __future__ import annotations
+
+import copy
+import hashlib
+import importlib
+import json
+import os
+import shutil
+import signal
+from pathlib import Path
+from typing import Any
+
+import pytest
+import yaml
+
+from tests.faults.builders import (
+    BUILDERS,
+    GOOD_CARD,
+    GOOD_SAMPLES_CARD,
+    card_text,
+    good_samples,
+    merge,
+    write_csv,
+)
+
+HERE = Path(__file__).parent
+CASES: list[dict[str, Any]] = yaml.safe_load((HERE / "catalogue.yaml").read_text())["cases"]
+CHECK_ARGS = ["--draws", "2000", "--no-plots", "--seed", "1"]
+#: a case that hangs fails after this long (``--chunk-rows 0`` once hung for ever)
+CASE_SECONDS = 60
+IMPOSE_ARGS = ["--samples", "400", "--no-progress", "--no-plots"]
+
+
+@pytest.fixture(scope="session")
+def region_dict(su2_region) -> dict[str, Any]:
+    return su2_region.to_dict()
+
+
+def _write_base(d: Path, region: dict[str, Any]) -> None:
+    (d / "card.yaml").write_text(card_text(GOOD_CARD, "card.yaml"))
+    (d / "samples_card.yaml").write_text(card_text(GOOD_SAMPLES_CARD, "samples_card.yaml"))
+    write_csv(d / "samples.csv", good_samples())
+    (d / "region.json").write_text(json.dumps(region))
+
+
+def _region_file(region: dict[str, Any], spec: dict[str, Any]) -> str:
+    from eftsieve.region.model import content_hash
+
+    body = copy.deepcopy({k: v for k, v in region.items() if k != "hash"})
+    for k, v in spec.get("region", {}).items():
+        if k.startswith("facet") and k[5:].isdigit():
+            body["facets"][int(k[5:])].update(v)
+        elif k == "all_facets":
+            for f in body["facets"]:
+                f.update(v)
+        else:
+            body = merge(body, {k: v})
+    if spec.get("rehash", True):
+        body["hash"] = content_hash(body)
+    else:
+        body["hash"] = region["hash"]
+    return json.dumps(body)
+
+
+def _make_file(d: Path, name: str, spec: Any, region: dict[str, Any]) -> None:
+    (d / name).parent.mkdir(parents=True, exist_ok=True)
+    if isinstance(spec, str):
+        (d / name).write_text(spec, encoding="utf-8")
+    elif "card" in spec:
+        (d / name).write_text(card_text(merge(GOOD_CARD, spec["card"]), name))
+    elif "samples_card" in spec:
+        (d / name).write_text(card_text(merge(GOOD_SAMPLES_CARD, spec["samples_card"]), name))
+    elif "builder" in spec:
+        BUILDERS[spec["builder"]](d, name)
+    elif "region" in spec:
+        (d / name).write_text(_region_file(region, spec))
+    elif "bytes" in spec:
+        (d / name).write_bytes(bytes.fromhex(spec["bytes"]))
+    else:
+        raise ValueError(f"unknown file spec {spec!r}")
+
+
+def _digest(root: Path, skip: Path) -> dict[str, str]:
+    out = {}
+    for p in sorted(root.rglob("*")):
+        if p.is_file() and skip not in p.parents:
+            out[p.relative_to(root).as_posix()] = hashlib.sha256(p.read_bytes()).hexdigest()
+    return out
+
+
+@pytest.fixture(scope="session")
+def previous_sets(tmp_path_factory, region_dict) -> dict[str, Path]:
+    """A complete check output set and a complete impose output set of the good card."""
+    from eftsieve.cli.main import main
+
+    d = tmp_path_factory.mktemp("previous")
+    _write_base(d, region_dict)
+    sets = {"check": d / "prev_check", "impose": d / "prev_impose"}
+    assert main(["check", str(d / "card.yaml"), "--region", str(d / "region.json"), "-o",
+                 str(sets["check"]), *CHECK_ARGS]) == 0
+    assert main(["impose", str(d / "card.yaml"), "--region", str(d / "region.json"), "-o",
+                 str(sets["impose"]), *IMPOSE_ARGS]) == 0
+    return sets
+
+
+def _argv(case: dict[str, Any], d: Path, out: Path) -> list[str]:
+    def sub(s: str) -> str:
+        return s.replace("{d}", str(d)).replace("{out}", str(out))
+
+    if "argv" in case:
+        return [sub(a) for a in case["argv"]]
+    verb = case.get("verb", "check")
+    fit = sub(case.get("fit", "{d}/card.yaml"))
+    region = [] if case.get("no_region") else ["--region", sub(case.get("region",
+                                                                         "{d}/region.json"))]
+    base = CHECK_ARGS if verb == "check" else IMPOSE_ARGS
+    return [verb, fit, *region, "-o", str(out), *base, *[sub(a) for a in case.get("args", [])]]
+
+
+def _names(case: dict[str, Any]) -> str:
+    if "names" in case:
+        return case["names"]
+    if case.get("files"):
+        return next(iter(case["files"]))
+    opts = [a for a in case.get("args", []) if a.startswith("--")]
+    return opts[0] if opts else "card.yaml"
+
+
+@pytest.mark.parametrize("case", CASES, ids=[c["id"] for c in CASES])
+def test_fault_case(case, tmp_path, region_dict, previous_sets, capsys, monkeypatch):
+    from eftsieve.cli.main import main
+    from eftsieve.io.outset import verify_manifest
+
+    if case.get("skip_root") and os.geteuid() == 0:
+        pytest.skip("root reads every file")
+    d = tmp_path / "case"
+    d.mkdir()
+    _write_base(d, region_dict)
+    for name, spec in (case.get("files") or {}).items():
+        _make_file(d, name, spec, region_dict)
+    for mod_attr, value in (case.get("limits") or {}).items():
+        mod, attr = mod_attr.rsplit(".", 1)
+        monkeypatch.setattr(importlib.import_module(mod), attr, value)
+    if case.get("inject") == "enospc":  # a full disk while the output set is written
+        import errno
+
+        def full(path: Any, data: bytes) -> Path:
+            raise OSError(errno.ENOSPC, "No space left on device", str(path))
+        monkeypatch.setattr("eftsieve.io.atomic.atomic_write_bytes", full)
+    out = Path(str(case.get("out", "{d}/out")).replace("{d}", str(d)))
+    prev = case.get("previous", "impose" if case.get("verb") == "impose" else "check")
+    if prev != "none" and not out.exists():
+        shutil.copytree(previous_sets[prev], out)
+    before_out = _digest(out, tmp_path / "none") if out.is_dir() else None
+    for p in case.get("chmod", []):
+        os.chmod(d / p, 0)
+    inputs = _digest(d, out)
+    capsys.readouterr()
+
+    def too_long(signum: int, frame: Any) -> None:
+        raise TimeoutError(f"case {case['id']} ran over {CASE_SECONDS} s")
+    old = signal.signal(signal.SIGALRM, too_long)
+    signal.alarm(CASE_SECONDS)
+    try:
+        code = main(_argv(case, d, out))
+    except SystemExit as err:  # argparse refuses an option value
+        code = err.code
+    finally:
+        signal.alarm(0)
+        signal.signal(signal.SIGALRM, old)
+    err_text = capsys.readouterr().err
+    for p in case.get("chmod", []):
+        os.chmod(d / p, 0o644)
+    assert code == case["exit"], err_text
+    assert "Traceback" not in err_text
+    if case["exit"] != 0:
+        lines = [ln for ln in err_text.splitlines() if "error" in ln]
+        assert len(lines) == 1, err_text
+        assert case["message"].lower() in lines[0].lower(), lines[0]
+        assert _names(case) in lines[0], lines[0]
+    assert _digest(d, out) == inputs, "an input changed"
+    if case["exit"] == 0 and out.is_dir() and not case.get("out_not_a_set"):
+        assert verify_manifest(out) == []
+    elif before_out is not None and out.is_dir():
+        assert _digest(out, tmp_path / "none") == before_out, "the previous set changed"
+    elif before_out is None and not case.get("out_not_a_set"):
+        assert not out.exists() or not any(out.iterdir()), "a failed run left outputs"
+    leftovers = [p.name for p in out.parent.iterdir() if p.name.startswith(f".{out.name}.")]
+    assert not leftovers, leftovers
