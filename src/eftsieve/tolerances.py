@@ -21,3 +21,18 @@ FEASIBILITY_TOL = 1e-8
 REDUNDANCY_TOL = 1e-9
 #: Effective-sample-size floor below which `impose --mode reweight` refuses.
 MIN_ESS = 400.0
+
+# --- the fit verdict (docs/verdict.md) --------------------------------------------------
+#: A fit is in ``tension`` from this one-sided Gaussian-equivalent significance on: the
+#: tension test's sigma, or p_inside below the matching tail probability Phi(-2) = 0.0228
+#: (two sigma, common practice).
+VERDICT_TENSION_SIGMA = 2.0
+#: A fit is ``excluded`` from this significance on (three sigma, common practice):
+#: tension sigma >= 3, or p_inside below Phi(-3) = 1.35e-3.
+VERDICT_EXCLUDED_SIGMA = 3.0
+#: A Mahalanobis distance below this (relative to 1) is the solver's zero: the mean is
+#: inside and no distance is printed.
+MAHALANOBIS_ZERO = 1e-6
+#: Warn on the console when p_inside before a truncation is below this: the truncated
+#: result is then driven by the bounds, not by the data.
+TINY_P_INSIDE = 1e-6

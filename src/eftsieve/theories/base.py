@@ -133,6 +133,27 @@ class Theory(ABC):
                                      for k, (m, d) in self.kinematic_inputs.items()},
                 "bound_families": list(self.families)}
 
+    def region_kinematics(self, region: Region) -> dict[str, Any]:
+        """The kinematics a region was built at, as every verb prints them.
+
+        The convention's inputs, the region settings in MeV, the convention name, the
+        bound families and a truncation order where there is one.  Theories drop inputs
+        their convention does not use.
+        """
+        out: dict[str, Any] = {k: v for k, v in region.convention.items() if k != "name"}
+        for k, v in region.settings.items():
+            single = k.replace("_masses_", "_mass_")
+            if k.endswith("_mev") and k not in out and not (
+                    single in out and isinstance(v, (list, tuple)) and list(v) == [out[single]]):
+                out[k] = v
+        if "order" in region.settings:
+            out["order"] = region.settings["order"]
+        if region.convention.get("name"):
+            out["convention"] = region.convention["name"]
+        out["families"] = list(region.settings.get("families")
+                               or sorted({f.family for f in region.facets}))
+        return out
+
     def validate_fit(self, fit: Fit) -> None:  # noqa: B027 - optional hook, default no-op
         """Theory-specific semantic checks of a fit (raise InputError); none by default."""
 

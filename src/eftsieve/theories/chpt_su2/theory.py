@@ -278,6 +278,14 @@ class ChptSU2(Theory):
         """Q_j and the one-loop coefficients c_2,j at each facet (see _power_counting)."""
         return _power_counting(region, breakdown_mev)
 
+    def region_kinematics(self, region: Region) -> dict[str, Any]:
+        """The region's kinematics; mu only for the scale-dependent convention (the
+        lbar constants are defined at the pion mass and carry no scale)."""
+        kin = super().region_kinematics(region)
+        if region.convention.get("name") == "lbar" and "mu_mev" not in region.convention:
+            kin.pop("mu_mev", None)
+        return kin
+
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         convs = [p.convention for p in fit.parameters if p.convention.name != "none"]
         m = fit.kinematics.get("pion_mass_mev", DEFAULT_PION_MASS_MEV)
