@@ -4,6 +4,11 @@ The public API (docs/api.md); heavy libraries (cvxpy, matplotlib, emcee, scipy.s
 load only when a function needs them.
 """
 
+# The sub-packages named like API functions load first, so that importing one of their
+# modules later (``import eftsieve.check.verdict``) cannot rebind ``eftsieve.check``
+# from the function to the package.
+import eftsieve.check
+import eftsieve.theories  # noqa: F401
 from eftsieve import errors
 from eftsieve._version import __version__
 from eftsieve.api import (

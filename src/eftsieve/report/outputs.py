@@ -65,7 +65,7 @@ def write_check_outputs(fit: Fit, result: CheckResult, outdir: str | Path, *,
     images = check_plots(result, fit, outdir) if plots else {}
     written = dict(images)
     written["summary"] = atomic_write_json(outdir / "summary.json", result.summary)
-    doc = check_document(fit, result.region, result.summary, result.worst, images)
+    doc = check_document(result, images)
     written["report_md"] = atomic_write_text(outdir / "report.md", to_markdown(doc))
     written["report_html"] = atomic_write_text(outdir / "report.html", to_html(doc))
     return written
