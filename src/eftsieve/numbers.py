@@ -42,8 +42,6 @@ def fmt_pct(p: float) -> str:
         return "0%"
     if p < 1e-5:
         return "< 0.001%"
-    if p >= 1.0:
-        return "100%"
     if p > 1.0 - 1e-5:
         return "> 99.999%"
     return f"{format(100.0 * p, '.3g')}%"
