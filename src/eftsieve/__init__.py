@@ -8,6 +8,7 @@ load only when a function needs them.
 # modules later (``import eftsieve.check.verdict``) cannot rebind ``eftsieve.check``
 # from the function to the package.
 import eftsieve.check
+import eftsieve.impose
 import eftsieve.theories  # noqa: F401
 from eftsieve import errors
 from eftsieve._version import __version__

@@ -23,6 +23,13 @@ def fmt_num(x: float | None, digits: int = DIGITS) -> str:
         return "nan"
     if math.isinf(x):
         return "inf" if x > 0 else "-inf"
+    ax = abs(x)
+    if x == 0.0:
+        return "0"
+    if 1e-3 <= ax < 1e6:  # positional, to `digits` significant digits: 20000, 0.00587
+        dec = max(digits - 1 - math.floor(math.log10(ax)), 0)
+        text = f"{round(x, dec):.{dec}f}"
+        return text.rstrip("0").rstrip(".") if "." in text else text
     return format(x, f".{digits}g")
 
 

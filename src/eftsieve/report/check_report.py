@@ -21,15 +21,6 @@ from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pct, fmt_pm, fmt_prob,
 from eftsieve.report.document import Banner, Bullets, Document, Heading, Image, Para, Table
 
 
-def fmt_g(x: Any, fmt: str = ".4g") -> str:
-    if x is None:
-        return "n/a"
-    try:
-        return format(float(x), fmt)
-    except (TypeError, ValueError):
-        return str(x)
-
-
 def fit_block(fit: Fit) -> list:
     rows = tuple((p.name, p.convention.describe()) for p in fit.parameters)
     kin = ", ".join(f"{k} = {fmt_num(v, 6)}" for k, v in fit.kinematics.items()) or "none stated"

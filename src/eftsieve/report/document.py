@@ -51,7 +51,8 @@ BANNER_STYLE = {"consistent": ("\u2714", "#e3f4e6", "#2e7d32"),
                 "tension": ("\u26a0", "#fff4d6", "#b26a00"),
                 "uncertain": ("?", "#eceff1", "#546e7a"),
                 "excluded": ("\u2716", "#fde4e4", "#b71c1c"),
-                "done": ("\u2714", "#e3f4e6", "#2e7d32"),
+                "imposed": ("\u2714", "#e3f4e6", "#2e7d32"),
+                "bounds-driven": ("\u26a0", "#fff4d6", "#b26a00"),
                 "not converged": ("\u2716", "#fde4e4", "#b71c1c")}
 
 

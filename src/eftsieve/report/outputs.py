@@ -31,7 +31,7 @@ CHECK_OUTPUTS = ("summary.json", "flagged.csv", "report.md", "report.html", "cor
                  "region.png", "region.json")
 #: every file an impose run may write into its output folder
 IMPOSE_OUTPUTS = ("samples.parquet", "samples.csv", "summary.json", "corner_before_after.png",
-                  "report.md", "region.json")
+                  "report.md", "report.html", "region.json")
 #: rows of each sample set drawn in the before/after corner plot
 CORNER_ROWS = 50_000
 
@@ -112,14 +112,21 @@ def region_columns(jac: Any) -> dict[int, int]:
 def impose_summary(fit: Fit, region: Region, result: ImposeResult,
                    region_path: str | None) -> dict[str, Any]:
     """summary.json of an impose run: the result's figures with the fit and the region."""
-    return {**result.figures, "fit": fit.name, "theory": fit.theory,
-            "region_hash": region.hash, "region_file": region_path}
+    from eftsieve._version import __version__
+    from eftsieve.theories import get_theory
+
+    return {**result.to_dict(), "fit": fit.name, "theory": fit.theory,
+            "region_hash": region.hash, "region_file": region_path,
+            "kinematics": get_theory(region.theory).region_kinematics(region),
+            "eftsieve_version": __version__, "converged": result.converged,
+            "driven_by_bounds": result.driven_by_bounds}
 
 
 def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir: str | Path,
                          *, region_path: str | None = None, csv: bool = False,
                          plots: bool = True) -> dict[str, Any]:
-    """Write samples.parquet (and samples.csv), summary.json, report.md and the corner plot.
+    """Write samples.parquet (and samples.csv), summary.json, report.md, report.html and
+    the corner plot.
 
     Parameters
     ----------
@@ -140,7 +147,7 @@ def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir:
         The summary written to summary.json.
     """
     from eftsieve.io.atomic import atomic_write_json, atomic_write_text
-    from eftsieve.report.document import to_markdown
+    from eftsieve.report.document import to_html, to_markdown
     from eftsieve.report.impose_report import impose_document
 
     outdir = Path(outdir)
@@ -148,8 +155,9 @@ def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir:
     images = {"corner": impose_corner(result, fit, region, outdir)} if plots else {}
     summary = impose_summary(fit, region, result, region_path)
     atomic_write_json(outdir / "summary.json", summary)
-    atomic_write_text(outdir / "report.md", to_markdown(
-        impose_document(fit, region, summary, images)))
+    doc = impose_document(fit, region, result, images, summary["kinematics"])
+    atomic_write_text(outdir / "report.md", to_markdown(doc))
+    atomic_write_text(outdir / "report.html", to_html(doc))
     return summary
 
 
