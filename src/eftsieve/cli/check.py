@@ -47,6 +47,9 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("--chunk-rows", type=int, default=1_000_000,
                    help="rows per chunk (default 1000000)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
+    p.add_argument("--flagged", action="store_true",
+                   help="write flagged.csv for the synthetic draws of a Gaussian card too "
+                        "(default: only for the rows of a samples file)")
     p.add_argument("--json", action="store_true",
                    help="print summary.json to stdout instead of the text summary")
     p.add_argument("-q", "--quiet", action="store_true",
@@ -111,7 +114,8 @@ def cmd_check_one(args: argparse.Namespace) -> int:
     region, rpath = region_for(fit, args, outdir)
     settings = _settings(args)
     unc = uncertainty_from_args(args)
-    result = run_check(fit, region, settings, outdir, rpath, unc,
+    flag_dir = outdir if (not fit.is_gaussian or args.flagged) else None
+    result = run_check(fit, region, settings, flag_dir, rpath, unc,
                        engine=args.engine or "local", scheduler=args.scheduler)
     write_check_outputs(fit, result, outdir, plots=not args.no_plots)
     if args.json:

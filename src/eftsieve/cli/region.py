@@ -47,5 +47,8 @@ def cmd_region(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(region.summary(), indent=2))
     else:
+        from eftsieve.numbers import fmt_kinematics
+
         print(describe_region(region, args.output))
+        print(f"  kinematics: {fmt_kinematics(get_theory(region.theory).region_kinematics(region))}")
     return 0

@@ -207,7 +207,10 @@ def worst_block(result: CheckResult, limit: int = 10) -> list:
     """The most violated rows of a samples file (synthetic Gaussian draws are not shown)."""
     worst: tuple[WorstPoint, ...] = result.worst
     if result.source == "gaussian":
-        return []
+        return [Heading("Flagged points"),
+                Para("The points of a Gaussian card are synthetic draws, so none is listed "
+                     "here and flagged.csv is not written (`eftsieve check --flagged` writes "
+                     "it); the per-facet table above gives the exact probabilities.")]
     if not worst:
         return [Heading("Flagged rows"), Para("No row violates a facet.")]
     rows = tuple((str(w.row), ", ".join(fmt_num(x) for x in w.region_point),

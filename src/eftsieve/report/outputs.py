@@ -89,7 +89,7 @@ def check_plots(result: CheckResult, fit: Fit, outdir: Path) -> dict[str, Path]:
     names = list(fit.names)
     for k, col in cmap_cols.items():
         data[:, col] = result.plot_region_coords[:, k]
-        names[col] = f"{region.coordinates[k]} (region)"
+        names[col] = region.coordinates[k]
     if len(data) > 1 and np.all(np.ptp(data, axis=0) > 0):
         images["corner"] = save_corner(outdir / "corner.png", data, names,
                                        weights=result.plot_weights, region=region,
@@ -191,7 +191,7 @@ def impose_corner(result: ImposeResult, fit: Fit, region: Region, outdir: Path) 
     for k, c in cols.items():
         before[:, c] = cmap(result.before_samples)[:, k]
         after[:, c] = cmap(result.samples)[:, k]
-        names[c] = f"{region.coordinates[k]} (region)"
+        names[c] = region.coordinates[k]
     keep = min(len(before), CORNER_ROWS)
     return save_corner(outdir / "corner_before_after.png", before[:keep], names,
                        weights=None if result.before_weights is None
