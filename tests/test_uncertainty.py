@@ -77,7 +77,7 @@ def test_soft_truncation_1d_against_quadrature():
     x = res.samples[:, 1]
     assert x.mean() == pytest.approx(m1, abs=5 * math.sqrt(m2 / len(x)))
     assert x.var() == pytest.approx(m2, rel=0.03)
-    assert res.summary["p_inside_before"] == pytest.approx(z, abs=0.01)
+    assert res.figures["p_inside_before"] == pytest.approx(z, abs=0.01)
 
 
 def test_sigma_to_zero_reduces_to_hard_edges():
@@ -147,6 +147,6 @@ def test_soft_refit_1d_against_quadrature():
     z = integrate.quad(dens, -10, 10)[0]
     m1 = integrate.quad(lambda x: x * dens(x), -10, 10)[0] / z
     sd = math.sqrt(integrate.quad(lambda x: x * x * dens(x), -10, 10)[0] / z - m1**2)
-    assert res.summary["converged"] and res.summary["truncation"] == "soft"
-    assert res.samples[:, 1].mean() == pytest.approx(m1, abs=5 * sd / math.sqrt(res.summary["ess"]))
+    assert res.figures["converged"] and res.figures["truncation"] == "soft"
+    assert res.samples[:, 1].mean() == pytest.approx(m1, abs=5 * sd / math.sqrt(res.figures["ess"]))
     assert res.samples[:, 1].min() < b      # soft: points below the hard edge are allowed

@@ -189,6 +189,11 @@ def p_inside_text(p: float, err: float, ess: float) -> str:
     return f"{fmt_prob(p)} +- {fmt_num(err, 2)}"
 
 
+def p_inside_clause(ptext: str) -> str:
+    """``p_inside = 0.447`` or, for a bound, ``p_inside > 1 - 0.00015 at 95%``."""
+    return f"p_inside {ptext}" if ptext[:1] in "<>" else f"p_inside = {ptext}"
+
+
 def tension_text(ten: Tension, facets: tuple[FacetViolation, ...]) -> str:
     """The tension for people: none (with the distance inside), finite, or infinite and why."""
     if ten.mahalanobis_min <= MAHALANOBIS_ZERO:
@@ -213,13 +218,13 @@ def _reason(label: str, mean_inside: bool, facets: tuple[FacetViolation, ...],
     if mean_inside:
         near = min(facets, key=lambda v: v.distance_sigma)
         return (f"the mean lies {fmt_sigma(near.distance_sigma)} inside the nearest facet, "
-                f"{short_name(near)}; p_inside = {ptext}")
+                f"{short_name(near)}; {p_inside_clause(ptext)}")
     worst = min(facets, key=lambda v: v.distance_sigma)
     n_out = sum(v.distance_sigma < 0 for v in facets)
     more = f" and {n_out - 1} other facet(s)" if n_out > 1 else ""
     return (f"the mean lies {fmt_sigma(worst.distance_sigma)} outside {short_name(worst)}"
             f"{more}; {fmt_pct(worst.p_violate)} of the probability violates it, "
-            f"p_inside = {ptext}")
+            f"{p_inside_clause(ptext)}")
 
 
 def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,

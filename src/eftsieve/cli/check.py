@@ -18,6 +18,7 @@ from eftsieve.cli.args import (
     region_for,
     uncertainty_from_args,
 )
+from eftsieve.check.verdict import p_inside_clause
 from eftsieve.numbers import fmt_kinematics, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.tolerances import MARGINAL_BAND
 
@@ -145,7 +146,7 @@ def summary_lines(result: CheckResult, rpath: str | None) -> list[str]:
              f"{result.region.theory} ({len(result.region.facets)} facets, region {rpath})",
              f"  kinematics: {fmt_kinematics(result.kinematics)}",
              f"  inside {c.inside}, marginal {c.marginal}, outside {c.outside}{unc}",
-             f"  p_inside = {v.p_inside_text}; tension: {v.tension_text}"]
+             f"  {p_inside_clause(v.p_inside_text)}; tension: {v.tension_text}"]
     tu = result.theory_uncertainty
     if tu:
         lines.append(f"  with theory uncertainty ({result.truncation_model}): p_inside = "

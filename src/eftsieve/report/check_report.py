@@ -13,7 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from eftsieve.check.result import CheckResult, WorstPoint
-from eftsieve.check.verdict import FacetViolation
+from eftsieve.check.verdict import FacetViolation, p_inside_clause
 from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
 from eftsieve.report.cautions import ASSUMPTIONS, cautions_for
@@ -72,7 +72,7 @@ def header_block(result: CheckResult) -> list:
                      f"Checked {result.n_total} {what} of `{result.fit.name}` against "
                      f"`{result.region.theory}` ({len(result.region.facets)} facets, content "
                      f"hash `{result.region.hash[:16]}`).",
-                     f"p_inside = {v.p_inside_text}; tension: {v.tension_text}."))]
+                     f"{p_inside_clause(v.p_inside_text)}; tension: {v.tension_text}."))]
 
 
 def _distance(v: FacetViolation) -> str:
