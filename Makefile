@@ -25,7 +25,7 @@ test-all: $(STAMP)
 
 # report.html of three invented verdict cases, screenshotted in headless Chromium
 screenshots: $(STAMP)
-	EFTSIEVE_SCREENSHOT_DIR=$(CURDIR)/screenshots $(BIN)/python -m pytest -q tests/report/test_screenshots.py
+	EFTSIEVE_SCREENSHOT_DIR=$(CURDIR)/docs/screenshots $(BIN)/python -m pytest -q tests/report/test_screenshots.py
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/run_all.py
