@@ -4,9 +4,9 @@ The public API (docs/api.md); heavy libraries (cvxpy, matplotlib, emcee, scipy.s
 load only when a function needs them.
 """
 
-# The sub-packages named like API functions load first, so that importing one of their
-# modules later (``import eftsieve.check.verdict``) cannot rebind ``eftsieve.check``
-# from the function to the package.
+# The (light) sub-packages named like API functions load first, so that importing one
+# of their modules later (``import eftsieve.check.verdict``) cannot rebind
+# ``eftsieve.check`` from the function to the package.
 import eftsieve.check
 import eftsieve.impose
 import eftsieve.theories  # noqa: F401

@@ -129,11 +129,10 @@ def _column_names(path: str | Path, columns: str | None) -> tuple[str, ...]:
 def default_region(fit: Fit) -> Region:
     """The region of the fit's theory at the fit's own kinematics (the theory's defaults
     for everything else)."""
-    from eftsieve.theories import get_theory
-
     import warnings
 
     from eftsieve.errors import InputNotice
+    from eftsieve.theories import get_theory
 
     th = get_theory(fit.theory)
     for text in th.region_default_notices(fit):

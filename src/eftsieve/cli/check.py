@@ -18,7 +18,6 @@ from eftsieve.cli.args import (
     region_for,
     uncertainty_from_args,
 )
-from eftsieve.check.verdict import p_inside_clause
 from eftsieve.numbers import fmt_kinematics, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.tolerances import MARGINAL_BAND
 
@@ -136,6 +135,8 @@ def cmd_check_one(args: argparse.Namespace) -> int:
 def summary_lines(result: CheckResult, rpath: str | None) -> list[str]:
     """What the terminal shows after a check: the verdict first, then the kinematics the
     region was built at, the counts, p_inside and the tension, all from the typed result."""
+    from eftsieve.check.verdict import p_inside_clause
+
     v = result.verdict
     c = result.counts
     what = ("Gaussian draws" if result.source == "gaussian" else

@@ -50,5 +50,6 @@ def cmd_region(args: argparse.Namespace) -> int:
         from eftsieve.numbers import fmt_kinematics
 
         print(describe_region(region, args.output))
-        print(f"  kinematics: {fmt_kinematics(get_theory(region.theory).region_kinematics(region))}")
+        kin = get_theory(region.theory).region_kinematics(region)
+        print(f"  kinematics: {fmt_kinematics(kin)}")
     return 0

@@ -10,14 +10,13 @@ as in the terminal.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
 
 from eftsieve.check.result import CheckResult, WorstPoint
 from eftsieve.check.verdict import FacetViolation, p_inside_clause
 from eftsieve.fit.model import Fit
+from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.region.model import Region
 from eftsieve.report.cautions import ASSUMPTIONS, cautions_for
-from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.report.document import Banner, Bullets, Document, Heading, Image, Para, Table
 
 
