@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test test-all bench lint clean
+.PHONY: demo test test-all bench lint clean screenshots
 
 $(BIN)/python:
 	$(PY) -m venv $(VENV)
@@ -22,6 +22,10 @@ test: $(STAMP)
 
 test-all: $(STAMP)
 	$(BIN)/python -m pytest -m "slow or not slow"
+
+# report.html of three invented verdict cases, screenshotted in headless Chromium
+screenshots: $(STAMP)
+	EFTSIEVE_SCREENSHOT_DIR=$(CURDIR)/docs/screenshots $(BIN)/python -m pytest -q tests/report/test_screenshots.py
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/run_all.py

@@ -38,7 +38,7 @@ from eftsieve.theories.chpt_su2.observables import (
 HERE = Path(__file__).parent
 TRUE_LBAR = np.array([-2.0, 3.75, 2.9, 4.4])          # invented, at M_pi = 139.57 MeV
 ENSEMBLES = [(139.57, 92.07), (220.0, 98.0), (300.0, 105.0)]   # invented (M_pi, F_pi) in MeV
-NAMES = ["a0_0", "a0_2", "a2_0", "a2_2"]
+NAMES = ["a_I0_l0", "a_I0_l2", "a_I2_l0", "a_I2_l2"]
 
 
 def observables(rng: np.random.Generator) -> dict:

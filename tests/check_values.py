@@ -49,8 +49,8 @@ def d_wave_closed(lbar, f):
     a_2^0, a_2^2 in units of M_pi, F = F_pi/M_pi (from memory; also quoted in
     arXiv:hep-ph/9707291)."""
     l1, l2, _, _ = lbar
-    return {"a0_2": (l1 + 4 * l2 - 53 / 8) / (1440 * _PI**3 * f**4),
-            "a2_2": (l1 + l2 - 103 / 40) / (1440 * _PI**3 * f**4)}
+    return {"a_I0_l2": (l1 + 4 * l2 - 53 / 8) / (1440 * _PI**3 * f**4),
+            "a_I2_l2": (l1 + l2 - 103 / 40) / (1440 * _PI**3 * f**4)}
 
 
 def s_p_wave_closed(lbar, f):
@@ -60,21 +60,21 @@ def s_p_wave_closed(lbar, f):
     l1, l2, l3, l4 = lbar
     x = 1 / (12 * _PI**2 * f**2)
     return {
-        "a0_0": 7 / (32 * _PI * f**2)
+        "a_I0_l0": 7 / (32 * _PI * f**2)
         * (1 + 5 / 7 * x * (l1 + 2 * l2 - 3 / 8 * l3 + 21 / 10 * l4 + 21 / 8)),
-        "b0_0": 1 / (4 * _PI * f**2) * (1 + x * (2 * l1 + 3 * l2 + 1.5 * l4 - 13 / 16)),
-        "a2_0": -1 / (16 * _PI * f**2)
+        "b_I0_l0": 1 / (4 * _PI * f**2) * (1 + x * (2 * l1 + 3 * l2 + 1.5 * l4 - 13 / 16)),
+        "a_I2_l0": -1 / (16 * _PI * f**2)
         * (1 - x * (l1 + 2 * l2 - 3 / 8 * l3 - 1.5 * l4 + 3 / 8)),
-        "b2_0": -1 / (8 * _PI * f**2) * (1 - x * (l1 + 3 * l2 - 1.5 * l4 - 5 / 16)),
-        "a1_1": 1 / (24 * _PI * f**2) * (1 - x * (l1 - l2 - 1.5 * l4 + 65 / 48)),
-        "b1_1": (l2 - l1 + 97 / 120) / (288 * _PI**3 * f**4),
+        "b_I2_l0": -1 / (8 * _PI * f**2) * (1 - x * (l1 + 3 * l2 - 1.5 * l4 - 5 / 16)),
+        "a_I1_l1": 1 / (24 * _PI * f**2) * (1 - x * (l1 - l2 - 1.5 * l4 + 65 / 48)),
+        "b_I1_l1": (l2 - l1 + 97 / 120) / (288 * _PI**3 * f**4),
     }
 
 
 # Weinberg, Phys. Rev. Lett. 17 (1966) 616: leading-order threshold parameters times F^2
 # (a_0^0, a_0^2 published; the slopes and a_1^1 by projecting A = (s - M^2)/F^2).
-LEADING_ORDER = {"a0_0": 7 / (32 * _PI), "a2_0": -1 / (16 * _PI), "b0_0": 1 / (4 * _PI),
-                 "b2_0": -1 / (8 * _PI), "a1_1": 1 / (24 * _PI)}
+LEADING_ORDER = {"a_I0_l0": 7 / (32 * _PI), "a_I2_l0": -1 / (16 * _PI), "b_I0_l0": 1 / (4 * _PI),
+                 "b_I2_l0": -1 / (8 * _PI), "a_I1_l1": 1 / (24 * _PI)}
 
 # Lovasz, "On the Shannon capacity of a graph", IEEE Trans. Inf. Theory 25 (1979) 1:
 # the theta function of the 5-cycle is sqrt(5).

@@ -26,7 +26,7 @@ def load_fit(path: str | Path) -> Fit:
     return _load(path, get_theory)
 
 
-def load_samples(path: str | Path, theory: str, convention: str, *,
+def load_samples(path: str | Path, theory: str | None = None, convention: str | None = None, *,
                  weight_column: str | None = None, name: str | None = None,
                  columns: str | None = None, burn_in: int | None = None,
                  thin: int | None = None, walkers: str | None = None,
@@ -38,6 +38,11 @@ def load_samples(path: str | Path, theory: str, convention: str, *,
     Columns that ``theory`` knows get ``convention`` (with the kinematic values it needs,
     e.g. ``mu_mev=770``); the others are carried through as nuisance parameters.
     ``burn_in``, ``thin`` and ``walkers`` apply to sampler files (docs/formats.md).
+
+    Without ``theory`` and ``convention`` they are inferred from the column names when
+    exactly one theory claims them (``lbar1, lbar2``), with a printed notice
+    (:class:`~eftsieve.errors.InputNotice`); a kinematic input with a theory default
+    (the physical pion mass for lbar) is taken with a notice too.
     """
     from eftsieve.errors import InputError
     from eftsieve.fit.conventions import NONE, Convention, make_convention
@@ -46,6 +51,8 @@ def load_samples(path: str | Path, theory: str, convention: str, *,
     from eftsieve.io.readers.options import parse_options
     from eftsieve.theories import get_theory
 
+    if theory is None or convention is None:
+        theory, convention = infer_theory(path, theory, convention, columns)
     try:
         th = get_theory(theory)
     except KeyError as err:
@@ -59,6 +66,16 @@ def load_samples(path: str | Path, theory: str, convention: str, *,
     else:
         spec = th.convention_specs[convention]
         for key, what in spec.needs:
+            default = th.convention_default(convention, key)
+            if key not in kin and default is not None:
+                import warnings
+
+                from eftsieve.errors import InputNotice
+
+                kin[key] = default
+                warnings.warn(InputNotice(f"convention '{convention}' without {key}: "
+                                          f"taken as {default:g} ({th.name} default)"),
+                              stacklevel=2)
             if key not in kin:
                 raise InputError(None, key, f"convention '{convention}' needs {what}",
                                  f"give {key} (MeV)")
@@ -69,24 +86,102 @@ def load_samples(path: str | Path, theory: str, convention: str, *,
                             columns=None if columns is None else parse_columns_flag(columns))
 
 
+def infer_theory(path: str | Path, theory: str | None, convention: str | None,
+                 columns: str | None) -> tuple[str, str]:
+    """The theory and convention a bare samples file's column names imply, asked of every
+    theory (:meth:`~eftsieve.theories.base.Theory.infer_convention`); InputError unless
+    exactly one answers."""
+    import warnings
+
+    from eftsieve.errors import InputError, InputNotice
+    from eftsieve.theories import available_theories, get_theory
+
+    names = _column_names(path, columns)
+    pool = [theory] if theory else list(available_theories())
+    found = [(t, c) for t in pool for c in [get_theory(t).infer_convention(names)]
+             if c is not None and (convention is None or c == convention)]
+    if len(found) != 1:
+        what = "no theory claims" if not found else "several theories claim"
+        raise InputError(path, "--theory", f"{what} the columns {', '.join(names)}",
+                         "add --theory NAME --convention NAME (see `eftsieve theories`)")
+    t, c = found[0]
+    warnings.warn(InputNotice(f"{Path(path).name}: columns {', '.join(names)} read as "
+                              f"theory {t}, convention {c} (override with --theory and "
+                              "--convention)"), stacklevel=3)
+    return t, c
+
+
+def _column_names(path: str | Path, columns: str | None) -> tuple[str, ...]:
+    """The parameter names a bare file offers (its columns, or the --columns names)."""
+    from eftsieve.fit.bookkeeping import split_columns
+    from eftsieve.io.readers.columns import parse_columns_flag
+    from eftsieve.io.readers.options import ReadOptions
+    from eftsieve.io.samples import SamplesSource, detect_format
+
+    if columns is not None:
+        return tuple(parse_columns_flag(columns).names)
+    p = Path(path)
+    table = SamplesSource(p, detect_format(p, None, "--samples"), (),
+                          options=ReadOptions()).column_table()
+    return split_columns([str(c) for c in table.labels], None).parameters
+
+
 def default_region(fit: Fit) -> Region:
     """The region of the fit's theory at the fit's own kinematics (the theory's defaults
     for everything else)."""
+    import warnings
+
+    from eftsieve.errors import InputNotice
     from eftsieve.theories import get_theory
 
     th = get_theory(fit.theory)
+    for text in th.region_default_notices(fit):
+        warnings.warn(InputNotice(text), stacklevel=2)
     return th.build_region(th.region_settings_for_fit(fit))
 
 
-def region_for(fit: Fit, region_path: str | Path | None, outdir: Path) -> tuple[Region, str]:
+def region_for(fit: Fit, region_path: str | Path | None, outdir: Path, *,
+               allow_mismatch: bool = False) -> tuple[Region, str]:
     """The region file given (loaded and verified), or the fit's own region built with
-    :func:`default_region` and saved as ``outdir/region.json``; with the path used."""
+    :func:`default_region` and saved as ``outdir/region.json``; with the path used.
+
+    A region file whose kinematics disagree with the fit's stated ones is refused
+    (InputError naming both) unless ``allow_mismatch``.
+    """
     if region_path is not None:
-        return load_region(region_path), str(region_path)
+        region = load_region(region_path)
+        check_kinematics(fit, region, str(region_path), allow_mismatch)
+        return region, str(region_path)
     region = default_region(fit)
     path = Path(outdir) / "region.json"
     region.save(path)
     return region, str(path)
+
+
+def check_kinematics(fit: Fit, region: Region, region_path: str | None = None,
+                     allow_mismatch: bool = False) -> None:
+    """Refuse a region built at other kinematics than the fit states (the theory of the
+    region compares them), unless ``allow_mismatch``, which warns instead."""
+    import warnings
+
+    from eftsieve.errors import InputError, KinematicsWarning
+    from eftsieve.theories import get_theory
+
+    try:
+        problems = get_theory(region.theory).kinematics_mismatch(fit, region)
+    except KeyError:
+        return
+    if not problems:
+        return
+    text = "; ".join(problems)
+    if allow_mismatch:
+        warnings.warn(KinematicsWarning(f"region {region_path}: {text} (allowed by "
+                                        "--allow-kinematics-mismatch)"), stacklevel=2)
+        return
+    key = problems[0].split(":")[0]
+    raise InputError(fit.source, f"kinematics.{key}", f"disagrees with the region file "
+                     f"{region_path}: {text}", "rebuild the region at the fit's kinematics "
+                     "(drop --region), or pass --allow-kinematics-mismatch")
 
 
 def load_region(path: str | Path) -> Region:

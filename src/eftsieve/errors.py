@@ -132,6 +132,12 @@ class EftsieveWarning(UserWarning):
     """Base class of every warning issued by eftsieve."""
 
 
+class InputNotice(EftsieveWarning):
+    """A default or an inference applied to the user's input (a kinematic default, a
+    theory read from column names, a weight or bookkeeping column recognised).  The
+    command line prints it as a one-line notice, so that no default is silent."""
+
+
 class KinematicsWarning(EftsieveWarning):
     """A kinematic input lies where the EFT expansion is not trustworthy."""
 

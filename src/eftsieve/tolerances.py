@@ -38,3 +38,18 @@ CONE_CERT_TOL = 1e-6
 #: Positivity cones: a membership solve whose verified margin (relative) is within this
 #: band of zero is not a verdict (``marginal``, boundary within the solver's accuracy).
 CONE_BOUNDARY_TOL = 1e-7
+
+# --- the fit verdict (docs/verdict.md) --------------------------------------------------
+#: A fit is in ``tension`` from this one-sided Gaussian-equivalent significance on: the
+#: tension test's sigma, or p_inside below the matching tail probability Phi(-2) = 0.0228
+#: (two sigma, common practice).
+VERDICT_TENSION_SIGMA = 2.0
+#: A fit is ``excluded`` from this significance on (three sigma, common practice):
+#: tension sigma >= 3, or p_inside below Phi(-3) = 1.35e-3.
+VERDICT_EXCLUDED_SIGMA = 3.0
+#: A Mahalanobis distance below this (relative to 1) is the solver's zero: the mean is
+#: inside and no distance is printed.
+MAHALANOBIS_ZERO = 1e-6
+#: Warn on the console when p_inside before a truncation is below this: the truncated
+#: result is then driven by the bounds, not by the data.
+TINY_P_INSIDE = 1e-6

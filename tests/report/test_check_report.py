@@ -21,7 +21,7 @@ def _report() -> str:
     fit = gaussian_fit([0.5, 1.1], [[0.5, 0.1], [0.1, 0.2]], name="golden", prior=prior)
     reg = region(((0, 1), 1.0), ((1, 2), 3.0))
     res = run_check(fit, reg, CheckSettings(draws=20_000, seed=11), None)
-    return to_markdown(check_document(fit, reg, res.summary, res.worst, {}))
+    return to_markdown(check_document(res, {}))
 
 
 def test_report_matches_golden_text():
@@ -75,7 +75,7 @@ def _samples_report(tmp_path, rho, n=20_000):
               samples=SamplesSource(path, "csv", ("lbar1", "lbar2")))
     reg = region(((0, 1), 1.0), ((1, 2), 3.0))
     res = run_check(fit, reg, CheckSettings(seed=1), None)
-    return res.summary, to_markdown(check_document(fit, reg, res.summary, res.worst, {}))
+    return res.summary, to_markdown(check_document(res, {}))
 
 
 def test_report_gives_the_batch_means_error_of_correlated_samples(tmp_path):

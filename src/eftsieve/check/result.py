@@ -9,10 +9,12 @@ from __future__ import annotations
 
 import logging
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any
 
 import numpy as np
 
+from eftsieve.check.verdict import FitVerdict, fit_verdict
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError, SolverError
 from eftsieve.fit.model import Fit
@@ -154,13 +156,43 @@ class CheckResult:
         """``gaussian`` (draws from a mean and covariance) or ``samples`` (rows of a file)."""
         return "gaussian" if self.fit.is_gaussian else "samples"
 
+    @cached_property
+    def verdict(self) -> FitVerdict:
+        """The fit verdict (consistent / tension / excluded / uncertain) with its reason
+        and the per-facet table (:mod:`eftsieve.check.verdict`)."""
+        exact = self.fit.is_gaussian and self.coordinate_map.is_affine
+        tu = self.theory_uncertainty
+        return fit_verdict(self.region, self.mean_region, self.cov_region, self.tension,
+                           self.p_inside, self.p_inside_err, self.ess, exact=exact,
+                           rows=self.plot_region_coords, weights=self.plot_weights,
+                           model=tu)
+
+    @property
+    def truncation_model(self) -> str:
+        """The theory-uncertainty model of the bounds' offsets (``none``: hard facets)."""
+        tu = self.theory_uncertainty
+        return "none" if not tu else str(tu["model"]["settings"]["model"])
+
+    @cached_property
+    def kinematics(self) -> dict[str, Any]:
+        """The region's kinematics (pion masses, mu, convention, families) and the
+        truncation model, as every verb prints them."""
+        from eftsieve.theories import get_theory
+
+        kin = get_theory(self.region.theory).region_kinematics(self.region)
+        return {**kin, "truncation_model": self.truncation_model}
+
     @property
     def summary(self) -> dict[str, Any]:
         """The summary.json content (same as :meth:`to_dict`)."""
         return self.to_dict()
 
     def to_dict(self) -> dict[str, Any]:
+        from eftsieve._version import __version__
+
         out: dict[str, Any] = {
+            "verdict": self.verdict.to_dict(), "kinematics": self.kinematics,
+            "eftsieve_version": __version__,
             "fit": self.fit.name, "theory": self.fit.theory, "region_hash": self.region.hash,
             "region_file": self.region_file, "n_total": self.n_total, **self.counts.to_dict(),
             "ess": self.ess, "p_inside_mc": self.p_inside_mc,
@@ -174,13 +206,14 @@ class CheckResult:
             **self.tension.to_dict(), **self.bayes.to_dict(), "engine": dict(self.engine)}
         if self.theory_uncertainty is not None:
             out["theory_uncertainty"] = self.theory_uncertainty
+        out["facets"] = [v.to_dict() for v in self.verdict.facets]
         return out
 
     def __repr__(self) -> str:
         return (f"CheckResult(fit={self.fit.name!r}, region={self.region.theory!r}, "
                 f"n={self.n_total}, inside={self.counts.inside}, "
-                f"outside={self.counts.outside}, p_inside={self.p_inside:.4g}, "
-                f"tension={self.tension.sigma:.2f} sigma)")
+                f"outside={self.counts.outside}, p_inside={self.verdict.p_inside_text}, "
+                f"verdict={self.verdict.label!r})")
 
 
 def gaussian_probability(fit: Fit, region: Region, cmap: CoordinateMap,

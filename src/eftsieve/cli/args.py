@@ -138,6 +138,9 @@ def add_fit_args(p: argparse.ArgumentParser, many: bool = False) -> None:
         p.add_argument("fit", help="fit card (.yaml/.json) or a bare samples file "
                        "(.csv/.parquet/.nc)")
     p.add_argument("--region", default=None, help="region file (default: build from the fit)")
+    p.add_argument("--allow-kinematics-mismatch", action="store_true",
+                   help="use a --region file built at other kinematics than the fit states "
+                        "(default: refuse)")
     p.add_argument("-o", "--output", default=None, metavar="DIR", help="output directory")
     p.add_argument("--seed", type=nonnegative_int, default=0, help="random seed (default 0)")
     add_samples_args(p)
@@ -192,10 +195,6 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
     if (path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir()
             and not (path.suffix.lower() == ".json" and is_gvar_json(path))):
         return load_fit(path)
-    if not args.theory or not args.convention:
-        raise InputError(path, None, "a bare samples file needs its theory and convention",
-                         "add --theory NAME --convention NAME (and --pion-mass, "
-                         "--scale or --gap)")
     given = {"pion_mass_mev": args.pion_mass, "mu_mev": args.scale,
              "gap_mev": getattr(args, "gap", None)}
     try:
@@ -258,7 +257,8 @@ def region_for(fit: Fit, args: argparse.Namespace, outdir: Path) -> tuple[Region
     """The region from --region, or built from the fit and saved next to the outputs."""
     from eftsieve.api import region_for as _region_for
 
-    return _region_for(fit, args.region, outdir)
+    return _region_for(fit, args.region, outdir,
+                       allow_mismatch=getattr(args, "allow_kinematics_mismatch", False))
 
 
 def input_files(fit: Fit, args: argparse.Namespace, *extra: str | None) -> list[Any]:

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import argparse
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from eftsieve.cli.args import (
     add_fit_args,
@@ -21,7 +21,11 @@ from eftsieve.cli.args import (
     region_for,
     uncertainty_from_args,
 )
+from eftsieve.numbers import fmt_kinematics, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.tolerances import MARGINAL_BAND
+
+if TYPE_CHECKING:
+    from eftsieve.check.result import CheckResult
 
 #: exit code of ``--fail-below P`` when p_inside < P
 EXIT_BELOW_THRESHOLD = 6
@@ -49,6 +53,14 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("--flagged-format", choices=["csv", "parquet"], default="csv",
                    help="file of the rows not inside: flagged.csv or flagged.parquet "
                         "(default csv)")
+    p.add_argument("--flagged", action="store_true",
+                   help="write the flagged file for the synthetic draws of a Gaussian card too "
+                        "(default: only for the rows of a samples file)")
+    p.add_argument("--json", action="store_true",
+                   help="print summary.json to stdout instead of the text summary")
+    p.add_argument("-q", "--quiet", action="store_true",
+                   help="print nothing but errors (the exit code and the output folder "
+                        "carry the result)")
     p.set_defaults(func=cmd_check)
     return p
 
@@ -113,30 +125,47 @@ def cmd_check_one(args: argparse.Namespace) -> int:
         region, rpath = region_for(fit, args, stage)
         if args.region is None:  # built and saved into the set: record its final place
             rpath = str(outdir / "region.json")
-        result = run_check(fit, region, settings, stage, rpath, unc,
+        flag_dir = stage if (not fit.is_gaussian or args.flagged) else None
+        result = run_check(fit, region, settings, flag_dir, rpath, unc,
                            engine=args.engine or "local", scheduler=args.scheduler)
         write_check_outputs(fit, result, stage, plots=not args.no_plots)
-    _print_summary(fit.name, region, rpath, result.summary, args.theory_uncertainty)
-    print(f"  report: {outdir / 'report.html'}")
-    s = result.summary
-    if args.fail_below is not None and s["p_inside"] < args.fail_below:
-        print(f"  p_inside {s['p_inside']:.4g} < --fail-below {args.fail_below:g}")
+    if args.json:
+        import json
+
+        print(json.dumps(result.to_dict(), indent=1, sort_keys=True, default=str))
+    elif not args.quiet:
+        print("\n".join(summary_lines(result, rpath)))
+        print(f"  report: {outdir / 'report.html'}")
+    if args.fail_below is not None and result.p_inside < args.fail_below:
+        if not args.quiet and not args.json:
+            print(f"  p_inside {fmt_prob(result.p_inside)} < --fail-below {args.fail_below:g}")
         return EXIT_BELOW_THRESHOLD
     return 0
 
 
-def _print_summary(name: str, region: Any, rpath: str, s: dict[str, Any], model: str) -> None:
-    print(f"checked {s['n_total']} points of '{name}' against {region.theory} "
-          f"({len(region.facets)} facets, region {rpath})")
-    unc_txt = f", uncertain {s['n_uncertain']}" if s.get("n_uncertain") else ""
-    print(f"  inside {s['n_inside']}, marginal {s['n_marginal']}, outside {s['n_outside']}"
-          f"{unc_txt}")
-    bm = s.get("p_inside_mc_err_batch") if s["source"] == "samples" else None
-    bm_txt = "" if bm is None else f" (batch means +- {bm:.2g}, tau {s['tau_inside']:.3g})"
-    print(f"  p_inside = {s['p_inside']:.4g} +- {s['p_inside_err']:.2g}{bm_txt}; tension "
-          f"{s['tension_sigma']:.2f} sigma (p = {s['tension_p']:.3g})")
-    tu = s.get("theory_uncertainty")
+def summary_lines(result: CheckResult, rpath: str | None) -> list[str]:
+    """What the terminal shows after a check: the verdict first, then the kinematics the
+    region was built at, the counts, p_inside and the tension, all from the typed result."""
+    from eftsieve.check.verdict import p_inside_clause
+
+    v = result.verdict
+    c = result.counts
+    what = ("Gaussian draws" if result.source == "gaussian" else
+            "weighted rows" if result.plot_weights is not None else "rows")
+    unc = f", uncertain {c.uncertain}" if c.uncertain else ""
+    lines = [f"verdict: {v.label} - {v.reason}",
+             f"  checked {c.total} {what} of '{result.fit.name}' against "
+             f"{result.region.theory} ({len(result.region.facets)} facets, region {rpath})",
+             f"  kinematics: {fmt_kinematics(result.kinematics)}",
+             f"  inside {c.inside}, marginal {c.marginal}, outside {c.outside}{unc}",
+             f"  {p_inside_clause(v.p_inside_text)}; tension: {v.tension_text}"]
+    tu = result.theory_uncertainty
     if tu:
-        print(f"  with theory uncertainty ({model}): p_inside = "
-              f"{tu['p_inside']:.4g} +- {tu['p_inside_err']:.2g}, uncertain {tu['n_uncertain']}, "
-              f"tension {tu['tension_sigma']:.2f} sigma")
+        lines.append(f"  with theory uncertainty ({result.truncation_model}): p_inside = "
+                     f"{fmt_pm(tu['p_inside'], tu['p_inside_err'])}, uncertain "
+                     f"{tu['n_uncertain']}, tension {fmt_sigma(tu['tension_sigma'])}")
+    worst = v.facets[0] if v.facets else None
+    if worst is not None and worst.p_violate > 0:
+        lines.append(f"  most violated: {worst.label}, {fmt_pct(worst.p_violate)} "
+                     f"of the probability ({worst.inequality})")
+    return lines

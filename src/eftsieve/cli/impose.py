@@ -7,6 +7,7 @@ and :func:`eftsieve.report.outputs.write_impose_outputs`, and prints a few lines
 from __future__ import annotations
 
 import argparse
+import sys
 from pathlib import Path
 from typing import Any
 
@@ -19,8 +20,12 @@ from eftsieve.cli.args import (
     region_for,
     uncertainty_from_args,
 )
+from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pm, fmt_prob
+from eftsieve.tolerances import TINY_P_INSIDE
 
 HELP = "re-sample a fit with positivity imposed as a prior truncation"
+#: exit code of a refit whose chain is not converged (unless --allow-unconverged)
+EXIT_UNCONVERGED = 8
 
 
 def add_parser(sub: Any) -> argparse.ArgumentParser:
@@ -42,6 +47,10 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("--csv", action="store_true", help="also write samples.csv")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     p.add_argument("--no-plots", action="store_true", help="skip the corner plot")
+    p.add_argument("--allow-unconverged", action="store_true",
+                   help=f"exit 0 even when a refit chain is not converged (default: exit "
+                        f"{EXIT_UNCONVERGED})")
+    p.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
     p.set_defaults(func=cmd_impose)
     return p
 
@@ -74,12 +83,37 @@ def cmd_impose(args: argparse.Namespace) -> int:
                         likelihood=args.likelihood)
         summary = write_impose_outputs(fit, region, result, stage, region_path=rpath,
                                        csv=args.csv, plots=not args.no_plots)
-    corr = summary.get("ess_autocorr")
-    ess = f"ESS {summary['ess']:.0f}" + ("" if corr is None else
-                                         f" ({corr:.0f} after autocorrelation)")
-    print(f"imposed positivity on '{fit.name}' ({summary['mode']}): {summary['n_samples']} "
-          f"samples, {ess} -> {outdir / 'samples.parquet'}")
-    for n in fit.names:
-        b, a = summary["before"][n], summary["after"][n]
-        print(f"  {n}: {b['mean']:.4g} +- {b['std']:.3g}  ->  {a['mean']:.4g} +- {a['std']:.3g}")
+    if not args.quiet:
+        print("\n".join(impose_lines(fit.name, result, summary, outdir)))
+    if result.driven_by_bounds:
+        print(f"eftsieve impose: warning: p_inside before the truncation is "
+              f"{fmt_prob(summary['p_inside_before'])}, below {fmt_prob(TINY_P_INSIDE)}: the "
+              "truncated result is set by the bounds, not by the data", file=sys.stderr)
+    if not result.converged and not args.allow_unconverged:
+        print("eftsieve impose: error: the refit chain is not converged (see report.html); "
+              "run longer with --samples, or pass --allow-unconverged", file=sys.stderr)
+        return EXIT_UNCONVERGED
     return 0
+
+
+def impose_lines(name: str, result: Any, summary: dict[str, Any], outdir: Path) -> list[str]:
+    """The banner first, then the region's kinematics and each parameter before -> after
+    with its 68% interval, from the typed result."""
+    from eftsieve.report.impose_report import impose_banner
+
+    banner = impose_banner(result)
+    corr = summary.get("ess_autocorr")
+    ess = f"ESS {fmt_num(summary['ess'])}" + ("" if corr is None else
+                                              f" ({fmt_num(corr)} after autocorrelation)")
+    lines = [f"{banner.label}: {banner.text}",
+             f"  '{name}': {ess} -> {outdir / 'samples.parquet'}",
+             f"  kinematics: {fmt_kinematics(summary['kinematics'])}"]
+    before = summary.get("before", {})
+    for p in result.posterior.parameters:
+        b = before.get(p.name)
+        lo, hi = p.intervals[0.68]
+        was = "" if b is None else f"{fmt_pm(b['mean'], b['std'])}  ->  "
+        lines.append(f"  {p.name}: {was}{fmt_pm(p.mean, p.std)} "
+                     f"(68%: [{fmt_num(lo, 4)}, {fmt_num(hi, 4)}])")
+    lines.append(f"  report: {outdir / 'report.html'}")
+    return lines

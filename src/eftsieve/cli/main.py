@@ -59,11 +59,13 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _one_line_warning(verb: str, fallback: Any) -> Any:
     """A showwarning that prints eftsieve's own warnings as one line, without source code."""
-    from eftsieve.errors import EftsieveWarning
+    from eftsieve.errors import EftsieveWarning, InputNotice
 
     def show(message: Any, category: type, filename: str, lineno: int, file: Any = None,
              line: str | None = None) -> None:
-        if issubclass(category, EftsieveWarning):
+        if issubclass(category, InputNotice):
+            print(f"eftsieve {verb}: notice: {message}", file=sys.stderr)
+        elif issubclass(category, EftsieveWarning):
             print(f"eftsieve {verb}: warning: {message}", file=sys.stderr)
         else:
             fallback(message, category, filename, lineno, file, line)
@@ -134,6 +136,10 @@ def _run(args: argparse.Namespace) -> int:
         with warnings.catch_warnings():
             if not args.debug:
                 warnings.showwarning = _one_line_warning(args.verb, warnings.showwarning)
+            if getattr(args, "quiet", False) or getattr(args, "json", False):
+                from eftsieve.errors import InputNotice
+
+                warnings.simplefilter("ignore", InputNotice)
             return int(args.func(args))
     except EftsieveError as err:
         if args.debug:

@@ -55,5 +55,9 @@ def cmd_region(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(region.summary(), indent=2))
     else:
+        from eftsieve.numbers import fmt_kinematics
+
         print(describe_region(region, args.output))
+        kin = get_theory(region.theory).region_kinematics(region)
+        print(f"  kinematics: {fmt_kinematics(kin)}")
     return 0

@@ -250,6 +250,7 @@ def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], 
     ``get_theory`` looks a theory up by name (:func:`eftsieve.theories.get_theory`); the
     theory supplies the parameter names, conventions and kinematic inputs it accepts.
     """
+    card = _expand_shorthand(card)
     _schema_stage(card, path)
     try:
         theory = get_theory(card["theory"])
@@ -263,7 +264,11 @@ def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], 
     params = []
     for i, p in enumerate(card["parameters"]):
         needs = p["name"] in theory.parameter_names
-        conv = parse_convention(p.get("convention"), kin, path, f"parameters[{i}].convention",
+        raw, pkin = p.get("convention"), kin
+        if raw is None and needs:  # shorthand: the theory infers it from the names
+            raw = theory.infer_convention(tuple(q["name"] for q in card["parameters"]))
+            pkin = kin if raw is None else _with_defaults(theory, raw, kin)
+        conv = parse_convention(raw, pkin, path, f"parameters[{i}].convention",
                                 needs, theory.convention_specs)
         if conv.name != "none" and p["name"] not in theory.parameter_names:
             raise InputError(path, f"parameters[{i}].name", f"unknown parameter '{p['name']}'",
@@ -292,6 +297,34 @@ def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], 
               _prior(card, path, names), path, extra)
     theory.validate_fit(fit)
     return fit
+
+
+def _expand_shorthand(card: dict[str, Any]) -> dict[str, Any]:
+    """``parameters: [lbar1, lbar2]`` -> ``[{name: lbar1}, {name: lbar2}]`` (a new dict;
+    the parsed card is not modified)."""
+    params = card.get("parameters")
+    if isinstance(params, list) and any(isinstance(p, str) for p in params):
+        return {**card, "parameters": [{"name": p} if isinstance(p, str) else p
+                                       for p in params]}
+    return card
+
+
+def _with_defaults(theory: Any, convention: str, kin: dict[str, float]) -> dict[str, float]:
+    """The card's kinematics plus the theory's defaults for what ``convention`` needs."""
+    out = dict(kin)
+    spec = theory.convention_specs.get(convention)
+    for key, _ in (spec.needs if spec is not None else ()):
+        default = theory.convention_default(convention, key)
+        if key not in out and default is not None:
+            import warnings
+
+            from eftsieve.errors import InputNotice
+
+            out[key] = default
+            warnings.warn(InputNotice(f"convention '{convention}' without kinematics.{key}: "
+                                      f"taken as {default:g} ({theory.name} default)"),
+                          stacklevel=4)
+    return out
 
 
 def _card_error(path: Path, problem: str, hint: str) -> InputError:

@@ -168,8 +168,10 @@ def fit_from_samples(
         check_covariance(cov, len(names), p, "covariance of the selected keys")
     else:
         probe = SamplesSource(p, fmt, (), options=opts)
-        res = resolve_columns(columns, probe.column_table(), p, "--columns", None,
-                              weight_column)
+        table = probe.column_table()
+        if columns is None and table.stores_names:
+            columns, weight_column = _bare_columns(table.labels, weight_column, p)
+        res = resolve_columns(columns, table, p, "--columns", None, weight_column)
         names = res.names
         source = SamplesSource(p, fmt, res.labels, res.weight, opts)
         source.validate_columns()
@@ -183,6 +185,28 @@ def fit_from_samples(
               source=p)
     th.validate_fit(fit)
     return fit
+
+
+def _bare_columns(labels: Any, weight_column: str | None, path: Path
+                  ) -> tuple[ColumnsSpec | None, str | None]:
+    """Leave a bare file's sampler bookkeeping columns out and recognise its weight
+    column, each with a printed notice (:mod:`eftsieve.fit.bookkeeping`)."""
+    import warnings
+
+    from eftsieve.errors import InputNotice
+    from eftsieve.fit.bookkeeping import split_columns
+
+    split = split_columns([str(c) for c in labels], weight_column)
+    if split.weight is not None and weight_column is None:
+        warnings.warn(InputNotice(f"{path.name}: column '{split.weight}' is used as the "
+                                  "sample weight (choose others with --columns)"), stacklevel=3)
+    if not split.bookkeeping:
+        return None, split.weight
+    warnings.warn(InputNotice(f"{path.name}: sampler bookkeeping column(s) "
+                              f"{', '.join(split.bookkeeping)} left out of the parameters "
+                              "(choose others with --columns)"), stacklevel=3)
+    return (ColumnsSpec(split.parameters, (None,) * len(split.parameters), None, True),
+            split.weight)
 
 
 def check_covariance(cov: np.ndarray, n: int, path: Path | None, field_name: str) -> None:

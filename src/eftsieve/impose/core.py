@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -27,8 +28,9 @@ from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
 from eftsieve.stats.ess import kish_ess
 from eftsieve.stats.gaussian import draw, psd_factor
+from eftsieve.stats.intervals import PosteriorSummary, posterior_summary
 from eftsieve.theories.base import CoordinateMap
-from eftsieve.tolerances import MIN_ESS
+from eftsieve.tolerances import MIN_ESS, TINY_P_INSIDE
 
 MODES = ("reweight", "exact", "refit")
 
@@ -96,7 +98,24 @@ class ImposeResult:
     rows: np.ndarray | None = None
 
     def to_dict(self) -> dict[str, Any]:
-        return dict(self.figures)
+        return {**self.figures, "posterior": self.posterior.to_dict()}
+
+    @cached_property
+    def posterior(self) -> PosteriorSummary:
+        """Per parameter: truncated mean, sd, 68%/95% intervals; and the covariance."""
+        return posterior_summary(self.samples, self.names, self.weights)
+
+    @property
+    def converged(self) -> bool:
+        """False only for a refit whose chain is not converged by the stated rule."""
+        return bool(self.figures.get("converged", True))
+
+    @property
+    def driven_by_bounds(self) -> bool:
+        """p_inside before the truncation is below :data:`~eftsieve.tolerances.TINY_P_INSIDE`:
+        the truncated result is then set by the bounds, not by the data."""
+        p = self.figures.get("p_inside_before")
+        return p is not None and float(p) < TINY_P_INSIDE
 
     def summary(self) -> str:
         """A few lines: the mode, the sample count and each parameter before -> after."""

@@ -23,6 +23,7 @@ import importlib
 import math
 import warnings
 from collections.abc import Callable
+from typing import Any
 
 import numpy as np
 
@@ -61,21 +62,55 @@ def log_prior_fn(fit: Fit) -> Callable[[np.ndarray], np.ndarray]:
 
 
 def load_callable(spec: str) -> Callable[[np.ndarray], np.ndarray]:
-    """Load ``module:function`` (the user's code) as a vectorised log-likelihood."""
-    if ":" not in spec:
+    """Load the user's log-likelihood: ``module:function`` (a module importable from the
+    current folder or the Python path) or ``path/to/file.py:function``."""
+    mod_name, sep, fn_name = spec.rpartition(":")
+    if not sep or not mod_name or not fn_name:
         raise InputError(None, "--likelihood", f"'{spec}' is not module:function",
-                         "write e.g. mylike:loglike")
-    mod_name, fn_name = spec.split(":", 1)
+                         "write e.g. mylike:loglike or path/to/mylike.py:loglike")
     try:
-        fn = getattr(importlib.import_module(mod_name), fn_name)
-    except (ImportError, AttributeError) as err:
+        module = _user_module(mod_name)
+        fn = getattr(module, fn_name)
+    except (ImportError, AttributeError, OSError, SyntaxError) as err:
         raise InputError(None, "--likelihood", f"cannot load '{spec}': {err}",
-                         "check that the module is importable (PYTHONPATH)") from err
+                         "give module:function with the module in the current folder or on "
+                         "PYTHONPATH, or path/to/file.py:function") from err
+    if not callable(fn):
+        raise InputError(None, "--likelihood", f"'{fn_name}' in '{mod_name}' is not a function",
+                         "name a function that takes one parameter vector")
 
     def loglike(x: np.ndarray) -> np.ndarray:
         return np.array([float(fn(row)) for row in x])
 
     return loglike
+
+
+def _user_module(name: str) -> Any:
+    """Import a module by file path (``*.py`` or a name with a slash) or by name, with the
+    current folder searched first (a console script does not put it on sys.path)."""
+    import sys
+    from importlib.util import module_from_spec, spec_from_file_location
+    from pathlib import Path
+
+    path = Path(name)
+    if path.suffix == ".py" or "/" in name or "\\" in name:
+        if not path.is_file():
+            raise ImportError(f"no file {path}")
+        spec = spec_from_file_location(f"eftsieve_user_{path.stem}", path)
+        if spec is None or spec.loader is None:
+            raise ImportError(f"cannot import {path}")
+        module = module_from_spec(spec)
+        spec.loader.exec_module(module)
+        return module
+    cwd = str(Path.cwd())
+    added = cwd not in sys.path
+    if added:
+        sys.path.insert(0, cwd)
+    try:
+        return importlib.import_module(name)
+    finally:
+        if added:
+            sys.path.remove(cwd)
 
 
 def prior_box(fit: Fit) -> list[tuple[float, float]]:

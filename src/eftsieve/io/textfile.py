@@ -100,8 +100,10 @@ def parse_json(text: str, path: Path, make: ErrorFactory, max_depth: int) -> Any
 def _yaml_loader(path: Path, make: ErrorFactory) -> type:
     import yaml
 
-    class Loader(yaml.SafeLoader):
-        """SafeLoader that refuses duplicate keys."""
+    from eftsieve.io.yaml12 import CardLoader
+
+    class Loader(CardLoader):
+        """The YAML 1.2-number safe loader, refusing duplicate keys."""
 
     def mapping(loader: Any, node: Any, deep: bool = False) -> dict[Any, Any]:
         loader.flatten_mapping(node)

@@ -1,30 +1,28 @@
-"""The check report: the fit, the region with certificates, the statistics, the worst
-points, and the assumptions and cautions behind the bounds."""
+"""The check report, built from the typed :class:`~eftsieve.check.result.CheckResult`.
+
+The verdict banner and the kinematics the region was built at come first, then the
+per-facet table, the fit, the region with certificates, the statistics, the worst
+points, the assumptions and cautions behind the bounds, and a footer with the verdict
+thresholds and the papers to cite.  Every figure is written by :mod:`eftsieve.numbers`,
+as in the terminal.
+"""
 
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
 
-from eftsieve.check.result import WorstPoint
+from eftsieve.check.result import CheckResult, WorstPoint
+from eftsieve.check.verdict import FacetViolation, p_inside_clause
 from eftsieve.fit.model import Fit
+from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.region.model import Region
 from eftsieve.report.cautions import ASSUMPTIONS, cautions_for
-from eftsieve.report.document import Bullets, Document, Heading, Image, Para, Table
-
-
-def fmt_g(x: Any, fmt: str = ".4g") -> str:
-    if x is None:
-        return "n/a"
-    try:
-        return format(float(x), fmt)
-    except (TypeError, ValueError):
-        return str(x)
+from eftsieve.report.document import Banner, Bullets, Document, Heading, Image, Para, Table
 
 
 def fit_block(fit: Fit) -> list:
     rows = tuple((p.name, p.convention.describe()) for p in fit.parameters)
-    kin = ", ".join(f"{k} = {v:g}" for k, v in fit.kinematics.items()) or "none stated"
+    kin = ", ".join(f"{k} = {fmt_num(v, 6)}" for k, v in fit.kinematics.items()) or "none stated"
     src = "Gaussian summary (mean + covariance)" if fit.is_gaussian else (
         f"samples file `{fit.samples.path.name}` ({fit.samples.fmt})" if fit.samples else "")
     return [Heading("Fit"), Para(f"`{fit.name}`, theory `{fit.theory}`, {src}; kinematics: {kin}."),
@@ -32,13 +30,15 @@ def fit_block(fit: Fit) -> list:
 
 
 def region_block(region: Region) -> list:
-    conv = ", ".join(f"{k} = {v}" for k, v in region.convention.items())
+    conv = ", ".join(f"{k} = {fmt_num(v, 6) if isinstance(v, float) else v}"
+                     for k, v in region.convention.items())
     rows = []
     for i, f in enumerate(region.facets):
-        pt = ", ".join(f"{k} = {v:g}" if k.endswith("_mev") else
-                       f"{k} = {0.0 if abs(v) < 1e-6 else v:.4g}" for k, v in f.point.items())
+        pt = ", ".join(f"{k} = {fmt_num(v, 6)}" if k.endswith("_mev") else
+                       f"{k} = {fmt_num(0.0 if abs(v) < 1e-6 else v)}"
+                       for k, v in f.point.items())
         shift = f.extra.get("truncation_shift_region")
-        status = f.status if shift is None else f"{f.status}; truncation shift {shift:.3g}"
+        status = f.status if shift is None else f"{f.status}; truncation shift {fmt_num(shift)}"
         rows.append((str(i), f.inequality(region.coordinates), f.family, f.channel, pt,
                      status))
     blocks = [Heading("Region"),
@@ -69,107 +69,161 @@ def region_block(region: Region) -> list:
 TAU_NOTE = 2.0
 
 
-def _batch_rows(s: dict[str, Any]) -> tuple[tuple[str, str], ...]:
+def header_block(result: CheckResult) -> list:
+    """The verdict banner and what the answer rests on: the points, the region's
+    kinematics and its hash."""
+    v = result.verdict
+    what = "Gaussian draws" if result.source == "gaussian" else "rows"
+
+    return [Banner(v.label, v.reason + "."),
+            Bullets((f"Region kinematics: {fmt_kinematics(result.kinematics)}.",
+                     f"Checked {result.n_total} {what} of `{result.fit.name}` against "
+                     f"`{result.region.theory}` ({len(result.region.facets)} facets, content "
+                     f"hash `{result.region.hash[:16]}`).",
+                     f"{p_inside_clause(v.p_inside_text)}; tension: {v.tension_text}."))]
+
+
+def _distance(v: FacetViolation) -> str:
+    if v.distance_sigma >= 0:
+        return f"{fmt_sigma(v.distance_sigma)} inside"
+    return f"{fmt_sigma(v.distance_sigma)} outside"
+
+
+def facet_table_block(result: CheckResult) -> list:
+    """Each facet with its certificate, the mean's signed distance and the probability
+    that violates it, most violated first."""
+    facets = result.verdict.facets
+    if not facets:
+        return []
+    exact = facets[0].method == "exact"
+    prob = "probability violating it" if exact else (
+        "weighted fraction violating it" if result.plot_weights is not None
+        else "fraction of rows violating it")
+    rows = tuple((str(v.index), v.inequality, v.label, _distance(v),
+                  fmt_pct(v.p_violate) if exact else
+                  f"{fmt_pct(v.p_violate)} +- {fmt_pct(v.p_violate_err)}") for v in facets)
+    note = ("exact for the Gaussian summary" if exact else
+            f"from a uniform subsample of {len(result.plot_region_coords)} of the rows")
+    return [Heading("Facets, most violated first"),
+            Para(f"Distance: how far the fit's mean lies from the facet, in standard "
+                 f"deviations of the fit along the facet's normal. The {prob} is {note}."),
+            Table(("facet", "inequality", "certificate", "mean", prob), rows)]
+
+
+def _batch_rows(result: CheckResult) -> tuple[tuple[str, str], ...]:
     """The batch-means error of p_inside (posterior samples only; Gaussian draws are iid)."""
-    if s.get("source") != "samples" or "n_batches" not in s:
+    bm = result.batch
+    if result.source != "samples":
         return ()
-    if s.get("p_inside_mc_err_batch") is None:
-        return (("p_inside error, correlated draws (batch means)",
-                 f"not estimated ({s['n_batches']} batches of {s['batch_rows']} rows; "
-                 "too few rows, or every row on one side)"),)
-    return (("p_inside error, correlated draws (batch means)",
-             f"+- {fmt_g(s['p_inside_mc_err_batch'], '.2g')} ({s['n_batches']} batches of "
-             f"{s['batch_rows']} rows, in file order)"),
-            ("autocorrelation time of the inside indicator", fmt_g(s["tau_inside"], ".3g")))
+    name = "p_inside error, correlated draws (batch means)"
+    if bm.std_error != bm.std_error:  # NaN: not estimated
+        return ((name, f"not estimated ({bm.n_batches} batches of {bm.batch_rows} rows; "
+                       "too few rows, or every row on one side)"),)
+    return ((name, f"+- {fmt_num(bm.std_error, 2)} ({bm.n_batches} batches of "
+                   f"{bm.batch_rows} rows, in file order)"),
+            ("autocorrelation time of the inside indicator", fmt_num(bm.tau)))
 
 
-def _tau_note(s: dict[str, Any]) -> list:
-    tau = s.get("tau_inside") if s.get("source") == "samples" else None
-    if tau is None or tau <= TAU_NOTE:
+def _tau_note(result: CheckResult) -> list:
+    tau = result.batch.tau if result.source == "samples" else None
+    if tau is None or not tau > TAU_NOTE:
         return []
     return [Para(f"The samples are correlated in file order (autocorrelation time of the "
-                 f"inside indicator about {tau:.3g} rows): quote the batch-means error of "
-                 "p_inside, not the sample-fraction one, which assumes independent draws. "
+                 f"inside indicator about {fmt_num(tau)} rows): quote the batch-means error "
+                 "of p_inside, not the sample-fraction one, which assumes independent draws. "
                  "The batch-means error needs the rows in draw order within each chain; "
                  "walkers interleaved step by step can hide longer correlations.")]
 
 
-def mapping_block(s: dict[str, Any]) -> list:
-    """How the fit's parameters become the region's coordinates (the summary's map)."""
-    desc = (s.get("coordinate_map") or {}).get("description") or []
-    if not desc:
+def mapping_block(result: CheckResult) -> list:
+    """How the fit's parameters become the region's coordinates."""
+    cmap = result.coordinate_map
+    if not cmap.description:
         return []
-    kind = "affine" if s["coordinate_map"].get("affine") else "nonlinear"
+    kind = "affine" if cmap.is_affine else "nonlinear"
     return [Para(f"From the fit to the region's coordinates ({kind} map):"),
-            Bullets(tuple(desc))]
+            Bullets(tuple(cmap.description))]
 
 
-def stats_block(s: dict[str, Any]) -> list:
-    band = s["settings"]["marginal_band"]
-    rows = (("rows read (n_total)", str(s["n_total"])),
-            ("inside / marginal / outside",
-             f"{s['n_inside']} / {s['n_marginal']} / {s['n_outside']}"),
-            ("marginal band", f"{band:g} (distance to a facet, region coordinates)"),
-            ("p_inside", f"{fmt_g(s['p_inside'], '.6g')} +- {fmt_g(s['p_inside_err'], '.2g')} "
-                         f"({s['p_inside_method']})"),
-            ("p_inside (sample fraction)", f"{fmt_g(s['p_inside_mc'], '.6g')} +- "
-                                           f"{fmt_g(s['p_inside_mc_err'], '.2g')}"),
-            ("effective sample size", fmt_g(s["ess"], ".6g")),
-            *_batch_rows(s),
-            ("minimal Mahalanobis distance", fmt_g(s["mahalanobis_min"])),
-            ("closest allowed point", ", ".join(fmt_g(v, ".5g") for v in s["closest_point"])),
-            ("tension p-value (chi-bar-squared)", fmt_g(s["tension_p"])),
-            ("tension (one-sided Gaussian sigma)", fmt_g(s["tension_sigma"], ".3g")),
-            ("Bayes factor (truncated / untruncated prior)",
-             fmt_g(s["bayes_factor"]) + (f" +- {fmt_g(s['bayes_factor_err'], '.2g')}"
-                                      if s["bayes_factor"] is not None else "")
-             + f" ({s['bayes_factor_note']})"))
-    return [Heading("Statistics"), Table(("quantity", "value"), rows), *_tau_note(s),
+def _tension_rows(result: CheckResult) -> tuple[tuple[str, str], ...]:
+    t, v = result.tension, result.verdict
+    if v.mean_inside:
+        return (("tension", v.tension_text),)
+    return (("tension", v.tension_text),
+            ("minimal Mahalanobis distance", fmt_num(t.mahalanobis_min)),
+            ("closest allowed point", ", ".join(fmt_num(x) for x in t.closest_point)),
+            ("tension p-value (chi-bar-squared)", fmt_prob(t.p_value)))
+
+
+def stats_block(result: CheckResult) -> list:
+    c, b, t = result.counts, result.bayes, result.tension
+    what = "Gaussian draws" if result.source == "gaussian" else "rows read"
+    frac = "weighted fraction" if result.plot_weights is not None else "fraction"
+    bayes = ("n/a" if b.value is None else fmt_pm(b.value, b.error)) + f" ({b.reason})"
+    rows = ((what, str(c.total)),
+            ("inside / marginal / outside", f"{c.inside} / {c.marginal} / {c.outside}"),
+            ("marginal band", f"{fmt_num(result.band)} (distance to a facet, region "
+                              "coordinates)"),
+            ("p_inside", f"{result.verdict.p_inside_text} ({result.p_inside_method})"),
+            (f"p_inside (sample {frac})", fmt_pm(result.p_inside_mc, result.p_inside_mc_err)),
+            ("effective sample size", fmt_num(result.ess, 6)),
+            *_batch_rows(result), *_tension_rows(result),
+            ("Bayes factor (truncated / untruncated prior)", bayes))
+    cone = ("" if result.verdict.mean_inside else
+            f"; weights {', '.join(format(w, '.3f') for w in t.weights)} ({t.cone})")
+    return [Heading("Statistics"), Table(("quantity", "value"), rows), *_tau_note(result),
             Para("The tension p-value uses the chi-bar-squared distribution of the minimal "
                  "Mahalanobis distance squared, with the weights of the least favourable "
-                 "tangent cone of the region (Shapiro 1988; Silvapulle & Sen 2005, Sec. 3.4); "
-                 f"weights {', '.join(fmt_g(w, '.3f') for w in s['chibar2_weights'])} "
-                 f"({s['tension_cone']}).")]
+                 "tangent cone of the region (Shapiro 1988; Silvapulle & Sen 2005, Sec. 3.4)"
+                 f"{cone}.")]
 
 
-def uncertainty_block(s: dict[str, Any], region: Region) -> list:
-    tu = s.get("theory_uncertainty")
+def uncertainty_block(result: CheckResult) -> list:
+    tu, region = result.theory_uncertainty, result.region
     if not tu:
         return []
     m = tu["model"]
     st = m["settings"]
-    rows = [("p_inside", fmt_g(tu["hard"]["p_inside"], ".5g"),
-             f"{fmt_g(tu['p_inside'], '.5g')} +- {fmt_g(tu['p_inside_err'], '.2g')}"),
-            ("tension (sigma)", fmt_g(tu["hard"]["tension_sigma"], ".3g"),
-             fmt_g(tu["tension_sigma"], ".3g")),
-            ("tension p-value", fmt_g(tu["hard"]["tension_p"]), fmt_g(tu["tension_p"])),
-            ("Bayes factor", fmt_g(tu["hard"]["bayes_factor"]), fmt_g(tu["bayes_factor"]))]
+    rows = [("p_inside", fmt_prob(tu["hard"]["p_inside"]), fmt_pm(tu["p_inside"],
+                                                                  tu["p_inside_err"])),
+            ("tension (sigma)", fmt_num(tu["hard"]["tension_sigma"]),
+             fmt_num(tu["tension_sigma"])),
+            ("tension p-value", fmt_prob(tu["hard"]["tension_p"]), fmt_prob(tu["tension_p"])),
+            ("Bayes factor", fmt_num(tu["hard"]["bayes_factor"]), fmt_num(tu["bayes_factor"]))]
     frows = []
     for i, f in enumerate(region.facets):
-        q = "" if m["q"] is None else fmt_g(m["q"][i], ".3g")
-        frows.append((str(i), f.inequality(region.coordinates), fmt_g(m["sigma_median"][i], ".3g"),
+        q = "" if m["q"] is None else fmt_num(m["q"][i])
+        frows.append((str(i), f.inequality(region.coordinates), fmt_num(m["sigma_median"][i]),
                       q))
-    text = (f"Model `{st['model']}`; verdict `uncertain` for {st['p_low']:g} < "
-            f"P(satisfies every facet) < {st['p_high']:g} ({tu['n_uncertain']} points). "
-            f"Correlation between facets: {tu['correlation']}. The tension under the model is "
-            "the Bonferroni bound over single-facet tests with the offset uncertainty added.")
+    text = (f"Model `{st['model']}`; verdict `uncertain` for {fmt_num(st['p_low'])} < "
+            f"P(satisfies every facet) < {fmt_num(st['p_high'])} ({tu['n_uncertain']} "
+            f"points). Correlation between facets: {tu['correlation']}. The tension under "
+            "the model is the Bonferroni bound over single-facet tests with the offset "
+            "uncertainty added.")
     if st["model"] == "power-counting":
         post = m["posterior"]
-        text += (f" Breakdown scale Lambda_b = {m['breakdown_mev_used']:.6g} MeV; prior "
-                 f"cbar^2 ~ ScaledInvChi2({st['nu0']:g}, {st['tau0']:g}^2); posterior "
-                 f"ScaledInvChi2({post['nu']:g}, {post['tau2']:.3g}) from the coefficients "
-                 f"{', '.join(fmt_g(c, '.3g') for c in m['coefficients'])}.")
+        text += (f" Breakdown scale Lambda_b = {fmt_num(m['breakdown_mev_used'], 6)} MeV; "
+                 f"prior cbar^2 ~ ScaledInvChi2({fmt_num(st['nu0'])}, {fmt_num(st['tau0'])}^2);"
+                 f" posterior ScaledInvChi2({fmt_num(post['nu'])}, {fmt_num(post['tau2'])}) "
+                 f"from the coefficients {', '.join(fmt_num(c) for c in m['coefficients'])}.")
     return [Heading("Theory uncertainty of the bounds"), Para(text),
             Table(("quantity", "hard edges (none)", st["model"]), tuple(rows)),
             Table(("facet", "inequality", "sigma of the offset (median)", "Q"), tuple(frows))]
 
 
-def worst_block(worst: tuple[WorstPoint, ...], limit: int = 10) -> list:
+def worst_block(result: CheckResult, limit: int = 10) -> list:
+    """The most violated rows of a samples file (synthetic Gaussian draws are not shown)."""
+    worst: tuple[WorstPoint, ...] = result.worst
+    if result.source == "gaussian":
+        return [Heading("Flagged points"),
+                Para("The points of a Gaussian card are synthetic draws, so none is listed "
+                     "here and flagged.csv is not written (`eftsieve check --flagged` writes "
+                     "it); the per-facet table above gives the exact probabilities.")]
     if not worst:
-        return [Heading("Flagged points"), Para("No point violates a facet.")]
-    rows = tuple((str(w.row), ", ".join(fmt_g(v, ".5g") for v in w.region_point),
-                  fmt_g(w.min_margin, ".4g"), w.facet) for w in worst[:limit])
-    return [Heading("Most violated points"),
+        return [Heading("Flagged rows"), Para("No row violates a facet.")]
+    rows = tuple((str(w.row), ", ".join(fmt_num(x) for x in w.region_point),
+                  fmt_num(w.min_margin), w.facet) for w in worst[:limit])
+    return [Heading("Most violated rows"),
             Para("All outside and marginal rows, with every margin and certificate, are in "
                  "`flagged.csv`."),
             Table(("row", "point (region coordinates)", "margin", "most violated facet"), rows)]
@@ -180,15 +234,52 @@ def cautions_block(theory: str) -> list:
             Heading("Cautions"), Bullets(cautions_for(theory))]
 
 
-def check_document(fit: Fit, region: Region, summary: dict[str, Any],
-                   worst: tuple[WorstPoint, ...], images: dict[str, Path]) -> Document:
+def verdict_footer(thresholds: dict[str, float]) -> list:
+    """How the fit verdict is decided (docs/verdict.md)."""
+    return [Heading("How the verdict is decided"),
+            Bullets((f"`consistent`: tension below {fmt_num(thresholds['tension_sigma'])} "
+                     f"sigma and p_inside >= {fmt_prob(thresholds['tension_p_inside'])}.",
+                     f"`tension`: tension from {fmt_num(thresholds['tension_sigma'])} sigma, or "
+                     f"p_inside below {fmt_prob(thresholds['tension_p_inside'])}.",
+                     f"`excluded`: tension from {fmt_num(thresholds['excluded_sigma'])} sigma, "
+                     f"or p_inside below {fmt_prob(thresholds['excluded_p_inside'])}.",
+                     "`uncertain`: the verdict with hard facets differs from the verdict "
+                     "under the theory-uncertainty model of the bounds.",
+                     "Sigma is the one-sided Gaussian equivalent of the tension p-value; the "
+                     "thresholds are the usual two- and three-sigma conventions (common "
+                     "practice)."))]
+
+
+def references_block(theory: str) -> list:
+    """The papers behind the region (the same list as ``eftsieve cite``)."""
+    from eftsieve.report.bibtex import references_for
+    from eftsieve.theories import get_theory
+
+    try:
+        refs = references_for([get_theory(theory)])
+    except KeyError:
+        return []
+    if not refs:
+        return []
+    items = tuple(f"{', '.join(r['authors'])}, \"{r['title']}\", "
+                  + (f"{r['journal']} {r.get('volume', '')} ({r['year']}) {r.get('pages', '')}"
+                     if r.get("journal") else str(r["year"])).strip()
+                  + (f", arXiv:{r['eprint']}" if r.get("eprint") else "") for r in refs)
+    return [Heading("Cite"), Para("The bounds in this report rest on these papers "
+                                  "(`eftsieve cite` prints them as BibTeX):"), Bullets(items)]
+
+
+def check_document(result: CheckResult, images: dict[str, Path]) -> Document:
+    """The check report of a typed result (``images``: name -> PNG path)."""
+    fit, region = result.fit, result.region
     doc = Document(f"Positivity check: {fit.name}")
-    doc.add(*fit_block(fit), *region_block(region), *mapping_block(summary),
-            *stats_block(summary),
-            *uncertainty_block(summary, region), *worst_block(worst))
+    doc.add(*header_block(result), *facet_table_block(result), *fit_block(fit),
+            *region_block(region), *mapping_block(result), *stats_block(result),
+            *uncertainty_block(result), *worst_block(result))
     for name, alt in (("region", "region with posterior contours"),
                       ("corner", "corner plot with region boundary")):
         if name in images:
             doc.add(Image(images[name], alt))
-    doc.add(*cautions_block(region.theory))
+    doc.add(*cautions_block(region.theory), *verdict_footer(result.verdict.thresholds),
+            *references_block(region.theory))
     return doc

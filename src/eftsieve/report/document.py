@@ -36,6 +36,27 @@ class Table:
 
 
 @dataclass(frozen=True)
+class Banner:
+    """The answer at the top of a report: a one-word label and the sentence that says why.
+
+    In HTML a coloured box whose label is spelled out in capitals and marked with a
+    symbol, so that it reads the same without colour."""
+
+    label: str
+    text: str
+
+
+#: banner label -> (symbol, background, border) in HTML; unknown labels are grey
+BANNER_STYLE = {"consistent": ("\u2714", "#e3f4e6", "#2e7d32"),
+                "tension": ("\u26a0", "#fff4d6", "#b26a00"),
+                "uncertain": ("?", "#eceff1", "#546e7a"),
+                "excluded": ("\u2716", "#fde4e4", "#b71c1c"),
+                "imposed": ("\u2714", "#e3f4e6", "#2e7d32"),
+                "bounds-driven": ("\u26a0", "#fff4d6", "#b26a00"),
+                "not converged": ("\u2716", "#fde4e4", "#b71c1c")}
+
+
+@dataclass(frozen=True)
 class Image:
     path: Path
     alt: str
@@ -56,7 +77,9 @@ class Document:
 def to_markdown(doc: Document) -> str:
     out = [f"# {doc.title}", ""]
     for b in doc.blocks:
-        if isinstance(b, Heading):
+        if isinstance(b, Banner):
+            out += [f"> **{b.label.upper()}**: {b.text}", ""]
+        elif isinstance(b, Heading):
             out += ["#" * b.level + " " + b.text, ""]
         elif isinstance(b, Para):
             out += [b.text, ""]
@@ -76,7 +99,10 @@ _CSS = ("body{font-family:system-ui,sans-serif;max-width:60em;margin:2em auto;pa
         "color:#1d2733;line-height:1.45}table{border-collapse:collapse;margin:1em 0}"
         "td,th{border:1px solid #c9d1da;padding:.25em .6em;font-size:.92em}"
         "th{background:#eef2f6}code{background:#f3f5f7;padding:0 .2em}"
-        "img{max-width:100%;border:1px solid #e1e6eb}h1{border-bottom:2px solid #2b6f8f}")
+        "img{max-width:100%;border:1px solid #e1e6eb}h1{border-bottom:2px solid #2b6f8f}"
+        ".verdict{padding:.8em 1em;margin:1em 0;font-size:1.1em;border-radius:.3em}"
+        ".verdict .label{font-weight:bold;letter-spacing:.05em;margin-right:.4em}"
+        "footer{margin-top:2em;font-size:.85em;color:#4a5866}")
 
 
 def _inline(text: str) -> str:
@@ -90,7 +116,13 @@ def to_html(doc: Document) -> str:
            f"<title>{html.escape(doc.title)}</title><style>{_CSS}</style></head><body>",
            f"<h1>{html.escape(doc.title)}</h1>"]
     for b in doc.blocks:
-        if isinstance(b, Heading):
+        if isinstance(b, Banner):
+            sym, bg, border = BANNER_STYLE.get(b.label, ("\u2022", "#eceff1", "#546e7a"))
+            out.append(f"<div class='verdict' role='status' style='background:{bg};"
+                       f"border-left:.5em solid {border}'><span class='label' "
+                       f"style='color:{border}'>{sym} {html.escape(b.label.upper())}</span> "
+                       f"{_inline(b.text)}</div>")
+        elif isinstance(b, Heading):
             out.append(f"<h{b.level}>{_inline(b.text)}</h{b.level}>")
         elif isinstance(b, Para):
             out.append(f"<p>{_inline(b.text)}</p>")

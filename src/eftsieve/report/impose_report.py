@@ -1,14 +1,24 @@
-"""The impose report: what was imposed, how the posterior moved, and the diagnostics."""
+"""The impose report, from the typed :class:`~eftsieve.impose.core.ImposeResult`: a
+banner with the answer, the region's kinematics, per parameter the truncated mean,
+standard deviation and 68%/95% intervals and the truncated covariance (ready to quote),
+the diagnostics, and the fit, region, assumptions and papers behind the bounds."""
 
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
 
 from eftsieve.fit.model import Fit
+from eftsieve.impose.core import ImposeResult
+from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pm, fmt_prob
 from eftsieve.region.model import Region
-from eftsieve.report.check_report import cautions_block, fit_block, fmt_g, region_block
-from eftsieve.report.document import Bullets, Document, Heading, Image, Para, Table
+from eftsieve.report.check_report import (
+    cautions_block,
+    fit_block,
+    references_block,
+    region_block,
+)
+from eftsieve.report.document import Banner, Bullets, Document, Heading, Image, Para, Table
+from eftsieve.tolerances import TINY_P_INSIDE
 
 MODE_TEXT = {
     "reweight": "posterior samples kept inside the region with their weights (exact "
@@ -19,34 +29,81 @@ MODE_TEXT = {
 }
 
 
-def impose_document(fit: Fit, region: Region, s: dict[str, Any],
-                    images: dict[str, Path]) -> Document:
-    doc = Document(f"Positivity imposed: {fit.name}")
-    doc.add(Heading("Mode"), Para(f"`{s['mode']}`: {MODE_TEXT[s['mode']]}."))
-    rows = [("samples", str(s["n_samples"])), ("effective sample size", fmt_g(s["ess"], ".5g")),
-            ("acceptance", fmt_g(s.get("acceptance"), ".4g")),
-            ("P(inside) before", fmt_g(s.get("p_inside_before"), ".5g"))]
-    if s["mode"] == "reweight":
+def impose_banner(result: ImposeResult) -> Banner:
+    """``imposed``, ``bounds-driven`` (p_inside before below the tiny threshold) or
+    ``not converged`` (a refit that failed its convergence rule)."""
+    f = result.figures
+    p = f.get("p_inside_before")
+    ptext = "" if p is None else f"; p_inside before the truncation = {fmt_prob(p)}"
+    n = f.get("n_samples", len(result.samples))
+    if not result.converged:
+        return Banner("not converged", f"the refit chain is not converged by the stated "
+                      f"rule ({f.get('convergence_rule', '')}); do not use these samples "
+                      "before running longer")
+    if result.driven_by_bounds:
+        return Banner("bounds-driven", f"positivity imposed ({result.mode}, {n} samples)"
+                      f"{ptext}, below {fmt_prob(TINY_P_INSIDE)}: the truncated result is "
+                      "set by the bounds, not by the data")
+    return Banner("imposed", f"positivity imposed ({result.mode}, {n} samples){ptext}")
+
+
+def posterior_block(result: ImposeResult) -> list:
+    """Per parameter before -> after, and the truncated covariance."""
+    post = result.posterior
+    before = result.figures.get("before", {})
+    rows = []
+    for p in post.parameters:
+        b = before.get(p.name)
+        rows.append((p.name, "" if b is None else fmt_pm(b["mean"], b["std"]),
+                     fmt_pm(p.mean, p.std),
+                     *(f"[{fmt_num(lo, 4)}, {fmt_num(hi, 4)}]"
+                       for lo, hi in p.intervals.values())))
+    names = tuple(p.name for p in post.parameters)
+    cov = tuple((n, *(fmt_num(v, 4) for v in row))
+                for n, row in zip(names, post.covariance, strict=True))
+    return [Heading("With positivity imposed"),
+            Table(("parameter", "before (mean +- sd)", "after (mean +- sd)", "68% interval",
+                   "95% interval"), tuple(rows)),
+            Para("Intervals are central (equal tails), from the weighted sample quantiles. "
+                 "Truncated covariance:"),
+            Table(("", *names), cov)]
+
+
+def diagnostics_block(result: ImposeResult) -> list:
+    s = result.figures
+    rows = [("samples", str(s["n_samples"])), ("effective sample size", fmt_num(s["ess"], 5)),
+            ("acceptance", fmt_num(s.get("acceptance"))),
+            ("P(inside) before", fmt_prob(s.get("p_inside_before")))]
+    if result.mode == "reweight":
         rows += [("rows read", str(s["n_read"])), ("rows dropped (outside)", str(s["n_dropped"]))]
         if s.get("tau_rows") is not None:
             rows += [("autocorrelation time of the rows (truncated means, file order)",
-                      fmt_g(s["tau_rows"], ".3g")),
+                      fmt_num(s["tau_rows"])),
                      ("effective sample size after autocorrelation",
-                      fmt_g(s["ess_autocorr"], ".5g"))]
-    if s["mode"] == "refit":
+                      fmt_num(s["ess_autocorr"], 5))]
+    if result.mode == "refit":
         rows += [("steps x walkers", f"{s['n_steps']} x {s['walkers']}"),
-                 ("autocorrelation times", ", ".join(f"{k}: {v:.1f}" for k, v in s["tau"].items())),
-                 ("converged", f"{s['converged']} ({s['convergence_rule']})"),
+                 ("autocorrelation times", ", ".join(f"{k}: {fmt_num(v)}"
+                                                     for k, v in s["tau"].items())),
+                 ("converged", f"{'yes' if s['converged'] else 'no'} "
+                               f"({s['convergence_rule']})"),
                  ("likelihood", s["likelihood"])]
-    doc.add(Table(("quantity", "value"), tuple(rows)))
-    mrows = tuple((n, f"{fmt_g(s['before'][n]['mean'])} +- {fmt_g(s['before'][n]['std'], '.3g')}",
-                   f"{fmt_g(s['after'][n]['mean'])} +- {fmt_g(s['after'][n]['std'], '.3g')}")
-                  for n in fit.names)
-    doc.add(Heading("How the posterior moved"), Table(("parameter", "before", "after"), mrows))
-    if s["mode"] == "refit" and not s["converged"]:
-        doc.add(Bullets(("The chain is NOT converged by the stated rule; do not use these "
-                         "samples for inference before running longer.",)))
+    return [Heading("Mode and diagnostics"), Para(f"`{result.mode}`: {MODE_TEXT[result.mode]}."),
+            Table(("quantity", "value"), tuple(rows))]
+
+
+def impose_document(fit: Fit, region: Region, result: ImposeResult,
+                    images: dict[str, Path], kinematics: dict | None = None) -> Document:
+    """The impose report (``kinematics``: the region's, as every verb prints them)."""
+    doc = Document(f"Positivity imposed: {fit.name}")
+    doc.add(impose_banner(result))
+    if kinematics:
+        doc.add(Bullets((f"Region kinematics: {fmt_kinematics(kinematics)}.",
+                         f"Region `{region.theory}`, {len(region.facets)} facets, content "
+                         f"hash `{region.hash[:16]}`.")))
+    doc.add(*posterior_block(result), *diagnostics_block(result))
     if "corner" in images:
         doc.add(Image(images["corner"], "corner plot before and after"))
-    doc.add(*fit_block(fit), *region_block(region), *cautions_block(region.theory))
+    doc.add(*fit_block(fit), *region_block(region), *cautions_block(region.theory),
+            *references_block(region.theory))
     return doc

@@ -31,7 +31,7 @@ CHECK_OUTPUTS = ("summary.json", "flagged.csv", "report.md", "report.html", "cor
                  "region.png", "region.json")
 #: every file an impose run may write into its output folder
 IMPOSE_OUTPUTS = ("samples.parquet", "samples.csv", "summary.json", "corner_before_after.png",
-                  "report.md", "region.json")
+                  "report.md", "report.html", "region.json")
 #: rows of each sample set drawn in the before/after corner plot
 CORNER_ROWS = 50_000
 
@@ -65,7 +65,7 @@ def write_check_outputs(fit: Fit, result: CheckResult, outdir: str | Path, *,
     images = check_plots(result, fit, outdir) if plots else {}
     written = dict(images)
     written["summary"] = atomic_write_json(outdir / "summary.json", result.summary)
-    doc = check_document(fit, result.region, result.summary, result.worst, images)
+    doc = check_document(result, images)
     written["report_md"] = atomic_write_text(outdir / "report.md", to_markdown(doc))
     written["report_html"] = atomic_write_text(outdir / "report.html", to_html(doc))
     return written
@@ -89,7 +89,7 @@ def check_plots(result: CheckResult, fit: Fit, outdir: Path) -> dict[str, Path]:
     names = list(fit.names)
     for k, col in cmap_cols.items():
         data[:, col] = result.plot_region_coords[:, k]
-        names[col] = f"{region.coordinates[k]} (region)"
+        names[col] = region.coordinates[k]
     keep = plotted_columns(len(names), cmap_cols)
     data, names = data[:, keep], [names[i] for i in keep]
     cmap_cols = {k: keep.index(c) for k, c in cmap_cols.items() if c in keep}
@@ -131,14 +131,21 @@ def region_columns(jac: Any) -> dict[int, int]:
 def impose_summary(fit: Fit, region: Region, result: ImposeResult,
                    region_path: str | None) -> dict[str, Any]:
     """summary.json of an impose run: the result's figures with the fit and the region."""
-    return {**result.figures, "fit": fit.name, "theory": fit.theory,
-            "region_hash": region.hash, "region_file": region_path}
+    from eftsieve._version import __version__
+    from eftsieve.theories import get_theory
+
+    return {**result.to_dict(), "fit": fit.name, "theory": fit.theory,
+            "region_hash": region.hash, "region_file": region_path,
+            "kinematics": get_theory(region.theory).region_kinematics(region),
+            "eftsieve_version": __version__, "converged": result.converged,
+            "driven_by_bounds": result.driven_by_bounds}
 
 
 def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir: str | Path,
                          *, region_path: str | None = None, csv: bool = False,
                          plots: bool = True) -> dict[str, Any]:
-    """Write samples.parquet (and samples.csv), summary.json, report.md and the corner plot.
+    """Write samples.parquet (and samples.csv), summary.json, report.md, report.html and
+    the corner plot.
 
     Parameters
     ----------
@@ -159,7 +166,7 @@ def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir:
         The summary written to summary.json.
     """
     from eftsieve.io.atomic import atomic_write_json, atomic_write_text
-    from eftsieve.report.document import to_markdown
+    from eftsieve.report.document import to_html, to_markdown
     from eftsieve.report.impose_report import impose_document
 
     outdir = Path(outdir)
@@ -168,8 +175,9 @@ def write_impose_outputs(fit: Fit, region: Region, result: ImposeResult, outdir:
     images = {"corner": corner} if corner is not None else {}
     summary = impose_summary(fit, region, result, region_path)
     atomic_write_json(outdir / "summary.json", summary)
-    atomic_write_text(outdir / "report.md", to_markdown(
-        impose_document(fit, region, summary, images)))
+    doc = impose_document(fit, region, result, images, summary["kinematics"])
+    atomic_write_text(outdir / "report.md", to_markdown(doc))
+    atomic_write_text(outdir / "report.html", to_html(doc))
     return summary
 
 
@@ -204,7 +212,7 @@ def impose_corner(result: ImposeResult, fit: Fit, region: Region,
     for k, c in cols.items():
         before[:, c] = cmap(result.before_samples)[:, k]
         after[:, c] = cmap(result.samples)[:, k]
-        names[c] = f"{region.coordinates[k]} (region)"
+        names[c] = region.coordinates[k]
     shown = plotted_columns(len(names), cols)
     if shown != list(range(len(names))):
         before, after = before[:, shown], after[:, shown]

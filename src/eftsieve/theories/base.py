@@ -133,6 +133,68 @@ class Theory(ABC):
                                      for k, (m, d) in self.kinematic_inputs.items()},
                 "bound_families": list(self.families)}
 
+    def region_kinematics(self, region: Region) -> dict[str, Any]:
+        """The kinematics a region was built at, as every verb prints them.
+
+        The convention's inputs, the region settings in MeV, the convention name, the
+        bound families and a truncation order where there is one.  Theories drop inputs
+        their convention does not use.
+        """
+        out: dict[str, Any] = {k: v for k, v in region.convention.items() if k != "name"}
+        for k, v in region.settings.items():
+            single = k.replace("_masses_", "_mass_")
+            if k.endswith("_mev") and k not in out and not (
+                    single in out and isinstance(v, (list, tuple)) and list(v) == [out[single]]):
+                out[k] = v
+        if "order" in region.settings:
+            out["order"] = region.settings["order"]
+        if region.convention.get("name"):
+            out["convention"] = region.convention["name"]
+        out["families"] = list(region.settings.get("families")
+                               or sorted({f.family for f in region.facets}))
+        return out
+
+    def infer_convention(self, names: tuple[str, ...]) -> str | None:
+        """The convention that parameter (column) names imply unambiguously, or None.
+
+        Used for bare samples files without ``--theory``/``--convention``; a theory that
+        claims no names returns None (the default).
+        """
+        return None
+
+    def convention_default(self, convention: str, key: str) -> float | None:
+        """A default for a kinematic input ``key`` that ``convention`` needs, or None
+        (no default: the user must give it).  Callers print a notice when they use it."""
+        return None
+
+    def region_default_notices(self, fit: Fit) -> tuple[str, ...]:
+        """Sentences naming the kinematic defaults a region built for ``fit`` takes
+        because the fit does not state them (none by default)."""
+        return ()
+
+    def kinematics_mismatch(self, fit: Fit, region: Region) -> tuple[str, ...]:
+        """Where a fit's stated kinematics disagree with the kinematics a region was
+        built at: one sentence per input, naming both values.
+
+        Compares each ``fit.kinematics`` entry with the region's convention and settings
+        (a list of masses must contain the fit's); inputs the region does not record are
+        not compared (a matching onto another theory's region drops them).
+        """
+        out = []
+        for key, val in fit.kinematics.items():
+            plural = key.replace("_mass_", "_masses_")
+            have = region.convention.get(key, region.settings.get(key))
+            if have is None and plural != key:
+                have = region.settings.get(plural)
+            if have is None:
+                continue
+            values = [float(v) for v in (have if isinstance(have, (list, tuple)) else [have])]
+            if not any(abs(v - float(val)) <= 1e-9 * max(1.0, abs(v)) for v in values):
+                shown = ", ".join(f"{v:g}" for v in values)
+                out.append(f"{key}: the fit says {float(val):g}, the region was built at "
+                           f"{shown}")
+        return tuple(out)
+
     def validate_fit(self, fit: Fit) -> None:  # noqa: B027 - optional hook, default no-op
         """Theory-specific semantic checks of a fit (raise InputError); none by default."""
 

@@ -147,14 +147,14 @@ def test_vectorised_is_affine_and_fast(rng):
 
 
 def test_observable_names():
-    assert set(OBSERVABLES) == {"a0_0", "b0_0", "a1_1", "b1_1", "a0_2", "b0_2",
-                                "a2_0", "b2_0", "a2_2", "b2_2"}
-    assert th.parse_name("b1_1") == ("b", 1, 1)
-    assert th.parse_name("a0_2") == ("a", 0, 2)          # isospin first, then l
-    assert th.units("a0_0") == "1" and th.units("b0_2") == "M_pi^-6"
+    assert set(OBSERVABLES) == {"a_I0_l0", "b_I0_l0", "a_I1_l1", "b_I1_l1", "a_I0_l2", "b_I0_l2",
+                                "a_I2_l0", "b_I2_l0", "a_I2_l2", "b_I2_l2"}
+    assert th.parse_name("b_I1_l1") == ("b", 1, 1)
+    assert th.parse_name("a_I0_l2") == ("a", 0, 2)          # isospin first, then l
+    assert th.units("a_I0_l0") == "1" and th.units("b_I0_l2") == "M_pi^-6"
 
 
-@pytest.mark.parametrize("name", ["a1_0", "a0_1", "b2_1", "a1_2", "b0_3"])
+@pytest.mark.parametrize("name", ["a_I1_l0", "a_I0_l1", "b_I2_l1", "a_I1_l2", "b_I0_l3"])
 def test_bose_forbidden_waves_raise(name):
     with pytest.raises(ValueError, match="Bose symmetry"):
         threshold_parameter(name, LBARS[0], *KINEMATICS[0])
@@ -168,19 +168,40 @@ def test_unknown_names_raise(name):
 
 def test_bad_inputs_raise():
     with pytest.raises(ValueError, match="lbar"):
-        threshold_parameter("a0_0", (1.0, 2.0, 3.0), *KINEMATICS[0])
+        threshold_parameter("a_I0_l0", (1.0, 2.0, 3.0), *KINEMATICS[0])
     with pytest.raises(ValueError, match="lbar"):
         threshold_parameters(OBSERVABLES, np.zeros((3, 5)), *KINEMATICS[0])
     with pytest.raises(ValueError, match="fpi_mev"):
-        threshold_parameter("a0_0", LBARS[0], 139.57, -92.0)
+        threshold_parameter("a_I0_l0", LBARS[0], 139.57, -92.0)
     with pytest.raises(ValueError, match="pion_mass_mev"):
         threshold_parameters(OBSERVABLES, np.zeros((1, 4)), float("nan"), 92.0)
 
 
 def test_record_to_dict():
     mpi, fpi = KINEMATICS[0]
-    rec = th.evaluate("a0_2", LBARS[0], mpi, fpi)
+    rec = th.evaluate("a_I0_l2", LBARS[0], mpi, fpi)
     assert isinstance(rec, ThresholdParameter)
-    expected = d_wave_closed(LBARS[0], fpi / mpi)["a0_2"]
-    assert rec.to_dict() == {"name": "a0_2", "isospin": 0, "l": 2, "kind": "a",
+    expected = d_wave_closed(LBARS[0], fpi / mpi)["a_I0_l2"]
+    assert rec.to_dict() == {"name": "a_I0_l2", "isospin": 0, "l": 2, "kind": "a",
                              "value": pytest.approx(expected, rel=1e-9), "units": "M_pi^-4"}
+
+
+def test_old_threshold_names_are_refused_with_both_readings():
+    """Regression (issue 16, item 12): 'a0_2' meant a_2^0 but reads as a_0^2."""
+    with pytest.raises(ValueError, match="old spelling") as err:
+        th.parse_name("a0_2")
+    assert "'a_I0_l2'" in str(err.value) and "'a_I2_l0'" in str(err.value)
+
+
+def test_old_threshold_names_in_an_observables_file_name_the_field(tmp_path):
+    from eftsieve.errors import InputError
+    from eftsieve.theories.chpt_su2.observables import load_observables
+
+    path = tmp_path / "obs.yaml"
+    path.write_text("format_version: 1\nobservables:\n"
+                    "  - {name: a2_0, pion_mass_mev: 139.57, fpi_mev: 92.07}\n"
+                    "values: [-0.04]\ncovariance: [[1e-6]]\n")
+    with pytest.raises(InputError) as err:
+        load_observables(path)
+    line = err.value.one_line()
+    assert "observables[0].name" in line and "a_I2_l0" in line and str(path) in line

@@ -13,9 +13,11 @@ a_0^0 = 7 M^2 / (32 pi F^2), a_0^2 = -M^2 / (16 pi F^2).  T^I is the one-loop SU
 ChPT amplitude of :func:`eftsieve.theories.chpt_su2.amplitude.full_amplitude` (Gasser & Leutwyler
 1984, Eq. (17.5)).
 
-Observable names are ``f"{kind}{I}_{l}"``: the kind (``a`` or ``b``), then the isospin
-I, then the angular momentum l; ``"a0_2"`` is a_2^0 (I = 0, D wave), ``"b1_1"`` is
-b_1^1.  Bose symmetry allows (I, l) = (0, 0), (0, 2), (1, 1), (2, 0), (2, 2) only.
+Observable names are ``f"{kind}_I{I}_l{l}"``: the kind (``a`` or ``b``), the isospin I
+and the angular momentum l, both labelled, so that no one reads the I = 0 D wave a_2^0
+(``"a_I0_l2"``) as the I = 2 S-wave length a_0^2 (``"a_I2_l0"``); ``"b_I1_l1"`` is
+b_1^1.  The old unlabelled spelling (``a0_2``) is refused with the new name.
+Bose symmetry allows (I, l) = (0, 0), (0, 2), (1, 1), (2, 0), (2, 2) only.
 
 Method.  For fixed q^2 the projection is done by Gauss-Legendre quadrature in z (the
 integrand is analytic in z: its nearest singularity, Jbar(t) at t = 4 M^2, lies at
@@ -71,9 +73,9 @@ from eftsieve.theories.chpt_su2.conventions import affine_map, convention, lec_i
 #: The allowed (isospin, l) pairs (Bose symmetry: even l for I = 0, 2, odd l for I = 1).
 ALLOWED_WAVES: tuple[tuple[int, int], ...] = ((0, 0), (1, 1), (0, 2), (2, 0), (2, 2))
 
-#: Every observable name, ``f"{kind}{I}_{l}"`` (kind ``a`` or ``b``, isospin I, wave l).
+#: Every observable name, ``f"{kind}_I{I}_l{l}"`` (kind ``a`` or ``b``, isospin I, wave l).
 OBSERVABLES: tuple[str, ...] = tuple(
-    f"{kind}{iso}_{ell}" for iso, ell in ALLOWED_WAVES for kind in ("a", "b"))
+    f"{kind}_I{iso}_l{ell}" for iso, ell in ALLOWED_WAVES for kind in ("a", "b"))
 
 #: Half-width h of the q^2 interval [-h, h] (units M^2), number of Chebyshev points on
 #: it, and number of Chebyshev polynomials fitted to Re t_l / q^{2l}.
@@ -83,7 +85,9 @@ N_BASIS = 24
 #: Gauss-Legendre points in z = cos(theta).
 N_Z = 24
 
-_NAME = re.compile(r"^([ab])(\d)_(\d)$")
+_NAME = re.compile(r"^([ab])_I(\d)_l(\d)$")
+#: the old spelling, isospin and wave unlabelled (``a0_2``), refused with the new name
+_OLD_NAME = re.compile(r"^([ab])(\d)_(\d)$")
 
 
 def parse_name(name: str) -> tuple[str, int, int]:
@@ -92,7 +96,7 @@ def parse_name(name: str) -> tuple[str, int, int]:
     Parameters
     ----------
     name
-        ``f"{kind}{I}_{l}"``, e.g. ``"a0_0"`` (a_0^0) or ``"b2_2"`` (b_2^2).
+        ``f"{kind}_I{I}_l{l}"``, e.g. ``"a_I0_l0"`` (a_0^0) or ``"b_I2_l2"`` (b_2^2).
 
     Returns
     -------
@@ -106,9 +110,15 @@ def parse_name(name: str) -> tuple[str, int, int]:
         provided (l > 2).
     """
     match = _NAME.match(name) if isinstance(name, str) else None
+    old = _OLD_NAME.match(name) if isinstance(name, str) else None
+    if old is not None:
+        k, i, ell = old.groups()
+        raise ValueError(f"observable name {name!r} is the old spelling, which reads both "
+                         f"ways: for I = {i}, l = {ell} write '{k}_I{i}_l{ell}' "
+                         f"(the I = {ell}, l = {i} one is '{k}_I{ell}_l{i}')")
     if match is None:
-        raise ValueError(f"observable name {name!r} is not of the form '<a|b><I>_<l>', "
-                         f"e.g. 'a0_0'; known names: {', '.join(OBSERVABLES)}")
+        raise ValueError(f"observable name {name!r} is not of the form '<a|b>_I<I>_l<l>', "
+                         f"e.g. 'a_I0_l0'; known names: {', '.join(OBSERVABLES)}")
     kind, iso, ell = match.group(1), int(match.group(2)), int(match.group(3))
     if (iso, ell) not in ALLOWED_WAVES:
         bose = iso <= 2 and (iso + ell) % 2 == 1
@@ -387,7 +397,7 @@ class ObservableData:
     Attributes
     ----------
     names
-        Observable names of the built-in library (``a2_0`` ...).
+        Observable names of the built-in library (``a_I2_l0`` ...).
     pion_mass_mev, fpi_mev
         The M_pi and F_pi of each observable.
     values, cov
@@ -421,6 +431,13 @@ def load_observables(path: str | Path) -> ObservableData:
     names, ms, fs = [], [], []
     for i, o in enumerate(obs):
         if not isinstance(o, dict) or o.get("name") not in OBSERVABLES:
+            name = o.get("name") if isinstance(o, dict) else None
+            if isinstance(name, str) and _OLD_NAME.match(name):
+                try:
+                    parse_name(name)
+                except ValueError as err:
+                    raise InputError(p, f"observables[{i}].name", str(err).split(": ")[0],
+                                     str(err).split(": ", 1)[1]) from err
             raise InputError(p, f"observables[{i}].name", f"unknown observable {o!r}",
                              f"accepted: {', '.join(OBSERVABLES)}")
         for key in ("pion_mass_mev", "fpi_mev"):

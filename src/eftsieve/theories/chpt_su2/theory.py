@@ -348,6 +348,41 @@ class ChptSU2(Theory):
         """Q_j and the one-loop coefficients c_2,j at each facet (see _power_counting)."""
         return _power_counting(region, breakdown_mev)
 
+    def region_kinematics(self, region: Region) -> dict[str, Any]:
+        """The region's kinematics; mu only for the scale-dependent convention (the
+        lbar constants are defined at the pion mass and carry no scale)."""
+        kin = super().region_kinematics(region)
+        if region.convention.get("name") == "lbar" and "mu_mev" not in region.convention:
+            kin.pop("mu_mev", None)
+        return kin
+
+    def infer_convention(self, names: tuple[str, ...]) -> str | None:
+        """``lbar1``, ``lbar2``, ... name the lbar constants, ``l1``, ``l2``, ... the l_i^r
+        (whose scale must still be given); a mixture implies nothing."""
+        known = [n for n in names if n in self.parameter_names]
+        if known and all(n.startswith("lbar") for n in known):
+            return "lbar"
+        if known and not any(n.startswith("lbar") for n in known):
+            return "lr"
+        return None
+
+    def convention_default(self, convention: str, key: str) -> float | None:
+        """lbar without a pion mass: the physical one (the usual definition of lbar_i,
+        Gasser & Leutwyler, Ann. Phys. 158 (1984) 142)."""
+        if convention == "lbar" and key == "pion_mass_mev":
+            return DEFAULT_PION_MASS_MEV
+        return None
+
+    def region_default_notices(self, fit: Fit) -> tuple[str, ...]:
+        """A region for a fit that states no pion mass is built at the physical one."""
+        if "pion_mass_mev" in fit.kinematics:
+            return ()
+        if any(p.convention.name == "lbar" for p in fit.parameters):
+            return ()
+        return (f"the fit states no pion mass: the region is built at the physical pion "
+                f"mass {DEFAULT_PION_MASS_MEV:g} MeV (give --pion-mass, or kinematics."
+                "pion_mass_mev in a card, for a lattice ensemble)",)
+
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         convs = [p.convention for p in fit.parameters if p.convention.name != "none"]
         m = fit.kinematics.get("pion_mass_mev", DEFAULT_PION_MASS_MEV)

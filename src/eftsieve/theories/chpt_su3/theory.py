@@ -229,6 +229,13 @@ class ChptSU3(Theory):
         is for lbar."""
         return SMALL_COORDINATE_BAND
 
+    def infer_convention(self, names: tuple[str, ...]) -> str | None:
+        """``L1r``, ``L2r``, ... name the L_i^r constants (their scale must still be given)."""
+        known = [n for n in names if n in self.parameter_names]
+        if known and all(n.endswith("r") for n in known):
+            return CONVENTION
+        return None
+
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         kin = fit.kinematics
         mu = kin.get("mu_mev", DEFAULT_MU_MEV)

@@ -1,0 +1,116 @@
+"""The fit verdict, first in the terminal and at the top of the report (issue 16, items
+6-10), on three invented cards (tests/report/verdict_cases/, labelled as invented data):
+a fit inside, one in tension and one excluded, against the chpt-su2 region at the
+physical pion mass.  Golden text: regenerate with EFTSIEVE_REGEN_GOLDEN=1.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy import stats as sps
+
+import eftsieve as es
+from eftsieve.check.verdict import classify_fit, facet_violations, p_inside_text, tension_text
+from eftsieve.cli.check import summary_lines
+from eftsieve.region.model import Region
+from eftsieve.report.check_report import check_document
+from eftsieve.report.document import to_markdown
+from tests.helpers import region
+
+CASES = Path(__file__).parent / "verdict_cases"
+EXPECTED = {"inside": "consistent", "tension": "tension", "excluded": "excluded"}
+
+
+@pytest.fixture(scope="module")
+def results():
+    reg = Region.load(CASES / "su2_physical_region.json")
+    return {n: es.check(es.load_fit(CASES / f"{n}.yaml"), reg, draws=20_000, seed=1)
+            for n in EXPECTED}
+
+
+def header_text(res) -> str:
+    """The terminal lines and the report up to the fit section."""
+    md = to_markdown(check_document(res, {}))
+    return ("\n".join(summary_lines(res, "region.json")) + "\n\n"
+            + md.split("\n## Fit\n")[0].rstrip() + "\n")
+
+
+@pytest.mark.parametrize("case", sorted(EXPECTED))
+def test_terminal_and_report_header_match_golden_text(results, case):
+    text = header_text(results[case])
+    golden = CASES / f"golden_{case}.txt"
+    if os.environ.get("EFTSIEVE_REGEN_GOLDEN"):
+        golden.write_text(text)
+    assert text == golden.read_text()
+    first = text.splitlines()[0]
+    assert first.startswith(f"verdict: {EXPECTED[case]} - ")
+    assert "pion_mass = 139.57 MeV" in text and "families" in text
+
+
+@pytest.mark.parametrize("case", sorted(EXPECTED))
+def test_summary_json_carries_the_verdict_and_kinematics(results, case):
+    s = results[case].to_dict()
+    assert s["verdict"]["label"] == EXPECTED[case]
+    assert s["verdict"]["reason"] in header_text(results[case])
+    assert s["kinematics"]["pion_mass_mev"] == 139.57
+    assert s["kinematics"]["truncation_model"] == "none"
+    assert s["eftsieve_version"] == es.__version__
+    assert [f["p_violate"] for f in s["facets"]] == sorted(
+        (f["p_violate"] for f in s["facets"]), reverse=True)
+
+
+def test_no_zero_sigma_and_no_solver_noise(results):
+    for res in results.values():
+        text = header_text(res)
+        assert "0.00 sigma" not in text and "e-1" not in text.split("p_inside")[0]
+    assert "the mean is inside" in results["inside"].verdict.tension_text
+    assert "inside the nearest facet" in results["inside"].verdict.reason
+
+
+def test_thresholds_are_the_two_and_three_sigma_tails():
+    # one-sided Gaussian tails: Phi(-2) = 0.02275, Phi(-3) = 0.00135 (common practice)
+    assert classify_fit(1.99, 0.5) == "consistent"
+    assert classify_fit(2.0, 0.5) == "tension"
+    assert classify_fit(0.0, 0.02) == "tension"
+    assert classify_fit(3.0, 0.5) == "excluded"
+    assert classify_fit(0.0, 0.001) == "excluded"
+
+
+def test_facet_probability_is_the_gaussian_tail_along_the_normal():
+    """P(a.x < b) for x ~ N(m, C) is Phi((b - a.m)/sqrt(a C a)); checked by scipy draws."""
+    reg = region(((0, 1), 1.0), ((1, 2), 3.0))
+    mean, cov = np.array([0.5, 1.1]), np.array([[0.5, 0.1], [0.1, 0.2]])
+    exact = {v.index: v for v in facet_violations(reg, mean, cov, exact=True)}
+    x = sps.multivariate_normal(mean, cov).rvs(400_000, random_state=np.random.default_rng(5))
+    rows = {v.index: v for v in facet_violations(reg, mean, cov, False, rows=x)}
+    for i, (a, b) in enumerate((((0, 1), 1.0), ((1, 2), 3.0))):
+        a = np.array(a, float)
+        d = (a @ mean - b) / math.sqrt(a @ cov @ a)
+        assert exact[i].distance_sigma == pytest.approx(d, rel=1e-12)
+        assert exact[i].p_violate == pytest.approx(sps.norm.cdf(-d), rel=1e-12)
+        assert rows[i].p_violate == pytest.approx(np.mean(x @ a < b), abs=1e-12)
+        assert abs(rows[i].p_violate - exact[i].p_violate) < 5 * rows[i].p_violate_err
+
+
+def test_p_inside_one_is_a_bound_by_the_rule_of_three():
+    # rule of three: 1 - p < 3/n at 95% when none of n fail (Hanley & Lippman-Hand 1983)
+    assert p_inside_text(1.0, 0.0, 20_000) == "> 1 - 0.00015 at 95%"
+    assert p_inside_text(0.0, 0.0, 300) == "< 0.01 at 95%"
+    assert p_inside_text(0.385, 1.1e-4, 1e4) == "0.385 +- 0.00011"
+    assert p_inside_text(0.00587, 4e-17, 1e4) == "0.00587"
+
+
+def test_infinite_tension_says_why():
+    from eftsieve.stats.tension import Tension
+
+    reg = region(((0, 1), 1.0),)
+    ten = Tension(math.inf, np.zeros(2), (0,), np.array([0.5, 0.5, 0.0]), 0.0, math.inf, "f")
+    degenerate = facet_violations(reg, np.array([0.0, 0.0]), np.diag([1.0, 0.0]), True)
+    assert "degenerate covariance" in tension_text(ten, degenerate)
+    far = facet_violations(reg, np.array([0.0, -60.0]), np.eye(2), True)
+    assert "underflows" in tension_text(ten, far)
