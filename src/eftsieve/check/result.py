@@ -169,9 +169,17 @@ class CheckResult:
 
     @property
     def truncation_model(self) -> str:
-        """The theory-uncertainty model of the bounds' offsets (``none``: hard facets)."""
+        """The truncation treatment of the bounds: the region's own (a relaxed outer set
+        built in) and the check's theory-uncertainty model, or ``none`` (hard facets)."""
+        parts = []
+        built_in = self.region.settings.get("truncation") if isinstance(
+            self.region.settings, dict) else None
+        if built_in and built_in != "none":
+            parts.append(f"{built_in} (region)")
         tu = self.theory_uncertainty
-        return "none" if not tu else str(tu["model"]["settings"]["model"])
+        if tu:
+            parts.append(f"{tu['model']['settings']['model']} (check)")
+        return " + ".join(parts) or "none"
 
     @cached_property
     def kinematics(self) -> dict[str, Any]:

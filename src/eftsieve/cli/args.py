@@ -24,7 +24,8 @@ KINEMATIC_FLAGS = {"pion_mass_mev": "--pion-mass", "mu_mev": "--scale", "gap_mev
 #: region option (argparse dest) -> the key of the region settings it fills
 REGION_SETTINGS = {"family": "families", "pion_mass": "pion_masses_mev", "fpi": "fpi_mev",
                    "convention": "convention", "scale": "mu_mev", "grid": "grid",
-                   "order": "order", "spins": "spins", "coordinates": "coordinates"}
+                   "order": "order", "spins": "spins", "coordinates": "coordinates",
+                   "truncation": "truncation", "heavy_scale": "heavy_scale_mev"}
 
 
 def _number(text: str, kind: type) -> Any:
@@ -108,6 +109,11 @@ def add_region_args(p: argparse.ArgumentParser) -> None:
                         "(default 770)")
     p.add_argument("--grid", choices=["default", "fine"], default=None,
                    help="kinematic scan density (theories with a kinematic scan)")
+    p.add_argument("--truncation", default=None, metavar="MODEL",
+                   help="truncation treatment built into the region (theories that offer "
+                        "one; `none` for the hard one-loop facets)")
+    p.add_argument("--heavy-scale", type=positive_float, default=None, metavar="MEV",
+                   help="heavy scale of the truncation model in MeV (theories that offer one)")
     p.add_argument("--order", type=positive_int, default=None,
                    help="expansion order (theories with sum rules)")
     p.add_argument("--spins", type=nonnegative_int, default=None, metavar="JMAX",
@@ -192,8 +198,12 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
     from eftsieve.fit.formats.gvar_json import is_gvar_json
 
     path = Path(args.fit)
-    if (path.suffix.lower() in {".yaml", ".yml", ".json"} and not path.is_dir()
-            and not (path.suffix.lower() == ".json" and is_gvar_json(path))):
+    card_like = path.suffix.lower() in {".yaml", ".yml", ".json"}
+    if card_like and path.is_dir():
+        raise InputError(path, None, "is a folder, not a fit card",
+                         "give the card file (a folder of Parquet parts needs a name without "
+                         "a card extension)")
+    if card_like and not (path.suffix.lower() == ".json" and is_gvar_json(path)):
         return load_fit(path)
     given = {"pion_mass_mev": args.pion_mass, "mu_mev": args.scale,
              "gap_mev": getattr(args, "gap", None)}
