@@ -188,8 +188,8 @@ def test_full_disk_tmpfs(setup, tmp_path):
                                                   "outside.yaml"))
         res = subprocess.run(_cli("check", str(d / "outside.yaml"), "--region",
                                   str(d / "region.json"), "-o", str(out), "--draws", "400000",
-                                  "--no-plots", "--flagged"), env=_env(), capture_output=True, text=True,
-                             timeout=300)
+                                  "--no-plots", "--flagged"), env=_env(),
+                             capture_output=True, text=True, timeout=300)
         assert res.returncode == 2, res.stderr
         assert "no space left" in res.stderr
         assert "Traceback" not in res.stderr

@@ -22,7 +22,7 @@ class ExactRow(Protocol):
     """A constraint row evaluated exactly on one state (a null constraint, e.g.
     :class:`eftsieve.bounds.sum_rules.StatePolynomial`)."""
 
-    def mp_value(self, y: float, spin: float, mpmath: Any) -> Any: ...
+    def mp_value(self, y: float, spin: int, mp: Any) -> Any: ...
 
 
 def exact_spectrum(nulls: tuple[ExactRow, ...], y: np.ndarray, spin: np.ndarray,

@@ -42,6 +42,8 @@ def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:
         return np.asarray(cmap(x), dtype=float)
     x = np.asarray(x, dtype=float)
     jac = cmap.jacobian
+    if jac is None:  # is_affine says it is not; kept for the type checker
+        return np.asarray(cmap(x), dtype=float)
     out = np.empty((len(x), jac.shape[0]))
     for k in range(jac.shape[0]):
         col: np.ndarray | None = None

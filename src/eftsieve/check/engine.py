@@ -397,14 +397,14 @@ class CheckMerger:
         """The check result (with the engine and its partitions, worst points, subsample)."""
         self.check_complete()
         worst = self.worst.result().ordered()
-        points, facet_idx = worst.payload
+        points, facet_idx = (np.asarray(p) for p in worst.payload)
         facets = self.region.facets
         worst_rows = tuple(WorstPoint(int(r), tuple(float(v) for v in y), float(m),
                                       facets[int(f)].label())
                            for m, r, y, f in zip(worst.keys, worst.rows, points, facet_idx,
                                                  strict=True))
         sample = self.sample.result().ordered()
-        data = sample.payload[0]
+        data = np.asarray(sample.payload[0])
         k = len(self.fit.names)
         return summarize(self.fit, self.region, cmap, self.settings, self.acc, region_path,
                          engine={**engine, "partitions": list(self.done)}, worst=worst_rows,

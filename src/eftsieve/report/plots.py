@@ -617,7 +617,7 @@ def _slice_point(region: Region, ij: tuple[int, int],
     if centre is not None and np.abs(centre).max() < _UNBOUNDED * box:
         point = centre
     elif not (b <= 0).all():  # unbounded, and the origin is outside: its nearest point
-        from eftsieve.stats.accumulate import closest_point
+        from eftsieve.stats.tension import closest_point
 
         try:
             point = closest_point(np.zeros(region.dim), np.eye(region.dim), a, b)[0]

@@ -11,8 +11,10 @@ fit belongs to another theory).
 from __future__ import annotations
 
 from importlib import import_module
+from pathlib import Path
 from typing import TYPE_CHECKING
 
+from eftsieve.fit.conventions import NONE
 from eftsieve.theories.base import CoordinateMap, Theory
 
 if TYPE_CHECKING:
@@ -54,7 +56,7 @@ def get_theory(name: str) -> Theory:
     return theory
 
 
-def check_region(region: Region, path: object = None) -> None:
+def check_region(region: Region, path: str | Path | None = None) -> None:
     """A loaded region names a known theory, its coordinates are parameters of that
     theory and its convention is one the theory offers; RegionFileError otherwise."""
     from eftsieve.errors import RegionFileError
@@ -69,7 +71,7 @@ def check_region(region: Region, path: object = None) -> None:
         raise RegionFileError(path, f"coordinates: '{unknown[0]}' is not a parameter of "
                               f"{theory.name} {fix}")
     name = region.convention.get("name")
-    if name not in theory.convention_specs:
+    if name not in theory.convention_specs and name != NONE:
         raise RegionFileError(path, f"convention.name: '{name}' is not a convention of "
                               f"{theory.name} (it offers {', '.join(theory.convention_specs)}) "
                               f"{fix}")

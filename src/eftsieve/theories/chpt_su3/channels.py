@@ -180,9 +180,10 @@ class ChannelFunctionals:
 
     def t_derivative(self, cube: np.ndarray):
         """Evaluator of the first t-derivative bound (best alpha), unequal thresholds."""
-        x = self._domain().points(cube)
+        domain = self._domain()
+        x = domain.points(cube)
         k0, d_fixed_s, d_s3 = self._loop_parts(x, 3)
         cand, alpha = t_derivative_combination(k0, d_fixed_s, d_s3, x[:, 0], x[:, 2],
-                                               self.domain.s_th, self.domain.u_th)
+                                               domain.s_th, domain.u_th)
         return (cand, np.broadcast_to(self.k, (len(x), 3)),
                 {"s": x[:, 0], "t": x[:, 1], "alpha": alpha})
