@@ -545,10 +545,24 @@ def _scatter(ax: Axes, x: np.ndarray, w: np.ndarray | None) -> None:
                rasterized=True, gid="posterior-samples", zorder=2.2)
 
 
-def _legend_handles(*, inner: bool, bands: bool, posterior: str | None) -> list[Any]:
+def _between_labels(region: Region) -> tuple[str, str]:
+    """Legend labels of the set between the inner and outer facets, and of the inner set:
+    a truncation allowance (facets that carry ``truncation_shift``) or the order of a
+    sum-rule problem."""
+    if any("truncation_shift" in f.extra for f in region.facets):
+        return ("uncertain (within the truncation allowance)",
+                "inner set (the bounds without the allowance)")
+    return "numerically undecided", "inner set (positive spectra, to the order)"
+
+
+def _legend_handles(*, inner: bool, bands: bool, posterior: str | None,
+                    labels: tuple[str, str] = ("numerically undecided",
+                                               "inner set (positive spectra, to the order)"),
+                    ) -> list[Any]:
     """Proxy artists for the region figure legend.
 
-    ``posterior`` is ``"hpd"`` (contours), ``"points"`` (scatter only), ``"hist"`` or None.
+    ``posterior`` is ``"hpd"`` (contours), ``"points"`` (scatter only), ``"hist"`` or None;
+    ``labels`` name the set between the inner and outer facets and the inner set.
     """
     from matplotlib.lines import Line2D
     from matplotlib.patches import Patch
@@ -560,9 +574,8 @@ def _legend_handles(*, inner: bool, bands: bool, posterior: str | None) -> list[
     ]
     if inner:
         handles += [Patch(facecolor=_tint(YELLOW, 0.45), edgecolor=_tint(ORANGE, 0.8),
-                          hatch=UNDECIDED_HATCH, label="numerically undecided"),
-                    Line2D([], [], color="black", ls="--",
-                           label="inner set (positive spectra, to the order)")]
+                          hatch=UNDECIDED_HATCH, label=labels[0]),
+                    Line2D([], [], color="black", ls="--", label=labels[1])]
     if bands:
         handles.append(Patch(facecolor=_tint(GREY, 0.25), label="boundary 1\u03c3 / 2\u03c3 band"))
     if posterior == "hpd":
@@ -714,7 +727,8 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
         posterior = "hpd" if _draw_posterior_2d(ax, x, w) else "points"
     _finish_plane(ax, region, ij, fixed, box, title, note)
     ax.legend(handles=_legend_handles(inner=inner is not None, bands=bool(band_map),
-                                      posterior=posterior), loc="best", fontsize=7.5,
+                                      posterior=posterior, labels=_between_labels(region)),
+              loc="best", fontsize=7.5,
               framealpha=0.9)
     return fig
 
@@ -828,7 +842,8 @@ def _region_figure_1d(region: Region, samples: Any, weights: Any,
     ax.set_xlabel(region.coordinates[0])
     ax.set_title(_title(region, title), fontsize=10)
     ax.legend(handles=_legend_handles(inner=inner is not None, bands=bool(band_map),
-                                      posterior=posterior), loc="upper left",
+                                      posterior=posterior, labels=_between_labels(region)),
+              loc="upper left",
               bbox_to_anchor=(1.01, 1.0), fontsize=7.5, frameon=False)
     return fig
 
