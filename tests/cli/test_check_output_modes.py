@@ -53,4 +53,4 @@ def test_uncertain_when_the_theory_uncertainty_changes_the_verdict():
     soft = res.theory_uncertainty
     assert res.verdict.label == "uncertain", (soft["tension_sigma"], soft["p_inside"])
     assert res.verdict.reason.startswith("tension with hard facets but consistent")
-    assert res.kinematics["truncation_model"] == "fixed"
+    assert res.kinematics["truncation_model"] == "fixed (check)"

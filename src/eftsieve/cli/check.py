@@ -161,7 +161,7 @@ def summary_lines(result: CheckResult, rpath: str | None) -> list[str]:
              f"  {p_inside_clause(v.p_inside_text)}; tension: {v.tension_text}"]
     tu = result.theory_uncertainty
     if tu:
-        lines.append(f"  with theory uncertainty ({result.truncation_model}): p_inside = "
+        lines.append(f"  with theory uncertainty ({tu['model']['settings']['model']}): p_inside = "
                      f"{fmt_pm(tu['p_inside'], tu['p_inside_err'])}, uncertain "
                      f"{tu['n_uncertain']}, tension {fmt_sigma(tu['tension_sigma'])}")
     worst = v.facets[0] if v.facets else None
