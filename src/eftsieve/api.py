@@ -65,17 +65,8 @@ def load_samples(path: str | Path, theory: str | None = None, convention: str | 
                          f"use one of {', '.join(th.conventions)}")
     else:
         spec = th.convention_specs[convention]
+        kin = th.with_convention_defaults(convention, kin)
         for key, what in spec.needs:
-            default = th.convention_default(convention, key)
-            if key not in kin and default is not None:
-                import warnings
-
-                from eftsieve.errors import InputNotice
-
-                kin[key] = default
-                warnings.warn(InputNotice(f"convention '{convention}' without {key}: "
-                                          f"taken as {default:g} ({th.name} default)"),
-                              stacklevel=2)
             if key not in kin:
                 raise InputError(None, key, f"convention '{convention}' needs {what}",
                                  f"give {key} (MeV)")

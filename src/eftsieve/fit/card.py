@@ -267,7 +267,7 @@ def fit_from_card(card: dict[str, Any], path: Path, get_theory: Callable[[str], 
         raw, pkin = p.get("convention"), kin
         if raw is None and needs:  # shorthand: the theory infers it from the names
             raw = theory.infer_convention(tuple(q["name"] for q in card["parameters"]))
-            pkin = kin if raw is None else _with_defaults(theory, raw, kin)
+            pkin = kin if raw is None else theory.with_convention_defaults(raw, kin, "kinematics.")
         conv = parse_convention(raw, pkin, path, f"parameters[{i}].convention",
                                 needs, theory.convention_specs)
         if conv.name != "none" and p["name"] not in theory.parameter_names:
@@ -307,24 +307,6 @@ def _expand_shorthand(card: dict[str, Any]) -> dict[str, Any]:
         return {**card, "parameters": [{"name": p} if isinstance(p, str) else p
                                        for p in params]}
     return card
-
-
-def _with_defaults(theory: Any, convention: str, kin: dict[str, float]) -> dict[str, float]:
-    """The card's kinematics plus the theory's defaults for what ``convention`` needs."""
-    out = dict(kin)
-    spec = theory.convention_specs.get(convention)
-    for key, _ in (spec.needs if spec is not None else ()):
-        default = theory.convention_default(convention, key)
-        if key not in out and default is not None:
-            import warnings
-
-            from eftsieve.errors import InputNotice
-
-            out[key] = default
-            warnings.warn(InputNotice(f"convention '{convention}' without kinematics.{key}: "
-                                      f"taken as {default:g} ({theory.name} default)"),
-                          stacklevel=4)
-    return out
 
 
 def _card_error(path: Path, problem: str, hint: str) -> InputError:

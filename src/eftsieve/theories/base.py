@@ -167,6 +167,26 @@ class Theory(ABC):
         (no default: the user must give it).  Callers print a notice when they use it."""
         return None
 
+    def with_convention_defaults(self, convention: str, kin: dict[str, float],
+                                 label: str = "") -> dict[str, float]:
+        """``kin`` plus this theory's defaults for the inputs ``convention`` needs and
+        ``kin`` lacks, each with a printed notice (``label`` prefixes the key, e.g.
+        ``kinematics.``); the inputs are not modified."""
+        import warnings
+
+        from eftsieve.errors import InputNotice
+
+        out = dict(kin)
+        spec = self.convention_specs.get(convention)
+        for key, _ in (spec.needs if spec is not None else ()):
+            default = self.convention_default(convention, key)
+            if key not in out and default is not None:
+                out[key] = default
+                warnings.warn(InputNotice(f"convention '{convention}' without {label}{key}: "
+                                          f"taken as {default:g} ({self.name} default)"),
+                              stacklevel=3)
+        return out
+
     def region_default_notices(self, fit: Fit) -> tuple[str, ...]:
         """Sentences naming the kinematic defaults a region built for ``fit`` takes
         because the fit does not state them (none by default)."""
