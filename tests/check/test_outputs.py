@@ -26,9 +26,23 @@ def flagged_pair(tmp_path_factory, region):
     fit = make_fit(path)
     res = {}
     for fmt in ("csv", "parquet"):
-        local_check(fit, region, CheckSettings(plot_points=1000, flagged_format=fmt), d / fmt)
+        local_check(fit, region, CheckSettings(plot_points=1000, flagged_format=fmt,
+                                               flagged_margins=True), d / fmt)
         res[fmt] = d / fmt / f"flagged.{fmt}"
     return path, res
+
+
+def test_per_facet_margins_are_opt_in(tmp_path, region):
+    (path,) = write_parts(tmp_path / "in", (20_000,), seed=12)
+    fit = make_fit(path)
+    local_check(fit, region, CheckSettings(plot_points=100), tmp_path / "out")
+    table = pcsv.read_csv(tmp_path / "out" / "flagged.csv")
+    assert not [c for c in table.column_names if c.startswith("margin_")]
+    y = np.column_stack([table[f"{c} (region)"].to_numpy() for c in region.coordinates])
+    # the smallest margin and the worst facet are still exact (oracle: numpy A y - b)
+    m = region.margins(y)
+    np.testing.assert_allclose(table["min_margin"].to_numpy(), m.min(axis=1), atol=1e-12)
+    assert np.array_equal(table["worst_facet"].to_numpy(), m.argmin(axis=1))
 
 
 def test_csv_and_parquet_read_back_exactly(flagged_pair, region):
@@ -65,7 +79,8 @@ def test_csv_text_is_the_shortest_round_trip_form(flagged_pair):
 def test_cell_cap_does_not_change_the_bytes(flagged_pair, region, monkeypatch, tmp_path):
     src, files = flagged_pair
     monkeypatch.setattr(outputs, "MAX_CELLS", 97)  # a few rows per slice
-    local_check(make_fit(src), region, CheckSettings(plot_points=1000), tmp_path)
+    local_check(make_fit(src), region, CheckSettings(plot_points=1000, flagged_margins=True),
+                tmp_path)
     assert (tmp_path / "flagged.csv").read_bytes() == files["csv"].read_bytes()
 
 

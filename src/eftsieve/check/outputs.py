@@ -6,6 +6,13 @@ Arrow table and writes it with pyarrow's CSV writer (``flagged.csv``) or Parquet
 :meth:`FlaggedWriter.commit` moves into place; :func:`flagged_output` does that around a
 block of work and removes the temporary file when the block raises.
 
+Columns: the row, its verdict, the fit's values, the region coordinates, the smallest
+margin and the worst facet (index, family, channel, point).  The margin to every facet
+(``margin_0`` ...) is opt-in (``margins=True``, ``eftsieve check --flagged-margins``): it
+is recomputed exactly from the coordinates and region.json, and on a many-facet region
+it multiplies the file's size and writing time by the facet count (68 facets: 78 instead
+of 11 columns, about 25x slower to write as CSV; benchmarks/bench_stream.py).
+
 Speed and memory: the writer formats whole columns in Arrow's C++ code (no per-cell
 Python), and it never holds more than :data:`MAX_CELLS` cells of one block at a time,
 whatever the number of facets (the per-facet margins are made slice by slice), so the
@@ -71,11 +78,11 @@ class FlaggedRows:
                            self.verdict[lo:hi], self.min_margin[lo:hi], self.worst[lo:hi])
 
 
-def flagged_columns(fit: Fit, region: Region) -> list[str]:
-    """The column names of the flagged output."""
+def flagged_columns(fit: Fit, region: Region, margins: bool = False) -> list[str]:
+    """The column names of the flagged output (``margin_<j>`` per facet with ``margins``)."""
+    per_facet = [f"margin_{i}" for i in range(len(region.facets))] if margins else []
     return ["row", "verdict", *fit.names, *[f"{c} (region)" for c in region.coordinates],
-            "min_margin", *[f"margin_{i}" for i in range(len(region.facets))],
-            "worst_facet", "family", "channel", "point"]
+            "min_margin", *per_facet, "worst_facet", "family", "channel", "point"]
 
 
 def elementwise_margins(y: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -102,16 +109,20 @@ class FlaggedWriter:
         What is checked (column names, facets).
     fmt
         ``csv`` or ``parquet``.
+    margins
+        Also write the margin to every facet (``margin_<j>``).
     """
 
-    def __init__(self, path: Path, fit: Fit, region: Region, fmt: str = "csv") -> None:
+    def __init__(self, path: Path, fit: Fit, region: Region, fmt: str = "csv",
+                 margins: bool = False) -> None:
         import pyarrow as pa
 
         if fmt not in FLAGGED_FORMATS:
             raise InputError(None, "--flagged-format", f"unknown format '{fmt}'",
                              f"use one of {', '.join(FLAGGED_FORMATS)}")
         self.path, self.fmt, self.region = path, fmt, region
-        self.columns = flagged_columns(fit, region)
+        self.columns = flagged_columns(fit, region, margins)
+        self.margins = margins
         self.a, self.b = region.arrays()
         self.n_values = len(fit.names)
         facets = region.facets
@@ -155,7 +166,6 @@ class FlaggedWriter:
     def _table(self, f: FlaggedRows) -> Any:
         import pyarrow as pa
 
-        margins = elementwise_margins(f.y, self.a, self.b)
         w = pa.array(f.worst.astype(np.int32))
         cols = [pa.array(f.rows.astype(np.int64)),
                 pa.DictionaryArray.from_arrays(pa.array(f.verdict.astype(np.int8)),
@@ -163,7 +173,9 @@ class FlaggedWriter:
         cols += [pa.array(f.values[:, i]) for i in range(f.values.shape[1])]
         cols += [pa.array(f.y[:, i]) for i in range(f.y.shape[1])]
         cols.append(pa.array(f.min_margin))
-        cols += [pa.array(margins[:, j]) for j in range(margins.shape[1])]
+        if self.margins:
+            margins = elementwise_margins(f.y, self.a, self.b)
+            cols += [pa.array(margins[:, j]) for j in range(margins.shape[1])]
         cols.append(w)
         cols += [pa.DictionaryArray.from_arrays(w, t) for t in self.text]
         return pa.Table.from_arrays(cols, schema=self.schema)
@@ -189,15 +201,16 @@ class FlaggedWriter:
 
 
 @contextmanager
-def flagged_output(outdir: Path | None, fit: Fit, region: Region, fmt: str = "csv"
-                   ) -> Iterator[FlaggedWriter | None]:
+def flagged_output(outdir: Path | None, fit: Fit, region: Region, fmt: str = "csv",
+                   margins: bool = False) -> Iterator[FlaggedWriter | None]:
     """A FlaggedWriter for ``outdir/flagged.csv`` (or ``flagged.parquet``; None without an
     outdir): moved into place when the block succeeds, removed when it raises, so the
     file is never half-written."""
     if outdir is None:
         yield None
         return
-    writer = FlaggedWriter(outdir / FLAGGED_FORMATS.get(fmt, "flagged.csv"), fit, region, fmt)
+    writer = FlaggedWriter(outdir / FLAGGED_FORMATS.get(fmt, "flagged.csv"), fit, region, fmt,
+                           margins)
     try:
         yield writer
     except BaseException:

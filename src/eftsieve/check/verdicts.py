@@ -47,6 +47,9 @@ class CheckSettings:
         Size of the uniform subsample kept for plots.
     flagged_format
         ``csv`` (flagged.csv) or ``parquet`` (flagged.parquet) for the rows not inside.
+    flagged_margins
+        Also write each flagged row's margin to every facet (off by default: the file
+        then grows with the facet count; the margins follow from the coordinates).
     blas_threads
         BLAS threads inside the check (1 by default: the streaming check multiplies
         n x 2 arrays, where threads only spin; None leaves the process's setting).
@@ -58,6 +61,7 @@ class CheckSettings:
     chunk_rows: int = 1_000_000
     plot_points: int = 50_000
     flagged_format: str = "csv"
+    flagged_margins: bool = False
     blas_threads: int | None = 1
 
     def __post_init__(self) -> None:
@@ -95,7 +99,8 @@ class CheckSettings:
     def to_dict(self) -> dict[str, Any]:
         return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,
                 "chunk_rows": self.chunk_rows, "plot_points": self.plot_points,
-                "flagged_format": self.flagged_format}
+                "flagged_format": self.flagged_format,
+                "flagged_margins": self.flagged_margins}
 
 
 @dataclass(frozen=True)

@@ -53,6 +53,9 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("--flagged-format", choices=["csv", "parquet"], default="csv",
                    help="file of the rows not inside: flagged.csv or flagged.parquet "
                         "(default csv)")
+    p.add_argument("--flagged-margins", action="store_true",
+                   help="also write each flagged row's margin to every facet (margin_0, ...); "
+                        "off by default: on a many-facet region it multiplies the file's size")
     p.add_argument("--flagged", action="store_true",
                    help="write the flagged file for the synthetic draws of a Gaussian card too "
                         "(default: only for the rows of a samples file)")
@@ -69,7 +72,8 @@ def _settings(args: argparse.Namespace) -> Any:
     from eftsieve.check.verdicts import CheckSettings
 
     return CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
-                         chunk_rows=args.chunk_rows, flagged_format=args.flagged_format)
+                         chunk_rows=args.chunk_rows, flagged_format=args.flagged_format,
+                         flagged_margins=args.flagged_margins)
 
 
 def cmd_check(args: argparse.Namespace) -> int:

@@ -110,7 +110,8 @@ def collect_check(sub: SubmittedCheck, outdir: Path | None,
                   partition_timeout: float | None = None) -> CheckResult:
     """Merge the partitions of a submitted check in order; write flagged.csv atomically."""
     retries = int(sub.engine.get("retries", 0))
-    with flagged_output(outdir, sub.fit, sub.region, sub.settings.flagged_format) as flagged:
+    with flagged_output(outdir, sub.fit, sub.region, sub.settings.flagged_format,
+                         sub.settings.flagged_margins) as flagged:
         return _merge_in_order(sub, flagged, partition_timeout, retries)
 
 

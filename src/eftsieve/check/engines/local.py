@@ -62,7 +62,8 @@ def _local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path
                  region_path: str | None, uncertainty: Any) -> CheckResult:
     prep = prepare(fit, region, settings, uncertainty)
     parts = prep.source.file_parts()
-    with flagged_output(outdir, fit, region, settings.flagged_format) as flagged:
+    with flagged_output(outdir, fit, region, settings.flagged_format,
+                         settings.flagged_margins) as flagged:
         merger = CheckMerger(fit, region, settings, parts, flagged, prep.source.weighted)
         for part in parts:
             job = PartitionJob(part, fit, prep.source, region, prep.cmap, settings,
