@@ -45,7 +45,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy import special
 
 from eftsieve.errors import InputError
 from eftsieve.region.model import Region
@@ -204,6 +203,8 @@ def _prob_block(m: np.ndarray, fu: FacetUncertainty) -> np.ndarray:
 
 
 def _log_phi(z: np.ndarray) -> np.ndarray:
+    from scipy import special  # only when a theory-uncertainty model is on (issue 18)
+
     return special.log_ndtr(z)
 
 

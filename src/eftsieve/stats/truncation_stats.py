@@ -16,7 +16,7 @@ import math
 from typing import Any
 
 import numpy as np
-from scipy import stats as sps
+from scipy import special
 
 from eftsieve.fit.model import Fit
 from eftsieve.region.model import Region
@@ -36,11 +36,11 @@ def facet_tension(mean: np.ndarray, cov: np.ndarray, region: Region,
     scales = (fu.posterior.cbar_quantiles() if fu.posterior is not None else np.ones(1))
     p = np.zeros(len(b))
     for c in scales:
-        p += sps.norm.cdf(gap / np.sqrt(var + (c * fu.sigma) ** 2))
+        p += special.ndtr(gap / np.sqrt(var + (c * fu.sigma) ** 2))  # norm.cdf
     p /= len(scales)
     j = int(np.argmin(p))
     p_b = min(1.0, len(b) * float(p[j]))
-    sigma = float(sps.norm.isf(p_b)) if p_b < 0.5 else 0.0
+    sigma = float(-special.ndtri(p_b)) if p_b < 0.5 else 0.0
     return p_b, sigma, j
 
 
