@@ -87,3 +87,20 @@ def test_cell_cap_does_not_change_the_bytes(flagged_pair, region, monkeypatch, t
 def test_unknown_format_is_an_input_error():
     with pytest.raises(InputError, match="flagged-format"):
         CheckSettings(flagged_format="xlsx")
+
+
+def test_region_columns_left_out_when_they_are_the_fit_columns(tmp_path, region):
+    from eftsieve.fit.model import Fit, Parameter
+    from eftsieve.io.samples import SamplesSource
+    from tests.check.conftest import LBAR
+
+    (path,) = write_parts(tmp_path / "in", (20_000,), seed=13)
+    source = SamplesSource(path, "parquet", ("lbar1", "lbar2"), None)
+    fit = Fit("two", "chpt-su2", (Parameter("lbar1", LBAR), Parameter("lbar2", LBAR)),
+              {"pion_mass_mev": 139.57}, samples=source)
+    local_check(fit, region, CheckSettings(plot_points=100), tmp_path / "out")
+    table = pcsv.read_csv(tmp_path / "out" / "flagged.csv")
+    assert table.column_names[:5] == ["row", "verdict", "lbar1", "lbar2", "min_margin"]
+    y = np.column_stack([table["lbar1"].to_numpy(), table["lbar2"].to_numpy()])
+    np.testing.assert_allclose(table["min_margin"].to_numpy(), region.margins(y).min(axis=1),
+                               atol=1e-12)

@@ -6,8 +6,9 @@ Arrow table and writes it with pyarrow's CSV writer (``flagged.csv``) or Parquet
 :meth:`FlaggedWriter.commit` moves into place; :func:`flagged_output` does that around a
 block of work and removes the temporary file when the block raises.
 
-Columns: the row, its verdict, the fit's values, the region coordinates, the smallest
-margin and the worst facet (index, family, channel, point).  The margin to every facet
+Columns: the row, its verdict, the fit's values, the region coordinates (``c (region)``;
+left out when they are the fit's own columns unchanged, see :func:`same_coordinates`),
+the smallest margin and the worst facet (index, family, channel, point).  The margin to every facet
 (``margin_0`` ...) is opt-in (``margins=True``, ``eftsieve check --flagged-margins``): it
 is recomputed exactly from the coordinates and region.json, and on a many-facet region
 it multiplies the file's size and writing time by the facet count (68 facets: 78 instead
@@ -78,11 +79,23 @@ class FlaggedRows:
                            self.verdict[lo:hi], self.min_margin[lo:hi], self.worst[lo:hi])
 
 
-def flagged_columns(fit: Fit, region: Region, margins: bool = False) -> list[str]:
-    """The column names of the flagged output (``margin_<j>`` per facet with ``margins``)."""
+def same_coordinates(cmap: Any, fit: Fit, region: Region) -> bool:
+    """True when the region's coordinates are the fit's columns unchanged (same names, the
+    identity map): the flagged output then does not repeat them as ``c (region)``."""
+    jac, shift = getattr(cmap, "jacobian", None), getattr(cmap, "shift", None)
+    return (tuple(region.coordinates) == tuple(fit.names) and jac is not None
+            and jac.shape[0] == jac.shape[1] and bool(np.array_equal(jac, np.eye(len(jac))))
+            and (shift is None or not np.any(shift)))
+
+
+def flagged_columns(fit: Fit, region: Region, margins: bool = False,
+                    coordinates: bool = True) -> list[str]:
+    """The column names of the flagged output (``margin_<j>`` per facet with ``margins``;
+    the region coordinates with ``coordinates``)."""
     per_facet = [f"margin_{i}" for i in range(len(region.facets))] if margins else []
-    return ["row", "verdict", *fit.names, *[f"{c} (region)" for c in region.coordinates],
-            "min_margin", *per_facet, "worst_facet", "family", "channel", "point"]
+    coords = [f"{c} (region)" for c in region.coordinates] if coordinates else []
+    return ["row", "verdict", *fit.names, *coords, "min_margin", *per_facet,
+            "worst_facet", "family", "channel", "point"]
 
 
 def elementwise_margins(y: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -111,18 +124,20 @@ class FlaggedWriter:
         ``csv`` or ``parquet``.
     margins
         Also write the margin to every facet (``margin_<j>``).
+    coordinates
+        Write the region coordinates (False when they equal the fit's columns).
     """
 
     def __init__(self, path: Path, fit: Fit, region: Region, fmt: str = "csv",
-                 margins: bool = False) -> None:
+                 margins: bool = False, coordinates: bool = True) -> None:
         import pyarrow as pa
 
         if fmt not in FLAGGED_FORMATS:
             raise InputError(None, "--flagged-format", f"unknown format '{fmt}'",
                              f"use one of {', '.join(FLAGGED_FORMATS)}")
         self.path, self.fmt, self.region = path, fmt, region
-        self.columns = flagged_columns(fit, region, margins)
-        self.margins = margins
+        self.columns = flagged_columns(fit, region, margins, coordinates)
+        self.margins, self.coordinates = margins, coordinates
         self.a, self.b = region.arrays()
         self.n_values = len(fit.names)
         facets = region.facets
@@ -171,7 +186,8 @@ class FlaggedWriter:
                 pa.DictionaryArray.from_arrays(pa.array(f.verdict.astype(np.int8)),
                                                self.verdicts)]
         cols += [pa.array(f.values[:, i]) for i in range(f.values.shape[1])]
-        cols += [pa.array(f.y[:, i]) for i in range(f.y.shape[1])]
+        if self.coordinates:
+            cols += [pa.array(f.y[:, i]) for i in range(f.y.shape[1])]
         cols.append(pa.array(f.min_margin))
         if self.margins:
             margins = elementwise_margins(f.y, self.a, self.b)
@@ -202,7 +218,7 @@ class FlaggedWriter:
 
 @contextmanager
 def flagged_output(outdir: Path | None, fit: Fit, region: Region, fmt: str = "csv",
-                   margins: bool = False) -> Iterator[FlaggedWriter | None]:
+                   margins: bool = False, cmap: Any = None) -> Iterator[FlaggedWriter | None]:
     """A FlaggedWriter for ``outdir/flagged.csv`` (or ``flagged.parquet``; None without an
     outdir): moved into place when the block succeeds, removed when it raises, so the
     file is never half-written."""
@@ -210,7 +226,7 @@ def flagged_output(outdir: Path | None, fit: Fit, region: Region, fmt: str = "cs
         yield None
         return
     writer = FlaggedWriter(outdir / FLAGGED_FORMATS.get(fmt, "flagged.csv"), fit, region, fmt,
-                           margins)
+                           margins, not same_coordinates(cmap, fit, region))
     try:
         yield writer
     except BaseException:

@@ -63,7 +63,7 @@ def _local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path
     prep = prepare(fit, region, settings, uncertainty)
     parts = prep.source.file_parts()
     with flagged_output(outdir, fit, region, settings.flagged_format,
-                         settings.flagged_margins) as flagged:
+                         settings.flagged_margins, prep.cmap) as flagged:
         merger = CheckMerger(fit, region, settings, parts, flagged, prep.source.weighted)
         for part in parts:
             job = PartitionJob(part, fit, prep.source, region, prep.cmap, settings,
