@@ -80,7 +80,7 @@ def test_unconverged_refit_exits_non_zero(tmp_path, capsys):
                     "  lbar2: {uniform: [0, 8]}\n")
     args = ["impose", str(card), "--region", REGION, "--mode", "refit", "--likelihood",
             f"{like}:loglike", "--samples", "40", "--walkers", "8", "--no-plots",
-            "--no-progress"]
+            "--no-progress", "--sampler", "mcmc"]
     code = main([*args, "-o", str(tmp_path / "a")])
     err = capsys.readouterr().err
     assert code == EXIT_UNCONVERGED

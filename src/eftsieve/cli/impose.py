@@ -42,6 +42,10 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
                    help="samples (exact) or steps per walker (refit); default 20000")
     p.add_argument("--walkers", type=positive_int, default=32,
                    help="emcee walkers (refit; default 32)")
+    p.add_argument("--sampler", choices=["auto", "importance", "mcmc"], default="auto",
+                   help="refit sampler: importance sampling from a truncated Laplace "
+                        "proposal, falling back to emcee when its weights are uneven "
+                        "(auto), or one of them only")
     p.add_argument("--min-ess", type=positive_float, default=None,
                    help="effective-sample-size floor of reweight (default 400)")
     p.add_argument("--csv", action="store_true", help="also write samples.csv")
@@ -62,7 +66,7 @@ def settings_from_args(args: argparse.Namespace) -> Any:
 
     return ImposeSettings(args.mode, args.samples, args.walkers, args.seed,
                           args.min_ess if args.min_ess is not None else MIN_ESS,
-                          not args.no_progress)
+                          not args.no_progress, args.sampler)
 
 
 def cmd_impose(args: argparse.Namespace) -> int:

@@ -53,6 +53,10 @@ class ImposeSettings:
         Effective-sample-size floor of ``reweight``.
     progress
         Show a progress bar (refit).
+    sampler
+        Refit sampler: ``auto`` (importance sampling from a truncated Laplace proposal,
+        :mod:`eftsieve.impose.importance`, and the MCMC when its weights are refused),
+        ``importance`` (no fallback) or ``mcmc`` (emcee only).
     """
 
     mode: str | None = None
@@ -61,10 +65,11 @@ class ImposeSettings:
     seed: int = 0
     min_ess: float = MIN_ESS
     progress: bool = True
+    sampler: str = "auto"
 
     def to_dict(self) -> dict[str, Any]:
         return {"mode": self.mode, "n_samples": self.n_samples, "walkers": self.walkers,
-                "seed": self.seed, "min_ess": self.min_ess}
+                "seed": self.seed, "min_ess": self.min_ess, "sampler": self.sampler}
 
 
 @dataclass(frozen=True)

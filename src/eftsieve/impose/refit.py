@@ -10,7 +10,11 @@ card's (independent uniform or normal factors); the likelihood is either
 - a user's Python callable ``module:function`` returning the log-likelihood of one
   parameter vector (in the fit's parameter order).  It runs the user's own code.
 
-Walkers start at the region's Chebyshev centre (an LP) plus a small ball, all inside
+By default the refit first tries importance sampling from an exact truncated Laplace
+proposal (:mod:`eftsieve.impose.importance`: i.i.d. weighted draws, Kish ESS), and runs
+the MCMC below only when those weights are refused (``ImposeSettings.sampler``).
+
+MCMC walkers start at the region's Chebyshev centre (an LP) plus a small ball, all inside
 the region and the prior support.  emcee: Foreman-Mackey et al., PASP 125 (2013) 306,
 arXiv:1202.3665; integrated autocorrelation times by its ``get_autocorr_time``
 (Goodman & Weare 2010; Sokal's window).  A chain shorter than 50 autocorrelation
@@ -27,7 +31,7 @@ from typing import Any
 
 import numpy as np
 
-from eftsieve.errors import ConvergenceWarning, InputError, SamplingError
+from eftsieve.errors import ConvergenceWarning, InputError, InputNotice, SamplingError
 from eftsieve.fit.model import Fit
 from eftsieve.impose.core import ImposeResult, ImposeSettings, with_moments
 from eftsieve.region.model import Region
@@ -169,6 +173,23 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
     """
     import emcee
 
+    if settings.sampler not in ("auto", "importance", "mcmc"):
+        raise InputError(None, "--sampler", f"unknown sampler '{settings.sampler}'",
+                         "use auto, importance or mcmc")
+    if settings.sampler != "mcmc":
+        from eftsieve.impose.importance import refit_by_importance
+
+        res, why = refit_by_importance(fit, region, cmap, loglike, settings,
+                                       likelihood_label, before, soft)
+        if res is not None:
+            if soft is not None:
+                res.figures["truncation"] = "soft"
+            return res
+        if settings.sampler == "importance":
+            raise SamplingError(f"the importance sample was refused: {why}",
+                                "use --sampler mcmc (or auto)")
+        warnings.warn(f"importance sampling refused ({why}); running the MCMC refit",
+                      InputNotice, stacklevel=2)
     logprior = log_prior_fn(fit)
     a, b = region.arrays()
 
