@@ -71,3 +71,31 @@ def test_kish_ess_reference_values():
     # Kish (1965): equal weights give n; one non-zero weight gives 1
     assert kish_ess(np.ones(10)) == pytest.approx(10)
     assert kish_ess(np.array([0.0, 0.0, 3.0])) == pytest.approx(1)
+
+
+@pytest.mark.parametrize("df", [1.5, 3.0, 10.0])
+def test_pareto_khat_matches_arviz(df):
+    """k-hat of our own Zhang-Stephens fit against arviz.psislw (reference library) on
+    the log-weights of a Gaussian proposal for Student-t targets."""
+    import arviz
+
+    from eftsieve.impose.importance import pareto_khat
+
+    x = np.random.default_rng(5).standard_normal(20_000) * 1.3
+    logw = stats.t.logpdf(x, df) - stats.norm.logpdf(x, scale=1.3)
+    with np.errstate(over="ignore"):  # arviz overflows harmlessly for light tails
+        _, k_ref = arviz.psislw(logw.copy())
+    assert pareto_khat(logw) == pytest.approx(float(k_ref), abs=1e-10)
+
+
+def test_heavy_tailed_target_is_refused():
+    """A Cauchy likelihood under a Gaussian proposal has infinite-variance weights
+    (k-hat > 0.7, arXiv:1507.02646): refused, not reported."""
+    def smooth(x):
+        return -np.log1p(x[:, 0] ** 2)
+
+    a = np.array([[1.0], [-1.0]])
+    b = np.array([-1e3, -1e3])
+    res, why = importance_refit(smooth, a, b, [(-1e3, 1e3)], np.array([True]),
+                                np.array([0.0]), 20_000, np.random.default_rng(4))
+    assert res is None and "k-hat" in why
