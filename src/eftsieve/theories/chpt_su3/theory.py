@@ -189,6 +189,10 @@ def eta_mass_shifts(st: dict[str, Any], facets: list[Facet]) -> list[float]:
     return out
 
 
+#: Lambda^2 must exceed the elastic threshold by this factor for an outer facet
+MIN_WINDOW = 1.2
+
+
 def heavy_scale_ratio(st: dict[str, Any], process: str) -> float:
     """Lambda/M_pi of the loop-consistent model of a process (pi K: scaled to the K*)."""
     lam = st["heavy_scale_mev"] * (PIK_SCALE_FACTOR if process == "pi K" else 1.0)
@@ -197,7 +201,12 @@ def heavy_scale_ratio(st: dict[str, Any], process: str) -> float:
 
 def relaxed_facets(st: dict[str, Any], facets: list[Facet]) -> list[Facet]:
     """The facets with offsets lowered by their truncation allowance: the loop-consistent
-    model term plus the eta-mass term (chpt_su3.truncation); ``extra`` records both."""
+    model term plus the eta-mass term (chpt_su3.truncation); ``extra`` records both.
+
+    A facet whose process has its elastic threshold within 20% of Lambda^2 (no chiral
+    two-meson continuum below the heavy scale, e.g. pi K at lattice pion masses) gets no
+    outer facet: the allowance is not calibrated there (the pion-mass warning applies).
+    """
     mpi = st["pion_mass_mev"]
     mk, meta, mu = st["kaon_mass_mev"] / mpi, st["eta_mass_mev"] / mpi, st["mu_mev"] / mpi
     eta = eta_mass_shifts(st, facets)
@@ -206,6 +215,8 @@ def relaxed_facets(st: dict[str, Any], facets: list[Facet]) -> list[Facet]:
         process = CHANNELS[f.channel][0]
         fn = ChannelFunctionals(f.channel, mk, meta, mu, loops=st["loops"])
         ratio = heavy_scale_ratio(st, process)
+        if ratio**2 < MIN_WINDOW * fn._domain().s_th:
+            continue     # no chiral continuum below Lambda: no outer facet (not calibrated)
         model = model_allowance(fn, f.family, np.asarray(f.normal), ratio)
         shift = model.allowance + d_eta
         extra = {**f.extra, "truncation_shift": shift, "truncation_shift_region": shift,
@@ -309,7 +320,15 @@ class ChptSU3(Theory):
                   "truncation allowance of loop-consistent models and the eta-mass "
                   "ambiguity (docs/physics_su3.md, Sec. 7); points between them are "
                   "uncertain",)
-        outer = irredundant(relaxed_facets(st, kept))
+        relaxed = relaxed_facets(st, kept)
+        if not relaxed:
+            raise InputError(None, "--heavy-scale", "no process has a chiral continuum "
+                             "below the heavy scale at this pion mass",
+                             "raise --heavy-scale or use --truncation none")
+        outer = irredundant(relaxed)
+        dropped = {f.channel for f in kept} - {f.channel for f in relaxed}
+        notes += tuple(f"no outer facet for {c}: its elastic threshold is too close to the "
+                       "heavy scale for a calibrated allowance" for c in sorted(dropped))
         return Region(self.name, COORDINATES, conv, tuple(outer), st,
                       inner_facets=tuple(kept), notes=notes)
 
