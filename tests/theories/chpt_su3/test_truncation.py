@@ -168,6 +168,7 @@ def _verdict(region, point):
 
 @pytest.mark.parametrize(("point", "expected"), [
     ((0.53e-3, 0.81e-3, -3.07e-3), "inside"),       # BE14 (from memory), well inside
+    ((0.7e-3, 1.3e-3, -4.4e-3), "inside"),          # GL 1985, Table 1 (from memory)
     ((1e-3, -1.1e-3, 4e-3), "uncertain"),           # between the pi+ pi0 facets
     ((0.0, -3e-3, 0.0), "outside"),                 # L2 far below any bound
     ((-5e-3, 1e-3, 0.0), "outside"),                # 2L1 + 3L2 + L3 = -7e-3
