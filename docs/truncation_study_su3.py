@@ -38,7 +38,7 @@ KEEP = ("pi+ pi0", "pi+ pi+", "pi0 pi0", "pi- K+")   # pi+ pi- = pi+ pi+, pi+ K+
 
 def label(f) -> str:
     names = ("L1", "L2", "L3")
-    terms = [(f"{c:g} " if c != 1 else "") + n for c, n in zip(f.normal, names) if c]
+    terms = [(f"{c:g} " if c != 1 else "") + n for c, n in zip(f.normal, names, strict=True) if c]
     return " + ".join(terms) + f" >= {f.offset:.4e} ({f.channel})"
 
 
@@ -47,7 +47,7 @@ def main() -> None:
     facets = [f for f in channel_facets(st)[0] if f.channel in KEEP]
     eta = eta_mass_shifts(st, facets)
     rows = []
-    for f, d_eta in zip(facets, eta):
+    for f, d_eta in zip(facets, eta, strict=True):
         fn = ChannelFunctionals(f.channel, MK / MPI, META / MPI, MU / MPI)
         ms = [model_allowance(fn, f.family, np.asarray(f.normal), r) for r in RATIOS]
         rows.append((f, d_eta, ms))

@@ -22,8 +22,8 @@ independently with mpmath (no code of src is reused beyond the amplitude under t
   which is where the I = 1/2 amplitude gets its first inelastic channel.
 
 The comparison is made at the Gell-Mann-Okubo eta mass (where the conventions of the
-papers and ours coincide), at 4 values of s and 2 of the scattering angle per channel (2 or 1 of them in the
-default run, the rest marked slow);
+papers and ours coincide), at 4 values of s and 2 of the scattering angle per channel
+(2 or 1 of them in the default run, the rest marked slow);
 tolerance 1e-8 relative (mpmath at 20 digits against double-precision src).
 """
 
@@ -70,7 +70,7 @@ def _unitarity(s, cos_out, ma, mb, amps, weights, identical=False):
         c2 = sin_out * mp.sqrt(1 - cos_k**2) * mp.cos(phi) + cos_out * cos_k
         t1, t2 = -2 * q2 * (1 - cos_k), -2 * q2 * (1 - c2)
         return sum(w * a(s, t1, total - s - t1) * a(s, t2, total - s - t2)
-                   for a, w in zip(amps, weights))
+                   for a, w in zip(amps, weights, strict=True))
 
     avg = mp.quad(tt, [-1, 1], [0, mp.pi, 2 * mp.pi]) / (4 * mp.pi)
     sigma = mp.sqrt(lam) / s

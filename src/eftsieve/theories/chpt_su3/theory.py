@@ -16,6 +16,13 @@ Families (docs/physics_su3.md derives both for unequal masses):
     D_alpha S + 3 max(alpha/(s_th - s), (1 - alpha)/(u_th - u)) S >= 0 (our derivation
     along the lines of arXiv:1702.06134, Sec. 3, with the process's own thresholds).
 
+Default (docs/physics_su3.md, Sec. 7): the ``second-derivative`` family (``t-derivative``
+on request: about twice as sensitive to O(p^6) terms) with the truncation model
+``loop-consistent`` (:mod:`eftsieve.theories.chpt_su3.truncation`): the one-loop facets
+form the inner set, and the outer facets are relaxed by the allowance of loop-consistent
+models (pi pi continuum chiral up to the rho, pi K up to the K*) plus the facet's change
+with the Gell-Mann-Okubo eta mass, so points between them are ``uncertain``.
+
 L4..L8 enter the amplitudes only through terms linear in s, t, u and drop out (tests);
 F drops out because every O(p^4) term scales as 1/F^4 and the tree is linear.
 """
@@ -211,7 +218,7 @@ def relaxed_facets(st: dict[str, Any], facets: list[Facet]) -> list[Facet]:
     mk, meta, mu = st["kaon_mass_mev"] / mpi, st["eta_mass_mev"] / mpi, st["mu_mev"] / mpi
     eta = eta_mass_shifts(st, facets)
     out = []
-    for f, d_eta in zip(facets, eta):
+    for f, d_eta in zip(facets, eta, strict=True):
         process = CHANNELS[f.channel][0]
         fn = ChannelFunctionals(f.channel, mk, meta, mu, loops=st["loops"])
         ratio = heavy_scale_ratio(st, process)

@@ -9,7 +9,8 @@ in docs/physics_su3.md, Sec. 7):
 * every s- and u-channel bubble moment Lambda_n(z) of :mod:`eftsieve.theories.chpt_su3.loops`
   is replaced by its once-subtracted dispersive integral cut off at Lambda^2,
 
-      Lambda_n^cut(z) = Lambda_n(0) + (z/pi) int_{th}^{Lambda^2} Im Lambda_n(z') / (z' (z' - z)) dz',
+      Lambda_n^cut(z) = Lambda_n(0)
+                        + (z/pi) int_{th}^{Lambda^2} Im Lambda_n(z') / (z' (z' - z)) dz',
       Im Lambda_n(z + i0) = -pi (x_+^{n+1} - x_-^{n+1}) / (n + 1),
 
   x_+- the roots of D(x, z) = m_e^2 (1 - x) + m_f^2 x - x (1 - x) z (evaluated as
