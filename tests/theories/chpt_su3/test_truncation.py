@@ -77,8 +77,6 @@ def test_cut_two_point_function_is_the_chpt_su2_one():
     cut0 = pm.jets(z, 0)[0, 0] - tr.tail_jets((1.0, 1.0), z, ratio**2, 0)[0, 0]
     np.testing.assert_allclose(pm.jets(np.zeros(1), 0)[0, 0, 0] - cut0,
                                lc.jbar_cut_closed(z, ratio), rtol=1e-9, atol=1e-11)
-    asym = tr.cut_asymptote((1.0, 1.0), ratio**2)[0] - pm.jets(np.zeros(1), 0)[0, 0, 0]
-    assert asym == pytest.approx(lc.lambda_shift(ratio), rel=1e-9)
 
 
 def test_gmo_eta_mass():

@@ -2,9 +2,9 @@
 
 The one-loop facets are exact statements about the O(p^4) amplitude; the true amplitude
 differs at O(p^6).  As for chpt-su2 (:mod:`eftsieve.theories.chpt_su2.truncation`,
-docs/physics.md, Sec. "Truncation study"), the allowance of a facet is its *truncation
-shift* on a loop-consistent model, here built for every SU(3) channel (ours; derivation
-in docs/physics_su3.md, Sec. 7):
+docs/physics.md, Sec. "Truncation study"), the allowance of a facet is measured on
+loop-consistent models, here built for every SU(3) channel (ours; derivation in
+docs/physics_su3.md, Sec. 7):
 
 * every s- and u-channel bubble moment Lambda_n(z) of :mod:`eftsieve.theories.chpt_su3.loops`
   is replaced by its once-subtracted dispersive integral cut off at Lambda^2,
@@ -15,23 +15,20 @@ in docs/physics_su3.md, Sec. 7):
 
   x_+- the roots of D(x, z) = m_e^2 (1 - x) + m_f^2 x - x (1 - x) z (evaluated as
   Lambda_n minus the tail above max(Lambda^2, th), smooth below Lambda^2);
-* the O(p^4) polynomial along the channel normal, K . L_model, is fixed so that
-  d^2T/ds^2 -> 0 as s -> infinity at fixed t (two subtractions suffice):
-
-      K . L_model = -[d^2 poly/ds^2 + sum_terms LOOP q_ss Lambda_n^cut(infinity)],
-      Lambda_n^cut(infinity) = Lambda_n(0) - (1/pi) int_{th}^{Lambda^2} Im Lambda_n(z')/z' dz'.
+* the constant of d^2T/ds^2 is whatever makes it vanish as s -> infinity at fixed t, so
+  that two subtractions suffice.
 
 The model's absorptive parts are the one-loop ones below Lambda^2 (sums of |tree|^2 in
 the partial waves, positive with positive t-slope for 0 <= t < 4 M_pi^2) and zero above,
-so it satisfies both bound families exactly; it differs from the one-loop amplitude with
-K . L = K . L_model at O(p^6).  The shift of a facet n . L >= b is
-
-    shift = b - n . L_model + min_domain (the model's exact functional),
-
-positive when the one-loop facet is too strong for the model.  The allowance of a facet
-is this shift at Lambda = Lambda_h (default 770 MeV, as for chpt-su2) plus the facet's
-change when the eta mass in the loops is the Gell-Mann-Okubo one instead of the physical
-one (an O(p^6) ambiguity).  tests/theories/chpt_su3/test_truncation.py checks the model
+so it satisfies both bound families exactly.  Its difference R(x) from the one-loop
+functional is constant (absorbed by the O(p^4) constants) up to O(p^6); the *allowance*
+of a facet is half the spread of R over the domain, the part no O(p^4) constant absorbs
+(docs/physics_su3.md, Sec. 7, explains why the model's constants are not read off its
+large-s limit as for chpt-su2).  With the centred constant |remainder| <= allowance, so
+the model is never outside the relaxed facet.  The default allowance is this at
+Lambda_h (770 MeV for pi pi, scaled to the K*(892) for pi K) plus the facet's change when
+the eta mass in the loops is the Gell-Mann-Okubo one instead of the physical one
+(an O(p^6) ambiguity).  tests/theories/chpt_su3/test_truncation.py checks the model
 (positivity, one-loop limit, chpt-su2 agreement for pi pi) and the defaults.
 """
 
@@ -96,17 +93,6 @@ def tail_jets(pair: tuple[float, float], z: np.ndarray, lower: float, order: int
     return out
 
 
-def cut_asymptote(pair: tuple[float, float], cutoff2: float) -> np.ndarray:
-    """Lambda_n^cut(infinity) = Lambda_n(0) - (1/pi) int_th^cutoff2 Im Lambda_n/z' dz' (3,)."""
-    at_zero = amp3.MOMENTS(pair).jets(np.zeros(1), 0)[:, 0, 0]
-    th = (pair[0] + pair[1]) ** 2
-    if cutoff2 <= th:
-        return at_zero
-    zp = th + (cutoff2 - th) * _W**2
-    wt = 2 * (cutoff2 - th) * _W * _WW
-    return at_zero - im_moments(pair, zp) @ (wt / zp) / math.pi
-
-
 def cut_jets(amp: amp3.Amplitude, x: np.ndarray, order: int, cutoff2: float,
              ) -> dict[tuple[int, tuple[float, float]], np.ndarray]:
     """The s- and u-channel jets of the model (uncut jets minus the tails)."""
@@ -116,22 +102,6 @@ def cut_jets(amp: amp3.Amplitude, x: np.ndarray, order: int, cutoff2: float,
         lower = max(cutoff2, (pair[0] + pair[1]) ** 2)
         out[(var, pair)] = jet - tail_jets(pair, x[:, var - 1], lower, order)
     return out
-
-
-def model_constant(amp: amp3.Amplitude, cutoff2: float) -> float:
-    """K . L of the model from d^2T/ds^2 -> 0 as s -> infinity (F^4 units).
-
-    Not used for the allowance (module docstring): below the K Kbar threshold this value
-    differs from the model's low-energy constants by O(1) x LOOP, since cutting a kaon
-    loop at Lambda < 2 M_K is not an O(p^6) change in SU(3) counting.
-    """
-    total = amp3._qd2(amp.poly, _E_S, _E_S)
-    for term in amp.loops:
-        if term.var == 2:
-            continue
-        asym = cut_asymptote(term.pair, cutoff2)[term.n]
-        total += amp3.LOOP * amp3._qd2(term.quad, _E_S, _E_S) * asym
-    return -float(total)
 
 
 def _functional(fn: ChannelFunctionals, x: np.ndarray, family: str,
