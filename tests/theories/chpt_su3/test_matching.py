@@ -41,6 +41,7 @@ def test_su2_fit_against_su3_region_is_refused():
     lbar = Convention("lbar", pion_mass_mev=M_PI_MEV)
     fit = Fit("su2", "chpt-su2", (Parameter("lbar1", lbar), Parameter("lbar2", lbar)), {},
               np.zeros(2), np.eye(2))
-    region = get_theory("chpt-su3").build_region({"families": ["second-derivative"]})
+    region = get_theory("chpt-su3").build_region({"families": ["second-derivative"],
+                                                      "truncation": "none"})
     with pytest.raises(InputError, match="region is for 'chpt-su3'"):
         run_check(fit, region, CheckSettings(draws=100), None)

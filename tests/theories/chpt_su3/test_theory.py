@@ -52,18 +52,20 @@ from tests.theories.chpt_su3.su3_common import (
 
 @pytest.fixture(scope="module")
 def region():
-    return THEORY.build_region({})
+    return THEORY.build_region({"families": ["second-derivative", "t-derivative"],
+                                "truncation": "none"})
 
 
 @pytest.fixture(scope="module")
 def second_region():
-    return THEORY.build_region({"families": ["second-derivative"]})
+    return THEORY.build_region({"families": ["second-derivative"], "truncation": "none"})
 
 
 
 def test_scale_independence_gives_the_gl_gammas(second_region):
     """Regions at two scales agree after running L_i^r with Gamma = (3/32, 3/16, 0) (GL85)."""
-    other = THEORY.build_region({"families": ["second-derivative"], "mu_mev": 1000.0})
+    other = THEORY.build_region({"families": ["second-derivative"], "mu_mev": 1000.0,
+                                 "truncation": "none"})
     shift = run_lr(np.zeros(3), (1, 2, 3), 770.0, 1000.0)
     assert len(other.facets) == len(second_region.facets)
     for fa, fb in zip(second_region.facets, other.facets, strict=True):
@@ -153,7 +155,8 @@ def test_chiral_limit_tree_bounds_from_product_states():
         c = _forward_normal(a / np.linalg.norm(a), b / np.linalg.norm(b))
         lam = np.linalg.solve(basis.T, c)              # c = sum lam_i basis_i
         assert lam.min() > -1e-9 * np.abs(c).max()
-    reg = THEORY.build_region({"loops": False, "pion_mass_mev": 1.0, "kaon_mass_mev": 1.0,
+    reg = THEORY.build_region({"loops": False, "truncation": "none", "pion_mass_mev": 1.0,
+                               "kaon_mass_mev": 1.0,
                                "eta_mass_mev": 1.0, "families": ["second-derivative"]})
     normals = np.array([np.asarray(f.normal) / np.linalg.norm(f.normal) for f in reg.facets])
     ref = basis / np.linalg.norm(basis, axis=1)[:, None]
@@ -298,7 +301,8 @@ def _fit(mu_mev, names=("L1", "L2", "L3"), conv="Lr"):
 def test_coordinate_map_runs_the_scale(second_region):
     fit = _fit(1000.0)
     cmap = THEORY.coordinate_map(fit, second_region)
-    other = THEORY.build_region({"families": ["second-derivative"], "mu_mev": 1000.0})
+    other = THEORY.build_region({"families": ["second-derivative"], "mu_mev": 1000.0,
+                                 "truncation": "none"})
     pts = np.random.default_rng(2).normal(0, 3e-3, (4000, 3))
     assert np.array_equal(second_region.contains(cmap(pts)), other.contains(pts))
     assert THEORY.region_settings_for_fit(fit)["mu_mev"] == 1000.0

@@ -32,6 +32,7 @@ Feynman-parameter integrals.
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 
@@ -80,6 +81,13 @@ def jet_const(c: float | np.ndarray, like: np.ndarray) -> np.ndarray:
     return out
 
 
+@lru_cache(maxsize=1)
+def _gauss_unit() -> tuple[np.ndarray, np.ndarray]:
+    """Gauss-Legendre nodes and weights on (0, 1), computed once (leggauss is slow)."""
+    x, w = np.polynomial.legendre.leggauss(_N_GAUSS)
+    return 0.5 * (x + 1.0), 0.5 * w
+
+
 class PairMoments:
     """Lambda_n(s), n = 0, 1, 2, of one meson pair (masses in any common unit).
 
@@ -94,8 +102,7 @@ class PairMoments:
         self.me2, self.mf2 = self.m_e**2, self.m_f**2
         self.threshold = (self.m_e + self.m_f) ** 2
         self.equal = math.isclose(self.m_e, self.m_f, rel_tol=1e-14)
-        x, w = np.polynomial.legendre.leggauss(_N_GAUSS)
-        x, w = 0.5 * (x + 1.0), 0.5 * w
+        x, w = _gauss_unit()
         d0 = self.me2 * (1 - x) + self.mf2 * x
         ratio = x * (1 - x) / d0 * self.threshold          # <= 1 on [0, 1]
         k = np.arange(1, _N_SERIES + 1)

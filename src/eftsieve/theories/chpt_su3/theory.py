@@ -16,6 +16,13 @@ Families (docs/physics_su3.md derives both for unequal masses):
     D_alpha S + 3 max(alpha/(s_th - s), (1 - alpha)/(u_th - u)) S >= 0 (our derivation
     along the lines of arXiv:1702.06134, Sec. 3, with the process's own thresholds).
 
+Default (docs/physics_su3.md, Sec. 7): the ``second-derivative`` family (``t-derivative``
+on request: about twice as sensitive to O(p^6) terms) with the truncation model
+``loop-consistent`` (:mod:`eftsieve.theories.chpt_su3.truncation`): the one-loop facets
+form the inner set, and the outer facets are relaxed by the allowance of loop-consistent
+models (pi pi continuum chiral up to the rho, pi K up to the K*) plus the facet's change
+with the Gell-Mann-Okubo eta mass, so points between them are ``uncertain``.
+
 L4..L8 enter the amplitudes only through terms linear in s, t, u and drop out (tests);
 F drops out because every O(p^4) term scales as 1/F^4 and the tree is linear.
 """
@@ -23,12 +30,13 @@ F drops out because every O(p^4) term scales as 1/F^4 and the tree is linear.
 from __future__ import annotations
 
 import math
+import warnings
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from eftsieve.bounds.fixed_t import ScanSettings, best_facet, smallest_entry_one
-from eftsieve.errors import InputError
+from eftsieve.errors import InputError, KinematicsWarning
 from eftsieve.executors import Executor, serial
 from eftsieve.fit.conventions import AffineMap, Convention, ConventionSpec
 from eftsieve.region.model import Facet, Region, irredundant
@@ -40,12 +48,27 @@ from eftsieve.theories.chpt_su2.conventions import (
 )
 from eftsieve.theories.chpt_su3.channels import CHANNELS, PROCESSES, ChannelFunctionals
 from eftsieve.theories.chpt_su3.references import REFERENCES
+from eftsieve.theories.chpt_su3.truncation import (
+    HEAVY_SCALE_MEV,
+    TRUNCATION_MODELS,
+    gmo_eta_mass,
+    model_allowance,
+)
 from eftsieve.tolerances import SMALL_COORDINATE_BAND
 
 if TYPE_CHECKING:
     from eftsieve.fit.model import Fit
 
 FAMILIES = ("second-derivative", "t-derivative")
+#: the default family, as for chpt-su2 (docs/physics.md, truncation study): the
+#: t-derivative facets are more sensitive to O(p^6) terms (docs/physics_su3.md, Sec. 7)
+DEFAULT_FAMILIES = ("second-derivative",)
+#: Pion mass above which the tool warns: the chpt-su2 threshold (docs/physics.md), whose
+#: truncation study also calibrates the pi pi facets here (docs/physics_su3.md, Sec. 7)
+MAX_TRUSTED_PION_MASS_MEV = 300.0
+#: the pi K heavy scale relative to the pi pi one: K*(892) over rho(770) (PDG masses,
+#: from memory): the pi K continuum is taken chiral up to its first resonance
+PIK_SCALE_FACTOR = 892.0 / 770.0
 #: PDG charged-kaon and eta masses in MeV (from memory; common practice)
 DEFAULT_KAON_MASS_MEV = 493.68
 DEFAULT_ETA_MASS_MEV = 547.86
@@ -101,14 +124,16 @@ def su2_from_su3(lecs: np.ndarray, mu_mev: float = DEFAULT_MU_MEV,
     return su2_matching_map(mu_mev, kaon_mass_mev).apply_points(lecs)
 
 
-def region_settings(families: tuple[str, ...] = FAMILIES,
+def region_settings(families: tuple[str, ...] = DEFAULT_FAMILIES,
                     pion_mass_mev: float = DEFAULT_PION_MASS_MEV,
                     kaon_mass_mev: float = DEFAULT_KAON_MASS_MEV,
                     eta_mass_mev: float = DEFAULT_ETA_MASS_MEV,
                     mu_mev: float = DEFAULT_MU_MEV, fpi_mev: float = DEFAULT_FPI_MEV,
                     grid: str = "default", loops: bool = True,
-                    processes: tuple[str, ...] = PROCESSES) -> dict[str, Any]:
-    """Validated settings of a chpt-su3 region build (defaults: common practice)."""
+                    processes: tuple[str, ...] = PROCESSES,
+                    truncation: str = "loop-consistent",
+                    heavy_scale_mev: float = HEAVY_SCALE_MEV) -> dict[str, Any]:
+    """Validated settings of a chpt-su3 region build (defaults: docs/physics_su3.md)."""
     for f in families:
         if f not in FAMILIES:
             raise InputError(None, "--family", f"unknown bound family '{f}'",
@@ -117,8 +142,12 @@ def region_settings(families: tuple[str, ...] = FAMILIES,
         if p not in PROCESSES:
             raise InputError(None, "processes", f"unknown process '{p}'",
                              f"use {', '.join(PROCESSES)}")
+    if truncation not in TRUNCATION_MODELS:
+        raise InputError(None, "truncation", f"unknown truncation model '{truncation}'",
+                         f"use {' or '.join(TRUNCATION_MODELS)}")
     named = {"--pion-mass": pion_mass_mev, "--kaon-mass": kaon_mass_mev,
-             "--eta-mass": eta_mass_mev, "--scale": mu_mev, "--fpi": fpi_mev}
+             "--eta-mass": eta_mass_mev, "--scale": mu_mev, "--fpi": fpi_mev,
+             "--heavy-scale": heavy_scale_mev}
     for opt, v in named.items():
         if not np.isfinite(float(v)) or float(v) <= 0:
             raise InputError(None, opt, f"must be positive and finite, got {v}", "give MeV")
@@ -127,7 +156,8 @@ def region_settings(families: tuple[str, ...] = FAMILIES,
     return {"families": list(families), "pion_mass_mev": float(pion_mass_mev),
             "kaon_mass_mev": float(kaon_mass_mev), "eta_mass_mev": float(eta_mass_mev),
             "mu_mev": float(mu_mev), "fpi_mev": float(fpi_mev), "grid": grid,
-            "loops": bool(loops), "processes": list(processes)}
+            "loops": bool(loops), "processes": list(processes), "truncation": truncation,
+            "heavy_scale_mev": float(heavy_scale_mev)}
 
 
 def channel_facets(st: dict[str, Any]) -> tuple[list[Facet], list[str]]:
@@ -149,6 +179,68 @@ def channel_facets(st: dict[str, Any]) -> tuple[list[Facet], list[str]]:
     return facets, skipped
 
 
+def eta_mass_shifts(st: dict[str, Any], facets: list[Facet]) -> list[float]:
+    """|b(Gell-Mann-Okubo M_eta) - b(given M_eta)| of each facet: the O(p^6) ambiguity of
+    the eta mass in the loops (docs/physics_su3.md, Sec. 7), from a second build."""
+    gmo = gmo_eta_mass(st["pion_mass_mev"], st["kaon_mass_mev"])
+    wanted = {CHANNELS[f.channel][0] for f in facets}
+    other, _ = channel_facets({**st, "eta_mass_mev": gmo,
+                               "processes": [p for p in st["processes"] if p in wanted]})
+    by_key = {(f.family, f.channel): f for f in other}
+    out = []
+    for f in facets:
+        g = by_key[(f.family, f.channel)]
+        if not np.allclose(g.normal, f.normal, rtol=1e-9, atol=1e-12):
+            raise RuntimeError(f"facet {f.label()} changed its normal with the eta mass")
+        out.append(abs(g.offset - f.offset))
+    return out
+
+
+#: Lambda^2 must exceed the elastic threshold by this factor for an outer facet
+MIN_WINDOW = 1.2
+
+
+def heavy_scale_ratio(st: dict[str, Any], process: str) -> float:
+    """Lambda/M_pi of the loop-consistent model of a process (pi K: scaled to the K*)."""
+    lam = st["heavy_scale_mev"] * (PIK_SCALE_FACTOR if process == "pi K" else 1.0)
+    return lam / st["pion_mass_mev"]
+
+
+def relaxed_facets(st: dict[str, Any], facets: list[Facet]) -> list[Facet]:
+    """The facets with offsets lowered by their truncation allowance: the loop-consistent
+    model term plus the eta-mass term (chpt_su3.truncation); ``extra`` records both.
+
+    A facet whose process has its elastic threshold within 20% of Lambda^2 (no chiral
+    two-meson continuum below the heavy scale, e.g. pi K at lattice pion masses) gets no
+    outer facet: the allowance is not calibrated there (the pion-mass warning applies).
+    """
+    mpi = st["pion_mass_mev"]
+    mk, meta, mu = st["kaon_mass_mev"] / mpi, st["eta_mass_mev"] / mpi, st["mu_mev"] / mpi
+    eta = eta_mass_shifts(st, facets)
+    out = []
+    for f, d_eta in zip(facets, eta, strict=True):
+        process = CHANNELS[f.channel][0]
+        fn = ChannelFunctionals(f.channel, mk, meta, mu, loops=st["loops"])
+        ratio = heavy_scale_ratio(st, process)
+        if ratio**2 < MIN_WINDOW * fn._domain().s_th:
+            continue     # no chiral continuum below Lambda: no outer facet (not calibrated)
+        model = model_allowance(fn, f.family, np.asarray(f.normal), ratio)
+        shift = model.allowance + d_eta
+        extra = {**f.extra, "truncation_shift": shift, "truncation_shift_region": shift,
+                 "model_allowance": model.allowance, "eta_mass_shift": d_eta,
+                 "heavy_scale_mev": ratio * mpi, "one_loop_offset": f.offset}
+        out.append(Facet(f.normal, f.offset - shift, f.family, f.channel, f.point,
+                         f.value - shift, f.status, extra))
+    return out
+
+
+def _warn_pion_mass(mpi: float) -> None:
+    if mpi > MAX_TRUSTED_PION_MASS_MEV:
+        warnings.warn(f"pion mass {mpi:g} MeV is above {MAX_TRUSTED_PION_MASS_MEV:g} MeV, "
+                      "where the one-loop truncation allowance of chpt-su3 is not "
+                      "calibrated (docs/physics_su3.md)", KinematicsWarning, stacklevel=3)
+
+
 #: cautions printed in every report on a chpt-su3 region (docs/physics.md)
 CAUTIONS = (
     "The chpt-su3 bounds apply the exact inequalities to the one-loop (O(p^4)) SU(3) "
@@ -158,6 +250,11 @@ CAUTIONS = (
     "With physical masses only processes whose lowest s- and u-channel thresholds are "
     "their elastic ones enter (pi pi, pi K); the others are listed as skipped above, since "
     "positivity of their absorptive parts below the elastic threshold is not provable.",
+    "By default the outer facets are relaxed by a truncation allowance (loop-consistent "
+    "models with the pi pi continuum chiral up to the rho and the pi K one up to the K*, "
+    "plus the change of each facet with the Gell-Mann-Okubo eta mass in the loops): an "
+    "estimate, not a bound; points that pass only the relaxed facets are uncertain. "
+    "Above M_pi = 300 MeV the tool warns.",
     "L_i^r(mu) are in the scheme of Gasser & Leutwyler, Nucl. Phys. B250 (1985) 465, at the "
     "region's mu; a fit at another scale is run there with the one-loop Gamma_i.",
     "Isospin limit: m_u = m_d and no electromagnetism.",
@@ -178,7 +275,7 @@ class ChptSU3(Theory):
         "SU(3) L_i^r(mu) at mu = {mu_mev:g} MeV")}
     setting_names = ("families", "pion_mass_mev", "pion_masses_mev", "kaon_mass_mev",
                      "eta_mass_mev", "mu_mev", "fpi_mev", "grid", "loops", "processes",
-                     "convention")
+                     "convention", "truncation", "heavy_scale_mev")
     cautions = CAUTIONS
     matchings = {"chpt-su2": "eftsieve.theories.chpt_su3.matching:su3_fit_map"}
     kinematic_inputs = {
@@ -203,7 +300,7 @@ class ChptSU3(Theory):
             raise InputError(None, "--convention", "chpt-su3 regions are in L_i^r(mu)",
                              "use --convention lr (or omit it) with --scale MEV")
         keys = ("families", "pion_mass_mev", "kaon_mass_mev", "eta_mass_mev", "mu_mev",
-                "fpi_mev", "grid", "loops", "processes")
+                "fpi_mev", "grid", "loops", "processes", "truncation", "heavy_scale_mev")
         unknown = set(settings) - set(keys)
         if unknown:
             raise InputError(None, "settings", f"unknown setting(s) {sorted(unknown)}",
@@ -211,6 +308,7 @@ class ChptSU3(Theory):
         kw: dict[str, Any] = {k: (tuple(v) if k in ("families", "processes") else v)
               for k, v in settings.items()}
         st = region_settings(**kw)
+        _warn_pion_mass(st["pion_mass_mev"])
         facets, skipped = channel_facets(st)
         if not facets:
             raise InputError(None, "processes", "no process has a provable domain",
@@ -219,10 +317,27 @@ class ChptSU3(Theory):
         conv = {"name": CONVENTION, "mu_mev": st["mu_mev"],
                 "pion_mass_mev": st["pion_mass_mev"], "kaon_mass_mev": st["kaon_mass_mev"],
                 "eta_mass_mev": st["eta_mass_mev"], "fpi_mev": st["fpi_mev"]}
-        notes = ("F does not enter the one-loop bounds on L1, L2, L3 (it is recorded only)",
-                 "s, t in certificates are in units of M_pi^2",
-                 *(f"skipped {r}" for r in skipped))
-        return Region(self.name, COORDINATES, conv, tuple(kept), st, notes=notes)
+        notes: tuple[str, ...] = (
+            "F does not enter the one-loop bounds on L1, L2, L3 (it is recorded only)",
+            "s, t in certificates are in units of M_pi^2",
+            *(f"skipped {r}" for r in skipped))
+        if st["truncation"] == "none":
+            return Region(self.name, COORDINATES, conv, tuple(kept), st, notes=notes)
+        notes += ("inner facets: the one-loop bounds; outer facets: relaxed by the "
+                  "truncation allowance of loop-consistent models and the eta-mass "
+                  "ambiguity (docs/physics_su3.md, Sec. 7); points between them are "
+                  "uncertain",)
+        relaxed = relaxed_facets(st, kept)
+        if not relaxed:
+            raise InputError(None, "--heavy-scale", "no process has a chiral continuum "
+                             "below the heavy scale at this pion mass",
+                             "raise --heavy-scale or use --truncation none")
+        outer = irredundant(relaxed)
+        dropped = {f.channel for f in kept} - {f.channel for f in relaxed}
+        notes += tuple(f"no outer facet for {c}: its elastic threshold is too close to the "
+                       "heavy scale for a calibrated allowance" for c in sorted(dropped))
+        return Region(self.name, COORDINATES, conv, tuple(outer), st,
+                      inner_facets=tuple(kept), notes=notes)
 
     def marginal_band(self, region: Region) -> float:
         """1e-6: L_i^r and the facet offsets are O(1e-3), so this is the band that 1e-3
