@@ -50,6 +50,13 @@ class CheckSettings:
     blas_threads
         BLAS threads inside the check (1 by default: the streaming check multiplies
         n x 2 arrays, where threads only spin; None leaves the process's setting).
+    shell_solves
+        Exact solves allowed **per partition** (one file of a samples source, or the
+        whole of a Gaussian summary's draws) for regions that can decide their shell
+        (positivity cones, :mod:`eftsieve.check.shell`); shell points beyond it stay
+        ``marginal`` ("shell-solve budget reached").  One solve takes about 0.02 s (4
+        modes) to 0.5 s (6 modes) on one core, so the default 1000 bounds the cost at
+        minutes; 0 solves nothing.
     """
 
     draws: int = 200_000
@@ -59,6 +66,7 @@ class CheckSettings:
     plot_points: int = 50_000
     flagged_format: str = "csv"
     blas_threads: int | None = 1
+    shell_solves: int = 1000
 
     def __post_init__(self) -> None:
         import math
@@ -73,6 +81,9 @@ class CheckSettings:
             if int(getattr(self, name)) < 1:
                 raise InputError(None, name, f"must be at least 1, got {getattr(self, name)}",
                                  "give a positive number")
+        if int(self.shell_solves) < 0:
+            raise InputError(None, "--shell-solves", f"must be 0 or more, got "
+                             f"{self.shell_solves}", "give a number of solves, 0 for none")
         if int(self.seed) < 0:
             raise InputError(None, "seed", f"must be 0 or more, got {self.seed}", "")
         band = self.marginal_band
@@ -95,7 +106,7 @@ class CheckSettings:
     def to_dict(self) -> dict[str, Any]:
         return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,
                 "chunk_rows": self.chunk_rows, "plot_points": self.plot_points,
-                "flagged_format": self.flagged_format}
+                "flagged_format": self.flagged_format, "shell_solves": self.shell_solves}
 
 
 @dataclass(frozen=True)
