@@ -245,5 +245,62 @@ def _verdicts(fit: Fit, region) -> tuple[np.ndarray, object]:
     codes = np.zeros(res.n_total, dtype=int)
     flagged = pd.read_csv(out / "flagged.csv", comment="#")
     names = {"marginal": 1, "outside": 2, "uncertain": 3}
-    codes[flagged["row"].to_numpy()] = [names[v] for v in flagged["verdict"]]
+    codes[flagged["row"].to_numpy(dtype=int)] = [names[v] for v in flagged["verdict"]]
     return codes, res
+
+
+@pytest.mark.parametrize("family, expected", [("extremal", 2), ("elastic", 0)])
+def test_transverse_w_point_between_the_families(family, expected):
+    # C_STAR violates the extremal-only facet 12 fT0 + 4 fT1 + 5 fT2 >= 0 and is proven
+    # elastic-positive (tests/theories/transverse_w, with its certificate checked there):
+    # through the check kernel it is outside the extremal cone and inside the elastic one
+    from tests.theories.transverse_w.test_transverse_w import C_STAR
+
+    th = get_theory("transverse-w")
+    build = build_cone(th.problem(), ConeSettings(family=family, shell_target=0.5,
+                                                  max_rounds=1, rays_per_round=2,
+                                                  mc_points=5_000),
+                       reduction=th.reduction() if family == "elastic" else None)
+    built = cone_region("transverse-w", build, {"name": "none"})
+    pts = np.array([C_STAR, 2 * C_STAR])
+    # put the points in the shell on purpose: drop the outer facets they violate (the
+    # rest is still a valid outer cone) and cut them off the inner cone (a smaller inner
+    # cone is still inside)
+    outer = tuple(f for f in built.facets if np.asarray(f.normal) @ C_STAR >= 0)
+    region = replace(built, facets=outer, inner_facets=built.inner_facets + (
+        _facet(-C_STAR, "inner (cut)"),))
+    assert (classify(pts, region, 0.0).verdict == 1).all()      # both in the shell
+    fit = Fit("tw-demo", "transverse-w", tuple(Parameter(c, Convention("none"))
+                                               for c in region.coordinates), {},
+              samples=_parquet_samples(pts, region.coordinates))
+    got, res = _verdicts(fit, region)
+    assert res.shell is not None and res.shell.n_solves == 2
+    assert got.tolist() == [expected, expected]
+
+
+def test_command_line_budget_summary_and_report(photon_region, tmp_path, capsys):
+    import json
+
+    from eftsieve.cli.main import main
+
+    region = tmp_path / "photon.json"
+    photon_region.save(region)
+    card = tmp_path / "photon.yaml"
+    card.write_text("# INVENTED DEMO DATA (fictional photon-quartic fit)\nformat_version: 1\n"
+                    "name: photon-demo\ntheory: photon-quartic\nparameters:\n"
+                    "  - {name: a_FF2, convention: none}\n"
+                    "  - {name: b_FFdual2, convention: none}\n"
+                    f"mean: [{MEAN_AB[0]}, {MEAN_AB[1]}]\nerrors: [{SD_AB[0]}, {SD_AB[1]}]\n")
+    out = tmp_path / "out"
+    code = main(["check", str(card), "--region", str(region), "-o", str(out), "--draws",
+                 "2000", "--shell-solves", "5", "--no-plots"])
+    assert code == 0
+    text = capsys.readouterr().out
+    assert "shell (between inner and outer cones):" in text
+    assert f"{BUDGET_REASON}:" in text
+    shell = json.loads((out / "summary.json").read_text())["shell"]
+    assert shell["n_solves"] == 5 and shell["budget_per_partition"] == 5
+    assert shell["n_marginal"] == shell["n_shell"] - 5
+    assert shell["reasons"][0]["reason"] == BUDGET_REASON
+    report = (out / "report.md").read_text()
+    assert "## Shell" in report and "why left marginal" in report

@@ -244,8 +244,12 @@ class ConeShell:
             raise ValueError(f"unknown family '{family}'; use extremal or elastic")
         if reduction is not None and reduction.defect(problem.tensors) > 1e-9:
             raise ValueError("the state reduction's generators are not symmetries of M")
+        from eftsieve.bounds.cone_sectors import sectors
+
         self.problem, self.family = problem, family
         self.elastic_cells, self.reduction = elastic_cells, reduction
+        #: independent sectors (the cone is their product; each is solved on its own)
+        self.sectors = sectors(problem)
 
     @classmethod
     def from_region(cls, region: Region, reduction: StateReduction | None = None
@@ -268,12 +272,36 @@ class ConeShell:
         statuses, reasons = [], []
         for i, (x, pid) in enumerate(zip(pts, np.asarray(ids), strict=True)):
             rng = np.random.default_rng([int(seed), int(pid)])
-            code, why, short = decide_point(self.problem, self.family, x, rng,
-                                            self.elastic_cells, self.reduction)
+            code, why, short = self._decide_one(x, rng)
             codes[i] = code
             statuses.append(why)
             reasons.append(short)
         return codes, tuple(statuses), tuple(reasons)
+
+
+    def _decide_one(self, x: np.ndarray, rng: np.random.Generator) -> tuple[int, str, str]:
+        """One point: directly, or sector by sector for a product of independent cones
+        (outside if any sector is outside, inside if every sector is inside)."""
+        if len(self.sectors) == 1 or not np.isfinite(x).all():
+            return decide_point(self.problem, self.family, x, rng, self.elastic_cells,
+                                self.reduction)
+        found: list[tuple[int, str, str]] = []
+        for sec in self.sectors:
+            xs = x[list(sec.coefficients)]
+            if not np.any(xs):
+                found.append((MARGINAL, "marginal: a sector is at its apex (on the boundary)",
+                              "a sector at its apex (on the boundary)"))
+                continue
+            code, why, short = decide_point(sec.problem, self.family, xs, rng,
+                                            self.elastic_cells)
+            if code == OUTSIDE:
+                return code, f"{why} [sector {', '.join(sec.problem.coefficients)}]", short
+            found.append((code, why, short))
+        for code, why, short in found:
+            if code == MARGINAL:
+                return code, why, short
+        return INSIDE, "inside: every sector inside (" + "; ".join(w for _, w, _ in found) \
+            + ")", found[0][2]
 
 
 def _min_form(cols: list[np.ndarray], a: np.ndarray) -> np.ndarray:

@@ -83,8 +83,8 @@ class ShellSums:
         Shell points solved inside, solved outside, and left marginal.
     n_solves
         Points handed to the exact solver (counted against the budget).
-    sw_shell
-        Sum of the weights of the shell points.
+    sw_shell, sw_marginal
+        Sum of the weights of the shell points, and of those left marginal.
     sw_d, sw2_d, sw2_d2
         Sums of w d, w^2 d and w^2 d^2, where d = (satisfies after the solve) - (satisfies
         by the facet test), in {-1, 0, 1}: the correction to p_inside.
@@ -98,6 +98,7 @@ class ShellSums:
     n_marginal: int = 0
     n_solves: int = 0
     sw_shell: float = 0.0
+    sw_marginal: float = 0.0
     sw_d: float = 0.0
     sw2_d: float = 0.0
     sw2_d2: float = 0.0
@@ -106,7 +107,8 @@ class ShellSums:
     def to_dict(self) -> dict[str, Any]:
         return {"n_shell": self.n_shell, "n_inside": self.n_inside,
                 "n_outside": self.n_outside, "n_marginal": self.n_marginal,
-                "n_solves": self.n_solves, "sw_shell": self.sw_shell, "sw_d": self.sw_d,
+                "n_solves": self.n_solves, "sw_shell": self.sw_shell,
+                "sw_marginal": self.sw_marginal, "sw_d": self.sw_d,
                 "sw2_d": self.sw2_d, "sw2_d2": self.sw2_d2,
                 "reasons": [list(r) for r in self.reasons]}
 
@@ -167,7 +169,8 @@ def resolve_shell(v: Verdicts, y: np.ndarray, rows: np.ndarray, weights: np.ndar
     sums = ShellSums(len(shell), int(np.count_nonzero(codes == INSIDE)),
                      int(np.count_nonzero(codes == OUTSIDE)),
                      int(np.count_nonzero(codes == MARGINAL)), len(take),
-                     float(w.sum()), float((w * d).sum()), float((w * w * d).sum()),
+                     float(w.sum()), float(w[codes == MARGINAL].sum()), float((w * d).sum()),
+                     float((w * w * d).sum()),
                      float((w * w * d * d).sum()), tuple(sorted(left.items())))
     return Verdicts(verdict, v.min_margin, v.worst, satisfies), sums
 
@@ -188,6 +191,9 @@ class ShellSummary:
         ``CheckSettings.shell_solves``: solves allowed per partition.
     shell_fraction
         The (weighted) fraction of all points in the shell.
+    marginal_fraction
+        The (weighted) fraction of all points left marginal in the shell: p_inside counts
+        them as inside, so the probability inside the cone may be lower by up to this.
     reasons
         The most common reasons of the points left marginal, most common first.
     p_correction, p_correction_err
@@ -202,6 +208,7 @@ class ShellSummary:
     n_solves: int
     budget: int
     shell_fraction: float
+    marginal_fraction: float
     reasons: tuple[tuple[str, int], ...]
     p_correction: float
     p_correction_err: float
@@ -211,6 +218,7 @@ class ShellSummary:
                 "n_outside": self.n_outside, "n_marginal": self.n_marginal,
                 "n_solves": self.n_solves, "budget_per_partition": self.budget,
                 "shell_fraction": self.shell_fraction,
+                "marginal_fraction": self.marginal_fraction,
                 "reasons": [{"reason": r, "n": n} for r, n in self.reasons],
                 "p_correction": self.p_correction, "p_correction_err": self.p_correction_err}
 
@@ -220,27 +228,28 @@ class ShellTally:
     """The shell sums of a check, added block by block in row order."""
 
     n: np.ndarray = field(default_factory=lambda: np.zeros(5, dtype=np.int64))
-    sw: np.ndarray = field(default_factory=lambda: np.zeros(4))
+    sw: np.ndarray = field(default_factory=lambda: np.zeros(5))
     reasons: Counter = field(default_factory=Counter)
 
     def absorb(self, s: ShellSums) -> None:
         """Add one block's sums (blocks in row order, so the float sums have the same
         bits in every engine)."""
         self.n += (s.n_shell, s.n_inside, s.n_outside, s.n_marginal, s.n_solves)
-        self.sw += (s.sw_shell, s.sw_d, s.sw2_d, s.sw2_d2)
+        self.sw += (s.sw_shell, s.sw_marginal, s.sw_d, s.sw2_d, s.sw2_d2)
         self.reasons.update(dict(s.reasons))
 
     def summary(self, sw: float, sw2: float, budget: int) -> ShellSummary:
         """The summary, given the sums of all weights ``sw`` and squared weights ``sw2``."""
         n_shell, n_in, n_out, n_marg, n_solves = (int(x) for x in self.n)
-        sw_shell, sw_d, sw2_d, sw2_d2 = (float(x) for x in self.sw)
+        sw_shell, sw_marg, sw_d, sw2_d, sw2_d2 = (float(x) for x in self.sw)
         corr = sw_d / sw if sw > 0 else 0.0
         # Monte-Carlo error of the ratio estimator sum w d / sum w (delta method)
         var = max(sw2_d2 - 2 * corr * sw2_d + corr * corr * sw2, 0.0)
         err = math.sqrt(var) / sw if sw > 0 else 0.0
         top = tuple(sorted(self.reasons.items(), key=lambda kv: (-kv[1], kv[0]))[:N_REASONS])
-        return ShellSummary(n_shell, n_in, n_out, n_marg, n_solves, budget,
-                            sw_shell / sw if sw > 0 else 0.0, top, corr, err)
+        frac = (sw_shell / sw, sw_marg / sw) if sw > 0 else (0.0, 0.0)
+        return ShellSummary(n_shell, n_in, n_out, n_marg, n_solves, budget, *frac, top, corr,
+                            err)
 
     def to_dict(self) -> dict[str, Any]:
         return {"n": self.n.tolist(), "sw": self.sw.tolist(), "reasons": dict(self.reasons)}

@@ -189,4 +189,7 @@ def shell_line(result: CheckResult) -> str:
             f"{sh.n_outside}, left marginal {sh.n_marginal}")
     if sh.reasons:
         text += " (" + "; ".join(f"{r}: {n}" for r, n in sh.reasons[:2]) + ")"
+    if sh.n_marginal:
+        text += (f"; p_inside counts them as inside, so it may be lower by up to "
+                 f"{fmt_prob(sh.marginal_fraction)}")
     return text

@@ -196,7 +196,9 @@ def shell_block(result: CheckResult) -> list:
             ("left marginal", str(sh.n_marginal)),
             ("exact solves (budget per partition)", f"{sh.n_solves} ({sh.budget})"),
             ("change of p_inside by the solves", fmt_pm(sh.p_correction,
-                                                        sh.p_correction_err)))
+                                                        sh.p_correction_err)),
+            ("left marginal (weighted fraction; p_inside may be lower by up to this)",
+             fmt_prob(sh.marginal_fraction)))
     blocks = [Heading("Shell"),
               Para("Points between the inner cone and the outer facets are decided by one "
                    "exact membership solve each: `inside` only with a verified solution, "
