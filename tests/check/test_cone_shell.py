@@ -304,3 +304,22 @@ def test_command_line_budget_summary_and_report(photon_region, tmp_path, capsys)
     assert shell["reasons"][0]["reason"] == BUDGET_REASON
     report = (out / "report.md").read_text()
     assert "## Shell" in report and "why left marginal" in report
+
+
+def test_a_point_outside_by_rounding_is_solved_not_declared_outside():
+    # (a, b) = (0, 1) lies on the boundary ray a = 0 of the photon cone (classic statement
+    # above); pushed out by 1e-15 it is outside only by rounding: the facet test alone
+    # would call it outside, the exact solve leaves it marginal; pushed out by 1e-3 it is
+    # outside.  (The elastic facets are exact product states; extremal facets carry a
+    # small outward repair, so there such a point is in the shell anyway.)
+    region = get_theory("photon-quartic").build_region({"families": ["elastic"]})
+    zeta_of = np.linalg.inv(photon.ALT_FROM_ZETA)
+    pts = np.array([zeta_of @ [-1e-15, 1.0], zeta_of @ [-1e-3, 1.0]])
+    assert (classify(pts, region, 0.0).verdict == 2).all()
+    fit = Fit("edge", "photon-quartic", tuple(Parameter(c, Convention("none"))
+                                              for c in region.coordinates), {},
+              samples=_parquet_samples(pts, region.coordinates))
+    got, res = _verdicts(fit, region)
+    assert got.tolist() == [1, 2]
+    assert res.shell is not None and res.shell.n_shell == 1
+    assert res.shell.n_marginal == 1 and res.shell.n_outside == 0

@@ -7,9 +7,13 @@
   ``settings["cone_problem"]`` so that a saved region can re-decide any point.
 * :func:`shell_membership` decides points exactly, one solve per point: ``inside`` only
   with a verified rho (extremal) or a proof (elastic), ``outside`` only with a verified
-  separating certificate, and ``marginal`` with the reason otherwise.
-* :func:`classify_cone` is the fast path: the facet test against the inner and outer
-  cones, then :func:`shell_membership` for the points between them.
+  separating certificate, and ``marginal`` with the reason otherwise (also when the
+  solver raises).  :class:`ConeShell` does the same with the problem parsed once, each
+  point seeded by its own id, and independent sectors solved one by one
+  (:mod:`eftsieve.bounds.cone_sectors`); the check kernel uses it
+  (:mod:`eftsieve.check.shell`).
+* :func:`classify_cone` is the fast path for scripts: the facet test against the inner
+  and outer cones, then :func:`shell_membership` for the points between them.
 """
 
 from __future__ import annotations

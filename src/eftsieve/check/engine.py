@@ -38,7 +38,7 @@ from eftsieve.check.shell import (
     ShellTally,
     has_shell_solver,
     resolve_shell,
-    shell_solver,
+    shell_budget,
 )
 from eftsieve.check.verdicts import CheckSettings, Verdicts, classify
 from eftsieve.errors import InputError, TaskFailedError
@@ -192,8 +192,6 @@ class PartitionResult:
         return sum(len(f) for f in self.flagged)
 
 
-
-
 def empty_worst(dim: int) -> Ranked:
     """No worst points yet (payload: region point, worst facet)."""
     return empty_ranked((dim, None), (float, np.int32))
@@ -278,17 +276,6 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator,
                        sample, shell_sums)
 
 
-def shell_budget(job: PartitionJob) -> ShellBudget | None:
-    """The exact shell solver of a partition with its full budget, or None (the region
-    has no exact solver, or a theory-uncertainty model decides the verdicts)."""
-    if job.uncertainty is not None:
-        return None
-    solver = shell_solver(job.region)
-    if solver is None:
-        return None
-    return ShellBudget(solver, int(job.settings.shell_solves), int(job.settings.seed))
-
-
 def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None = None
                   ) -> PartitionResult:
     """Check one file block by block.
@@ -304,7 +291,7 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
                        job.settings.plot_points)
     flagged: list[FlaggedRows] = []
     shells: list[ShellSums] = []
-    budget = shell_budget(job)
+    budget = None if job.uncertainty is not None else shell_budget(job.region, job.settings)
     n = 0
     for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
         out = process_block(job, block, keys, Cutoffs.of(sample, worst), budget)

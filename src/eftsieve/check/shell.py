@@ -7,8 +7,11 @@ solve per point (:class:`eftsieve.bounds.cone_region.ConeShell`).  This module d
 for :func:`eftsieve.check.engine.process_block`, so every engine and every source
 (samples files, Gaussian draws) gets the same exact verdicts:
 
-* the **shell** of a block is its points that are ``marginal`` after the facet test;
-  each gets :meth:`ConeShell.decide`, in row order, while the partition's budget lasts;
+* the **shell** of a block is its points that are ``marginal`` after the facet test, and
+  those outside an outer facet by no more than rounding (relative margin above
+  ``-FACET_TEST_BAND``: the outer facets lie on the cone's boundary, so such a point is
+  numerically on it); each gets :meth:`ConeShell.decide`, in row order, while the
+  partition's budget lasts;
 * ``inside`` only with a verified rho (or elastic proof), ``outside`` only with a
   verified certificate; a failed or inaccurate solve stays ``marginal`` with its reason;
 * the **budget** ``CheckSettings.shell_solves`` counts solves per partition (one file of
@@ -77,8 +80,9 @@ class ShellSums:
     Attributes
     ----------
     n_shell
-        Points marginal after the facet test; non-finite points and the apex c = 0 are
-        among them but are never solved (they stay marginal with their reason).
+        Points marginal after the facet test or outside by no more than rounding;
+        non-finite points and the apex c = 0 are among them but are never solved (they
+        stay marginal with their reason).
     n_inside, n_outside, n_marginal
         Shell points solved inside, solved outside, and left marginal.
     n_solves
@@ -136,6 +140,15 @@ class ShellBudget:
         return {"left": self.left, "seed": self.seed}
 
 
+def shell_budget(region: Region, settings: Any) -> ShellBudget | None:
+    """The exact solver of a partition with its full budget (``settings.shell_solves``,
+    seeded by ``settings.seed``), or None when the region has no exact solver."""
+    solver = shell_solver(region)
+    if solver is None:
+        return None
+    return ShellBudget(solver, int(settings.shell_solves), int(settings.seed))
+
+
 def resolve_shell(v: Verdicts, y: np.ndarray, rows: np.ndarray, weights: np.ndarray | None,
                   budget: ShellBudget) -> tuple[Verdicts, ShellSums]:
     """Decide a block's shell exactly, within the budget (module docstring).
@@ -143,7 +156,13 @@ def resolve_shell(v: Verdicts, y: np.ndarray, rows: np.ndarray, weights: np.ndar
     Returns the updated verdicts (``verdict`` and ``satisfies``; margins unchanged: they
     stay the distances to the outer facets) and the block's :class:`ShellSums`.
     """
-    shell = np.flatnonzero(v.verdict == MARGINAL)
+    from eftsieve.bounds.cone_region import FACET_TEST_BAND
+
+    # the shell: marginal after the facet test, or outside an outer facet by no more than
+    # rounding (relative to the point's size; the outer facets lie on the boundary)
+    scale = np.abs(y).max(axis=1) if len(y) else np.zeros(0)
+    near = (v.verdict == OUTSIDE) & (v.min_margin >= -FACET_TEST_BAND * scale)
+    shell = np.flatnonzero((v.verdict == MARGINAL) | near)
     if not len(shell):
         return v, ShellSums()
     ys = y[shell]
@@ -161,7 +180,7 @@ def resolve_shell(v: Verdicts, y: np.ndarray, rows: np.ndarray, weights: np.ndar
         budget.left -= len(take)
     verdict, satisfies = v.verdict.copy(), v.satisfies.copy()
     decided = codes != MARGINAL
-    verdict[shell[decided]] = codes[decided]
+    verdict[shell] = codes
     satisfies[shell[decided]] = codes[decided] == INSIDE
     d = satisfies[shell].astype(float) - v.satisfies[shell].astype(float)
     w = np.ones(len(shell)) if weights is None else np.asarray(weights, dtype=float)[shell]

@@ -152,7 +152,8 @@ TILE_CELLS = 1 << 16
 SPARSE_TERMS = 3
 
 
-def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True
+def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True,
+                cols: list[np.ndarray] | None = None,
                 ) -> tuple[np.ndarray, np.ndarray | None]:
     """Smallest margin ``min_j (a_j . y - b_j)`` and its (first) facet (None unless
     ``with_arg``: the inner set needs only the margin), per row.
@@ -168,7 +169,8 @@ def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = Tr
     n = len(y)
     best = np.full(n, np.inf)
     arg = np.zeros(n, dtype=np.int32) if with_arg else None
-    cols = [np.ascontiguousarray(y[:, k]) for k in range(y.shape[1])]
+    if cols is None:
+        cols = _columns(y)
     m, term = np.empty(n), np.empty(n)
     for j in range(len(b)):
         nz = np.flatnonzero(a[j]) if np.any(a[j]) else np.zeros(1, dtype=int)
@@ -181,6 +183,11 @@ def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = Tr
             arg[m < best] = j
         np.minimum(best, m, out=best)
     return best, arg
+
+
+def _columns(y: np.ndarray) -> list[np.ndarray]:
+    """The columns of ``y`` as contiguous arrays (formed once per block)."""
+    return [np.ascontiguousarray(y[:, k]) for k in range(y.shape[1])]
 
 
 def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True
@@ -210,14 +217,15 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
     if y.ndim != 2 or y.shape[1] != region.dim:
         raise ValueError(f"points must have shape (n, {region.dim}), got {y.shape}")
     a, b = region.arrays()
-    outer, worst = _min_margin(y, a, b)
+    cols = _columns(y)
+    outer, worst = _min_margin(y, a, b, cols=cols)
     if worst is None:  # with_arg=True always returns the facets (for the type checker)
         raise RuntimeError("facet indices missing")
     verdict = np.full(len(y), MARGINAL, dtype=np.int8)
     verdict[outer < -band] = OUTSIDE
     if region.inner_facets:
         ai, bi = region.arrays(inner=True)
-        inner, _ = _min_margin(y, ai, bi, with_arg=False)
+        inner, _ = _min_margin(y, ai, bi, with_arg=False, cols=cols)
     else:
         inner = outer
     verdict[inner > band] = INSIDE
