@@ -2,7 +2,7 @@
 
 - ours: what the check kernel does (:func:`eftsieve.check.engine.process_block`): the facet
   test against the inner and outer cones (:func:`eftsieve.check.verdicts.classify`, band
-  0, in blocks of 10^6 points), then one exact solve for each point in the shell between
+  0, in the kernel's blocks of 65536 points), then one exact solve for each point in the shell between
   them (:class:`eftsieve.bounds.cone_region.ConeShell`, every shell point solved: no
   budget);
 - the simple alternative: one exact membership solve per point (the same solver, cvxpy +
@@ -29,11 +29,12 @@ import sys
 import time
 
 import numpy as np
-from common import load, table
+from common import load, table, target
 
 N = 10_000_000
 BASELINE_SOLVES = 300
-BLOCK = 1_000_000
+#: points per block: the check kernel's canonical block (eftsieve.stats.accumulate.BLOCK)
+BLOCK = 1 << 16
 THEORIES = ("photon-quartic", "higgs-quartic", "ew-chiral", "transverse-w")
 
 
@@ -95,8 +96,21 @@ def classify_run(label: str, region, centre: np.ndarray, n: int, baseline: int
             f"{counts[INSIDE] / n:.3f}/{counts[MARGINAL] / n:.1e}/{counts[OUTSIDE] / n:.3f}"]
 
 
-def end_to_end(region, centre: np.ndarray, n: int) -> list[str]:
-    """``eftsieve check`` on a Gaussian card (the API call the command line makes)."""
+def coarse(theory: str):
+    """A deliberately coarse build (two rays, shell ~7% of the sphere): a region whose
+    shell is large, to show what the solve budget does."""
+    from eftsieve.bounds.cone_build import ConeSettings, build_cone
+    from eftsieve.bounds.cone_region import cone_region
+    from eftsieve.theories import get_theory
+
+    build = build_cone(get_theory(theory).problem(), ConeSettings(
+        shell_target=0.3, max_rounds=1, rays_per_round=3, mc_points=20_000))
+    return cone_region(theory, build, {"name": "none"})
+
+
+def end_to_end(region, centre: np.ndarray, n: int, label: str = "") -> list[str]:
+    """``eftsieve check`` on a Gaussian card (the API call the command line makes), with
+    the default solve budget."""
     from eftsieve.check.run import run_check
     from eftsieve.check.verdicts import CheckSettings
     from eftsieve.fit.conventions import Convention
@@ -110,8 +124,10 @@ def end_to_end(region, centre: np.ndarray, n: int) -> list[str]:
     res = run_check(fit, region, CheckSettings(draws=n, plot_points=1000))
     dt = time.perf_counter() - t0
     sh = res.shell
-    return [region.theory, f"{n:.0e}", f"{dt:.1f} s", f"{n / dt:.2e} points/s",
-            f"{sh.n_shell if sh else 0}", f"{sh.n_solves if sh else 0}",
+    marg = f"{sh.n_marginal} ({sh.marginal_fraction:.1e})" if sh else "0"
+    return [label or region.theory, f"{n:.0e}", f"{dt:.1f} s", f"{n / dt:.2e} points/s",
+            f"{sh.n_shell if sh else 0} ({sh.shell_fraction if sh else 0:.1e})",
+            f"{sh.n_solves if sh else 0}", marg,
             f"{res.p_inside:.4f} +- {res.p_inside_err:.1e}"]
 
 
@@ -145,14 +161,27 @@ def main() -> None:
                          centre_of(regions["transverse-w"]), n, max(baseline // 10, 10)),
             classify_run("product of 4 theories (block-diagonal)", product, centre10, n,
                          max(baseline // 10, 10))]
+    for r in rows:
+        rate, ratio = float(r[8].split()[0]), float(r[10].rstrip("x"))
+        target(f"classify {r[2]} points, {r[0]} (k = {r[1]}): >= 1e7 points/s", r[8],
+               f"{rate / 1e7:.2f}x the target", rate >= 1e7, "shared 2-core machine")
+        target(f"classify {r[0]} vs one solve per point: >= 1e4x", r[10], r[10],
+               ratio >= 1e4)
+    for b in builds:
+        target(f"transverse-w {b[1]} region (shell < 1e-3) in < 60 s on 2 cores",
+               f"{b[2]} s, shell {b[5]}", f"{float(b[2]) / 60:.2f}x the budget",
+               b[-1] == "yes")
     table(f"Classifying points against a positivity cone ({load()}, shared machine)",
           ["cone", "k", "points", "facets out/in", "shell points (fraction)",
            "facet test", "plain numpy pass", "shell solves", "ours",
            "one solve per point (extrapolated)", "ratio", "inside/marginal/outside"], rows)
-    table("eftsieve check end to end on a Gaussian card (draws + kernel + statistics)",
-          ["theory", "draws", "wall time", "rate", "shell points", "exact solves",
-           "p_inside"], [end_to_end(regions["transverse-w"],
-                                    centre_of(regions["transverse-w"]), n)])
+    rough = coarse("higgs-quartic")
+    table("eftsieve check end to end on a Gaussian card (draws + kernel + statistics, "
+          "default budget of 1000 solves)",
+          ["region", "draws", "wall time", "rate", "shell points (fraction)", "exact solves",
+           "left marginal (fraction)", "p_inside"],
+          [end_to_end(regions["transverse-w"], centre_of(regions["transverse-w"]), n),
+           end_to_end(rough, centre_of(rough), n, "higgs-quartic, coarse build (2 rays)")])
     table("Building the transverse-w region from scratch (shell target 1e-3 of the sphere)",
           ["theory", "family", "seconds", "outer facets", "inner facets",
            "shell fraction", "rays", "solves", "under 60 s, shell < 1e-3"], builds)
