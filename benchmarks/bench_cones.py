@@ -2,9 +2,9 @@
 
 - ours: what the check kernel does (:func:`eftsieve.check.engine.process_block`): the facet
   test against the inner and outer cones (:func:`eftsieve.check.verdicts.classify`, band
-  0, in the kernel's blocks of 65536 points), then one exact solve for each point in the shell between
-  them (:class:`eftsieve.bounds.cone_region.ConeShell`, every shell point solved: no
-  budget);
+  0, in the kernel's blocks of 65536 points), then one exact solve for each point in
+  the shell between them (:class:`eftsieve.bounds.cone_region.ConeShell`, every shell
+  point solved: no budget);
 - the simple alternative: one exact membership solve per point (the same solver, cvxpy +
   Clarabel, compiled once and re-solved), timed on a few hundred points and extrapolated;
 - ``eftsieve check`` end to end on a Gaussian card (draws, kernel, statistics), for one
