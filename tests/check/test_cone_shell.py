@@ -249,6 +249,7 @@ def _verdicts(fit: Fit, region) -> tuple[np.ndarray, object]:
     return codes, res
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("family, expected", [("extremal", 2), ("elastic", 0)])
 def test_transverse_w_point_between_the_families(family, expected):
     # C_STAR violates the extremal-only facet 12 fT0 + 4 fT1 + 5 fT2 >= 0 and is proven
