@@ -1,13 +1,26 @@
 """Positivity cones (issue 20): classification speed and region build time, side by side.
 
-- ours: the facet test against the inner and outer cones (numpy, chunks of 10^6), then
-  one exact SDP solve for each point in the shell between them;
-- the simple alternative: one SDP membership solve per point (cvxpy + Clarabel, the
-  problem compiled once and re-solved), timed on ~10^3 points and extrapolated;
+- ours: what the check kernel does (:func:`eftsieve.check.engine.process_block`): the facet
+  test against the inner and outer cones (:func:`eftsieve.check.verdicts.classify`, band
+  0, in the kernel's blocks of 65536 points), then one exact solve for each point in
+  the shell between them (:class:`eftsieve.bounds.cone_region.ConeShell`, every shell
+  point solved: no budget);
+- the simple alternative: one exact membership solve per point (the same solver, cvxpy +
+  Clarabel, compiled once and re-solved), timed on a few hundred points and extrapolated;
+- ``eftsieve check`` end to end on a Gaussian card (draws, kernel, statistics), for one
+  cone;
 - the build time of the ``transverse-w`` region, both families, from scratch.
 
+Cones: ``higgs-quartic`` and ``transverse-w`` (3 coefficients each) and a 10-coefficient
+cone that is the product of the four independent cone theories side by side
+(photon-quartic 2 + higgs-quartic 3 + ew-chiral 2 + transverse-w 3 coefficients, 15 modes;
+:func:`eftsieve.bounds.cone_sectors.product_region`): a block-diagonal problem, solved
+sector by sector, not a 10-coefficient cone with couplings between all its modes.
+
 The points are a fictional Gaussian "fit" (demo scenario, invented numbers) whose mean
-sits near the boundary of the cone, so that a sizeable share of it is excluded.
+sits past one facet of the cone, so that a sizeable share of it is excluded.
+
+Usage: ``python benchmarks/bench_cones.py [N] [BASELINE_SOLVES]``.
 """
 
 from __future__ import annotations
@@ -16,60 +29,106 @@ import sys
 import time
 
 import numpy as np
-from common import table
+from common import load, table, target
 
 N = 10_000_000
-BASELINE_SOLVES = 1_000
+BASELINE_SOLVES = 300
+#: points per block: the check kernel's canonical block (eftsieve.stats.accumulate.BLOCK)
+BLOCK = 1 << 16
+THEORIES = ("photon-quartic", "higgs-quartic", "ew-chiral", "transverse-w")
 
 
-def demo_points(region, n: int, rng: np.random.Generator) -> np.ndarray:
-    """Fictional fit: mean = the inner centre pushed 30% of the way past a facet, unit-ish
-    spread (invented numbers, demo only)."""
+def centre_of(region) -> np.ndarray:
+    """The mean of the inner cone's rays (of each factor for a product region)."""
     rays = np.array(region.inner_vertices)
-    centre = rays.mean(axis=0)
+    return rays.mean(axis=0)
+
+
+def demo_gaussian(region, centre: np.ndarray) -> tuple[np.ndarray, float]:
+    """Fictional fit: mean = the centre pushed 30% of the way past the first facet, spread
+    half the centre's norm (invented numbers, demo only)."""
     a, _ = region.arrays()
     mean = centre - 0.3 * (a[0] @ centre) * a[0] / (a[0] @ a[0])
-    scale = 0.5 * np.linalg.norm(centre)
-    return mean + scale * rng.normal(size=(n, region.dim))
+    return mean, 0.5 * float(np.linalg.norm(centre))
 
 
-def classify_run(theory: str, n: int, baseline: int) -> list[str]:
-    from eftsieve.bounds.cone_region import classify_cone, problem_of, sdp_for
-    from eftsieve.bounds.cones import INSIDE, OUTSIDE
-    from eftsieve.theories import get_theory
+def classify_run(label: str, region, centre: np.ndarray, n: int, baseline: int
+                 ) -> list[str]:
+    from eftsieve.bounds.cone_region import ConeShell
+    from eftsieve.check.verdicts import INSIDE, MARGINAL, OUTSIDE, classify
 
-    region = get_theory(theory).build_region({})
+    mean, sd = demo_gaussian(region, centre)
     rng = np.random.default_rng(20)
-    pts = demo_points(region, n, rng)
+    solver = ConeShell.from_region(region)
+    t_facets = t_plain = t_shell = 0.0
+    counts = np.zeros(3, dtype=np.int64)
+    n_shell = 0
+    for lo in range(0, n, BLOCK):
+        pts = mean + sd * rng.normal(size=(min(BLOCK, n - lo), region.dim))
+        t0 = time.perf_counter()
+        v = classify(pts, region, 0.0)
+        t_facets += time.perf_counter() - t0
+        t0 = time.perf_counter()
+        np.add.reduce(pts, axis=1)                 # bandwidth stand-in: one pass, one sum
+        t_plain += time.perf_counter() - t0
+        shell = np.flatnonzero(v.verdict == MARGINAL)
+        n_shell += len(shell)
+        codes = v.verdict.copy()
+        if len(shell):
+            t0 = time.perf_counter()
+            got, _, _ = solver.decide(pts[shell], lo + shell)
+            t_shell += time.perf_counter() - t0
+            codes[shell] = got
+        counts += np.bincount(codes, minlength=3)[:3]
+    sample = mean + sd * rng.normal(size=(baseline, region.dim))
+    solver.decide(sample[:1], np.arange(1))        # compile once, as a user would
     t0 = time.perf_counter()
-    codes, shell, statuses = classify_cone(region, pts, solve_shell=False)
-    t_facets = time.perf_counter() - t0
-    n_shell = int(shell.sum())
-    t0 = time.perf_counter()
-    _, _, statuses = classify_cone(region, pts[shell], solve_shell=True) if n_shell else (
-        None, None, {})
-    t_shell = time.perf_counter() - t0
-    t0 = time.perf_counter()
-    for s in range(0, n, 1_000_000):             # bandwidth stand-in: one pass, one sum
-        np.add.reduce(pts[s:s + 1_000_000], axis=1)
-    t_plain = time.perf_counter() - t0
-    problem, _ = problem_of(region)
-    sdp = sdp_for(problem)
-    sdp.membership(pts[0])                      # compile once, as a user would
-    sample = pts[rng.choice(n, size=baseline, replace=False)]
-    t0 = time.perf_counter()
-    for x in sample:
-        sdp.membership(x)
+    solver.decide(sample, np.arange(baseline))
     per_solve = (time.perf_counter() - t0) / baseline
     ours = t_facets + t_shell
     base = per_solve * n
-    frac_in = float(np.mean(codes == INSIDE))
-    frac_out = float(np.mean(codes == OUTSIDE))
-    return [theory, f"{region.dim}", f"{n:.0e}", f"{len(region.facets)}/{len(region.inner_facets)}",
-            f"{n_shell} ({n_shell / n:.1e})", f"{t_facets:.2f}", f"{t_plain:.2f}",
-            f"{t_shell:.2f}",
-            f"{n / ours:.2e}", f"{per_solve * 1e3:.1f} ms x {baseline}", f"{base:.2e}",
-            f"{base / ours:.1e}", f"{frac_in:.3f}/{frac_out:.3f}"]
+    return [label, f"{region.dim}", f"{n:.0e}",
+            f"{len(region.facets)}/{len(region.inner_facets)}",
+            f"{n_shell} ({n_shell / n:.1e})", f"{t_facets:.2f} s", f"{t_plain:.2f} s",
+            f"{t_shell:.2f} s", f"{n / ours:.2e} points/s",
+            f"{per_solve * 1e3:.1f} ms x {n:.0e} = {base:.1e} s (from {baseline} solves)",
+            f"{base / ours:.1e}x",
+            f"{counts[INSIDE] / n:.3f}/{counts[MARGINAL] / n:.1e}/{counts[OUTSIDE] / n:.3f}"]
+
+
+def coarse(theory: str):
+    """A deliberately coarse build (two rays, shell ~7% of the sphere): a region whose
+    shell is large, to show what the solve budget does."""
+    from eftsieve.bounds.cone_build import ConeSettings, build_cone
+    from eftsieve.bounds.cone_region import cone_region
+    from eftsieve.theories import get_theory
+
+    build = build_cone(get_theory(theory).problem(), ConeSettings(
+        shell_target=0.3, max_rounds=1, rays_per_round=3, mc_points=20_000))
+    return cone_region(theory, build, {"name": "none"})
+
+
+def end_to_end(region, centre: np.ndarray, n: int, label: str = "") -> list[str]:
+    """``eftsieve check`` on a Gaussian card (the API call the command line makes), with
+    the default solve budget."""
+    from eftsieve.check.run import run_check
+    from eftsieve.check.verdicts import CheckSettings
+    from eftsieve.fit.conventions import Convention
+    from eftsieve.fit.model import Fit, Parameter
+
+    mean, sd = demo_gaussian(region, centre)
+    fit = Fit("bench-demo", region.theory, tuple(Parameter(c, Convention("none"))
+                                                 for c in region.coordinates), {},
+              mean, sd**2 * np.eye(region.dim))
+    t0 = time.perf_counter()
+    res = run_check(fit, region, CheckSettings(draws=n, plot_points=1000))
+    dt = time.perf_counter() - t0
+    sh = res.shell
+    marg = f"{sh.n_marginal} ({sh.marginal_fraction:.1e})" if sh else "0"
+    return [label or region.theory, f"{n:.0e}", f"{dt:.1f} s", f"{n / dt:.2e} points/s",
+            f"{sh.n_shell if sh else 0} ({sh.shell_fraction if sh else 0:.1e})",
+            f"{sh.n_solves if sh else 0}", marg,
+            f"{res.p_inside:.4f} +- {res.p_inside_err:.1e}"]
 
 
 def build_run(theory: str, family: str) -> list[str]:
@@ -81,23 +140,51 @@ def build_run(theory: str, family: str) -> list[str]:
     shell, err = region.settings["shell_fraction"]
     stats = region.settings["build"]
     return [theory, family, f"{dt:.1f}", f"{len(region.facets)}", f"{len(region.inner_facets)}",
-            f"{shell:.1e} +- {err:.0e}", f"{stats['rays']}", f"{stats['solves']}"]
+            f"{shell:.1e} +- {err:.0e}", f"{stats['rays']}", f"{stats['solves']}",
+            "yes" if dt < 60 and shell < 1e-3 else "no"]
 
 
 def main() -> None:
+    from eftsieve.bounds.cone_sectors import product_region
+    from eftsieve.theories import get_theory
+
     n = int(sys.argv[1]) if len(sys.argv) > 1 else N
     baseline = int(sys.argv[2]) if len(sys.argv) > 2 else BASELINE_SOLVES
-    rows = [classify_run("higgs-quartic", n, baseline),
-            classify_run("transverse-w", n, max(baseline // 20, 10))]
-    table("Classifying points against a positivity cone (2 cores, shared machine)",
-          ["theory", "k", "points", "facets out/in", "shell points (fraction)",
-           "facet test s", "plain numpy pass s", "shell solves s", "ours points/s",
-           "one SDP per point",
-           "SDP per point, extrapolated s", "ratio", "inside/outside"], rows)
+    print(f"machine: {load()} (shared with other workers)\n")
+    builds = [build_run("transverse-w", "extremal"), build_run("transverse-w", "elastic")]
+    regions = {t: get_theory(t).build_region({}) for t in THEORIES}
+    product = product_region("product of four cone theories", list(regions.values()))
+    centre10 = np.concatenate([centre_of(regions[t]) for t in THEORIES])
+    rows = [classify_run("higgs-quartic", regions["higgs-quartic"],
+                         centre_of(regions["higgs-quartic"]), n, baseline),
+            classify_run("transverse-w", regions["transverse-w"],
+                         centre_of(regions["transverse-w"]), n, max(baseline // 10, 10)),
+            classify_run("product of 4 theories (block-diagonal)", product, centre10, n,
+                         max(baseline // 10, 10))]
+    for r in rows:
+        rate, ratio = float(r[8].split()[0]), float(r[10].rstrip("x"))
+        target(f"classify {r[2]} points, {r[0]} (k = {r[1]}): >= 1e7 points/s", r[8],
+               f"{rate / 1e7:.2f}x the target", rate >= 1e7, "shared 2-core machine")
+        target(f"classify {r[0]} vs one solve per point: >= 1e4x", r[10], r[10],
+               ratio >= 1e4)
+    for b in builds:
+        target(f"transverse-w {b[1]} region (shell < 1e-3) in < 60 s on 2 cores",
+               f"{b[2]} s, shell {b[5]}", f"{float(b[2]) / 60:.2f}x the budget",
+               b[-1] == "yes")
+    table(f"Classifying points against a positivity cone ({load()}, shared machine)",
+          ["cone", "k", "points", "facets out/in", "shell points (fraction)",
+           "facet test", "plain numpy pass", "shell solves", "ours",
+           "one solve per point (extrapolated)", "ratio", "inside/marginal/outside"], rows)
+    rough = coarse("higgs-quartic")
+    table("eftsieve check end to end on a Gaussian card (draws + kernel + statistics, "
+          "default budget of 1000 solves)",
+          ["region", "draws", "wall time", "rate", "shell points (fraction)", "exact solves",
+           "left marginal (fraction)", "p_inside"],
+          [end_to_end(regions["transverse-w"], centre_of(regions["transverse-w"]), n),
+           end_to_end(rough, centre_of(rough), n, "higgs-quartic, coarse build (2 rays)")])
     table("Building the transverse-w region from scratch (shell target 1e-3 of the sphere)",
           ["theory", "family", "seconds", "outer facets", "inner facets",
-           "shell fraction", "rays", "solves"],
-          [build_run("transverse-w", "extremal"), build_run("transverse-w", "elastic")])
+           "shell fraction", "rays", "solves", "under 60 s, shell < 1e-3"], builds)
 
 
 if __name__ == "__main__":

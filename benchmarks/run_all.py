@@ -22,7 +22,7 @@ HERE = Path(__file__).resolve().parent
 PERF = HERE.parent / "docs" / "performance.md"
 SCRIPTS = ["bench_stream.py", "bench_refit.py", "bench_region.py", "bench_classify.py",
            "bench_exact.py", "bench_scalar_eft.py", "bench_su3.py", "bench_tension.py",
-           "bench_dask.py", "bench_readers.py"]
+           "bench_dask.py", "bench_readers.py", "bench_cones.py"]
 #: targets whose scripts print no target line yet
 UNREPORTED: list[str] = []
 BEGIN, END = "<!-- targets:begin -->", "<!-- targets:end -->"

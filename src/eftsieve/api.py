@@ -201,12 +201,14 @@ def build_region(theory: str, *, executor: Executor | None = None, **settings: A
 def check(fit: Fit, region: Region | None = None, *, draws: int = 200_000, seed: int = 0,
           band: float | None = None, chunk_rows: int = 1_000_000, uncertainty: Any = None,
           engine: str = "local", scheduler: str | None = None,
-          outdir: str | Path | None = None, region_file: str | None = None) -> CheckResult:
+          outdir: str | Path | None = None, region_file: str | None = None,
+          shell_solves: int = 1000) -> CheckResult:
     """Classify a fit against a region (default: its theory's region for the fit's
     kinematics) and compute p_inside, the tension and the Bayes factor.
 
     Returns a frozen :class:`~eftsieve.check.result.CheckResult`; flagged.csv goes to
-    ``outdir`` when one is given.
+    ``outdir`` when one is given.  ``shell_solves`` caps the exact membership solves per
+    partition for points between a positivity cone's inner and outer facets.
     """
     from eftsieve.check.run import run_check
     from eftsieve.check.verdicts import CheckSettings
@@ -214,7 +216,7 @@ def check(fit: Fit, region: Region | None = None, *, draws: int = 200_000, seed:
     if region is None:
         region = default_region(fit)
     settings = CheckSettings(draws=draws, seed=seed, marginal_band=band,
-                             chunk_rows=chunk_rows)
+                             chunk_rows=chunk_rows, shell_solves=shell_solves)
     return run_check(fit, region, settings, None if outdir is None else Path(outdir),
                      region_file, uncertainty, engine=engine, scheduler=scheduler)
 

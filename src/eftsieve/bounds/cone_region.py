@@ -7,9 +7,13 @@
   ``settings["cone_problem"]`` so that a saved region can re-decide any point.
 * :func:`shell_membership` decides points exactly, one solve per point: ``inside`` only
   with a verified rho (extremal) or a proof (elastic), ``outside`` only with a verified
-  separating certificate, and ``marginal`` with the reason otherwise.
-* :func:`classify_cone` is the fast path: the facet test against the inner and outer
-  cones, then :func:`shell_membership` for the points between them.
+  separating certificate, and ``marginal`` with the reason otherwise (also when the
+  solver raises).  :class:`ConeShell` does the same with the problem parsed once, each
+  point seeded by its own id, and independent sectors solved one by one
+  (:mod:`eftsieve.bounds.cone_sectors`); the check kernel uses it
+  (:mod:`eftsieve.check.shell`).
+* :func:`classify_cone` is the fast path for scripts: the facet test against the inner
+  and outer cones, then :func:`shell_membership` for the points between them.
 """
 
 from __future__ import annotations
@@ -31,6 +35,7 @@ from eftsieve.bounds.cones import (
     verify_rho,
 )
 from eftsieve.bounds.elastic import StateReduction, prove_elastic, search_states
+from eftsieve.errors import SolverError
 from eftsieve.region.model import Facet, Region
 from eftsieve.tolerances import CONE_BOUNDARY_TOL
 
@@ -100,45 +105,52 @@ def sdp_for(problem: ConeProblem) -> Any:
     return _sdp_for(problem.tensors.tobytes(), problem.coefficients, problem.modes)
 
 
-def _extremal_one(problem: ConeProblem, x: np.ndarray) -> tuple[int, str]:
+def _extremal_one(problem: ConeProblem, x: np.ndarray) -> tuple[int, str, str]:
     sdp = sdp_for(problem)
     res = sdp.membership(x)
     if res.rho is None:
-        return MARGINAL, f"marginal: SDP not solved (status {res.status})"
+        short = res.status.split(":", 1)[0]
+        return (MARGINAL, f"marginal: SDP not solved (status {res.status})",
+                f"SDP not solved (status {short})")
     unit = x / np.linalg.norm(x)
     ok, lam_rel, _ = verify_rho(problem, unit, res.rho)
     if ok and lam_rel > CONE_BOUNDARY_TOL:
         return INSIDE, f"inside: verified rho, lambda_min/max|rho| = {lam_rel:.3g} " \
-                       f"(solver {res.status})"
+                       f"(solver {res.status})", "verified rho"
     if res.value < 0 and res.z is not None:
         cert = facet_from_dual(problem, res.z)
         if cert is not None:
             val = float(cert.normal @ unit)
             if val < -CONE_BOUNDARY_TOL:
                 return OUTSIDE, f"outside: verified dual certificate, n.c/|c| = {val:.3g} " \
-                                f"(solver {res.status})"
+                                f"(solver {res.status})", "verified dual certificate"
     return MARGINAL, f"marginal: within the solver's accuracy of the boundary " \
-                     f"(t* = {res.value:.3g}, solver {res.status})"
+                     f"(t* = {res.value:.3g}, solver {res.status})", \
+        "within the solver's accuracy of the boundary"
 
 
 def _elastic_one(problem: ConeProblem, x: np.ndarray, rng: np.random.Generator,
-                 cells: int, reduction: StateReduction | None) -> tuple[int, str]:
+                 cells: int, reduction: StateReduction | None) -> tuple[int, str, str]:
     unit = x / np.linalg.norm(x)
     m = problem.tensor(unit)
     u, v, e = search_states(m, rng)
     scale = float(np.abs(m).max())
     if e < -CONE_BOUNDARY_TOL * scale:
         n_uv = facet_from_states(problem, u, v).normal @ unit
-        return OUTSIDE, f"outside: product state with E/|M| = {e / scale:.3g} (n.c = {n_uv:.3g})"
-    verdict, why = _extremal_one(problem, x)
+        return (OUTSIDE, f"outside: product state with E/|M| = {e / scale:.3g} "
+                f"(n.c = {n_uv:.3g})", "violating product state")
+    verdict, why, _ = _extremal_one(problem, x)
     if verdict == INSIDE:
-        return INSIDE, "inside (elastic): " + why.split(": ", 1)[1]
+        return INSIDE, "inside (elastic): " + why.split(": ", 1)[1], "verified rho"
     proof = prove_elastic(m, cells, reduction=reduction)
     if proof.outcome == "proven":
-        return INSIDE, f"inside: branch-and-bound proof over product states ({proof.cells} cells)"
+        return (INSIDE, f"inside: branch-and-bound proof over product states "
+                f"({proof.cells} cells)", "branch-and-bound proof")
     if proof.outcome == "violated" and proof.witness is not None:
-        return OUTSIDE, f"outside: product state with E = {proof.witness[2]:.3g}"
-    return MARGINAL, f"marginal: elastic positivity undecided within {proof.cells} cells"
+        return (OUTSIDE, f"outside: product state with E = {proof.witness[2]:.3g}",
+                "violating product state")
+    return (MARGINAL, f"marginal: elastic positivity undecided within {proof.cells} cells",
+            "elastic positivity undecided within the cell budget")
 
 
 def problem_of(cone: Region | ConeProblem) -> tuple[ConeProblem, str | None]:
@@ -149,6 +161,37 @@ def problem_of(cone: Region | ConeProblem) -> tuple[ConeProblem, str | None]:
         return ConeProblem.from_dict(cone.settings["cone_problem"]), str(cone.settings["family"])
     except KeyError as err:
         raise ValueError(f"region of '{cone.theory}' is not a positivity cone") from err
+
+
+def _solver_failures() -> tuple[type[BaseException], ...]:
+    """The exceptions of a solve that make a point ``marginal`` instead of stopping the run:
+    eftsieve's SolverError, cvxpy's solver and arithmetic errors, linear-algebra failures."""
+    import cvxpy as cp
+
+    return (SolverError, cp.error.SolverError, np.linalg.LinAlgError, ArithmeticError)
+
+
+def decide_point(problem: ConeProblem, family: str, x: np.ndarray, rng: np.random.Generator,
+                 elastic_cells: int = 300_000, reduction: StateReduction | None = None,
+                 ) -> tuple[int, str, str]:
+    """The exact verdict of one point: (code, status line, short reason).
+
+    The short reason has no numbers, so that reasons can be counted (``verified rho``,
+    ``SDP not solved (status infeasible_inaccurate)``, ...).  A solve that raises a
+    solver or linear-algebra error gives ``marginal`` with that reason, never a verdict.
+    """
+    if not np.isfinite(x).all():
+        return MARGINAL, "marginal: non-finite point", "non-finite point"
+    if not np.any(x):
+        return (MARGINAL, "marginal: the origin is the cone's apex (on the boundary)",
+                "the cone's apex c = 0")
+    try:
+        if family == "extremal":
+            return _extremal_one(problem, x)
+        return _elastic_one(problem, x, rng, elastic_cells, reduction)
+    except _solver_failures() as err:
+        name = type(err).__name__
+        return MARGINAL, f"marginal: the solve failed ({name}: {err})", f"solve failed ({name})"
 
 
 def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str | None = None,
@@ -166,7 +209,8 @@ def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str
     family
         ``extremal`` or ``elastic``; overrides the region's.
     seed
-        Seed of the product-state search (elastic).
+        Seed of the product-state search (elastic); point i uses
+        ``default_rng([seed, i])``, so its verdict does not depend on the other points.
     elastic_cells
         Cell budget of each elastic proof.
     reduction
@@ -181,29 +225,87 @@ def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str
         there is no verdict.
     """
     problem, fam = problem_of(cone)
-    fam = family or fam
-    if fam not in ("extremal", "elastic"):
-        raise ValueError(f"unknown family '{fam}'; use extremal or elastic")
     pts = np.atleast_2d(np.asarray(points, dtype=float))
-    if pts.shape[1] != problem.k:
-        raise ValueError(f"points must have {problem.k} columns, got {pts.shape[1]}")
-    if reduction is not None and reduction.defect(problem.tensors) > 1e-9:
-        raise ValueError("the state reduction's generators are not symmetries of M")
-    rng = np.random.default_rng(seed)
-    codes = np.full(len(pts), MARGINAL, dtype=np.int8)
-    statuses = []
-    for i, x in enumerate(pts):
-        if not np.isfinite(x).all():
-            statuses.append("marginal: non-finite point")
-            continue
-        if not np.any(x):
-            statuses.append("marginal: the origin is the cone's apex (on the boundary)")
-            continue
-        code, why = (_extremal_one(problem, x) if fam == "extremal"
-                     else _elastic_one(problem, x, rng, elastic_cells, reduction))
-        codes[i] = code
-        statuses.append(why)
-    return codes, tuple(statuses)
+    codes, statuses, _ = ConeShell(problem, family or fam or "", elastic_cells,
+                                   reduction).decide(pts, np.arange(len(pts)), seed)
+    return codes, statuses
+
+
+class ConeShell:
+    """Exact decisions for points of one cone, with the problem parsed and checked once.
+
+    Parameters
+    ----------
+    problem, family
+        The cone's forward tensors and its family (``extremal`` or ``elastic``).
+    elastic_cells, reduction
+        As :func:`shell_membership`.
+    """
+
+    def __init__(self, problem: ConeProblem, family: str, elastic_cells: int = 300_000,
+                 reduction: StateReduction | None = None) -> None:
+        if family not in ("extremal", "elastic"):
+            raise ValueError(f"unknown family '{family}'; use extremal or elastic")
+        if reduction is not None and reduction.defect(problem.tensors) > 1e-9:
+            raise ValueError("the state reduction's generators are not symmetries of M")
+        from eftsieve.bounds.cone_sectors import sectors
+
+        self.problem, self.family = problem, family
+        self.elastic_cells, self.reduction = elastic_cells, reduction
+        #: independent sectors (the cone is their product; each is solved on its own)
+        self.sectors = sectors(problem)
+
+    @classmethod
+    def from_region(cls, region: Region, reduction: StateReduction | None = None
+                    ) -> ConeShell:
+        """The shell solver of a cone region (its stored ``cone_problem`` and family)."""
+        problem, fam = problem_of(region)
+        return cls(problem, fam or "", reduction=reduction)
+
+    def decide(self, points: np.ndarray, ids: np.ndarray, seed: int = 0,
+               ) -> tuple[np.ndarray, tuple[str, ...], tuple[str, ...]]:
+        """Exact verdicts of ``points`` (m, k): (codes, status lines, short reasons).
+
+        ``ids`` (e.g. global row numbers) seed each point's product-state search as
+        ``default_rng([seed, id])``: a point's verdict depends on nothing else.
+        """
+        pts = np.atleast_2d(np.asarray(points, dtype=float))
+        if pts.shape[1] != self.problem.k:
+            raise ValueError(f"points must have {self.problem.k} columns, got {pts.shape[1]}")
+        codes = np.full(len(pts), MARGINAL, dtype=np.int8)
+        statuses, reasons = [], []
+        for i, (x, pid) in enumerate(zip(pts, np.asarray(ids), strict=True)):
+            rng = np.random.default_rng([int(seed), int(pid)])
+            code, why, short = self._decide_one(x, rng)
+            codes[i] = code
+            statuses.append(why)
+            reasons.append(short)
+        return codes, tuple(statuses), tuple(reasons)
+
+
+    def _decide_one(self, x: np.ndarray, rng: np.random.Generator) -> tuple[int, str, str]:
+        """One point: directly, or sector by sector for a product of independent cones
+        (outside if any sector is outside, inside if every sector is inside)."""
+        if len(self.sectors) == 1 or not np.isfinite(x).all():
+            return decide_point(self.problem, self.family, x, rng, self.elastic_cells,
+                                self.reduction)
+        found: list[tuple[int, str, str]] = []
+        for sec in self.sectors:
+            xs = x[list(sec.coefficients)]
+            if not np.any(xs):
+                found.append((MARGINAL, "marginal: a sector is at its apex (on the boundary)",
+                              "a sector at its apex (on the boundary)"))
+                continue
+            code, why, short = decide_point(sec.problem, self.family, xs, rng,
+                                            self.elastic_cells)
+            if code == OUTSIDE:
+                return code, f"{why} [sector {', '.join(sec.problem.coefficients)}]", short
+            found.append((code, why, short))
+        for code, why, short in found:
+            if code == MARGINAL:
+                return code, why, short
+        return INSIDE, "inside: every sector inside (" + "; ".join(w for _, w, _ in found) \
+            + ")", found[0][2]
 
 
 def _min_form(cols: list[np.ndarray], a: np.ndarray) -> np.ndarray:

@@ -15,9 +15,10 @@ keeps the two directions apart:
   negative eigenvalue gives a witness, the others are split.  Without a proof within the
   cell budget the answer is "undecided", never a verdict.
 
-Only real u, v are used: this is the ``elastic`` family as defined in
-docs/physics_cones.md (complex product states give further bounds that lie between it
-and ``extremal``).
+Only real u, v are used.  For a real, time-reversal and crossing-symmetric M (every
+theory here: each mode is its own crossing image) that loses nothing: a complex state
+u = a + i b, v = c + i d gives E(u, v) = E(a, c) + E(a, d) + E(b, c) + E(b, d), a sum of
+real product values (docs/physics_cones.md, section 3; tests/bounds/test_elastic_states.py).
 """
 
 from __future__ import annotations

@@ -32,6 +32,14 @@ from eftsieve.check.blocks import (
 )
 from eftsieve.check.outputs import FlaggedRows, FlaggedWriter
 from eftsieve.check.result import N_WORST, CheckResult, WorstPoint, summarize
+from eftsieve.check.shell import (
+    ShellBudget,
+    ShellSums,
+    ShellTally,
+    has_shell_solver,
+    resolve_shell,
+    shell_budget,
+)
 from eftsieve.check.verdicts import CheckSettings, Verdicts, classify
 from eftsieve.errors import InputError, TaskFailedError
 from eftsieve.executors import InputFailure
@@ -126,6 +134,9 @@ class BlockOutput:
         Its most violated rows (key: min margin; payload: y, worst facet).
     sample
         Its plot-subsample candidates (key: random; payload: [values, y], weights).
+    shell
+        Its shell's exact decisions (:mod:`eftsieve.check.shell`; empty sums without an
+        exact solver).
     """
 
     first_row: int
@@ -134,9 +145,11 @@ class BlockOutput:
     flagged: FlaggedRows | None
     worst: Ranked
     sample: Ranked
+    shell: ShellSums = ShellSums()
 
     def to_dict(self) -> dict[str, Any]:
-        return {"first_row": self.first_row, "n": self.n, "sums": self.sums.to_dict()}
+        return {"first_row": self.first_row, "n": self.n, "sums": self.sums.to_dict(),
+                "shell": self.shell.to_dict()}
 
 
 @dataclass(frozen=True)
@@ -155,6 +168,8 @@ class PartitionResult:
         Its flagged rows, one entry per block that has any, in row order.
     worst, sample
         Its candidates for the worst points and for the plot subsample.
+    shell
+        The shell sums of its blocks, in order.
     """
 
     index: int
@@ -165,6 +180,7 @@ class PartitionResult:
     flagged: tuple[FlaggedRows, ...]
     worst: Ranked
     sample: Ranked
+    shell: tuple[ShellSums, ...] = ()
 
     def to_dict(self) -> dict[str, Any]:
         return {"index": self.index, "file": self.file, "first_row": self.first_row,
@@ -174,8 +190,6 @@ class PartitionResult:
     @property
     def n_flagged(self) -> int:
         return sum(len(f) for f in self.flagged)
-
-
 
 
 def empty_worst(dim: int) -> Ranked:
@@ -218,17 +232,24 @@ class Cutoffs:
 
 
 def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator,
-                  cut: Cutoffs | None = None) -> BlockOutput:
+                  cut: Cutoffs | None = None, shell: ShellBudget | None = None
+                  ) -> BlockOutput:
     """Classify one block and compute everything it contributes.
 
     ``keys`` draws one plot-subsample key per row (always, so that it stays positioned at
     the next row); only rows under the :class:`Cutoffs` become candidates, so the cost of
-    the subsample and of the worst points falls as the partition proceeds.
+    the subsample and of the worst points falls as the partition proceeds.  With a
+    ``shell`` budget (regions with an exact solver, hard facets) the block's marginal
+    points are decided exactly while the partition's budget lasts
+    (:func:`eftsieve.check.shell.resolve_shell`).
     """
     st = job.settings
     cut = cut or Cutoffs()
     y = apply_map(job.cmap, block.values)
     v = classify(y, job.region, st.band(job.region))
+    shell_sums = ShellSums()
+    if shell is not None and job.uncertainty is None:
+        v, shell_sums = resolve_shell(v, y, block.rows, block.weights, shell)
     soft = None
     if job.uncertainty is not None:
         soft = prob_satisfies(y, job.region, job.uncertainty)
@@ -252,7 +273,7 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator,
     sample = Ranked(r, rows, (np.hstack([vals, yc]), w)).smallest(st.plot_points)
     return BlockOutput(int(block.rows[0]), len(block.rows),
                        block_sums(y, block.weights, v.verdict, v.satisfies, soft), flagged, worst,
-                       sample)
+                       sample, shell_sums)
 
 
 def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None = None
@@ -269,9 +290,11 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
     sample = Selection(empty_sample(len(job.fit.names) + dim, job.source.weighted),
                        job.settings.plot_points)
     flagged: list[FlaggedRows] = []
+    shells: list[ShellSums] = []
+    budget = None if job.uncertainty is not None else shell_budget(job.region, job.settings)
     n = 0
     for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
-        out = process_block(job, block, keys, Cutoffs.of(sample, worst))
+        out = process_block(job, block, keys, Cutoffs.of(sample, worst), budget)
         n += out.n
         worst.add(out.worst)
         sample.add(out.sample)
@@ -279,10 +302,12 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
             sink(out)
             continue
         blocks.append(out.sums)
+        shells.append(out.shell)
         if out.flagged is not None:
             flagged.append(out.flagged)
     return PartitionResult(job.part.index, str(job.part.path), job.part.start, n,
-                           tuple(blocks), tuple(flagged), worst.result(), sample.result())
+                           tuple(blocks), tuple(flagged), worst.result(), sample.result(),
+                           tuple(shells))
 
 
 def partition_task(job: PartitionJob, hook: Callable[[FilePart], None] | None = None
@@ -325,11 +350,13 @@ class CheckMerger:
                                 settings.plot_points)
         self.n_merged = 0
         self.done: list[dict[str, Any]] = []
+        self.shell = ShellTally() if has_shell_solver(region) else None
 
     def add_block(self, out: BlockOutput) -> None:
         """Merge one block (the next in row order)."""
         self._expect_row(out.first_row, "block")
         self._absorb(out.sums, out.flagged)
+        self._absorb_shell(out.shell)
         self.worst.add(out.worst)
         self.sample.add(out.sample)
 
@@ -344,6 +371,8 @@ class CheckMerger:
                                   "it persists")
         for sums in res.blocks:
             self._absorb(sums, None)
+        for shell in res.shell:
+            self._absorb_shell(shell)
         if self.flagged is not None:
             for rows in res.flagged:
                 self.flagged.write_rows(rows)
@@ -377,6 +406,10 @@ class CheckMerger:
             self.flagged.write_rows(flagged)
         self.n_merged += sums.n
 
+    def _absorb_shell(self, sums: ShellSums) -> None:
+        if self.shell is not None:
+            self.shell.absorb(sums)
+
     def check_complete(self) -> None:
         """Every partition merged, and the rows add up; otherwise name what is missing."""
         missing = [describe_part(p, len(self.parts)) for p in self.parts[len(self.done):]]
@@ -406,10 +439,12 @@ class CheckMerger:
         sample = self.sample.result().ordered()
         data = np.asarray(sample.payload[0])
         k = len(self.fit.names)
+        shell = None if self.shell is None else self.shell.summary(
+            self.acc.sw, self.acc.sw2, self.settings.shell_solves)
         return summarize(self.fit, self.region, cmap, self.settings, self.acc, region_path,
                          engine={**engine, "partitions": list(self.done)}, worst=worst_rows,
                          plot_samples=data[:, :k], plot_weights=sample.payload[1],
-                         plot_region_coords=data[:, k:])
+                         plot_region_coords=data[:, k:], shell=shell)
 
 
 @dataclass(frozen=True)
@@ -459,13 +494,15 @@ def prepare(fit: Fit, region: Region, settings: CheckSettings,
 
 
 def finish(result: CheckResult, prep: Prepared, acc: Accumulator) -> CheckResult:
-    """Add the statistics under the theory-uncertainty model, if there is one."""
+    """Add the statistics under the theory-uncertainty model, if there is one (the model
+    then decides the verdicts, and no shell is solved exactly)."""
     if prep.uncertainty is None:
         return result
     from dataclasses import replace
 
     from eftsieve.stats.truncation_stats import model_statistics
 
+    result = replace(result, shell=None)
     stats = model_statistics(result.fit, result.region, prep.cmap, prep.uncertainty, acc,
                              result.to_dict(), result.settings.seed)
     return replace(result, theory_uncertainty=stats)

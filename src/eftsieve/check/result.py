@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from eftsieve.check.shell import ShellSummary
 from eftsieve.check.verdict import FitVerdict, fit_verdict
 from eftsieve.check.verdicts import CheckSettings
 from eftsieve.errors import InputError, SolverError
@@ -99,6 +100,9 @@ class CheckResult:
     p_inside, p_inside_err, p_inside_method
         The probability inside the outer facets, its error, and how it was computed
         (minimax tilting for a Gaussian with an affine map, else the sample fraction).
+        Where the shell is solved exactly (``shell``), points solved outside are not
+        inside and points left ``marginal`` count as inside the outer facets; a tilting
+        value is corrected by the sampled fraction that the exact solves moved.
     p_inside_mc, p_inside_mc_err
         The sample fraction inside and its Monte-Carlo error (independent draws).
     batch
@@ -119,6 +123,9 @@ class CheckResult:
         The most violated points, most violated first.
     plot_samples, plot_weights, plot_region_coords
         A uniform subsample (fit coordinates, weights, region coordinates) for plots.
+    shell
+        The exact decisions of the shell between the inner and outer sets (regions with
+        an exact solver: positivity cones), or None.
     """
 
     fit: Fit
@@ -146,6 +153,7 @@ class CheckResult:
     plot_samples: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
     plot_weights: np.ndarray | None = None
     plot_region_coords: np.ndarray = field(default_factory=lambda: np.empty((0, 0)))
+    shell: ShellSummary | None = None
 
     @property
     def n_total(self) -> int:
@@ -214,6 +222,8 @@ class CheckResult:
             **self.tension.to_dict(), **self.bayes.to_dict(), "engine": dict(self.engine)}
         if self.theory_uncertainty is not None:
             out["theory_uncertainty"] = self.theory_uncertainty
+        if self.shell is not None:
+            out["shell"] = self.shell.to_dict()
         out["facets"] = [v.to_dict() for v in self.verdict.facets]
         return out
 
@@ -281,6 +291,11 @@ def summarize(fit: Fit, region: Region, cmap: CoordinateMap, settings: CheckSett
     accurate = gaussian_probability(fit, region, cmap, settings.seed)
     if accurate is not None:
         p, p_err, method = accurate
+        shell: ShellSummary | None = extra.get("shell")
+        if shell is not None and shell.p_correction != 0:
+            p = min(max(p + shell.p_correction, 0.0), 1.0)
+            p_err = float(np.hypot(p_err, shell.p_correction_err))
+            method += " (outer facets), corrected by the sampled exact shell solves"
     mean, cov = region_moments(fit, cmap, acc)
     ten = tension(mean, cov, region, np.random.default_rng(settings.seed + 4))
     pp, pe, why = prior_probability(fit, region, cmap, settings.seed)

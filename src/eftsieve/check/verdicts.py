@@ -53,6 +53,13 @@ class CheckSettings:
     blas_threads
         BLAS threads inside the check (1 by default: the streaming check multiplies
         n x 2 arrays, where threads only spin; None leaves the process's setting).
+    shell_solves
+        Exact solves allowed **per partition** (one file of a samples source, or the
+        whole of a Gaussian summary's draws) for regions that can decide their shell
+        (positivity cones, :mod:`eftsieve.check.shell`); shell points beyond it stay
+        ``marginal`` ("shell-solve budget reached").  One solve takes about 0.02 s (4
+        modes) to 0.5 s (6 modes) on one core, so the default 1000 bounds the cost at
+        minutes; 0 solves nothing.
     """
 
     draws: int = 200_000
@@ -63,6 +70,7 @@ class CheckSettings:
     flagged_format: str = "csv"
     flagged_margins: bool = False
     blas_threads: int | None = 1
+    shell_solves: int = 1000
 
     def __post_init__(self) -> None:
         import math
@@ -77,6 +85,9 @@ class CheckSettings:
             if int(getattr(self, name)) < 1:
                 raise InputError(None, name, f"must be at least 1, got {getattr(self, name)}",
                                  "give a positive number")
+        if int(self.shell_solves) < 0:
+            raise InputError(None, "--shell-solves", f"must be 0 or more, got "
+                             f"{self.shell_solves}", "give a number of solves, 0 for none")
         if int(self.seed) < 0:
             raise InputError(None, "seed", f"must be 0 or more, got {self.seed}", "")
         band = self.marginal_band
@@ -100,7 +111,7 @@ class CheckSettings:
         return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,
                 "chunk_rows": self.chunk_rows, "plot_points": self.plot_points,
                 "flagged_format": self.flagged_format,
-                "flagged_margins": self.flagged_margins}
+                "flagged_margins": self.flagged_margins, "shell_solves": self.shell_solves}
 
 
 @dataclass(frozen=True)
@@ -141,38 +152,54 @@ class Verdicts:
 FEW_FACETS = 8
 #: cells (facets x rows) of one tile of the many-facet path (fits in the L2 cache)
 TILE_CELLS = 1 << 16
+#: facets with at most this many nonzero coefficients on average take the per-facet
+#: path whatever their number (sparse facets, e.g. of a product of independent cones)
+SPARSE_TERMS = 3
 
 
-def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Smallest margin ``min_j (a_j . y - b_j)`` and its (first) facet, per row.
+def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True,
+                cols: list[np.ndarray] | None = None,
+                ) -> tuple[np.ndarray, np.ndarray | None]:
+    """Smallest margin ``min_j (a_j . y - b_j)`` and its (first) facet (None unless
+    ``with_arg``: the inner set needs only the margin), per row.
 
     Every margin is ``((y_0 a_j0 + y_1 a_j1) + ...) - b_j`` in element-wise double
     arithmetic, whichever path runs, so the values (and ties, resolved to the lowest
-    facet) have the same bits for any batch of rows.  Few facets: one facet at a time;
-    many: tiles of (facets x rows) reduced along the facet axis.
+    facet) have the same bits for any batch of rows.  Few (or sparse) facets: one facet
+    at a time, skipping zero coefficients (for finite points adding ``0 * y`` changes no
+    value); many: tiles of (facets x rows) reduced along the facet axis.
     """
-    if len(b) > FEW_FACETS:
-        return _min_margin_tiled(y, a, b)
+    if len(b) > FEW_FACETS and np.count_nonzero(a) > SPARSE_TERMS * len(b):
+        return _min_margin_tiled(y, a, b, with_arg)
     n = len(y)
     best = np.full(n, np.inf)
-    arg = np.zeros(n, dtype=np.int32)
-    cols = [np.ascontiguousarray(y[:, k]) for k in range(y.shape[1])]
+    arg = np.zeros(n, dtype=np.int32) if with_arg else None
+    if cols is None:
+        cols = _columns(y)
+    m, term = np.empty(n), np.empty(n)
     for j in range(len(b)):
-        m = cols[0] * a[j, 0]
-        for k in range(1, len(cols)):
-            m += cols[k] * a[j, k]
+        nz = np.flatnonzero(a[j]) if np.any(a[j]) else np.zeros(1, dtype=int)
+        np.multiply(cols[nz[0]], a[j, nz[0]], out=m)
+        for k in nz[1:]:
+            np.multiply(cols[k], a[j, k], out=term)
+            m += term
         m -= b[j]
-        better = m < best
+        if arg is not None:
+            arg[m < best] = j
         np.minimum(best, m, out=best)
-        arg[better] = j
     return best, arg
 
 
-def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray
-                      ) -> tuple[np.ndarray, np.ndarray]:
+def _columns(y: np.ndarray) -> list[np.ndarray]:
+    """The columns of ``y`` as contiguous arrays (formed once per block)."""
+    return [np.ascontiguousarray(y[:, k]) for k in range(y.shape[1])]
+
+
+def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True
+                      ) -> tuple[np.ndarray, np.ndarray | None]:
     n = len(y)
     best = np.empty(n)
-    arg = np.empty(n, dtype=np.intp)
+    arg = np.empty(n, dtype=np.intp) if with_arg else None
     yt = np.ascontiguousarray(y.T)
     step = max(256, TILE_CELLS // len(b))
     ac = [np.ascontiguousarray(a[:, k:k + 1]) for k in range(a.shape[1])]
@@ -183,9 +210,10 @@ def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray
         for k in range(1, len(ac)):
             tile += ac[k] * yt[k, lo:hi]
         tile -= bc
-        tile.argmin(axis=0, out=arg[lo:hi])
+        if arg is not None:
+            tile.argmin(axis=0, out=arg[lo:hi])
         tile.min(axis=0, out=best[lo:hi])
-    return best, arg.astype(np.int32)
+    return best, None if arg is None else arg.astype(np.int32)
 
 
 def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verdicts:
@@ -194,12 +222,15 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
     if y.ndim != 2 or y.shape[1] != region.dim:
         raise ValueError(f"points must have shape (n, {region.dim}), got {y.shape}")
     a, b = region.arrays()
-    outer, worst = _min_margin(y, a, b)
+    cols = _columns(y)
+    outer, worst = _min_margin(y, a, b, cols=cols)
+    if worst is None:  # with_arg=True always returns the facets (for the type checker)
+        raise RuntimeError("facet indices missing")
     verdict = np.full(len(y), MARGINAL, dtype=np.int8)
     verdict[outer < -band] = OUTSIDE
     if region.inner_facets:
         ai, bi = region.arrays(inner=True)
-        inner, _ = _min_margin(y, ai, bi)
+        inner, _ = _min_margin(y, ai, bi, with_arg=False, cols=cols)
     else:
         inner = outer
     verdict[inner > band] = INSIDE

@@ -17,6 +17,7 @@ from eftsieve.cli.args import (
     input_files,
     load_fit_arg,
     nonnegative_float,
+    nonnegative_int,
     positive_int,
     region_for,
     uncertainty_from_args,
@@ -49,6 +50,10 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
                    help=f"exit with code {EXIT_BELOW_THRESHOLD} when p_inside < P")
     p.add_argument("--chunk-rows", type=positive_int, default=1_000_000,
                    help="rows per chunk (default 1000000)")
+    p.add_argument("--shell-solves", type=nonnegative_int, default=1000, metavar="N",
+                   help="exact solves per partition (file, or the Gaussian draws) for the "
+                        "points between a cone's inner and outer facets; beyond N they stay "
+                        "marginal (default 1000; 0: none)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG plots")
     p.add_argument("--flagged-format", choices=["csv", "parquet"], default="csv",
                    help="file of the rows not inside: flagged.csv or flagged.parquet "
@@ -73,7 +78,8 @@ def _settings(args: argparse.Namespace) -> Any:
 
     return CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
                          chunk_rows=args.chunk_rows, flagged_format=args.flagged_format,
-                         flagged_margins=args.flagged_margins)
+                         flagged_margins=args.flagged_margins,
+                         shell_solves=args.shell_solves)
 
 
 def cmd_check(args: argparse.Namespace) -> int:
@@ -168,8 +174,26 @@ def summary_lines(result: CheckResult, rpath: str | None) -> list[str]:
         lines.append(f"  with theory uncertainty ({tu['model']['settings']['model']}): p_inside = "
                      f"{fmt_pm(tu['p_inside'], tu['p_inside_err'])}, uncertain "
                      f"{tu['n_uncertain']}, tension {fmt_sigma(tu['tension_sigma'])}")
+    if result.shell is not None:
+        lines.append("  " + shell_line(result))
     worst = v.facets[0] if v.facets else None
     if worst is not None and worst.p_violate > 0:
         lines.append(f"  most violated: {worst.label}, {fmt_pct(worst.p_violate)} "
                      f"of the probability ({worst.inequality})")
     return lines
+
+
+def shell_line(result: CheckResult) -> str:
+    """The terminal's line on the exact solves of a cone's shell."""
+    sh = result.shell
+    if sh is None:
+        return ""
+    text = (f"shell (between inner and outer cones): {sh.n_shell} points "
+            f"({fmt_pct(sh.shell_fraction)}); solved inside {sh.n_inside}, outside "
+            f"{sh.n_outside}, left marginal {sh.n_marginal}")
+    if sh.reasons:
+        text += " (" + "; ".join(f"{r}: {n}" for r, n in sh.reasons[:2]) + ")"
+    if sh.n_marginal:
+        text += (f"; p_inside counts them as inside, so it may be lower by up to "
+                 f"{fmt_prob(sh.marginal_fraction)}")
+    return text

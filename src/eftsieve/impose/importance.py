@@ -269,17 +269,18 @@ MAX_DRAWS = 1_000_000
 
 def refit_by_importance(fit: Any, region: Any, cmap: Any,
                         loglike: Callable[[np.ndarray], np.ndarray], settings: Any,
-                        label: str, before: Any = None,
+                        label: str, box: list[tuple[float, float]], x0: np.ndarray,
+                        before: Any = None,
                         soft: Callable[[np.ndarray], np.ndarray] | None = None
                         ) -> tuple[Any, str]:
     """The refit as an :class:`~eftsieve.impose.core.ImposeResult` of weighted i.i.d.
     draws, or (None, why) when the importance sample is refused (module doc).
 
     The budget is the MCMC's: ``settings.n_samples x settings.walkers`` posterior
-    evaluations (at most :data:`MAX_DRAWS`).
+    evaluations (at most :data:`MAX_DRAWS`).  ``box`` is the prior's support and ``x0``
+    a point inside region x box (:func:`eftsieve.impose.refit.start_point`).
     """
     from eftsieve.impose.core import ImposeResult, with_moments
-    from eftsieve.impose.refit import prior_box, start_point
 
     if not cmap.is_affine:
         return None, "the coordinate map is not affine"
@@ -287,7 +288,6 @@ def refit_by_importance(fit: Any, region: Any, cmap: Any,
     kinds = [fit.prior.kinds[n] for n in names]
     pars = np.array([fit.prior.params[n] for n in names], dtype=float)
     uniform = np.array([k == "uniform" for k in kinds])
-    box = prior_box(fit)
     lo, hi = np.array(box).T
     k = len(names)
     rows = [np.eye(k)[uniform], -np.eye(k)[uniform]]
@@ -310,9 +310,6 @@ def refit_by_importance(fit: Any, region: Any, cmap: Any,
             res[ok] = out[ok] + loglike(x[ok])
         return res
 
-    from eftsieve.impose.refit import log_prior_fn
-
-    x0, _ = start_point(fit, region, cmap, log_prior_fn(fit))
     n = int(min(MAX_DRAWS, settings.n_samples * settings.walkers))
     rng = np.random.default_rng(settings.seed)
     sample, why = importance_refit(smooth, a, b, box, uniform, x0, n, rng)

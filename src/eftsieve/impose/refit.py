@@ -179,8 +179,10 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
     if settings.sampler != "mcmc":
         from eftsieve.impose.importance import refit_by_importance
 
+        x_start, _ = start_point(fit, region, cmap, log_prior_fn(fit))
         res, why = refit_by_importance(fit, region, cmap, loglike, settings,
-                                       likelihood_label, before, soft)
+                                       likelihood_label, prior_box(fit), x_start, before,
+                                       soft)
         if res is not None:
             if soft is not None:
                 res.figures["truncation"] = "soft"

@@ -54,6 +54,12 @@ def region_block(region: Region) -> list:
                            f"truncation model `{region.settings.get('truncation')}`, heavy "
                            f"scale {region.settings.get('heavy_scale_mev')} MeV; "
                            "docs/physics.md). Points between them are `uncertain`."))
+    elif region.inner_facets and "cone_problem" in region.settings:
+        blocks.append(Para(f"The region is a positivity cone: the outer facets above are "
+                           f"verified dual certificates, and the inner cone "
+                           f"({len(region.inner_facets)} facets) is the hull of rays proven "
+                           "inside by explicit solutions. Points between them (the shell) "
+                           "are decided by one exact solve each (section Shell)."))
     elif region.inner_facets:
         blocks.append(Para(f"The region also has an inner set of {len(region.inner_facets)} "
                            "facets, reached by explicit positive heavy-state spectra: points "
@@ -178,6 +184,34 @@ def stats_block(result: CheckResult) -> list:
                  f"{cone}.")]
 
 
+def shell_block(result: CheckResult) -> list:
+    """The exact solves of the shell between a cone's inner and outer facets (cone
+    regions only)."""
+    sh = result.shell
+    if sh is None:
+        return []
+    rows = (("points in the shell", f"{sh.n_shell} ({fmt_pct(sh.shell_fraction)} of the "
+                                    "points, weighted)"),
+            ("solved inside", str(sh.n_inside)), ("solved outside", str(sh.n_outside)),
+            ("left marginal", str(sh.n_marginal)),
+            ("exact solves (budget per partition)", f"{sh.n_solves} ({sh.budget})"),
+            ("change of p_inside by the solves", fmt_pm(sh.p_correction,
+                                                        sh.p_correction_err)),
+            ("left marginal (weighted fraction; p_inside may be lower by up to this)",
+             fmt_prob(sh.marginal_fraction)))
+    blocks = [Heading("Shell"),
+              Para("Points between the inner cone and the outer facets are decided by one "
+                   "exact membership solve each: `inside` only with a verified solution, "
+                   "`outside` only with a verified separating certificate; a failed or "
+                   "inaccurate solve, or a point beyond the solve budget, stays `marginal` "
+                   "and counts as inside the outer facets in p_inside."),
+              Table(("quantity", "value"), rows)]
+    if sh.reasons:
+        blocks.append(Table(("why left marginal", "points"),
+                            tuple((r, str(n)) for r, n in sh.reasons)))
+    return blocks
+
+
 def uncertainty_block(result: CheckResult) -> list:
     tu, region = result.theory_uncertainty, result.region
     if not tu:
@@ -275,7 +309,7 @@ def check_document(result: CheckResult, images: dict[str, Path]) -> Document:
     doc = Document(f"Positivity check: {fit.name}")
     doc.add(*header_block(result), *facet_table_block(result), *fit_block(fit),
             *region_block(region), *mapping_block(result), *stats_block(result),
-            *uncertainty_block(result), *worst_block(result))
+            *shell_block(result), *uncertainty_block(result), *worst_block(result))
     for name, alt in (("region", "region with posterior contours"),
                       ("corner", "corner plot with region boundary")):
         if name in images:
