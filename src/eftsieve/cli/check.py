@@ -115,6 +115,7 @@ def cmd_check_many(args: argparse.Namespace) -> int:
 def cmd_check_one(args: argparse.Namespace) -> int:
     from eftsieve.check.run import run_check
     from eftsieve.io.outset import output_set
+    from eftsieve.report.check_report import corner_cap_text
     from eftsieve.report.outputs import CHECK_OUTPUTS, write_check_outputs
 
     fit = load_fit_arg(args)
@@ -128,7 +129,7 @@ def cmd_check_one(args: argparse.Namespace) -> int:
         flag_dir = stage if (not fit.is_gaussian or args.flagged) else None
         result = run_check(fit, region, settings, flag_dir, rpath, unc,
                            engine=args.engine or "local", scheduler=args.scheduler)
-        write_check_outputs(fit, result, stage, plots=not args.no_plots)
+        written = write_check_outputs(fit, result, stage, plots=not args.no_plots)
     if args.json:
         import json
 
@@ -136,6 +137,8 @@ def cmd_check_one(args: argparse.Namespace) -> int:
     elif not args.quiet:
         print("\n".join(summary_lines(result, rpath)))
         print(f"  report: {outdir / 'report.html'}")
+        if "corner" in written and corner_cap_text(len(fit.names)):
+            print(f"  {corner_cap_text(len(fit.names))}")
     if args.fail_below is not None and result.p_inside < args.fail_below:
         if not args.quiet and not args.json:
             print(f"  p_inside {fmt_prob(result.p_inside)} < --fail-below {args.fail_below:g}")
