@@ -15,6 +15,7 @@ from eftsieve.cli.args import (
     add_fit_args,
     finite_float,
     input_files,
+    is_card,
     load_fit_arg,
     nonnegative_float,
     positive_int,
@@ -85,11 +86,18 @@ def cmd_check_many(args: argparse.Namespace) -> int:
     from eftsieve.check.many import check_many
     from eftsieve.report.outputs import write_check_outputs
 
-    if uncertainty_from_args(args) is not None:
-        from eftsieve.errors import InputError
+    from eftsieve.errors import InputError
 
+    if uncertainty_from_args(args) is not None:
         raise InputError(None, "--theory-uncertainty", "several cards run without a "
                          "theory-uncertainty model", "check the cards one at a time")
+    masses = args.pion_mass or []
+    if args.family or len(masses) > 1 or (masses and any(is_card(f) for f in args.fit)):
+        flag = "--family" if args.family else "--pion-mass"
+        raise InputError(None, flag, "several fits are checked against one region file, or "
+                         "each against its own default region", "build the region once with "
+                         f"`eftsieve region {flag} ...` and pass it with --region (one "
+                         "--pion-mass value stays the mass of bare samples files)")
     from eftsieve.io.outset import output_set
 
     outdir = Path(args.output or "checks")
