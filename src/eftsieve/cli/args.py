@@ -181,7 +181,7 @@ def add_samples_args(p: argparse.ArgumentParser) -> None:
                    default=None, metavar="MEV",
                    help="one value: the pion mass of a bare samples file's convention, if it "
                         "needs one; with a card, or several values: the masses the region is "
-                        "built at, as `eftsieve region --pion-mass` (see docs/cli.md)")
+                        "built at, as `eftsieve region --pion-mass` does")
     g.add_argument("--scale", type=positive_float, default=None, metavar="MEV",
                    help="scale mu of a bare samples file's convention, if it needs one")
     g.add_argument("--gap", type=positive_float, default=None, metavar="MEV",
