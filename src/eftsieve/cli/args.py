@@ -375,7 +375,6 @@ def several_masses_error(source: Any, convention: str) -> Exception:
 def _mass_independent_convention(fit: Fit) -> dict[str, Any]:
     """Region settings putting its coordinates in the fit's convention, which must be one
     convention that needs no pion mass (a region at several masses needs such)."""
-    from eftsieve.errors import InputError
     from eftsieve.theories import get_theory
 
     th = get_theory(fit.theory)

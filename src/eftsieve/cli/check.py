@@ -84,9 +84,8 @@ def cmd_check(args: argparse.Namespace) -> int:
 def cmd_check_many(args: argparse.Namespace) -> int:
     from eftsieve.api import load_region
     from eftsieve.check.many import check_many
-    from eftsieve.report.outputs import write_check_outputs
-
     from eftsieve.errors import InputError
+    from eftsieve.report.outputs import write_check_outputs
 
     if uncertainty_from_args(args) is not None:
         raise InputError(None, "--theory-uncertainty", "several cards run without a "
