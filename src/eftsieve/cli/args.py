@@ -94,8 +94,10 @@ class ExtendCsv(argparse.Action):
 
     def __call__(self, parser: argparse.ArgumentParser, namespace: argparse.Namespace,
                  values: Any, option_string: str | None = None) -> None:
-        items = list(getattr(namespace, self.dest, None) or [])
-        setattr(namespace, self.dest, items + csv_list(str(values)))
+        given = csv_list(str(values))
+        if not given:
+            raise argparse.ArgumentError(self, f"expected a name, got {values!r}")
+        setattr(namespace, self.dest, list(getattr(namespace, self.dest, None) or []) + given)
 
 
 #: help of the options shared by region, check and impose (one wording for all verbs)

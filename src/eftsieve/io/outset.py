@@ -290,6 +290,9 @@ def _check_file_target(target: Path, option: str) -> None:
     if target.is_dir():
         raise InputError(target, option, "is a folder, not a file name",
                          "give a file name, e.g. region.json")
+    if target.exists() and not target.is_file():  # a device, a pipe: never replaced
+        raise InputError(target, option, "is not a regular file; the run would replace it",
+                         "give the name of a new or regular file")
 
 
 @contextmanager
