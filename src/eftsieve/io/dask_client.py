@@ -84,14 +84,27 @@ def _sigint_ignored() -> Iterator[None]:
         signal.signal(signal.SIGINT, previous)
 
 
+#: level of distributed's loggers after an interruption: above every record
+SILENT = logging.CRITICAL + 1
+
+
 @contextmanager
 def _distributed_level(level: int) -> Iterator[None]:
-    """distributed's loggers in this process print records of ``level`` and above."""
+    """distributed's loggers in this process print records of ``level`` and above.
+
+    After an interruption (the block raised KeyboardInterrupt or SIGTERM's exception)
+    they stay silent: the cluster's event loop may still be cancelling a worker restart
+    when the block has ended, and the process is about to exit.
+    """
     logger = logging.getLogger("distributed")
     old = logger.level
     logger.setLevel(level)
     try:
         yield
+    except BaseException as err:
+        if not isinstance(err, Exception):
+            old = SILENT
+        raise
     finally:
         logger.setLevel(old)
 
@@ -137,7 +150,8 @@ def _close_interrupted(cluster: Any) -> None:
     import os
 
     pids = [getattr(n, "pid", None) for n in list(getattr(cluster, "workers", {}).values())]
-    with _sigint_ignored(), _distributed_level(logging.CRITICAL + 1):
+    logging.getLogger("distributed").setLevel(SILENT)
+    with _sigint_ignored():
         for pid in pids:
             if isinstance(pid, int) and pid > 0:
                 try:
