@@ -54,7 +54,9 @@ def local_cluster(n_workers: int = LOCAL_WORKERS, local_directory: str | None = 
     so every large temporary array is mapped and zero-filled afresh, which made a check
     about twice as slow (see docs/scaleout.md).  The worker processes start with SIGINT
     ignored (:func:`_sigint_ignored`): a Ctrl-C interrupts the client, which closes them.
-    Below ``--debug`` logging, the workers print errors only.
+    Below ``--debug`` logging the workers print only critical records: a failed task
+    reaches the client as :class:`~eftsieve.errors.TaskFailedError` with its exception,
+    and a worker's heartbeat error while a finished cluster shuts down is noise.
     """
     import dask
     from distributed import LocalCluster
@@ -66,7 +68,7 @@ def local_cluster(n_workers: int = LOCAL_WORKERS, local_directory: str | None = 
         return LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
                             dashboard_address="127.0.0.1:0", host="127.0.0.1",
                             local_directory=local_directory,
-                            silence_logs=logging.ERROR if quiet else logging.WARN)
+                            silence_logs=logging.CRITICAL if quiet else logging.WARN)
 
 
 @contextmanager
