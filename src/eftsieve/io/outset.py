@@ -249,27 +249,30 @@ def output_set(target: str | Path, inputs: Iterable[str | Path | None] = (), *,
         raise OutputError(target, f"cannot create the parent folder: {err.strerror}",
                           "choose a writable output folder") from err
     previous = (target / MANIFEST_NAME).is_file()
-    with _lock(target):
-        _clear_stale(target)
-        stage = Path(tempfile.mkdtemp(prefix=f".{target.name}.staging.", dir=target.parent))
-        try:
-            os.chmod(stage, 0o777 & ~_umask())
-            yield stage
-            write_manifest(stage)
-            _swap_in(stage, target)
-        except OSError as err:
-            if err.errno in _FULL:
-                raise OutputError(target, "no space left on the device while writing the "
-                                  "output set; the previous set (if any) is unchanged",
-                                  "free some space or choose another folder") from err
-            raise
-        except BaseException as err:  # Ctrl-C, SIGTERM: say what the folder now holds
-            if not isinstance(err, Exception):
-                note_output_state(err, target, previous)
-            raise
-        finally:
-            if stage.exists():
-                shutil.rmtree(stage, ignore_errors=True)
+    try:
+        with _lock(target):
+            _clear_stale(target)
+            stage = Path(tempfile.mkdtemp(prefix=f".{target.name}.staging.",
+                                          dir=target.parent))
+            try:
+                os.chmod(stage, 0o777 & ~_umask())
+                yield stage
+                write_manifest(stage)
+                _swap_in(stage, target)
+            except OSError as err:
+                if err.errno in _FULL:
+                    raise OutputError(target, "no space left on the device while writing "
+                                      "the output set; the previous set (if any) is "
+                                      "unchanged", "free some space or choose another "
+                                      "folder") from err
+                raise
+            finally:
+                if stage.exists():
+                    shutil.rmtree(stage, ignore_errors=True)
+    except BaseException as err:  # Ctrl-C, SIGTERM: say what the folder now holds
+        if not isinstance(err, Exception):
+            note_output_state(err, target, previous)
+        raise
 
 
 #: the attribute :func:`note_output_state` sets on an interruption (read by the CLI)
@@ -323,7 +326,6 @@ def output_files(targets: dict[str, str | Path], inputs: Iterable[str | Path | N
     OutputError
         Another run holds a target, or the disk is full.
     """
-    from contextlib import ExitStack
 
     paths = {opt: _resolved(t) for opt, t in targets.items()}
     if len(set(paths.values())) < len(paths):
@@ -333,6 +335,20 @@ def output_files(targets: dict[str, str | Path], inputs: Iterable[str | Path | N
         _check_file_target(t, opt)
         refuse_inputs(t, inputs, kind="file", option=opt)
     previous = all(t.is_file() for t in paths.values())
+    try:
+        with _files_written(paths) as stages:
+            yield stages
+    except BaseException as err:  # Ctrl-C, SIGTERM: say what the files now hold
+        if not isinstance(err, Exception):
+            note_output_state(err, next(iter(paths.values())), previous, kind="file")
+        raise
+
+
+@contextmanager
+def _files_written(paths: dict[str, Path]) -> Iterator[dict[str, Path]]:
+    """The lock, staging files and final renames of :func:`output_files`."""
+    from contextlib import ExitStack
+
     stages: dict[str, Path] = {}
     with ExitStack() as stack:
         for t in sorted(set(paths.values())):
@@ -363,10 +379,6 @@ def output_files(targets: dict[str, str | Path], inputs: Iterable[str | Path | N
                 raise OutputError(next(iter(paths.values())), "no space left on the device "
                                   "while writing; the previous file (if any) is unchanged",
                                   "free some space or choose another place") from err
-            raise
-        except BaseException as err:  # Ctrl-C, SIGTERM: say what the files now hold
-            if not isinstance(err, Exception):
-                note_output_state(err, next(iter(paths.values())), previous, kind="file")
             raise
         finally:
             for st in stages.values():
