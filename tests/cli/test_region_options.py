@@ -84,6 +84,11 @@ def test_several_masses_for_check_and_impose(tmp_path, capsys):
     summary = json.loads((tmp_path / "c" / "summary.json").read_text())
     assert summary["kinematics"]["pion_masses_mev"] == [139.57, 279.14]
     assert summary["n_outside"] == 0
+    # the terminal names the mass of the most violated facet (the region file's)
+    facets = json.loads((tmp_path / "c" / "region.json").read_text())["facets"]
+    line = next(ln for ln in capsys.readouterr().out.splitlines() if "most violated" in ln)
+    masses_named = {f"pion_mass = {f['pion_mass_mev']:g} MeV" for f in facets}
+    assert any(m in line for m in masses_named), line
     assert main(["impose", str(card), "-o", str(tmp_path / "i"), *masses, "--samples",
                  "400", "--no-progress", "--no-plots"]) == 0
     assert _hash(tmp_path / "i" / "region.json") == _hash(tmp_path / "r.json")

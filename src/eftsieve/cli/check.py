@@ -22,7 +22,7 @@ from eftsieve.cli.args import (
     region_for,
     uncertainty_from_args,
 )
-from eftsieve.numbers import fmt_kinematics, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
+from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.tolerances import MARGINAL_BAND
 
 if TYPE_CHECKING:
@@ -176,6 +176,19 @@ def summary_lines(result: CheckResult, rpath: str | None) -> list[str]:
                      f"{tu['n_uncertain']}, tension {fmt_sigma(tu['tension_sigma'])}")
     worst = v.facets[0] if v.facets else None
     if worst is not None and worst.p_violate > 0:
-        lines.append(f"  most violated: {worst.label}, {fmt_pct(worst.p_violate)} "
-                     f"of the probability ({worst.inequality})")
+        at = facet_mass_text(result.region, worst.index)
+        lines.append(f"  most violated: {worst.label}{f' ({at})' if at else ''}, "
+                     f"{fmt_pct(worst.p_violate)} of the probability ({worst.inequality})")
     return lines
+
+
+def facet_mass_text(region: Any, index: int) -> str:
+    """The mass(es) a facet holds at, when the region was built at several masses (a
+    region at several pion masses: which mass gives the facet), else ''."""
+    parts = []
+    for key, value in region.facets[index].point.items():
+        plural = key.replace("_mass_", "_masses_")
+        many = region.settings.get(plural)
+        if plural != key and isinstance(many, (list, tuple)) and len(many) > 1:
+            parts.append(f"{key.removesuffix('_mev')} = {fmt_num(value, 6)} MeV")
+    return ", ".join(parts)
