@@ -21,7 +21,7 @@ def test_sigterm_is_one_line_and_143(monkeypatch, capsys):
     monkeypatch.setattr(theories_mod, "cmd_theories", slow)
     before = signal.getsignal(signal.SIGTERM)
     assert main(["theories"]) == 143
-    assert capsys.readouterr().err == "eftsieve theories: terminated\n"
+    assert capsys.readouterr().err == "eftsieve theories: terminated (SIGTERM), exit 143\n"
     assert signal.getsignal(signal.SIGTERM) is before   # handler restored
 
 
@@ -31,7 +31,7 @@ def test_keyboard_interrupt_is_one_line_and_130(monkeypatch, capsys):
 
     monkeypatch.setattr(theories_mod, "cmd_theories", interrupted)
     assert main(["theories"]) == 130
-    assert capsys.readouterr().err == "eftsieve theories: interrupted\n"
+    assert capsys.readouterr().err == "eftsieve theories: interrupted (Ctrl-C), exit 130\n"
 
 
 def test_terminating_a_real_run_leaves_no_partial_file(tmp_path):
@@ -47,6 +47,7 @@ def test_terminating_a_real_run_leaves_no_partial_file(tmp_path):
     proc.send_signal(signal.SIGTERM)
     stdout, stderr = proc.communicate(timeout=120)
     assert proc.returncode == 143, stderr
-    assert stderr.strip().splitlines() == ["eftsieve demo: terminated"]
+    assert stderr.strip().splitlines() == ["eftsieve demo: terminated (SIGTERM), exit 143; "
+                                           f"nothing was written to {out}"]
     assert not out.exists()  # atomic output sets: nothing from the interrupted run
     assert not list(tmp_path.glob(".demo.*"))  # no staging folder or lock left

@@ -142,6 +142,21 @@ def _names(case: dict[str, Any]) -> str:
     return opts[0] if opts else "card.yaml"
 
 
+def _unreadable(monkeypatch: Any, target: Path) -> None:
+    """Opening ``target`` for reading fails with EACCES (what chmod 0 does to a user who
+    is not root; the tests may run as root, who reads every file)."""
+    import builtins
+    import errno
+
+    real_open = builtins.open
+
+    def guarded(file: Any, *args: Any, **kw: Any) -> Any:
+        if isinstance(file, (str, Path)) and Path(file).resolve() == target.resolve():
+            raise PermissionError(errno.EACCES, "Permission denied", str(file))
+        return real_open(file, *args, **kw)
+    monkeypatch.setattr("eftsieve.io.textfile.open", guarded, raising=False)
+
+
 @pytest.mark.parametrize("case", CASES, ids=[c["id"] for c in CASES])
 def test_fault_case(case, tmp_path, region_dict, previous_sets, capsys, monkeypatch):
     from eftsieve.cli.main import main
@@ -163,6 +178,8 @@ def test_fault_case(case, tmp_path, region_dict, previous_sets, capsys, monkeypa
         def full(path: Any, data: bytes) -> Path:
             raise OSError(errno.ENOSPC, "No space left on device", str(path))
         monkeypatch.setattr("eftsieve.io.atomic.atomic_write_bytes", full)
+    if isinstance(case.get("inject"), dict) and "eacces" in case["inject"]:
+        _unreadable(monkeypatch, d / case["inject"]["eacces"])
     out = Path(str(case.get("out", "{d}/out")).replace("{d}", str(d)))
     prev = case.get("previous", "impose" if case.get("verb") == "impose" else "check")
     if prev != "none" and not out.exists():

@@ -78,8 +78,8 @@ def _wait_for_lock(out: Path, proc: subprocess.Popen, timeout: float = 60) -> No
         time.sleep(0.05)
 
 
-@pytest.mark.parametrize("sig,code,word", [(signal.SIGINT, 130, "interrupted"),
-                                           (signal.SIGTERM, 143, "terminated")])
+@pytest.mark.parametrize("sig,code,word", [(signal.SIGINT, 130, "interrupted (Ctrl-C)"),
+                                           (signal.SIGTERM, 143, "terminated (SIGTERM)")])
 @pytest.mark.parametrize("delay", [pytest.param(0.0, marks=pytest.mark.slow), 1.5,
                                    pytest.param(3.0, marks=pytest.mark.slow)])
 def test_signal_leaves_previous_set(setup, tmp_path, sig, code, word, delay):
@@ -100,7 +100,9 @@ def test_signal_leaves_previous_set(setup, tmp_path, sig, code, word, delay):
             proc.communicate()
     assert proc.returncode == code, err
     assert "Traceback" not in err
-    assert err.strip().splitlines() == [f"eftsieve check: {word}"], err
+    assert err.strip().splitlines() == [f"eftsieve check: {word}, exit {code}; the output "
+                                        f"folder {out} still holds the previous complete "
+                                        "run"], err
     assert _digest(out) == before
     assert _leftovers(out) == []
 
@@ -114,6 +116,8 @@ def test_signal_in_fresh_folder_leaves_nothing(setup, tmp_path):
     proc.send_signal(signal.SIGTERM)
     _, err = proc.communicate(timeout=60)
     assert proc.returncode == 143, err
+    assert err.strip().splitlines() == [f"eftsieve check: terminated (SIGTERM), exit 143; "
+                                        f"nothing was written to {out}"], err
     assert not out.exists()
     assert _leftovers(out) == []
 

@@ -89,16 +89,33 @@ def csv_list(text: str) -> list[str]:
     return [t.strip() for t in text.split(",") if t.strip()]
 
 
+class ExtendCsv(argparse.Action):
+    """``--family a,b --family c`` -> ``["a", "b", "c"]``: comma lists, repeatable."""
+
+    def __call__(self, parser: argparse.ArgumentParser, namespace: argparse.Namespace,
+                 values: Any, option_string: str | None = None) -> None:
+        given = csv_list(str(values))
+        if not given:
+            raise argparse.ArgumentError(self, f"expected a name, got {values!r}")
+        setattr(namespace, self.dest, list(getattr(namespace, self.dest, None) or []) + given)
+
+
+#: help of the options shared by region, check and impose (one wording for all verbs)
+FAMILY_HELP = ("bound families, comma-separated, or the flag repeated (default: the "
+               "theory's default families; see `eftsieve theories`)")
+PION_MASS_HELP = ("pion mass(es) in MeV, one flag followed by one or several values "
+                  "(default 139.57); several build one region that holds at every mass "
+                  "and need a convention that does not depend on the pion mass")
+
+
 def add_region_args(p: argparse.ArgumentParser) -> None:
     """The options that choose and tune a region build."""
     p.add_argument("--theory", default=DEFAULT_THEORY,
                    help=f"theory name (default {DEFAULT_THEORY}; see `eftsieve theories`)")
-    p.add_argument("--family", type=csv_list, default=None,
-                   help="comma-separated bound families (default: all of the theory)")
+    p.add_argument("--family", action=ExtendCsv, default=None, metavar="FAMILY[,FAMILY]",
+                   help=FAMILY_HELP)
     p.add_argument("--pion-mass", type=positive_float, nargs="+", action="extend", default=None,
-                   metavar="MEV",
-                   help="pion mass(es) in MeV (default 139.57); several need a "
-                        "mass-independent convention")
+                   metavar="MEV", help=PION_MASS_HELP)
     p.add_argument("--fpi", type=positive_float, default=None, metavar="MEV",
                    help="F_pi in MeV (default 92.07)")
     p.add_argument("--convention", default=None,
@@ -149,6 +166,10 @@ def add_fit_args(p: argparse.ArgumentParser, many: bool = False) -> None:
                         "(default: refuse)")
     p.add_argument("-o", "--output", default=None, metavar="DIR", help="output directory")
     p.add_argument("--seed", type=nonnegative_int, default=0, help="random seed (default 0)")
+    g = p.add_argument_group("region built from the fit (without --region; as `eftsieve "
+                             "region` does)")
+    g.add_argument("--family", action=ExtendCsv, default=None, metavar="FAMILY[,FAMILY]",
+                   help=FAMILY_HELP)
     add_samples_args(p)
     add_uncertainty_args(p)
 
@@ -158,8 +179,11 @@ def add_samples_args(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("bare samples file (no fit card)")
     g.add_argument("--theory", default=None, help="theory of a bare samples file")
     g.add_argument("--convention", default=None, help="convention of a bare samples file")
-    g.add_argument("--pion-mass", type=positive_float, default=None, metavar="MEV",
-                   help="pion mass of a bare samples file's convention, if it needs one")
+    g.add_argument("--pion-mass", type=positive_float, nargs="+", action="extend",
+                   default=None, metavar="MEV",
+                   help="one value: the pion mass of a bare samples file's convention, if it "
+                        "needs one; with a card, or several values: the masses the region is "
+                        "built at, as `eftsieve region --pion-mass` does")
     g.add_argument("--scale", type=positive_float, default=None, metavar="MEV",
                    help="scale mu of a bare samples file's convention, if it needs one")
     g.add_argument("--gap", type=positive_float, default=None, metavar="MEV",
@@ -205,7 +229,17 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
                          "a card extension)")
     if card_like and not (path.suffix.lower() == ".json" and is_gvar_json(path)):
         return load_fit(path)
-    given = {"pion_mass_mev": args.pion_mass, "mu_mev": args.scale,
+    masses = list(args.pion_mass or [])
+    if len(masses) > 1 and args.theory and args.convention:  # refuse before any notice
+        from eftsieve.theories import get_theory
+
+        try:
+            spec = get_theory(args.theory).convention_specs.get(args.convention)
+        except KeyError:
+            spec = None
+        if spec is not None and "pion_mass_mev" in dict(spec.needs):
+            raise several_masses_error(path, args.convention)
+    given = {"pion_mass_mev": masses[0] if len(masses) == 1 else None, "mu_mev": args.scale,
              "gap_mev": getattr(args, "gap", None)}
     try:
         return load_samples(path, args.theory, args.convention,
@@ -213,6 +247,12 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
                             burn_in=args.burn_in, thin=args.thin, walkers=args.keep_walkers,
                             **given)
     except InputError as err:  # name the flag that gives a missing kinematic input
+        if err.field == "pion_mass_mev" and len(masses) > 1:
+            raise InputError(None, "--pion-mass", f"the samples' convention needs one pion "
+                             f"mass ({err.problem}), but {len(masses)} were given",
+                             "give the file's own mass as one value; build a region at "
+                             "several masses with `eftsieve region` and pass --region"
+                             ) from err
         if err.field in KINEMATIC_FLAGS:
             flag = KINEMATIC_FLAGS[err.field]
             raise InputError(None, flag, err.problem, f"add {flag} MEV") from err
@@ -264,11 +304,134 @@ def uncertainty_from_args(args: argparse.Namespace) -> UncertaintySettings | Non
 
 
 def region_for(fit: Fit, args: argparse.Namespace, outdir: Path) -> tuple[Region, str]:
-    """The region from --region, or built from the fit and saved next to the outputs."""
+    """The region from --region, or built from the fit (with --family and --pion-mass,
+    see :func:`region_overrides`) and saved as ``outdir/region.json``."""
     from eftsieve.api import region_for as _region_for
 
-    return _region_for(fit, args.region, outdir,
-                       allow_mismatch=getattr(args, "allow_kinematics_mismatch", False))
+    allow = getattr(args, "allow_kinematics_mismatch", False)
+    overrides = region_overrides(fit, args)
+    if not overrides:
+        return _region_for(fit, args.region, outdir, allow_mismatch=allow)
+    return _built_region(fit, overrides, outdir, allow), str(Path(outdir) / "region.json")
+
+
+def is_card(path: str | Path) -> bool:
+    """A fit card (YAML/JSON, not a gvar JSON dump), as opposed to a bare samples file."""
+    from eftsieve.fit.formats.gvar_json import is_gvar_json
+
+    p = Path(path)
+    suffix = p.suffix.lower()
+    return suffix in {".yaml", ".yml", ".json"} and not (
+        suffix == ".json" and p.is_file() and is_gvar_json(p))
+
+
+def _region_masses(args: argparse.Namespace) -> tuple[float, ...]:
+    """The masses --pion-mass gives the region: every value, except the one value that is
+    a bare samples file's own pion mass (that one is already the fit's kinematics)."""
+    masses = tuple(getattr(args, "pion_mass", None) or ())
+    if len(masses) == 1 and not is_card(args.fit):
+        return ()
+    return masses
+
+
+def region_overrides(fit: Fit, args: argparse.Namespace) -> dict[str, Any]:
+    """The region settings that check and impose take from the command line.
+
+    ``--family`` chooses the bound families.  ``--pion-mass`` with a card, or with
+    several values, gives the masses the region is built at, as ``eftsieve region
+    --pion-mass`` does: several values build one region that holds at every mass, whose
+    coordinates are in the fit's own convention, which must then not depend on the pion
+    mass.  Both options refuse --region (the region is then already built).
+    """
+    from eftsieve.errors import InputError
+
+    out: dict[str, Any] = {}
+    if getattr(args, "family", None):
+        out["families"] = tuple(args.family)
+    masses = _region_masses(args)
+    if masses:
+        out["pion_masses_mev"] = masses
+    if out and args.region is not None:
+        flag = "--family" if "families" in out else "--pion-mass"
+        raise InputError(None, flag, "chooses how the region is built, but --region gives "
+                         "a region that is already built", f"drop --region to build the "
+                         f"region here, or drop {flag} (or rebuild the file with `eftsieve "
+                         f"region {flag} ...`)")
+    if len(masses) > 1:
+        out.update(_mass_independent_convention(fit))
+    return out
+
+
+def several_masses_error(source: Any, convention: str) -> Exception:
+    """The refusal of several --pion-mass values for a fit stated at one pion mass."""
+    from eftsieve.errors import InputError
+
+    return InputError(source, "--pion-mass", "several pion masses build one region that "
+                      "holds at every mass, in a convention that does not depend on the "
+                      f"pion mass; the fit is in {convention}, stated at one pion mass",
+                      "give one --pion-mass, or build the region with `eftsieve region "
+                      "--pion-mass M1 M2 --convention ...` (see `eftsieve theories`) and "
+                      "pass --region")
+
+
+def _mass_independent_convention(fit: Fit) -> dict[str, Any]:
+    """Region settings putting its coordinates in the fit's convention, which must be one
+    convention that needs no pion mass (a region at several masses needs such)."""
+    from eftsieve.theories import get_theory
+
+    th = get_theory(fit.theory)
+    convs = {p.convention.name: p.convention for p in fit.parameters
+             if p.convention.name != "none"}
+    spec = th.convention_specs.get(next(iter(convs))) if len(convs) == 1 else None
+    needs = [k for k, _ in spec.needs] if spec is not None else ["pion_mass_mev"]
+    if "convention" not in th.setting_names or "pion_mass_mev" in needs:
+        raise several_masses_error(fit.source, ", ".join(sorted(convs)) or "none")
+    conv = convs[next(iter(convs))]
+    out: dict[str, Any] = {"convention": conv.name}
+    out.update({k: conv.get(k) for k in needs if k in th.setting_names})
+    return out
+
+
+def _built_region(fit: Fit, overrides: dict[str, Any], outdir: Path, allow: bool
+                  ) -> Region:
+    """The fit's default region with ``overrides``, saved into ``outdir``; a card's stated
+    kinematics must agree with it (as with a --region file)."""
+    import warnings
+
+    from eftsieve.api import check_kinematics
+    from eftsieve.errors import InputError, InputNotice
+    from eftsieve.theories import get_theory
+
+    th = get_theory(fit.theory)
+    if "pion_masses_mev" not in overrides:
+        for text in th.region_default_notices(fit):
+            warnings.warn(InputNotice(text), stacklevel=2)
+    settings = {**th.region_settings_for_fit(fit), **overrides}
+    region = build_region_named(fit.theory, settings)
+    problems = th.kinematics_mismatch(fit, region)
+    if problems and not allow:
+        raise InputError(fit.source, "--pion-mass", "the region asked for disagrees with "
+                         f"the fit's stated kinematics: {'; '.join(problems)}",
+                         "include the fit's own pion mass among the --pion-mass values, or "
+                         "pass --allow-kinematics-mismatch")
+    check_kinematics(fit, region, "built with --pion-mass", allow)
+    region.save(Path(outdir) / "region.json")
+    return region
+
+
+def build_region_named(theory: str, settings: dict[str, Any], executor: Any = None) -> Region:
+    """:func:`eftsieve.api.build_region`, with an error about a region setting naming the
+    command-line flag that gave it (``--pion-mass`` for ``pion_masses_mev``)."""
+    from eftsieve.api import build_region
+    from eftsieve.errors import InputError
+
+    flags = {v: "--" + k.replace("_", "-") for k, v in REGION_SETTINGS.items()}
+    try:
+        return build_region(theory, executor=executor, **settings)
+    except InputError as err:
+        if err.path is None and err.field in flags:
+            raise InputError(None, flags[err.field], err.problem, err.hint) from err
+        raise
 
 
 def input_files(fit: Fit, args: argparse.Namespace, *extra: str | None) -> list[Any]:

@@ -15,6 +15,7 @@ from eftsieve.cli.args import (
     add_fit_args,
     finite_float,
     input_files,
+    is_card,
     load_fit_arg,
     nonnegative_float,
     nonnegative_int,
@@ -22,7 +23,7 @@ from eftsieve.cli.args import (
     region_for,
     uncertainty_from_args,
 )
-from eftsieve.numbers import fmt_kinematics, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
+from eftsieve.numbers import fmt_kinematics, fmt_num, fmt_pct, fmt_pm, fmt_prob, fmt_sigma
 from eftsieve.tolerances import MARGINAL_BAND
 
 if TYPE_CHECKING:
@@ -93,13 +94,19 @@ def cmd_check(args: argparse.Namespace) -> int:
 def cmd_check_many(args: argparse.Namespace) -> int:
     from eftsieve.api import load_region
     from eftsieve.check.many import check_many
+    from eftsieve.errors import InputError
     from eftsieve.report.outputs import write_check_outputs
 
     if uncertainty_from_args(args) is not None:
-        from eftsieve.errors import InputError
-
         raise InputError(None, "--theory-uncertainty", "several cards run without a "
                          "theory-uncertainty model", "check the cards one at a time")
+    masses = args.pion_mass or []
+    if args.family or len(masses) > 1 or (masses and any(is_card(f) for f in args.fit)):
+        flag = "--family" if args.family else "--pion-mass"
+        raise InputError(None, flag, "several fits are checked against one region file, or "
+                         "each against its own default region", "build the region once with "
+                         f"`eftsieve region {flag} ...` and pass it with --region (one "
+                         "--pion-mass value stays the mass of bare samples files)")
     from eftsieve.io.outset import output_set
 
     outdir = Path(args.output or "checks")
@@ -125,6 +132,7 @@ def cmd_check_many(args: argparse.Namespace) -> int:
 def cmd_check_one(args: argparse.Namespace) -> int:
     from eftsieve.check.run import run_check
     from eftsieve.io.outset import output_set
+    from eftsieve.report.check_report import corner_cap_text
     from eftsieve.report.outputs import CHECK_OUTPUTS, write_check_outputs
 
     fit = load_fit_arg(args)
@@ -138,7 +146,7 @@ def cmd_check_one(args: argparse.Namespace) -> int:
         flag_dir = stage if (not fit.is_gaussian or args.flagged) else None
         result = run_check(fit, region, settings, flag_dir, rpath, unc,
                            engine=args.engine or "local", scheduler=args.scheduler)
-        write_check_outputs(fit, result, stage, plots=not args.no_plots)
+        written = write_check_outputs(fit, result, stage, plots=not args.no_plots)
     if args.json:
         import json
 
@@ -146,6 +154,8 @@ def cmd_check_one(args: argparse.Namespace) -> int:
     elif not args.quiet:
         print("\n".join(summary_lines(result, rpath)))
         print(f"  report: {outdir / 'report.html'}")
+        if "corner" in written and corner_cap_text(len(fit.names)):
+            print(f"  {corner_cap_text(len(fit.names))}")
     if args.fail_below is not None and result.p_inside < args.fail_below:
         if not args.quiet and not args.json:
             print(f"  p_inside {fmt_prob(result.p_inside)} < --fail-below {args.fail_below:g}")
@@ -178,8 +188,9 @@ def summary_lines(result: CheckResult, rpath: str | None) -> list[str]:
         lines.append("  " + shell_line(result))
     worst = v.facets[0] if v.facets else None
     if worst is not None and worst.p_violate > 0:
-        lines.append(f"  most violated: {worst.label}, {fmt_pct(worst.p_violate)} "
-                     f"of the probability ({worst.inequality})")
+        at = facet_mass_text(result.region, worst.index)
+        lines.append(f"  most violated: {worst.label}{f' ({at})' if at else ''}, "
+                     f"{fmt_pct(worst.p_violate)} of the probability ({worst.inequality})")
     return lines
 
 
@@ -197,3 +208,15 @@ def shell_line(result: CheckResult) -> str:
         text += (f"; p_inside counts them as inside, so it may be lower by up to "
                  f"{fmt_prob(sh.marginal_fraction)}")
     return text
+
+
+def facet_mass_text(region: Any, index: int) -> str:
+    """The mass(es) a facet holds at, when the region was built at several masses (a
+    region at several pion masses: which mass gives the facet), else ''."""
+    parts = []
+    for key, value in region.facets[index].point.items():
+        plural = key.replace("_mass_", "_masses_")
+        many = region.settings.get(plural)
+        if plural != key and isinstance(many, (list, tuple)) and len(many) > 1:
+            parts.append(f"{key.removesuffix('_mev')} = {fmt_num(value, 6)} MeV")
+    return ", ".join(parts)

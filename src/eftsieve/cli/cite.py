@@ -45,8 +45,10 @@ def cmd_cite(args: argparse.Namespace) -> int:
     text = to_bibtex(refs)
     if args.output:
         from eftsieve.io.atomic import atomic_write_text
+        from eftsieve.io.outset import output_files
 
-        atomic_write_text(args.output, text)
+        with output_files({"-o": args.output}, [args.region]) as stage:
+            atomic_write_text(stage["-o"], text)
         print(f"wrote {len(refs)} references to {args.output}")
     else:
         print(text, end="")

@@ -117,6 +117,15 @@ def _environment_line(err: BaseException) -> str:
     return f"{where}: {reason} (fix: check the path and its permissions)"
 
 
+def _interrupted_line(verb: str, what: str, code: int, err: BaseException) -> str:
+    """One line after Ctrl-C or SIGTERM: the verb, the signal, the exit code and what the
+    output folder holds now (the previous complete run, or nothing of this run)."""
+    from eftsieve.io.outset import OUTPUT_STATE_ATTR
+
+    state = getattr(err, OUTPUT_STATE_ATTR, None)
+    return f"eftsieve {verb}: {what}, exit {code}" + (f"; {state}" if state else "")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``eftsieve`` command."""
     parser = build_parser()
@@ -146,11 +155,13 @@ def _run(args: argparse.Namespace) -> int:
             raise
         print(f"eftsieve {args.verb}: error: {err.one_line()}", file=sys.stderr)
         return err.exit_code
-    except KeyboardInterrupt:
-        print(f"eftsieve {args.verb}: interrupted", file=sys.stderr)
+    except KeyboardInterrupt as err:
+        print(_interrupted_line(args.verb, "interrupted (Ctrl-C)", EXIT_INTERRUPTED, err),
+              file=sys.stderr)
         return EXIT_INTERRUPTED
-    except Terminated:
-        print(f"eftsieve {args.verb}: terminated", file=sys.stderr)
+    except Terminated as err:
+        print(_interrupted_line(args.verb, "terminated (SIGTERM)", EXIT_TERMINATED, err),
+              file=sys.stderr)
         return EXIT_TERMINATED
     except BrokenPipeError:  # the reader of our output went away (e.g. `| head`)
         import os

@@ -6,7 +6,7 @@ import argparse
 import json
 from typing import Any
 
-from eftsieve.cli.args import add_region_args, region_settings_from_args
+from eftsieve.cli.args import add_region_args, build_region_named, region_settings_from_args
 
 HELP = "build the allowed region of a theory"
 
@@ -22,7 +22,7 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
 
 
 def cmd_region(args: argparse.Namespace) -> int:
-    from eftsieve.api import build_region, get_theory
+    from eftsieve.api import get_theory
     from eftsieve.errors import InputError
     from eftsieve.executors import dask_map, processes, serial
     from eftsieve.region.build import describe_region
@@ -46,12 +46,17 @@ def cmd_region(args: argparse.Namespace) -> int:
         executor = processes(max(1, len(cores) if cores else (os.cpu_count() or 1)))
     else:
         executor = serial
-    region = build_region(args.theory, executor=executor, **region_settings_from_args(args))
-    region.save(args.output)
-    if args.plot:
-        from eftsieve.report.plots import save_region_plot
+    from eftsieve.io.outset import output_files
 
-        save_region_plot(region, args.plot)
+    targets = {"-o": args.output, **({"--plot": args.plot} if args.plot else {})}
+    with output_files(targets) as stage:  # both files, or the previous ones
+        region = build_region_named(args.theory, region_settings_from_args(args),
+                                    executor=executor)
+        region.save(stage["-o"])
+        if args.plot:
+            from eftsieve.report.plots import save_region_plot
+
+            save_region_plot(region, stage["--plot"])
     if args.json:
         print(json.dumps(region.summary(), indent=2))
     else:

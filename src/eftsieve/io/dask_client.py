@@ -5,12 +5,23 @@ Dask is imported inside the functions; without the optional extra
 :class:`~eftsieve.errors.InputError` with the install hint.  Local clusters start
 without a dashboard port of their own choosing (port 0 on the loopback interface), so a
 busy port 8787 cannot stop them.
+
+Interruptions (Ctrl-C, SIGTERM) of a run on a local cluster end quietly: the worker
+processes are started with SIGINT ignored, so a Ctrl-C at the terminal (which signals the
+whole process group) reaches only the client, which then closes the cluster with a short
+timeout while distributed's shutdown chatter is silenced; the workers' scratch folder is
+a temporary folder of our own, removed on every exit path.
 """
 
 from __future__ import annotations
 
 import asyncio
 import concurrent.futures
+import logging
+import shutil
+import signal
+import tempfile
+import threading
 import uuid
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
@@ -20,6 +31,8 @@ from eftsieve.errors import InputError, TaskFailedError
 
 LOCAL_WORKERS = 2
 CONNECT_TIMEOUT = 60.0
+#: seconds a local cluster gets to close after an interruption before its workers are killed
+INTERRUPTED_CLOSE_TIMEOUT = 2.0
 
 
 def require_dask() -> None:
@@ -32,40 +45,139 @@ def require_dask() -> None:
                          "pip install 'eftsieve[dask]'") from err
 
 
-def local_cluster(n_workers: int = LOCAL_WORKERS) -> Any:
+def local_cluster(n_workers: int = LOCAL_WORKERS, local_directory: str | None = None) -> Any:
     """A ``LocalCluster`` of single-threaded worker processes on the loopback interface,
     without a dashboard.
 
     The workers keep distributed's single-threaded BLAS settings but not its
     ``MALLOC_TRIM_THRESHOLD_``: that setting switches off glibc's adaptive mmap threshold,
     so every large temporary array is mapped and zero-filled afresh, which made a check
-    about twice as slow (see docs/scaleout.md).
+    about twice as slow (see docs/scaleout.md).  The worker processes start with SIGINT
+    ignored (:func:`_sigint_ignored`): a Ctrl-C interrupts the client, which closes them.
+    Below ``--debug`` logging the workers print only critical records: a failed task
+    reaches the client as :class:`~eftsieve.errors.TaskFailedError` with its exception,
+    and a worker's heartbeat error while a finished cluster shuts down is noise.
     """
     import dask
     from distributed import LocalCluster
 
     env = dict(dask.config.get("distributed.nanny.pre-spawn-environ", default={}) or {})
     env.pop("MALLOC_TRIM_THRESHOLD_", None)
-    with dask.config.set({"distributed.nanny.pre-spawn-environ": env}):
+    quiet = not logging.getLogger().isEnabledFor(logging.DEBUG)
+    with dask.config.set({"distributed.nanny.pre-spawn-environ": env}), _sigint_ignored():
         return LocalCluster(n_workers=n_workers, threads_per_worker=1, processes=True,
-                            dashboard_address="127.0.0.1:0", host="127.0.0.1")
+                            dashboard_address="127.0.0.1:0", host="127.0.0.1",
+                            local_directory=local_directory,
+                            silence_logs=logging.CRITICAL if quiet else logging.WARN)
+
+
+@contextmanager
+def _sigint_ignored() -> Iterator[None]:
+    """SIGINT ignored while worker processes are spawned: a spawned process inherits an
+    ignored signal, and Python then installs no KeyboardInterrupt handler in it.  (A
+    Ctrl-C in the second or so this takes is lost; the next one interrupts the run.)"""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    previous = signal.signal(signal.SIGINT, signal.SIG_IGN)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, previous)
+
+
+#: level of distributed's loggers after an interruption: above every record
+SILENT = logging.CRITICAL + 1
+
+
+@contextmanager
+def _distributed_level(level: int) -> Iterator[None]:
+    """distributed's loggers in this process print records of ``level`` and above.
+
+    After an interruption (the block raised KeyboardInterrupt or SIGTERM's exception)
+    they stay silent: the cluster's event loop may still be cancelling a worker restart
+    when the block has ended, and the process is about to exit.
+    """
+    logger = logging.getLogger("distributed")
+    old = logger.level
+    logger.setLevel(level)
+    try:
+        yield
+    except BaseException as err:
+        if not isinstance(err, Exception):
+            old = SILENT
+        raise
+    finally:
+        logger.setLevel(old)
+
+
+@contextmanager
+def _local_client(connect_timeout: float) -> Iterator[Any]:
+    """A client on a new local cluster.  Below ``--debug`` logging, distributed prints
+    errors only; after an interruption, nothing.  The cluster and its scratch folder
+    (``temporary-directory``, a folder of our own) are removed on every exit path."""
+    import dask
+    from distributed import Client
+
+    quiet = not logging.getLogger().isEnabledFor(logging.DEBUG)
+    scratch = tempfile.mkdtemp(prefix="eftsieve-dask-")
+    try:
+        with dask.config.set({"temporary-directory": scratch}), \
+                _distributed_level(logging.ERROR if quiet else logging.NOTSET):
+            cluster = local_cluster(local_directory=scratch)
+            interrupted = False
+            try:
+                with Client(cluster, timeout=connect_timeout) as client:
+                    yield client
+            except BaseException as err:  # Ctrl-C, SIGTERM: not an Exception
+                interrupted = not isinstance(err, Exception)
+                raise
+            finally:
+                if interrupted:
+                    _close_interrupted(cluster)
+                else:
+                    cluster.close(timeout=connect_timeout)
+    finally:
+        shutil.rmtree(scratch, ignore_errors=True)
+
+
+def _close_interrupted(cluster: Any) -> None:
+    """Close a local cluster after Ctrl-C or SIGTERM, quickly and without a word.
+
+    The workers may be deep in a partition that cannot be cancelled, so their processes
+    (ours) are killed first; the cluster is then closed with a short timeout.  Further
+    Ctrl-C presses are ignored for these two seconds, distributed's logs are silenced,
+    and a failure of the close is logged at debug level only: the run is over anyway.
+    """
+    import os
+
+    pids = [getattr(n, "pid", None) for n in list(getattr(cluster, "workers", {}).values())]
+    logging.getLogger("distributed").setLevel(SILENT)
+    with _sigint_ignored():
+        for pid in pids:
+            if isinstance(pid, int) and pid > 0:
+                try:
+                    os.kill(pid, signal.SIGKILL)
+                except OSError:  # already gone
+                    pass
+        try:
+            cluster.close(timeout=INTERRUPTED_CLOSE_TIMEOUT)
+        except Exception as err:  # noqa: BLE001 - the run is already interrupted
+            logging.getLogger(__name__).debug("closing the interrupted cluster: %r", err)
 
 
 @contextmanager
 def connect(scheduler: str | None = None, *, connect_timeout: float = CONNECT_TIMEOUT
             ) -> Iterator[Any]:
     """A ``distributed.Client``: to ``scheduler``, or to a new local cluster of
-    :data:`LOCAL_WORKERS` single-threaded worker processes (closed on exit)."""
+    :data:`LOCAL_WORKERS` single-threaded worker processes (closed on exit, with its
+    scratch folder)."""
     require_dask()
     from distributed import Client
 
     if scheduler is None:
-        cluster = local_cluster()
-        try:
-            with Client(cluster, timeout=connect_timeout) as client:
-                yield client
-        finally:
-            cluster.close(timeout=connect_timeout)
+        with _local_client(connect_timeout) as client:
+            yield client
         return
     try:
         client = Client(scheduler, timeout=connect_timeout)

@@ -19,6 +19,10 @@ What it does, in order:
    the kernel offers one, else two renames); the previous set is then removed;
 5. when the block raises (an error, Ctrl-C, SIGTERM, a full disk), removes the staging
    folder and leaves the target untouched.  The lock file is removed on every path.
+
+:func:`output_files` does the same for verbs whose output is one or two named files
+(``region -o FILE [--plot PNG]``, ``cite -o FILE``): the same refusals and lock, a
+staging file beside each target, all renamed into place only when the run succeeds.
 """
 
 from __future__ import annotations
@@ -51,8 +55,9 @@ def _resolved(p: str | Path) -> Path:
     return Path(os.path.abspath(Path(p).expanduser())).resolve()
 
 
-def refuse_inputs(target: str | Path, inputs: Iterable[str | Path | None]) -> None:
-    """Refuse an output folder that is, contains, or lies inside one of ``inputs``."""
+def refuse_inputs(target: str | Path, inputs: Iterable[str | Path | None],
+                  kind: str = "folder", option: str = "-o") -> None:
+    """Refuse an output folder (or file) that is, contains, or lies inside an input."""
     t = _resolved(target)
     for raw in inputs:
         if raw is None:
@@ -60,9 +65,9 @@ def refuse_inputs(target: str | Path, inputs: Iterable[str | Path | None]) -> No
         i = _resolved(raw)
         if i == t or t in i.parents or i in t.parents:
             rel = ("is" if i == t else "contains" if t in i.parents else "lies inside")
-            raise InputError(target, "-o", f"the output folder {rel} the input {raw}; "
+            raise InputError(target, option, f"the output {kind} {rel} the input {raw}; "
                              "writing there could change or delete an input",
-                             "choose an output folder outside every input")
+                             f"choose an output {kind} outside every input")
 
 
 def _check_target(target: Path, known: Iterable[str] | None) -> None:
@@ -243,20 +248,138 @@ def output_set(target: str | Path, inputs: Iterable[str | Path | None] = (), *,
     except OSError as err:
         raise OutputError(target, f"cannot create the parent folder: {err.strerror}",
                           "choose a writable output folder") from err
-    with _lock(target):
-        _clear_stale(target)
-        stage = Path(tempfile.mkdtemp(prefix=f".{target.name}.staging.", dir=target.parent))
+    previous = (target / MANIFEST_NAME).is_file()
+    try:
+        with _lock(target):
+            _clear_stale(target)
+            stage = Path(tempfile.mkdtemp(prefix=f".{target.name}.staging.",
+                                          dir=target.parent))
+            try:
+                os.chmod(stage, 0o777 & ~_umask())
+                yield stage
+                write_manifest(stage)
+                _swap_in(stage, target)
+            except OSError as err:
+                if err.errno in _FULL:
+                    raise OutputError(target, "no space left on the device while writing "
+                                      "the output set; the previous set (if any) is "
+                                      "unchanged", "free some space or choose another "
+                                      "folder") from err
+                raise
+            finally:
+                if stage.exists():
+                    shutil.rmtree(stage, ignore_errors=True)
+    except BaseException as err:  # Ctrl-C, SIGTERM: say what the folder now holds
+        if not isinstance(err, Exception):
+            note_output_state(err, target, previous)
+        raise
+
+
+#: the attribute :func:`note_output_state` sets on an interruption (read by the CLI)
+OUTPUT_STATE_ATTR = "eftsieve_output_state"
+
+
+def note_output_state(err: BaseException, target: Path, previous: bool,
+                      kind: str = "folder") -> None:
+    """Record on an interruption what ``target`` holds now: the previous complete run
+    (unchanged) or nothing of this run.  The command line prints it in its one line."""
+    state = (f"the output {kind} {target} still holds the previous complete run"
+             if previous else f"nothing was written to {target}")
+    if not hasattr(err, OUTPUT_STATE_ATTR):  # the innermost set is the one that counts
+        setattr(err, OUTPUT_STATE_ATTR, state)
+
+
+def _check_file_target(target: Path, option: str) -> None:
+    if target.is_dir():
+        raise InputError(target, option, "is a folder, not a file name",
+                         "give a file name, e.g. region.json")
+    if target.exists() and not target.is_file():  # a device, a pipe: never replaced
+        raise InputError(target, option, "is not a regular file; the run would replace it",
+                         "give the name of a new or regular file")
+
+
+@contextmanager
+def output_files(targets: dict[str, str | Path], inputs: Iterable[str | Path | None] = ()
+                 ) -> Iterator[dict[str, Path]]:
+    """Write one run's output files atomically, under the output-set lock.
+
+    Parameters
+    ----------
+    targets
+        Option (``-o``, ``--plot``) -> the file it names.  Each target gets the lock
+        ``.<name>.lock`` beside it (the lock of :func:`output_set`), so a second run
+        writing the same file fails at once with :class:`~eftsieve.errors.OutputError`.
+    inputs
+        Input files of the run; no target may be one of them (or lie inside one).
+
+    Yields
+    ------
+    dict[str, pathlib.Path]
+        Option -> the staging file to write (beside the target, same suffix).  When the
+        block ends normally, each staging file is renamed onto its target; when it
+        raises, they are removed and the targets keep the previous run's files.
+
+    Raises
+    ------
+    InputError
+        A target is a folder, or is (or lies inside) an input.
+    OutputError
+        Another run holds a target, or the disk is full.
+    """
+
+    paths = {opt: _resolved(t) for opt, t in targets.items()}
+    if len(set(paths.values())) < len(paths):
+        raise InputError(next(iter(targets.values())), "/".join(paths), "the options name "
+                         "the same file", "give each output its own file name")
+    for opt, t in paths.items():
+        _check_file_target(t, opt)
+        refuse_inputs(t, inputs, kind="file", option=opt)
+    previous = all(t.is_file() for t in paths.values())
+    try:
+        with _files_written(paths) as stages:
+            yield stages
+    except BaseException as err:  # Ctrl-C, SIGTERM: say what the files now hold
+        if not isinstance(err, Exception):
+            note_output_state(err, next(iter(paths.values())), previous, kind="file")
+        raise
+
+
+@contextmanager
+def _files_written(paths: dict[str, Path]) -> Iterator[dict[str, Path]]:
+    """The lock, staging files and final renames of :func:`output_files`."""
+    from contextlib import ExitStack
+
+    stages: dict[str, Path] = {}
+    with ExitStack() as stack:
+        for t in sorted(set(paths.values())):
+            try:
+                t.parent.mkdir(parents=True, exist_ok=True)
+            except OSError as err:
+                raise OutputError(t, f"cannot create the parent folder: {err.strerror}",
+                                  "choose a writable place") from err
+            stack.enter_context(_lock(t))
         try:
-            os.chmod(stage, 0o777 & ~_umask())
-            yield stage
-            write_manifest(stage)
-            _swap_in(stage, target)
+            for opt, t in paths.items():
+                for old in t.parent.glob(f".{t.name}.staging.*"):  # a killed run's
+                    old.unlink(missing_ok=True)
+                fd, tmp = tempfile.mkstemp(prefix=f".{t.name}.staging.", suffix=t.suffix,
+                                           dir=t.parent)
+                os.close(fd)
+                os.unlink(tmp)  # the writer creates it (some refuse an existing file)
+                stages[opt] = Path(tmp)
+            yield stages
+            for opt, t in paths.items():
+                if not stages[opt].is_file():
+                    raise OutputError(t, "the run wrote no file here", "please report it")
+            for opt, t in paths.items():
+                os.chmod(stages[opt], 0o666 & ~_umask())
+                os.replace(stages[opt], t)
         except OSError as err:
             if err.errno in _FULL:
-                raise OutputError(target, "no space left on the device while writing the "
-                                  "output set; the previous set (if any) is unchanged",
-                                  "free some space or choose another folder") from err
+                raise OutputError(next(iter(paths.values())), "no space left on the device "
+                                  "while writing; the previous file (if any) is unchanged",
+                                  "free some space or choose another place") from err
             raise
         finally:
-            if stage.exists():
-                shutil.rmtree(stage, ignore_errors=True)
+            for st in stages.values():
+                st.unlink(missing_ok=True)

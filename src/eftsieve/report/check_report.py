@@ -303,6 +303,18 @@ def references_block(theory: str) -> list:
                                   "(`eftsieve cite` prints them as BibTeX):"), Bullets(items)]
 
 
+def corner_cap_text(n_params: int) -> str:
+    """One line when the corner plot shows fewer parameters than the fit has, else ''."""
+    from eftsieve.io import limits
+
+    cap = limits.MAX_PLOT_COLUMNS
+    if n_params <= cap:
+        return ""
+    return (f"The corner plot shows {cap} of the fit's {n_params} parameters (the cap "
+            f"eftsieve.io.limits.MAX_PLOT_COLUMNS = {cap}): those the region constrains "
+            "first, then the others in fit order.")
+
+
 def check_document(result: CheckResult, images: dict[str, Path]) -> Document:
     """The check report of a typed result (``images``: name -> PNG path)."""
     fit, region = result.fit, result.region
@@ -314,6 +326,8 @@ def check_document(result: CheckResult, images: dict[str, Path]) -> Document:
                       ("corner", "corner plot with region boundary")):
         if name in images:
             doc.add(Image(images[name], alt))
+    if "corner" in images and corner_cap_text(len(fit.names)):
+        doc.add(Para(corner_cap_text(len(fit.names))))
     doc.add(*cautions_block(region.theory), *verdict_footer(result.verdict.thresholds),
             *references_block(region.theory))
     return doc
