@@ -410,7 +410,7 @@ KINEMATIC_SYMBOLS = {"pion_mass_mev": r"$M_\pi$", "kaon_mass_mev": r"$M_K$",
                      "eta_mass_mev": r"$M_\eta$", "mu_mev": r"$\mu$", "fpi_mev": r"$F_\pi$",
                      "heavy_scale_mev": r"$\Lambda$"}
 #: verdict code (:mod:`eftsieve.check.verdicts`) -> sample colour
-VERDICT_COLOURS = {0: BLUE, 1: ORANGE, 2: VERMILION, 3: PURPLE}
+VERDICT_COLOURS = {0: BLUE, 1: "#222222", 2: VERMILION, 3: PURPLE}
 #: the window of a cone region without a fit: the apex at the centre (scale-invariant)
 CONE_WINDOW = (-1.0, 1.0)
 

@@ -183,14 +183,15 @@ def cone_slice_figure(region: Region, *, samples: Any = None, weights: Any = Non
         px = y[front, :2] / y[front, 2:3]
         pw = None if w is None else w[front]
         codes = codes[front]
-        extra.append(f"samples moved along their rays onto the slice; {int((~front).sum())}"
-                     f" of {len(x)} behind it (outside the cone), not drawn")
+        extra.append("samples moved along their rays onto it (no contours)")
+        extra.append(f"{int((~front).sum())} of {len(x)} samples lie behind it: outside "
+                     "the cone, not drawn")
         if not front.any():
             px = pw = codes = None
     box = check_limits(limits, 2) if limits is not None else _slice_limits(outer, px, pw)
     return draw_plane(region, outer, inner, box, sl.names, px, pw, codes, {},
                       plot_title(region, title, extra), False, None, plain_axes=True,
-                      notes=basis_notes(sl, region.coordinates))
+                      notes=basis_notes(sl, region.coordinates), contours=False)
 
 
 def _classify(region: Region, x: np.ndarray, verdicts: Any) -> np.ndarray:
@@ -207,12 +208,15 @@ def _classify(region: Region, x: np.ndarray, verdicts: Any) -> np.ndarray:
 
 
 def _slice_limits(outer: Plane, x: np.ndarray | None, w: np.ndarray | None) -> np.ndarray:
-    """The slice polygon's vertices and the samples' central 99 %."""
+    """The slice polygon's vertices and the samples' central 90 %, at most three times
+    the polygon's size (rays nearly parallel to the plane land far out)."""
     box = auto_limits(outer, None, None)
     if x is None:
         return box
-    r = sample_range(x, w, 0.99)
-    lo, hi = np.minimum(box[:, 0], r[:, 0]), np.maximum(box[:, 1], r[:, 1])
+    r = sample_range(x, w, 0.90)
+    size = box[:, 1] - box[:, 0]
+    lo = np.maximum(np.minimum(box[:, 0], r[:, 0]), box[:, 0] - size)
+    hi = np.minimum(np.maximum(box[:, 1], r[:, 1]), box[:, 1] + size)
     return spread(lo, hi, 0.05)
 
 

@@ -11,6 +11,7 @@ from typing import Any
 
 from eftsieve.fit.conventions import NONE
 from eftsieve.region.model import Region
+from eftsieve.report.plot_posterior import HPD_COLOUR
 from eftsieve.report.plot_base import (
     BLUE,
     EXCLUDED_HATCH,
@@ -67,7 +68,7 @@ def legend_handles(*, between: str | None = None, inner: str | None = None,
                     Patch(facecolor=tint(BAND_COLOUR, BAND_ALPHAS[1]),
                           label="boundary \u00b12\u03c3")]
     if posterior:
-        handles.append(Line2D([], [], color=BLUE, lw=1.4, label="fit: 68% / 95% HPD"))
+        handles.append(Line2D([], [], color=HPD_COLOUR, lw=1.4, label="fit: 68% / 95% HPD"))
     if posterior_hist:
         handles.append(Line2D([], [], color=BLUE, lw=1.4, label="fit (histogram)"))
     for code, text in (verdicts or {}).items():

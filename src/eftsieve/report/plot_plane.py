@@ -50,6 +50,8 @@ if TYPE_CHECKING:
 #: regions with more facets in the plane (support-function regions) are drawn without
 #: each facet's line and label: only the allowed set and its boundary
 MAX_DRAWN_FACETS = 12
+#: labels closer than this (axes fractions) to one already placed are pushed along
+LABEL_GAP = 0.22
 #: the set between inner and outer facets is drawn above this share of the allowed area
 VISIBLE_SHARE = 1e-3
 
@@ -66,12 +68,13 @@ def label_position(seg: np.ndarray, box: np.ndarray, avoid: np.ndarray,
     already placed, staying away from the segment's ends."""
     ts = np.linspace(0.2, 0.8, 25)
     pts = _to_axes(seg[0] + ts[:, None] * (seg[1] - seg[0]), box)
-    others = [_to_axes(a, box) for a in avoid] + list(taken)
-    if not others:
-        return prefer
-    o = np.array(others).reshape(-1, 2)
-    dist = np.linalg.norm(pts[:, None, :] - o[None], axis=2).min(axis=1)
-    score = np.minimum(dist, 0.25) - 0.02 * np.abs(ts - prefer)
+    score = -0.02 * np.abs(ts - prefer)
+    if len(avoid):
+        o = np.array([_to_axes(a, box) for a in avoid]).reshape(-1, 2)
+        score += np.minimum(np.linalg.norm(pts[:, None] - o[None], axis=2).min(axis=1), 0.25)
+    if taken:
+        near = np.linalg.norm(pts[:, None] - np.array(taken)[None], axis=2).min(axis=1)
+        score -= np.where(near < LABEL_GAP, 1.0 + LABEL_GAP - near, 0.0)
     return float(ts[int(np.argmax(score))])
 
 
@@ -202,12 +205,13 @@ def draw_plane(region: Region, outer: Plane, inner: Plane | None, box: np.ndarra
                verdicts: Any, bands: dict[int, float], title: str, apex: bool,
                classify_at: tuple[tuple[int, int], np.ndarray] | None, *,
                plain_axes: bool = False, facet_lines: bool = True,
-               notes: Sequence[str] = ()) -> Figure:
+               notes: Sequence[str] = (), contours: bool = True) -> Figure:
     """The figure of one plane: sets, facets, posterior, labels and legend
     (``plain_axes``: the axis names are written as given, without units;
     ``facet_lines``: False when the rows of ``outer`` are not the region's facets, e.g.
     a projection, whose boundary alone is drawn; ``notes``: lines of text at the end
-    of the legend)."""
+    of the legend; ``contours``: False where HPD contours of the plotted points would
+    not be the fit's, e.g. samples moved along rays onto a slice)."""
     fig = new_figure((8.6, 5.4), "constrained")
     ax = fig.add_subplot()
     avoid = [np.zeros((1, 2))] if apex else []
@@ -230,7 +234,7 @@ def draw_plane(region: Region, outer: Plane, inner: Plane | None, box: np.ndarra
                 va="center", fontsize=9, color=GREY, gid="empty-note")
     hpd, present = False, {}
     if x is not None and codes is not None:
-        hpd, present = draw_posterior_2d(ax, x, w, codes, region)
+        hpd, present = draw_posterior_2d(ax, x, w, codes, region, contours)
     ax.set_xlim(*box[0])
     ax.set_ylim(*box[1])
     ax.set_xlabel(names[0] if plain_axes else axis_label(region, names[0]))
@@ -257,7 +261,7 @@ def _allowed_label(region: Region, inner: Plane | None, share: float) -> str:
     if inner is not None and share <= 1e-9:
         return "allowed: outer cone = verified inner cone"
     if inner is not None and share <= VISIBLE_SHARE:
-        return f"allowed: outer cone (the shell is {share:.1g} of it here, too thin to see)"
+        return f"allowed: outer cone\n(shell: {share:.1g} of it, too thin to see)"
     return "allowed (outer cone)"
 
 

@@ -77,12 +77,12 @@ def verdict_codes(region: Region, x: np.ndarray, verdicts: Any,
 
 
 def draw_posterior_2d(ax: Axes, x: np.ndarray, w: np.ndarray | None, codes: np.ndarray,
-                      region: Region) -> tuple[bool, dict[int, str]]:
+                      region: Region, contours: bool = True) -> tuple[bool, dict[int, str]]:
     """HPD contour lines and the verdict-coloured samples; returns (contours drawn,
     verdict code -> legend text of the verdicts drawn)."""
     present = _scatter(ax, x, w, codes, region)
     ess = kish_ess(w, len(x))
-    if ess < MIN_ESS_CONTOURS:
+    if ess < MIN_ESS_CONTOURS or not contours:
         return False, present
     from scipy.ndimage import gaussian_filter
 
