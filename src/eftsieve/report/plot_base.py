@@ -550,3 +550,30 @@ def pull_plane(plane: Plane, view: PlotView) -> Plane:
     b2 = plane.b - plane.a @ view.shift
     n = np.linalg.norm(a2, axis=1)
     return Plane(a2 / n[:, None], b2 / n, plane.index, plane.scale * n)
+
+
+def polygon_area(poly: np.ndarray) -> float:
+    """Shoelace area of a polygon (0 for fewer than three vertices)."""
+    if len(poly) < 3:
+        return 0.0
+    x, y = poly[:, 0], poly[:, 1]
+    return 0.5 * abs(float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))))
+
+
+def projection_interval(normals: np.ndarray, offsets: np.ndarray,
+                        k: int) -> tuple[float, float]:
+    """The range of coordinate k over {x : normals x >= offsets} (LPs; infinite ends
+    where the region is unbounded, an empty range (inf, -inf) when it is empty)."""
+    from scipy.optimize import linprog
+
+    d = normals.shape[1]
+    ends = []
+    for sign in (1.0, -1.0):
+        c = np.zeros(d)
+        c[k] = sign
+        res = linprog(c, A_ub=-normals, b_ub=-offsets, bounds=[(None, None)] * d,
+                      method="highs")
+        if res.status == 2:
+            return np.inf, -np.inf
+        ends.append(sign * float(res.fun) if res.status == 0 else -sign * np.inf)
+    return ends[0], ends[1]

@@ -28,8 +28,10 @@ from eftsieve.report.plot_base import (
     allowed_polygon,
     boundary_edges,
     draw_excluded_union,
-    interval,
     new_figure,
+    polygon_area,
+    projection_interval,
+    projection_plane,
     region_arrays,
     restrict,
     sample_range,
@@ -54,13 +56,15 @@ def _corner_ranges(sets: Sequence[tuple[np.ndarray, np.ndarray | None]]) -> np.n
 
 
 def _corner_layer(fig: Figure, x: np.ndarray, w: np.ndarray | None, ranges: np.ndarray,
-                  names: Sequence[str], colour: str) -> None:
-    """One sample set drawn by ``corner`` into ``fig``."""
+                  names: Sequence[str], colour: str, smooth: bool) -> None:
+    """One sample set drawn by ``corner`` into ``fig`` (``smooth``: a Gaussian smoothing
+    of one bin, only for sets without a hard edge)."""
     import corner
 
     contours = kish_ess(w, len(x)) >= MIN_ESS_CONTOURS
     corner.corner(x, bins=CORNER_BINS, weights=w, fig=fig, range=[tuple(r) for r in ranges],
-                  color=colour, labels=list(names), smooth=1.0, levels=HPD_LEVELS,
+                  color=colour, labels=list(names), smooth=1.0 if smooth else None,
+                  levels=HPD_LEVELS,
                   plot_density=False, plot_contours=contours, fill_contours=contours,
                   no_fill_contours=True, plot_datapoints=not contours, quiet=True,
                   data_kwargs={"alpha": 0.6, "ms": 3.0},
@@ -98,10 +102,14 @@ def _region_columns(region: Region, names: Sequence[str],
 
 
 def _corner_plane(ax: Axes, plane: Plane, box: np.ndarray) -> bool:
-    """Hatch the excluded part of a 2-D panel and draw the boundary; True if anything."""
+    """Hatch the excluded part of a 2-D panel and draw the boundary; True if an excluded
+    part is in view."""
     if not len(plane.b):
         return False
     allowed = allowed_polygon(plane, box)
+    full = float(np.prod(box[:, 1] - box[:, 0]))
+    if len(allowed) and polygon_area(allowed) >= full * (1 - 1e-9):
+        return False
     draw_excluded_union(ax, box, allowed, fill=0.18)
     edges = boundary_edges(allowed, plane)
     if len(edges):
@@ -111,11 +119,11 @@ def _corner_plane(ax: Axes, plane: Plane, box: np.ndarray) -> bool:
     return True
 
 
-def _corner_line(ax: Axes, plane: Plane, xlim: np.ndarray) -> bool:
-    """Hatch the excluded part of a 1-D panel and mark the bounds; True if anything."""
-    if not len(plane.b):
+def _corner_line(ax: Axes, lo: float, hi: float, xlim: np.ndarray) -> bool:
+    """Hatch the excluded part of a 1-D panel (outside [lo, hi]) and mark the bounds;
+    True if an excluded part is in view."""
+    if lo <= xlim[0] and hi >= xlim[1]:
         return False
-    lo, hi = interval(plane)
     spans = [(xlim[0], lo), (hi, xlim[1])] if lo <= hi else [(xlim[0], xlim[1])]
     for a, b in spans:
         a, b = max(a, xlim[0]), min(b, xlim[1])
@@ -131,7 +139,10 @@ def _corner_line(ax: Axes, plane: Plane, xlim: np.ndarray) -> bool:
 
 def _corner_region(axes: np.ndarray, region: Region, columns: dict[int, int],
                    ranges: np.ndarray) -> bool:
-    """Region overlays on every panel spanned by region coordinates; True if any."""
+    """Region overlays on every panel spanned by region coordinates; True if any
+    excluded part is in view.  A region of one or two coordinates is drawn as it is;
+    for more, each panel shows the projection onto its coordinates (outside it is
+    excluded whatever the other coordinates are)."""
     normals, offsets = region_arrays(region, False)
     inv = {col: k for k, col in columns.items()}
     drawn = False
@@ -140,12 +151,30 @@ def _corner_region(axes: np.ndarray, region: Region, columns: dict[int, int],
             if c not in inv or r not in inv:
                 continue
             if r == c:
-                plane = restrict(normals, offsets, (inv[c],))
-                drawn |= _corner_line(axes[r, c], plane, ranges[c])
-            else:
+                lo, hi = projection_interval(normals, offsets, inv[c])
+                drawn |= _corner_line(axes[r, c], lo, hi, ranges[c])
+            elif region.dim == 2:
                 plane = restrict(normals, offsets, (inv[c], inv[r]))
                 drawn |= _corner_plane(axes[r, c], plane, ranges[[c, r]])
+            else:
+                plane = projection_plane(normals, offsets, (inv[c], inv[r]))
+                shown = _corner_plane(axes[r, c], plane, ranges[[c, r]])
+                if not shown:  # say so rather than leave the panel silent
+                    axes[r, c].text(0.03, 0.03, "no bound on this pair alone\n"
+                                    "(projection of the region)", fontsize=6.5,
+                                    color=GREY, transform=axes[r, c].transAxes,
+                                    gid="no-bound-note", zorder=6)
+                drawn |= shown
     return drawn
+
+
+def _truncated(region: Region, columns: dict[int, int], x: np.ndarray) -> bool:
+    """Whether a sample set lies inside the region (a hard edge that smoothing would
+    blur): every point satisfies every facet of the plotted region coordinates."""
+    if len(columns) != region.dim:
+        return False
+    y = x[:, [columns[k] for k in range(region.dim)]]
+    return bool(region.contains(y).all())
 
 
 def _corner_legend(fig: Figure, axes: np.ndarray, labels: Sequence[str] | None,
@@ -227,10 +256,11 @@ def corner_figure(samples: Any, names: Sequence[str], *, weights: Any = None,
         raise ValueError(f"need at least max(2, {k}) samples in every set")
     columns = _region_columns(region, names, region_coords) if region is not None else {}
     ranges = _corner_ranges(sets)
+    smooth = [region is None or not _truncated(region, columns, xs) for xs, _ in sets]
     dim = 1.0 + 2.0 * k + 0.1 * (k - 1) + 0.4
     fig = new_figure((dim * (1.7 if k == 1 else 1.0), dim))
-    for (xs, ws), colour in zip(sets, SAMPLE_COLOURS, strict=False):
-        _corner_layer(fig, xs, ws, ranges, names, colour)
+    for (xs, ws), colour, sm in zip(sets, SAMPLE_COLOURS, smooth, strict=False):
+        _corner_layer(fig, xs, ws, ranges, names, colour, sm)
     axes = np.array(fig.axes).reshape(k, k)
     _fix_diagonal(axes)
     drawn = _corner_region(axes, region, columns, ranges) if region is not None else False

@@ -11,7 +11,6 @@ from typing import Any
 
 from eftsieve.fit.conventions import NONE
 from eftsieve.region.model import Region
-from eftsieve.report.plot_posterior import HPD_COLOUR
 from eftsieve.report.plot_base import (
     BLUE,
     EXCLUDED_HATCH,
@@ -26,6 +25,7 @@ from eftsieve.report.plot_base import (
     kinematics_line,
     tint,
 )
+from eftsieve.report.plot_posterior import HPD_COLOUR
 
 #: colours of the 1- and 2-sigma theory-uncertainty bands (one colour for every facet)
 BAND_COLOUR = "#6A3D9A"
