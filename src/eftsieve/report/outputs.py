@@ -259,4 +259,5 @@ def impose_corner(result: ImposeResult, fit: Fit, region: Region,
                        else result.before_weights[:keep],
                        region=region, region_coords=cols, overlay=after[:CORNER_ROWS],
                        overlay_weights=None if result.weights is None
-                       else result.weights[:CORNER_ROWS], labels=("without positivity", "with positivity"))
+                       else result.weights[:CORNER_ROWS],
+                       labels=("without positivity", "with positivity"))
