@@ -190,7 +190,7 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
             lp = logprior(x)
             if with_bounds and soft is None:
                 lp[~inside(x)] = -np.inf
-            elif with_bounds:
+            elif with_bounds and soft is not None:
                 lp = lp + soft(x)
             ok = np.isfinite(lp)
             out = np.full(len(x), -np.inf)

@@ -231,8 +231,9 @@ def _projection_figure(region: Region, ij: tuple[int, int], x: np.ndarray | None
     if x is not None:
         codes = _classify(region, x, verdicts)
         px = x[:, list(ij)]
-    box = check_limits(limits, 2) if limits is not None else spread(
-        *np.array([[-1.0, -1.0], [1.0, 1.0]]) if px is None else _pair_range(px, w), 0.05)
+    lo, hi = (np.array([-1.0, -1.0]), np.array([1.0, 1.0])) if px is None \
+        else _pair_range(px, w)
+    box = check_limits(limits, 2) if limits is not None else spread(lo, hi, 0.05)
     extra = [f"projection of the outer cone on ({names[0]}, {names[1]}): outside it is "
              "excluded for every value of the other coefficients"]
     return draw_plane(region, outer, None, box, names, px, w, codes, {},

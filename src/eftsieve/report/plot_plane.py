@@ -219,7 +219,7 @@ def draw_plane(region: Region, outer: Plane, inner: Plane | None, box: np.ndarra
     if x is not None:
         codes = verdict_codes(region, x, verdicts, classify_at)
         avoid.append(_avoid_points(x))
-    banded, tagged = False, []
+    banded, tagged = False, list[Any]()
     if not facet_lines:
         pass
     elif len(outer.index) <= MAX_DRAWN_FACETS or bands:
@@ -232,7 +232,7 @@ def draw_plane(region: Region, outer: Plane, inner: Plane | None, box: np.ndarra
     if not drawn:
         ax.text(0.5, 0.5, "no allowed point in view", transform=ax.transAxes, ha="center",
                 va="center", fontsize=9, color=GREY, gid="empty-note")
-    hpd, present = False, {}
+    hpd, present = False, dict[int, str]()
     if x is not None and codes is not None:
         hpd, present = draw_posterior_2d(ax, x, w, codes, region, contours)
     ax.set_xlim(*box[0])
