@@ -32,7 +32,6 @@ from eftsieve.report.plot_base import (
     check_coords,
     check_limits,
     check_samples,
-    projection_plane,
     region_arrays,
     restrict,
     sample_range,
@@ -40,6 +39,7 @@ from eftsieve.report.plot_base import (
 )
 from eftsieve.report.plot_legend import plot_title
 from eftsieve.report.plot_plane import draw_plane
+from eftsieve.report.plot_project import projection_plane
 
 if TYPE_CHECKING:
     from matplotlib.figure import Figure

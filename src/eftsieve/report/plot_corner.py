@@ -30,8 +30,6 @@ from eftsieve.report.plot_base import (
     draw_excluded_union,
     new_figure,
     polygon_area,
-    projection_interval,
-    projection_plane,
     region_arrays,
     restrict,
     sample_range,
@@ -39,6 +37,7 @@ from eftsieve.report.plot_base import (
     spread,
     tint,
 )
+from eftsieve.report.plot_project import projection_interval, projection_plane
 from eftsieve.stats.ess import kish_ess
 
 if TYPE_CHECKING:

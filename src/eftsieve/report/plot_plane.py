@@ -31,6 +31,7 @@ from eftsieve.report.plot_base import (
     facet_text,
     is_cone,
     new_figure,
+    polygon_area,
     ring_path,
     segment,
     tint,
@@ -174,7 +175,7 @@ def _draw_sets(ax: Axes, outer: Plane, inner: Plane | None,
     if inner is None:
         return True, 0.0, False
     core = allowed_polygon(inner, box)
-    area_all, area_core = _area(allowed), _area(core)
+    area_all, area_core = polygon_area(allowed), polygon_area(core)
     share = (area_all - area_core) / max(area_all, ZERO) if len(core) else 1.0
     between = share > VISIBLE_SHARE
     if between:
@@ -190,14 +191,6 @@ def _draw_sets(ax: Axes, outer: Plane, inner: Plane | None,
                     zorder=5)
             inner_line = True
     return True, max(share, 0.0), inner_line
-
-
-def _area(poly: np.ndarray) -> float:
-    """Shoelace area of a polygon (0 for none)."""
-    if len(poly) < 3:
-        return 0.0
-    x, y = poly[:, 0], poly[:, 1]
-    return 0.5 * abs(float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1))))
 
 
 def draw_plane(region: Region, outer: Plane, inner: Plane | None, box: np.ndarray,
