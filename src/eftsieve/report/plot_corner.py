@@ -168,12 +168,23 @@ def _corner_region(axes: np.ndarray, region: Region, columns: dict[int, int],
 
 
 def _truncated(region: Region, columns: dict[int, int], x: np.ndarray) -> bool:
-    """Whether a sample set lies inside the region (a hard edge that smoothing would
-    blur): every point satisfies every facet of the plotted region coordinates."""
+    """Whether a sample set has a hard edge on the region's boundary (it was truncated
+    by it), which smoothing would blur: every point satisfies every facet, and for some
+    facet the nearest points sit within :data:`EDGE_FRACTION` of the set's spread along
+    its normal.  A set inside the region but far from its boundary has no edge there."""
     if len(columns) != region.dim:
         return False
     y = x[:, [columns[k] for k in range(region.dim)]]
-    return bool(region.contains(y).all())
+    margins = region.margins(y)
+    if not (margins >= 0).all():
+        return False
+    a, _ = region.arrays()
+    spread_along = np.std(y @ a.T, axis=0)
+    return bool((margins.min(axis=0) <= EDGE_FRACTION * spread_along).any())
+
+
+#: a set lies on a facet when its nearest point is this close (in units of its spread)
+EDGE_FRACTION = 0.05
 
 
 def _corner_legend(fig: Figure, axes: np.ndarray, labels: Sequence[str] | None,
