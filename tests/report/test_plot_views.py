@@ -15,7 +15,6 @@ from scipy import stats
 
 from eftsieve.region.model import Facet, Region
 from eftsieve.report.plot_base import VERDICT_COLOURS
-from eftsieve.report.plot_legend import BAND_ALPHAS, BAND_COLOUR
 from eftsieve.report.plots import region_figure
 from eftsieve.theories import get_theory
 
@@ -117,12 +116,17 @@ def test_legend_entries_are_the_drawn_artists() -> None:
     assert texts == ["allowed", "excluded"], "nothing undrawn in the legend"
     ax = region_figure(region, bands={1: 0.1}).axes[0]
     leg = ax.get_legend()
-    patches = {t.get_text(): h for t, h in zip(leg.get_texts(), leg.get_patches(), strict=False)}
-    one = [k for k in patches if "1\u03c3" in k]
-    assert one, "a band drawn has a legend entry"
-    drawn = [p for p in ax.patches if p.get_gid() == "band-1-1sigma"][0]
-    assert patches[one[0]].get_facecolor() == pytest.approx(drawn.get_facecolor())
-    assert drawn.get_facecolor() == pytest.approx(to_rgba(BAND_COLOUR, BAND_ALPHAS[0]))
+    handles = dict(zip((t.get_text() for t in leg.get_texts()), leg.legend_handles,
+                       strict=True))
+    one = [k for k in handles if "1\u03c3" in k]
+    two = [k for k in handles if "2\u03c3" in k]
+    assert one and two, "a band drawn has its legend entries"
+    facet = [ln for ln in ax.lines if ln.get_gid() == "facet-1"][0]
+    for key, gid in ((one[0], "band-1-1sigma"), (two[0], "band-1-2sigma")):
+        drawn = [ln for ln in ax.lines if ln.get_gid() == gid][0]
+        assert drawn.get_linestyle() == handles[key].get_linestyle()
+        assert to_rgba(drawn.get_color()) == to_rgba(facet.get_color())
+    assert not [ln for ln in ax.lines if ln.get_gid() == "band-0-1sigma"]
 
 
 def test_view_in_the_fits_convention_pulls_the_facets_back() -> None:

@@ -1,7 +1,8 @@
 """Legends and titles of the region figures: what was drawn, and nothing else.
 
-The theory-uncertainty bands of every facet share one colour (:data:`BAND_COLOUR`),
-1 sigma darker than 2 sigma, so the legend's two entries match every band drawn.
+The theory-uncertainty band of a facet is drawn as its edges in the facet's colour,
+dashed at 1 sigma and dotted at 2 sigma (:data:`BAND_STYLES`), so the legend's two
+entries match every band drawn and overlapping bands add no tints.
 """
 
 from __future__ import annotations
@@ -27,9 +28,9 @@ from eftsieve.report.plot_base import (
 )
 from eftsieve.report.plot_posterior import HPD_COLOUR
 
-#: colours of the 1- and 2-sigma theory-uncertainty bands (one colour for every facet)
-BAND_COLOUR = "#6A3D9A"
-BAND_ALPHAS = (0.30, 0.14)
+#: line styles of the 1- and 2-sigma edges of a theory-uncertainty band (drawn in the
+#: facet's colour)
+BAND_STYLES = ("--", ":")
 
 
 def between_labels(region: Region) -> tuple[str, str]:
@@ -63,10 +64,11 @@ def legend_handles(*, between: str | None = None, inner: str | None = None,
     if inner:
         handles.append(Line2D([], [], color="black", ls="--", label=inner))
     if bands:
-        handles += [Patch(facecolor=tint(BAND_COLOUR, BAND_ALPHAS[0]),
-                          label="boundary \u00b11\u03c3 (theory uncertainty)"),
-                    Patch(facecolor=tint(BAND_COLOUR, BAND_ALPHAS[1]),
-                          label="boundary \u00b12\u03c3")]
+        handles += [Line2D([], [], color=GREY, ls=BAND_STYLES[0], lw=0.9,
+                           label="boundary \u00b11\u03c3 (theory uncertainty),\n"
+                                 "in the facet's colour"),
+                    Line2D([], [], color=GREY, ls=BAND_STYLES[1], lw=0.9,
+                           label="boundary \u00b12\u03c3")]
     if posterior:
         handles.append(Line2D([], [], color=HPD_COLOUR, lw=1.4, label="fit: 68% / 95% HPD"))
     if posterior_hist:

@@ -40,8 +40,7 @@ from eftsieve.report.plot_base import (
     typical_box,
 )
 from eftsieve.report.plot_legend import (
-    BAND_ALPHAS,
-    BAND_COLOUR,
+    BAND_STYLES,
     between_labels,
     legend_handles,
     plot_title,
@@ -64,11 +63,11 @@ def _draw_facets_1d(ax: Axes, region: Region, plane: Plane, xlim: np.ndarray,
                 fontsize=7.5, color=colour, transform=trans, clip_on=True,
                 gid=f"facet-label-{fi}", zorder=6)
         s = bands.get(fi, 0.0) / plane.scale[row]
-        for k, alpha in zip((1, 2), BAND_ALPHAS, strict=True):
+        for k, bstyle in zip((1, 2), BAND_STYLES, strict=True):
             if s > 0:
-                for lo, hi in ((v - k * s, v - (k - 1) * s), (v + (k - 1) * s, v + k * s)):
-                    ax.axvspan(lo, hi, facecolor=tint(BAND_COLOUR, alpha), linewidth=0,
-                               gid=f"band-{fi}-{k}sigma", zorder=1.5)
+                for edge in (v - k * s, v + k * s):
+                    ax.axvline(edge, color=colour, ls=bstyle, lw=0.9,
+                               gid=f"band-{fi}-{k}sigma", zorder=3)
 
 
 def _draw_interval(ax: Axes, lo: float, hi: float, xlim: np.ndarray, *, y: float, gid: str,
@@ -102,7 +101,7 @@ def _draw_sets_1d(ax: Axes, outer: Plane, inner: Plane | None, xlim: np.ndarray)
     drawn = False
     for a, b in gaps:
         a, b = max(a, xlim[0]), min(b, xlim[1])
-        if b > a:
+        if b - a > 1e-3 * max(hi - lo, ZERO):   # visible: 0.1 % of the interval
             ax.axvspan(a, b, facecolor=tint(YELLOW, 0.45), edgecolor=tint(ORANGE, 0.7),
                        hatch=UNDECIDED_HATCH, linewidth=0, gid="undecided", zorder=0.7)
             drawn = True

@@ -24,8 +24,6 @@ from eftsieve.report.plot_base import (
     allowed_polygon,
     axis_label,
     boundary_edges,
-    box_polygon,
-    clip,
     draw_excluded_union,
     facet_style,
     facet_text,
@@ -37,8 +35,7 @@ from eftsieve.report.plot_base import (
     tint,
 )
 from eftsieve.report.plot_legend import (
-    BAND_ALPHAS,
-    BAND_COLOUR,
+    BAND_STYLES,
     between_labels,
     legend_handles,
 )
@@ -98,28 +95,25 @@ def _label_line(ax: Axes, seg: np.ndarray, normal: np.ndarray, box: np.ndarray, 
 
 
 # ---- layers ----------------------------------------------------------------------------
-def _draw_band(ax: Axes, plane: Plane, row: int, sigma: float, box: np.ndarray) -> bool:
-    """1- and 2-sigma bands of one boundary in :data:`BAND_COLOUR`; True if drawn."""
-    from matplotlib.patches import Polygon
-
+def _draw_band(ax: Axes, plane: Plane, row: int, sigma: float, box: np.ndarray,
+               colour: str) -> bool:
+    """The 1- and 2-sigma edges of one boundary's band, in the facet's colour with the
+    line styles of :data:`BAND_STYLES` (lines, not fills: bands of several facets
+    overlap without piling up tints); True if any edge is in view."""
     n, c, fi = plane.a[row], plane.b[row], int(plane.index[row])
     s = sigma / plane.scale[row]
     drawn = False
-    for k, alpha in zip((1, 2), BAND_ALPHAS, strict=True):
+    for k, style in zip((1, 2), BAND_STYLES, strict=True):
         if s <= 0:
             break
-        inner = clip(clip(box_polygon(box), n, c - (k - 1) * s), -n, -(c + (k - 1) * s))
-        strip = clip(clip(box_polygon(box), n, c - k * s), -n, -(c + k * s))
-        if len(strip):
-            holes = [inner] if k == 2 and len(inner) else []
-            from matplotlib.patches import PathPatch
-
-            patch = (PathPatch(ring_path(strip, holes)) if holes
-                     else Polygon(strip, closed=True))
-            patch.set(facecolor=tint(BAND_COLOUR, alpha), linewidth=0,
-                      gid=f"band-{fi}-{k}sigma", zorder=1.5)
-            ax.add_patch(patch)
-            drawn = True
+        pts = [seg for seg in (segment(n, c - k * s, box), segment(n, c + k * s, box))
+               if seg is not None]
+        if not pts:
+            continue
+        xy = np.vstack([np.vstack([p, [np.nan, np.nan]]) for p in pts])
+        ax.plot(xy[:, 0], xy[:, 1], color=colour, ls=style, lw=0.9,
+                gid=f"band-{fi}-{k}sigma", zorder=3)
+        drawn = True
     return drawn
 
 
@@ -140,7 +134,7 @@ def _draw_facets(ax: Axes, region: Region, plane: Plane, box: np.ndarray,
         colour, style = facet_style(fi)
         n, c = plane.a[row], plane.b[row]
         if fi in bands:
-            banded |= _draw_band(ax, plane, row, bands[fi], box)
+            banded |= _draw_band(ax, plane, row, bands[fi], box, colour)
         seg = segment(n, c, box)
         if seg is None:
             continue
