@@ -182,3 +182,16 @@ def test_cone_of_four_coefficients_draws_a_pair_projection(dim: int) -> None:
     allowed = [p for p in ax.patches if p.get_gid() == "allowed"][0].get_xy()
     # to the LP feasibility tolerance (HiGHS, about 1e-7)
     assert (allowed >= -1e-6).all(), "the projection of the orthant is the quadrant"
+
+
+def test_solver_noise_in_a_normal_does_not_erase_a_projected_bound() -> None:
+    """A normal (1e-8, 1, 0.25) from a conic solver stands for (0, 1, 0.25): its shadow
+    on (b, c) is still b + 0.25 c >= 0, not the whole plane."""
+    from eftsieve.report.plot_project import projection_plane
+
+    normals = np.array([[1e-8, 1.0, 0.25], [1e-8, 0.0, 1.0], [1.0, 0.5, 0.375]])
+    plane = projection_plane(normals, np.zeros(3), (1, 2))
+    assert len(plane.b) == 2
+    for n in ([1.0, 0.25], [0.0, 1.0]):
+        n = np.array(n) / np.linalg.norm(n)
+        assert np.isclose(np.abs(plane.a @ n), 1.0, atol=1e-6).any()

@@ -69,7 +69,7 @@ def _corner_layer(fig: Figure, x: np.ndarray, w: np.ndarray | None, ranges: np.n
                   data_kwargs={"alpha": 0.6, "ms": 3.0},
                   contour_kwargs={"linewidths": 1.2},
                   contourf_kwargs={"colors": [tint(colour, 0.0), tint(colour, 0.14),
-                                              tint(colour, 0.32)]}, max_n_ticks=4,
+                                              tint(colour, 0.32)]}, max_n_ticks=3,
                   hist_kwargs={"density": True, "color": colour, "linewidth": 1.4},
                   label_kwargs={"fontsize": 10})
 
@@ -158,7 +158,7 @@ def _corner_region(axes: np.ndarray, region: Region, columns: dict[int, int],
             else:
                 plane = projection_plane(normals, offsets, (inv[c], inv[r]))
                 shown = _corner_plane(axes[r, c], plane, ranges[[c, r]])
-                if not shown:  # say so rather than leave the panel silent
+                if not len(plane.b):  # no bound at all: say so rather than stay silent
                     axes[r, c].text(0.03, 0.03, "no bound on this pair alone\n"
                                     "(projection of the region)", fontsize=6.5,
                                     color=GREY, transform=axes[r, c].transAxes,

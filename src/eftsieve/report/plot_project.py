@@ -5,6 +5,12 @@ other coordinates are.
 A polyhedron's shadow comes from its support function (LPs in many directions, an
 outer approximation between them); a cone's is a wedge whose boundary rays are found
 by bisection on ray feasibility; a coordinate's range from two LPs.
+
+Facet normals from conic solvers carry components of order 1e-8 where the exact
+normal has a zero; in a projection such a component lets the dropped coordinate run
+to 1e8 and erases the bound.  :func:`drop_noise` zeroes components below
+:data:`NORMAL_NOISE` of a row's largest before projecting (the drawing only: checks use
+the facets as stored).
 """
 
 from __future__ import annotations
@@ -14,6 +20,18 @@ from collections.abc import Sequence
 import numpy as np
 
 from eftsieve.report.plot_base import Plane
+
+#: normal components below this fraction of a row's largest are solver noise (drawings)
+NORMAL_NOISE = 1e-6
+
+
+def drop_noise(normals: np.ndarray) -> np.ndarray:
+    """A copy of ``normals`` with the components below :data:`NORMAL_NOISE` of their
+    row's largest set to zero."""
+    a = np.array(normals, dtype=float)
+    big = np.abs(a).max(axis=1, keepdims=True)
+    a[np.abs(a) < NORMAL_NOISE * big] = 0.0
+    return a
 
 # ---- projections onto a pair of coordinates ------------------------------------------------
 #: directions of the support-function projection (outer approximation within 360/N deg)
@@ -32,6 +50,7 @@ def projection_plane(normals: np.ndarray, offsets: np.ndarray,
     """
     from scipy.optimize import linprog
 
+    normals = drop_noise(normals)
     if not np.any(offsets):
         return cone_projection(normals, pair)
     d = normals.shape[1]
@@ -59,6 +78,7 @@ def projection_interval(normals: np.ndarray, offsets: np.ndarray,
     where the region is unbounded, an empty range (inf, -inf) when it is empty)."""
     from scipy.optimize import linprog
 
+    normals = drop_noise(normals)
     d = normals.shape[1]
     ends = []
     for sign in (1.0, -1.0):
