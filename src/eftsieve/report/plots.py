@@ -163,7 +163,7 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
         from eftsieve.report.plot_cone import cone_slice_figure
 
         return cone_slice_figure(region, samples=samples, weights=weights, coords=coords,
-                                 limits=limits, title=title)
+                                 limits=limits, title=title, verdicts=verdicts)
     ij = check_coords(region, coords)
     x, w = check_samples(samples, weights, 2)
     band_map = check_bands(region, bands)
