@@ -61,7 +61,9 @@ def _draw_facets_1d(ax: Axes, region: Region, plane: Plane, xlim: np.ndarray,
         ax.axvline(v, color=colour, ls=style, lw=1.5, gid=f"facet-{fi}", zorder=4)
         ax.text(v, 0.96, facet_text(region, fi), rotation=90, ha="right", va="top",
                 fontsize=7.5, color=colour, transform=trans, clip_on=True,
-                gid=f"facet-label-{fi}", zorder=6)
+                gid=f"facet-label-{fi}", zorder=6,
+                bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
+                      "edgecolor": "none", "alpha": 0.85})
         s = bands.get(fi, 0.0) / plane.scale[row]
         for k, bstyle in zip((1, 2), BAND_STYLES, strict=True):
             if s > 0:
