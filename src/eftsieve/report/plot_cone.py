@@ -124,7 +124,8 @@ def basis_notes(sl: ConeSlice, names: Sequence[str]) -> list[str]:
     if not sl.statement.startswith("gnomonic"):
         return []
     cols = ", ".join(names)
-    return [f"{k} = ({', '.join(f'{v:.3f}' for v in sl.basis[:, j])}) in ({cols})"
+    return [f"{k} = ({', '.join(f'{0.0 if abs(v) < 5e-4 else v:.3f}' for v in sl.basis[:, j])})"
+            f" in ({cols})"
             for j, k in ((2, "d"), (0, "e1"), (1, "e2"))]
 
 
