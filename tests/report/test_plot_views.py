@@ -145,3 +145,22 @@ def test_view_in_the_fits_convention_pulls_the_facets_back() -> None:
         pts = np.column_stack([line.get_xdata(), line.get_ydata()])
         np.testing.assert_allclose((pts @ jac.T + shift) @ np.array(f.normal), f.offset,
                                    atol=1e-9)
+
+
+def test_one_coordinate_histogram_is_split_by_verdict() -> None:
+    region = Region("t1", ("c",), {"name": "y"},
+                    (Facet((1.0,), 1.0, "f", "low"), Facet((-1.0,), -4.0, "f", "high")))
+    x = np.random.default_rng(4).normal(1.0, 1.0, 5000)
+    ax = region_figure(region, samples=x).axes[0]
+    parts = {p.get_gid(): p for p in ax.patches if str(p.get_gid()).startswith("posterior-")}
+    total = [p for p in ax.patches if p.get_gid() == "posterior-hist"][0]
+    assert {"posterior-inside", "posterior-outside"} <= set(parts)
+    heights = sum(np.asarray(p.get_data().values) for k, p in parts.items()
+                  if k != "posterior-hist")
+    np.testing.assert_allclose(heights, total.get_data().values, atol=1e-12)
+    # the outside part lies outside 1 <= c <= 4 (to one bin)
+    edges = parts["posterior-outside"].get_data().edges
+    vals = parts["posterior-outside"].get_data().values
+    step = edges[1] - edges[0]
+    lo, hi = edges[:-1][vals > 0], edges[1:][vals > 0]
+    assert ((hi <= 1.0 + step) | (lo >= 4.0 - step)).all()

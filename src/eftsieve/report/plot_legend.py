@@ -72,7 +72,7 @@ def legend_handles(*, between: str | None = None, inner: str | None = None,
     if posterior:
         handles.append(Line2D([], [], color=HPD_COLOUR, lw=1.4, label="fit: 68% / 95% HPD"))
     if posterior_hist:
-        handles.append(Line2D([], [], color=BLUE, lw=1.4, label="fit (histogram)"))
+        handles.append(Line2D([], [], color=HPD_COLOUR, lw=1.4, label="fit (histogram)"))
     for code, text in (verdicts or {}).items():
         handles.append(Line2D([], [], color=VERDICT_COLOURS.get(code, BLUE), marker="o", ls="none",
                               ms=4, label=text))

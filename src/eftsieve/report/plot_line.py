@@ -13,14 +13,15 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from eftsieve.check.verdicts import VERDICT_NAMES
 from eftsieve.region.model import Region
 from eftsieve.report.plot_base import (
-    BLUE,
     EXCLUDED_HATCH,
     GREEN,
     GREY,
     ORANGE,
     UNDECIDED_HATCH,
+    VERDICT_COLOURS,
     YELLOW,
     ZERO,
     Plane,
@@ -45,6 +46,7 @@ from eftsieve.report.plot_legend import (
     legend_handles,
     plot_title,
 )
+from eftsieve.report.plot_posterior import HPD_COLOUR, verdict_codes, verdict_text
 
 if TYPE_CHECKING:
     from matplotlib.axes import Axes
@@ -124,7 +126,7 @@ def _limits_1d(plane: Plane, x: np.ndarray | None, w: np.ndarray | None) -> np.n
 
 def region_figure_1d(region: Region, samples: Any, weights: Any,
                      bands: Mapping[int, float] | None, limits: Any,
-                     title: str | None) -> Figure:
+                     title: str | None, verdicts: Any = None) -> Figure:
     """The one-coordinate version of :func:`region_figure`."""
     x, w = check_samples(samples, weights, 1)
     band_map = check_bands(region, bands)
@@ -138,13 +140,22 @@ def region_figure_1d(region: Region, samples: Any, weights: Any,
     _draw_facets_1d(ax, region, outer, xlim, band_map)
     between = _draw_sets_1d(ax, outer, inner, xlim)
     posterior = False
+    present: dict[int, str] = {}
     if x is not None:
         central = sample_range(x, w, 0.998)
         lo, hi = spread(central[:, 0], central[:, 1], 0.05)[0]
         counts, edges = np.histogram(x[:, 0], bins=40, range=(lo, hi), weights=w)
-        ax.stairs(0.8 * counts / max(float(counts.max()), ZERO), edges, color=BLUE, lw=1.4,
-                  gid="posterior-hist", zorder=3)
+        scale = 0.8 / max(float(counts.max()), ZERO)
+        ax.stairs(scale * counts, edges, color=HPD_COLOUR, lw=1.4, gid="posterior-hist",
+                  zorder=3)
         posterior = True
+        codes = verdict_codes(region, x, verdicts, ((0, 0), np.zeros(1)))
+        for code in sorted(set(codes.tolist())):   # the histogram split by verdict
+            sel = codes == code
+            part, _ = np.histogram(x[sel, 0], bins=edges, weights=None if w is None else w[sel])
+            ax.stairs(scale * part, edges, fill=True, color=tint(VERDICT_COLOURS[code], 0.35),
+                      gid=f"posterior-{VERDICT_NAMES[code]}", zorder=2.5)
+            present[code] = verdict_text(code, region)
     ax.set_xlim(*xlim)
     ax.set_ylim(0.0, 1.0)
     ax.set_yticks([])
@@ -153,7 +164,8 @@ def region_figure_1d(region: Region, samples: Any, weights: Any,
     labels = between_labels(region)
     ax.legend(handles=legend_handles(between=labels[0] if between else None,
                                      inner=labels[1] if between else None,
-                                     bands=bool(band_map), posterior_hist=posterior),
+                                     bands=bool(band_map), posterior_hist=posterior,
+                                     verdicts=present),
               loc="upper left",
               bbox_to_anchor=(1.01, 1.0), fontsize=7.5, frameon=False)
     return fig

@@ -158,7 +158,7 @@ def region_figure(region: Region, *, samples: Any = None, weights: Any = None,
     if region.dim == 1:
         from eftsieve.report.plot_line import region_figure_1d
 
-        return region_figure_1d(region, samples, weights, bands, limits, title)
+        return region_figure_1d(region, samples, weights, bands, limits, title, verdicts)
     if is_cone(region) and region.dim >= 3 and slice_at is None and view is None:
         from eftsieve.report.plot_cone import cone_slice_figure
 
