@@ -26,7 +26,8 @@ ENGINES = ("local", "dask")
 def run_check(fit: Fit, region: Region, settings: CheckSettings | None = None,
               outdir: Path | None = None, region_path: str | None = None,
               uncertainty: Any = None, *, engine: str = "local",
-              scheduler: str | None = None, **dask_options: Any) -> CheckResult:
+              scheduler: str | None = None, progress: Any = None,
+              **dask_options: Any) -> CheckResult:
     """Classify the fit against the region and compute the statistics.
 
     Parameters
@@ -46,6 +47,9 @@ def run_check(fit: Fit, region: Region, settings: CheckSettings | None = None,
     engine
         ``local`` (this process) or ``dask`` (one task per partition); both give the same
         result bit for bit.
+    progress
+        For ``local`` only: an object with ``start(total_rows or None)`` and
+        ``update(rows)`` told of every block classified (a progress bar), or None.
     scheduler, dask_options
         For ``dask`` only: the scheduler address (None: a local cluster), ``retries``,
         ``partition_timeout``, ``hook``.
@@ -57,7 +61,8 @@ def run_check(fit: Fit, region: Region, settings: CheckSettings | None = None,
                              "add --engine dask, or drop --scheduler")
         from eftsieve.check.engines.local import local_check
 
-        return local_check(fit, region, settings, outdir, region_path, uncertainty=uncertainty)
+        return local_check(fit, region, settings, outdir, region_path, uncertainty=uncertainty,
+                           progress=progress)
     if engine == "dask":
         from eftsieve.check.engines.dask import dask_check
 

@@ -144,8 +144,17 @@ def cmd_check_one(args: argparse.Namespace) -> int:
         if args.region is None:  # built and saved into the set: record its final place
             rpath = str(outdir / "region.json")
         flag_dir = stage if (not fit.is_gaussian or args.flagged) else None
-        result = run_check(fit, region, settings, flag_dir, rpath, unc,
-                           engine=args.engine or "local", scheduler=args.scheduler)
+        from eftsieve.cli.progress import progress_for
+
+        bar = progress_for(args.quiet, args.json) if (args.engine or "local") == "local" \
+            else None
+        try:
+            result = run_check(fit, region, settings, flag_dir, rpath, unc,
+                               engine=args.engine or "local", scheduler=args.scheduler,
+                               progress=bar)
+        finally:
+            if bar is not None:
+                bar.close()
         written = write_check_outputs(fit, result, stage, plots=not args.no_plots)
     if args.json:
         import json

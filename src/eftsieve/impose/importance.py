@@ -243,7 +243,10 @@ def importance_refit(smooth: Callable[[np.ndarray], np.ndarray], a: np.ndarray,
     why = ""
     for lam in INFLATIONS:
         try:
-            draws = sample_truncated_normal(m, lam * cov, a, b, n, rng=rng).samples
+            if len(b):
+                draws = sample_truncated_normal(m, lam * cov, a, b, n, rng=rng).samples
+            else:  # no constraint at all (normal priors, no region)
+                draws = m + rng.standard_normal((n, len(m))) @ np.linalg.cholesky(lam * cov).T
         except EftsieveError as err:
             return None, f"the truncated proposal failed: {err}"
         logw = smooth(draws) - _log_normal(draws, m, lam * cov)
@@ -315,16 +318,44 @@ def refit_by_importance(fit: Any, region: Any, cmap: Any,
     sample, why = importance_refit(smooth, a, b, box, uniform, x0, n, rng)
     if sample is None:
         return None, why
-    w = sample.weights
-    ess = sample.ess
-    figures = {"mode": "refit", "n_samples": int(len(sample.x)), "ess": float(ess),
-               "ess_per_parameter": {nm: float(ess) for nm in names},
+    # like with like: the same prior, data and likelihood without the region
+    n_box = int(uniform.sum())
+    a_free = np.vstack([np.eye(k)[uniform], -np.eye(k)[uniform]])
+    b_free = np.concatenate([lo[uniform], -hi[uniform]])
+    smooth_free = smooth if soft is None else _without(smooth, soft)
+    free, why_free = importance_refit(smooth_free, a_free if n_box else np.zeros((0, k)),
+                                      b_free, box, uniform, x0, n, rng)
+    if free is None:
+        return None, f"without positivity: {why_free}"
+    a_reg, b_reg = cmap.pull_back(*region.arrays())
+    inside = ((free.x @ a_reg.T - b_reg) >= 0).all(axis=1)
+    p_in = float(free.weights[inside].sum())
+    p_err = float(np.sqrt(max(p_in * (1 - p_in), 1.0 / free.ess) / max(free.ess, 1.0)))
+    figures = {"mode": "refit", "n_samples": int(len(sample.x)), "ess": float(sample.ess),
+               "ess_per_parameter": {nm: float(sample.ess) for nm in names},
                "acceptance": None, "tau": {}, "converged": True, "n_steps": None,
                "walkers": None, "discard": 0, "thin": 1, "likelihood": label,
                "convergence_rule": f"importance sampling: ESS/N >= {MIN_ESS_FRACTION:g}, no "
                                    f"weight above {MAX_WEIGHT_SHARE:g} of the total, "
-                                   f"Pareto k-hat <= {MAX_PARETO_K:g}",
-               "p_inside_before": None, **sample.to_dict()}
-    bx, bw = before if before is not None else (sample.x, w)
-    res = ImposeResult("refit", fit.names, sample.x, w, bx, bw, figures)
+                                   f"Pareto k-hat <= {MAX_PARETO_K:g}, both samples",
+               "comparison": "the same prior, data and likelihood without positivity "
+                             "(a second importance sample of the same size)",
+               "converged_without_positivity": True,
+               "ess_without_positivity": float(free.ess),
+               "p_inside_before": p_in, "p_inside_before_err": p_err, **sample.to_dict()}
+    from eftsieve.impose.core import moments
+
+    if before is not None:
+        figures["card"] = moments(before[0], before[1], fit.names)
+    res = ImposeResult("refit", fit.names, sample.x, sample.weights, free.x, free.weights,
+                       figures)
     return with_moments(res, np.arange(len(sample.x))), ""
+
+
+def _without(smooth: Callable[[np.ndarray], np.ndarray],
+             soft: Callable[[np.ndarray], np.ndarray]) -> Callable[[np.ndarray], np.ndarray]:
+    """``smooth`` without the soft truncation's log P(x)."""
+    def free(x: np.ndarray) -> np.ndarray:
+        out = smooth(x) - soft(x)
+        return np.where(np.isfinite(out), out, -np.inf)
+    return free

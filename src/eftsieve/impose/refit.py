@@ -14,6 +14,12 @@ By default the refit first tries importance sampling from an exact truncated Lap
 proposal (:mod:`eftsieve.impose.importance`: i.i.d. weighted draws, Kish ESS), and runs
 the MCMC below only when those weights are refused (``ImposeSettings.sampler``).
 
+
+What positivity changes is shown like with like: a second chain samples the same
+prior, data and likelihood without the region, and the report compares the two (the
+fit card's own summary, which may rest on other data, is only a reference column).
+
+
 MCMC walkers start at the region's Chebyshev centre (an LP) plus a small ball, all inside
 the region and the prior support.  emcee: Foreman-Mackey et al., PASP 125 (2013) 306,
 arXiv:1202.3665; integrated autocorrelation times by its ``get_autocorr_time``
@@ -167,9 +173,15 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
               likelihood_label: str,
               before: tuple[np.ndarray, np.ndarray | None] | None = None,
               soft: Callable[[np.ndarray], np.ndarray] | None = None) -> ImposeResult:
-    """emcee refit with the truncated prior; reports acceptance, tau and ESS.
+    """emcee refit with the truncated prior, and the same refit without positivity.
 
-    ``soft`` (log P(x) of a theory-uncertainty model) replaces the hard indicator.
+    Two chains of the same length, walkers and start share the prior, the data and the
+    likelihood; only the first has the region's indicator (or, with ``soft``, log P(x)
+    of a theory-uncertainty model).  The second is the comparison ("without
+    positivity"): ``before_samples`` of the result, its moments ``figures["before"]``,
+    and the fraction of it inside the region ``p_inside_before``.  ``before`` (the fit
+    card's own samples, which may come from other data) is kept only as a reference,
+    ``figures["card"]``.  Both chains must pass the convergence rule for ``converged``.
     """
     import emcee
 
@@ -195,27 +207,36 @@ def run_refit(fit: Fit, region: Region, cmap: CoordinateMap,
     logprior = log_prior_fn(fit)
     a, b = region.arrays()
 
-    def logpost(x: np.ndarray) -> np.ndarray:
-        lp = logprior(x)
-        if soft is None:
-            inside = ((cmap(x) @ a.T - b) >= 0).all(axis=1)
-            lp[~inside] = -np.inf
-        else:
-            lp = lp + soft(x)
-        ok = np.isfinite(lp)
-        out = np.full(len(x), -np.inf)
-        if ok.any():
-            out[ok] = lp[ok] + loglike(x[ok])
-        return out
+    def inside(x: np.ndarray) -> np.ndarray:
+        return np.asarray(((cmap(x) @ a.T - b) >= 0).all(axis=1))
+
+    def make_logpost(with_bounds: bool) -> Callable[[np.ndarray], np.ndarray]:
+        def logpost(x: np.ndarray) -> np.ndarray:
+            lp = logprior(x)
+            if with_bounds and soft is None:
+                lp[~inside(x)] = -np.inf
+            elif with_bounds and soft is not None:
+                lp = lp + soft(x)
+            ok = np.isfinite(lp)
+            out = np.full(len(x), -np.inf)
+            if ok.any():
+                out[ok] = lp[ok] + loglike(x[ok])
+            return out
+        return logpost
 
     rng = np.random.default_rng(settings.seed)
     x0, r = start_point(fit, region, cmap, logprior)
-    p0 = _ball(x0, r, settings.walkers, rng, logpost)
-    sampler = emcee.EnsembleSampler(settings.walkers, len(x0), logpost, vectorize=True)
-    # emcee draws its moves from a legacy RandomState: seed it from our generator
-    sampler.random_state = np.random.RandomState(int(rng.integers(2**31))).get_state()
-    sampler.run_mcmc(p0, settings.n_samples, progress=settings.progress)
-    res = _refit_result(fit, sampler, settings, likelihood_label, before)
+    p0 = _ball(x0, r, settings.walkers, rng, make_logpost(True))
+    chains = []
+    for with_bounds in (True, False):
+        sampler = emcee.EnsembleSampler(settings.walkers, len(x0), make_logpost(with_bounds),
+                                        vectorize=True)
+        # emcee draws its moves from a legacy RandomState: seed it from our generator
+        sampler.random_state = np.random.RandomState(int(rng.integers(2**31))).get_state()
+        sampler.run_mcmc(p0, settings.n_samples, progress=settings.progress)
+        chains.append(_chain_figures(fit, sampler, settings,
+                                     "with" if with_bounds else "without"))
+    res = _refit_result(fit, chains, settings, likelihood_label, before, inside)
     if soft is not None:
         res.figures["truncation"] = "soft"
     return res
@@ -235,28 +256,54 @@ def _ball(x0, r, n, rng, logpost) -> np.ndarray:
                         "check the prior support and the region")
 
 
-def _refit_result(fit: Fit, sampler, settings: ImposeSettings, label: str,
-                  before: tuple[np.ndarray, np.ndarray | None] | None) -> ImposeResult:
+def _chain_figures(fit: Fit, sampler: Any, settings: ImposeSettings,
+                   which: str) -> dict[str, Any]:
+    """The thinned chain after burn-in, its autocorrelation times, ESS and convergence."""
     n_steps = settings.n_samples
     tau = np.asarray(sampler.get_autocorr_time(tol=0), dtype=float)
     tau_max = float(np.nanmax(tau)) if np.isfinite(tau).any() else math.inf
     converged = bool(np.isfinite(tau_max) and n_steps >= MIN_TAU_MULTIPLE * tau_max)
     if not converged:
-        warnings.warn(f"chain of {n_steps} steps is shorter than {MIN_TAU_MULTIPLE} "
-                      f"autocorrelation times (tau_max = {tau_max:.1f}): not converged; "
-                      "run longer with --samples", ConvergenceWarning, stacklevel=2)
+        warnings.warn(f"chain {which} positivity: {n_steps} steps is shorter than "
+                      f"{MIN_TAU_MULTIPLE} autocorrelation times (tau_max = {tau_max:.1f}): "
+                      "not converged; run longer with --samples", ConvergenceWarning,
+                      stacklevel=3)
     discard = int(min(n_steps // 2, math.ceil(2 * tau_max))) if np.isfinite(tau_max) else 0
     thin = max(1, int(tau_max // 2)) if np.isfinite(tau_max) else 1
-    chain = sampler.get_chain(discard=discard, thin=thin, flat=True)
-    n_eff = settings.walkers * (n_steps - discard) / tau
-    summary = {"mode": "refit", "n_samples": int(len(chain)), "ess": float(np.min(n_eff)),
-               "ess_per_parameter": dict(zip(fit.names, map(float, n_eff), strict=True)),
-               "acceptance": float(np.mean(sampler.acceptance_fraction)),
-               "tau": dict(zip(fit.names, map(float, tau), strict=True)),
-               "converged": converged, "n_steps": n_steps, "walkers": settings.walkers,
-               "discard": discard, "thin": thin, "likelihood": label,
-               "convergence_rule": f"steps >= {MIN_TAU_MULTIPLE} x max tau",
-               "p_inside_before": None}
-    bx, bw = before if before is not None else (chain, None)
-    return with_moments(ImposeResult("refit", fit.names, chain, None, bx, bw, summary),
-                         np.arange(len(chain)))
+    return {"chain": sampler.get_chain(discard=discard, thin=thin, flat=True),
+            "tau": tau, "converged": converged, "discard": discard, "thin": thin,
+            "n_eff": settings.walkers * (n_steps - discard) / tau,
+            "acceptance": float(np.mean(sampler.acceptance_fraction))}
+
+
+def _refit_result(fit: Fit, chains: list[dict[str, Any]], settings: ImposeSettings,
+                  label: str, card: tuple[np.ndarray, np.ndarray | None] | None,
+                  inside: Callable[[np.ndarray], np.ndarray]) -> ImposeResult:
+    """The ImposeResult of the chain with positivity against the chain without."""
+    from eftsieve.impose.core import moments
+
+    on, off = chains
+    chain, free = on["chain"], off["chain"]
+    p_in = float(inside(free).mean())
+    ess_free = float(np.min(off["n_eff"]))
+    summary = {"mode": "refit", "n_samples": int(len(chain)), "ess": float(np.min(on["n_eff"])),
+               "ess_per_parameter": dict(zip(fit.names, map(float, on["n_eff"]), strict=True)),
+               "acceptance": on["acceptance"],
+               "tau": dict(zip(fit.names, map(float, on["tau"]), strict=True)),
+               "converged": bool(on["converged"] and off["converged"]),
+               "n_steps": settings.n_samples, "walkers": settings.walkers,
+               "discard": on["discard"], "thin": on["thin"], "likelihood": label,
+               "convergence_rule": f"steps >= {MIN_TAU_MULTIPLE} x max tau, both chains",
+               "comparison": "the same prior, data and likelihood without positivity "
+                             "(a second chain of the same length)",
+               "tau_without_positivity": dict(zip(fit.names, map(float, off["tau"]),
+                                                  strict=True)),
+               "converged_without_positivity": bool(off["converged"]),
+               "acceptance_without_positivity": off["acceptance"],
+               "p_inside_before": p_in,
+               "p_inside_before_err": float(np.sqrt(max(p_in * (1 - p_in), 1.0 / ess_free)
+                                                    / max(ess_free, 1.0)))}
+    if card is not None:
+        summary["card"] = moments(card[0], card[1], fit.names)
+    return with_moments(ImposeResult("refit", fit.names, chain, None, free, None, summary),
+                        np.arange(len(chain)))

@@ -34,7 +34,7 @@ def impose_banner(result: ImposeResult) -> Banner:
     ``not converged`` (a refit that failed its convergence rule)."""
     f = result.figures
     p = f.get("p_inside_before")
-    ptext = "" if p is None else f"; p_inside before the truncation = {fmt_prob(p)}"
+    ptext = "" if p is None else f"; p_inside without positivity = {fmt_prob(p)}"
     n = f.get("n_samples", len(result.samples))
     if not result.converged:
         return Banner("not converged", f"the refit chain is not converged by the stated "
@@ -47,25 +47,39 @@ def impose_banner(result: ImposeResult) -> Banner:
     return Banner("imposed", f"positivity imposed ({result.mode}, {n} samples){ptext}")
 
 
+#: what "without positivity" is in each mode (the same data and likelihood throughout)
+WITHOUT_TEXT = {
+    "reweight": "the fit's own posterior samples",
+    "exact": "the fit's own Gaussian",
+    "refit": "a second chain with the same prior, data and likelihood, without the region",
+}
+
+
 def posterior_block(result: ImposeResult) -> list:
-    """Per parameter before -> after, and the truncated covariance."""
+    """Per parameter without -> with positivity (same data and likelihood), the fit
+    card's own summary as a reference for a refit, and the truncated covariance."""
     post = result.posterior
     before = result.figures.get("before", {})
+    card = result.figures.get("card")
     rows = []
     for p in post.parameters:
         b = before.get(p.name)
-        rows.append((p.name, "" if b is None else fmt_pm(b["mean"], b["std"]),
+        ref = () if card is None else (fmt_pm(card[p.name]["mean"], card[p.name]["std"]),)
+        rows.append((p.name, *ref, "" if b is None else fmt_pm(b["mean"], b["std"]),
                      fmt_pm(p.mean, p.std),
                      *(f"[{fmt_num(lo, 4)}, {fmt_num(hi, 4)}]"
                        for lo, hi in p.intervals.values())))
+    ref_head = () if card is None else ("fit card (reference; may rest on other data)",)
     names = tuple(p.name for p in post.parameters)
     cov = tuple((n, *(fmt_num(v, 4) for v in row))
                 for n, row in zip(names, post.covariance, strict=True))
     return [Heading("With positivity imposed"),
-            Table(("parameter", "before (mean +- sd)", "after (mean +- sd)", "68% interval",
-                   "95% interval"), tuple(rows)),
-            Para("Intervals are central (equal tails), from the weighted sample quantiles. "
-                 "Truncated covariance:"),
+            Table(("parameter", *ref_head, "without positivity (mean +- sd)",
+                   "with positivity (mean +- sd)", "68% interval", "95% interval"),
+                  tuple(rows)),
+            Para(f"Without positivity: {WITHOUT_TEXT[result.mode]}; with positivity: the "
+                 "same, truncated to the region. Intervals (with positivity) are central "
+                 "(equal tails), from the weighted sample quantiles. Truncated covariance:"),
             Table(("", *names), cov)]
 
 
@@ -73,7 +87,7 @@ def diagnostics_block(result: ImposeResult) -> list:
     s = result.figures
     rows = [("samples", str(s["n_samples"])), ("effective sample size", fmt_num(s["ess"], 5)),
             ("acceptance", fmt_num(s.get("acceptance"))),
-            ("P(inside) before", fmt_prob(s.get("p_inside_before")))]
+            ("P(inside) without positivity", fmt_prob(s.get("p_inside_before")))]
     if result.mode == "reweight":
         rows += [("rows read", str(s["n_read"])), ("rows dropped (outside)", str(s["n_dropped"]))]
         if s.get("tau_rows") is not None:
@@ -87,6 +101,9 @@ def diagnostics_block(result: ImposeResult) -> list:
                                                      for k, v in s["tau"].items())),
                  ("converged", f"{'yes' if s['converged'] else 'no'} "
                                f"({s['convergence_rule']})"),
+                 ("autocorrelation times without positivity",
+                  ", ".join(f"{k}: {fmt_num(v)}"
+                            for k, v in s.get("tau_without_positivity", {}).items())),
                  ("likelihood", s["likelihood"])]
     return [Heading("Mode and diagnostics"), Para(f"`{result.mode}`: {MODE_TEXT[result.mode]}."),
             Table(("quantity", "value"), tuple(rows))]
@@ -103,7 +120,8 @@ def impose_document(fit: Fit, region: Region, result: ImposeResult,
                          f"hash `{region.hash[:16]}`.")))
     doc.add(*posterior_block(result), *diagnostics_block(result))
     if "corner" in images:
-        doc.add(Image(images["corner"], "corner plot before and after"))
+        doc.add(Image(images["corner"], "corner plot without and with positivity "
+                      "(same data and likelihood)"))
     doc.add(*fit_block(fit), *region_block(region), *cautions_block(region.theory),
             *references_block(region.theory))
     return doc

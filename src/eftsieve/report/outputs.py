@@ -73,16 +73,23 @@ def write_check_outputs(fit: Fit, result: CheckResult, outdir: str | Path, *,
 
 def check_plots(result: CheckResult, fit: Fit, outdir: Path) -> dict[str, Path]:
     """region.png and corner.png of a check; returns the written paths."""
+    from eftsieve.check.verdicts import classify
+    from eftsieve.report.plot_base import is_cone
     from eftsieve.report.plots import save_corner, save_region_plot
 
     region = result.region
     images: dict[str, Path] = {}
-    if region.dim in (1, 2) and len(result.plot_region_coords):
+    if (region.dim in (1, 2) or is_cone(region)) and len(result.plot_region_coords):
         tu = result.summary.get("theory_uncertainty")
         bands = (None if not tu else dict(enumerate(tu["model"]["sigma_median"])))
+        codes = classify(result.plot_region_coords, region, result.band).verdict
+        view = plot_view(result, fit) if region.dim == 2 else None
+        samples = (result.plot_region_coords if view is None
+                   else result.plot_samples[:, list(view[1])])
         images["region"] = save_region_plot(region, outdir / "region.png",
-                                            samples=result.plot_region_coords,
-                                            weights=result.plot_weights, bands=bands)
+                                            samples=samples, weights=result.plot_weights,
+                                            verdicts=codes, bands=bands,
+                                            view=None if view is None else view[0])
     # corner in region coordinates for the constrained parameters, the rest as they are
     cmap_cols = region_columns(result.summary["coordinate_map"]["jacobian"])
     data = result.plot_samples.copy()
@@ -98,6 +105,32 @@ def check_plots(result: CheckResult, fit: Fit, outdir: Path) -> dict[str, Path]:
                                        weights=result.plot_weights, region=region,
                                        region_coords=cmap_cols)
     return images
+
+
+def plot_view(result: CheckResult, fit: Fit) -> tuple[Any, tuple[int, int]] | None:
+    """Axes in the fit's convention when its two columns map onto the region's two
+    coordinates by an invertible affine map other than the identity; else None."""
+    from eftsieve.report.plot_base import PlotView
+
+    cmap = result.coordinate_map
+    if not cmap.is_affine or cmap.jacobian is None:
+        return None
+    jac = np.asarray(cmap.jacobian, dtype=float)
+    cols = tuple(int(c) for c in np.flatnonzero(np.abs(jac).sum(axis=0) > 0))
+    if len(cols) != 2 or jac.shape[0] != 2:
+        return None
+    block = jac[:, list(cols)]
+    shift = np.zeros(2) if cmap.shift is None else np.asarray(cmap.shift, dtype=float)
+    names = (fit.names[cols[0]], fit.names[cols[1]])
+    if abs(np.linalg.det(block)) <= 1e-300 or (
+            np.allclose(block, np.eye(2)) and not shift.any()
+            and names == tuple(result.region.coordinates)):
+        return None
+    conv = fit.parameters[cols[0]].convention
+    text = conv.name + (f" at {', '.join(f'{k[:-4]} = {v:g} MeV' for k, v in conv.values)}"
+                        if conv.values else "")
+    return PlotView(names, block, shift, f"axes in the fit's convention, {text}"), \
+        (cols[0], cols[1])
 
 
 def plotted_columns(n: int, constrained: dict[int, int]) -> list[int]:
@@ -226,4 +259,5 @@ def impose_corner(result: ImposeResult, fit: Fit, region: Region,
                        else result.before_weights[:keep],
                        region=region, region_coords=cols, overlay=after[:CORNER_ROWS],
                        overlay_weights=None if result.weights is None
-                       else result.weights[:CORNER_ROWS], labels=("before", "after positivity"))
+                       else result.weights[:CORNER_ROWS],
+                       labels=("without positivity", "with positivity"))

@@ -89,6 +89,11 @@ class Theory(ABC):
     matchings: dict[str, str] = {}
     #: whether a region build can use an executor for independent solves
     parallel_build: bool = False
+    #: a window of typical values per region coordinate (by name, in that coordinate's
+    #: convention), shown by the region plot when no fit is given; each theory cites it
+    typical_window: dict[str, tuple[float, float]] = {}
+    #: the unit of the region coordinates on plot axes ("1": dimensionless; None: unstated)
+    coordinate_unit: str | None = None
 
     @property
     def conventions(self) -> tuple[str, ...]:

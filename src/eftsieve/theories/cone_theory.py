@@ -55,6 +55,8 @@ class ConeTheory(Theory):
     cautions = CONE_CAUTIONS
     kinematic_inputs: dict[str, tuple[str, float | None]] = {}
     families = CONE_FAMILIES
+    #: a cone is unchanged by a common rescaling, so a window about the apex shows it all
+    coordinate_unit = "common unit, e.g. TeV$^{-4}$"
     #: the operators' modes and densities, coefficient name -> density
     modes: ModeSet
     operators: Mapping[str, Density] = {}

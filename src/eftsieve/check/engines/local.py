@@ -30,7 +30,8 @@ from eftsieve.region.model import Region
 
 
 def local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | None,
-                region_path: str | None = None, *, uncertainty: Any = None) -> CheckResult:
+                region_path: str | None = None, *, uncertainty: Any = None,
+                progress: Any = None) -> CheckResult:
     """Check a fit in this process in the canonical block order.
 
     Parameters
@@ -48,6 +49,8 @@ def local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path 
         The region file, recorded in the result.
     uncertainty
         An :class:`eftsieve.stats.truncation.UncertaintySettings`, or None.
+    progress
+        None, or an object with ``start(total_rows or None)`` and ``update(rows)``.
 
     Returns
     -------
@@ -55,20 +58,32 @@ def local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path 
         With ``engine`` naming this engine and its partitions.
     """
     with blas_threads(settings.blas_threads):
-        return _local_check(fit, region, settings, outdir, region_path, uncertainty)
+        return _local_check(fit, region, settings, outdir, region_path, uncertainty, progress)
 
 
 def _local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path | None,
-                 region_path: str | None, uncertainty: Any) -> CheckResult:
+                 region_path: str | None, uncertainty: Any, progress: Any = None) -> CheckResult:
     prep = prepare(fit, region, settings, uncertainty)
     parts = prep.source.file_parts()
+    if progress is not None:
+        sizes = [p.n_rows for p in parts]
+        progress.start(None if None in sizes else sum(s for s in sizes if s is not None))
     with flagged_output(outdir, fit, region, settings.flagged_format,
                          settings.flagged_margins, prep.cmap) as flagged:
         merger = CheckMerger(fit, region, settings, parts, flagged, prep.source.weighted)
         for part in parts:
             job = PartitionJob(part, fit, prep.source, region, prep.cmap, settings,
                                flagged is not None, prep.uncertainty)
-            res = run_partition(job, sink=merger.add_block)
+            res = run_partition(job, sink=merger.add_block if progress is None
+                                else _counted(merger.add_block, progress))
             merger.end_partition(part.index, part.start, res.n_rows)
         result = merger.result(prep.cmap, region_path, {"name": "local", "workers": 1})
     return finish(result, prep, merger.acc)
+
+
+def _counted(sink: Any, progress: Any) -> Any:
+    """``sink`` that also tells ``progress`` how many rows each block held."""
+    def add(block: Any) -> None:
+        sink(block)
+        progress.update(block.n)
+    return add

@@ -259,6 +259,12 @@ class ChptSU2(Theory):
     summary = "one-loop SU(2) ChPT pi-pi scattering; positivity bounds on lbar1, lbar2"
     parameter_names = ("lbar1", "lbar2", "lbar3", "lbar4", "l1", "l2", "l3", "l4")
     coordinates = ("lbar1", "lbar2")
+    #: around lbar1 = -0.4 +- 0.6, lbar2 = 4.3 +- 0.1 (Colangelo, Gasser & Leutwyler,
+    #: hep-ph/0103088; from memory) and l1r ~ -4e-3, l2r ~ 2e-3 at mu = 770 MeV
+    #: (Bijnens & Ecker, arXiv:1405.6488; from memory), with room for the bounds
+    typical_window = {"lbar1": (-3.0, 3.0), "lbar2": (0.0, 6.0), "l1": (-0.012, 0.006),
+                      "l2": (-0.004, 0.008)}
+    coordinate_unit = "1"
     convention_specs = CONVENTIONS
     setting_names = ("families", "pion_masses_mev", "pion_mass_mev", "fpi_mev",
                      "convention", "mu_mev", "grid", "truncation", "heavy_scale_mev")

@@ -270,6 +270,10 @@ class ChptSU3(Theory):
     summary = "one-loop SU(3) ChPT meson-meson scattering; positivity bounds on L1, L2, L3"
     parameter_names = tuple(f"L{i}" for i in range(1, 9)) + tuple(f"L{i}r" for i in range(1, 9))
     coordinates = COORDINATES
+    #: L1r ~ 0.5e-3, L2r ~ 0.8e-3, L3r ~ -3.1e-3 at mu = 770 MeV (Bijnens & Ecker,
+    #: arXiv:1405.6488, BE14 fit; from memory), with room for the bounds
+    typical_window = {"L1": (-2e-3, 3e-3), "L2": (-2e-3, 3e-3), "L3": (-6e-3, 2e-3)}
+    coordinate_unit = "1"
     convention_specs = {CONVENTION: ConventionSpec(
         CONVENTION, (("mu_mev", "its renormalisation scale"),),
         "SU(3) L_i^r(mu) at mu = {mu_mev:g} MeV")}

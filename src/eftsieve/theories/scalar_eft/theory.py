@@ -309,6 +309,9 @@ class ScalarEFT(Theory):
                "g_k M^(2k-4)/g2 from twice-subtracted dispersion relations and null constraints")
     parameter_names = _listed_names()[0] + _listed_names()[1]
     coordinates = ("g3t", "g4t")
+    #: -10.346 <= g3t <= 3 and 0 <= g4t <= 1 (Caron-Huot & Van Duong, arXiv:2011.02957;
+    #: from memory), with room on both sides
+    typical_window = {"g3t": (-12.0, 5.0), "g4t": (-0.2, 1.2)}
     convention_specs = CONVENTIONS
     kinematic_inputs = {"gap_mev": ("mass gap M of the heavy states (MeV); needed by the "
                                     "dimensionful convention", None)}

@@ -1,0 +1,70 @@
+"""A progress bar for long checks: shown on a terminal only, and only after a delay.
+
+:class:`DelayedBar` is told the total number of rows (when known) and every block
+classified; it opens a tqdm bar on stderr once the check has run for
+:data:`DELAY_S` seconds, so short checks print nothing extra.  The CLI enables it only
+when stderr is a terminal and neither ``--quiet`` nor ``--json`` is given.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from typing import Any, TextIO
+
+#: seconds a check runs before its progress bar appears
+DELAY_S = 2.0
+
+
+class DelayedBar:
+    """Rows classified so far, shown as a tqdm bar after :data:`DELAY_S` seconds.
+
+    Parameters
+    ----------
+    delay
+        Seconds before the bar appears.
+    stream
+        Where the bar is drawn (stderr by default).
+    clock
+        A monotonic clock (for tests).
+    """
+
+    def __init__(self, delay: float = DELAY_S, stream: TextIO | None = None,
+                 clock: Any = time.monotonic) -> None:
+        self.delay = delay
+        self.stream = stream if stream is not None else sys.stderr
+        self.clock = clock
+        self.total: int | None = None
+        self.done = 0
+        self.bar: Any = None
+        self.t0 = clock()
+
+    def start(self, total: int | None) -> None:
+        """The check begins; ``total`` rows (None when a file does not say)."""
+        self.total, self.done, self.t0 = total, 0, self.clock()
+
+    def update(self, rows: int) -> None:
+        """``rows`` more rows classified."""
+        self.done += int(rows)
+        if self.bar is not None:
+            self.bar.update(int(rows))
+        elif self.clock() - self.t0 >= self.delay:
+            from tqdm import tqdm
+
+            self.bar = tqdm(total=self.total, initial=self.done, unit="rows",
+                            unit_scale=True, desc="checking", file=self.stream,
+                            leave=False, dynamic_ncols=True)
+
+    def close(self) -> None:
+        """Remove the bar (if it was shown)."""
+        if self.bar is not None:
+            self.bar.close()
+            self.bar = None
+
+
+def progress_for(quiet: bool, as_json: bool, stream: TextIO | None = None) -> DelayedBar | None:
+    """A delayed bar when ``stream`` (stderr) is a terminal and output is not suppressed."""
+    stream = stream if stream is not None else sys.stderr
+    if quiet or as_json or not getattr(stream, "isatty", lambda: False)():
+        return None
+    return DelayedBar(stream=stream)
