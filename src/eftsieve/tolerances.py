@@ -58,8 +58,10 @@ TINY_P_INSIDE = 1e-6
 #: Relative width at which an endpoint of a line's (or a slice's) allowed part, settled by
 #: bisection with the exact cone membership, counts as settled.
 LIMITS_SETTLE_RTOL = 1e-7
-#: A facet whose normal is this close to perpendicular to a line (relative) does not cut it.
-LIMITS_PARALLEL_TOL = 1e-12
+#: An outer facet whose unit normal has a component below this along a line (or a plane)
+#: does not cut it (dropping an outer facet only enlarges the outer set; cone facets carry
+#: solver noise of about 1e-8 in components that are zero).  Inner facets are all kept.
+LIMITS_PARALLEL_TOL = 1e-6
 #: A point whose smallest outer-facet margin, relative to its norm, is below this and that
 #: the exact test leaves undecided lies on the region's boundary (within solver accuracy).
 LIMITS_BOUNDARY_RTOL = 1e-6

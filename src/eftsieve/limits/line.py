@@ -32,6 +32,9 @@ INSIDE, MARGINAL, OUTSIDE = 0, 1, 2
 FACETS, BISECTION, BOUNDARY, UNDECIDED = "facets", "bisection", "boundary", "undecided"
 #: the start of the note of an end that stopped on the boundary
 ON_BOUNDARY = "on the boundary"
+#: inner facets are kept unless a component is at rounding level (dropping one would
+#: enlarge the surely allowed set)
+INNER_PARALLEL_TOL = 1e-12
 #: largest number of membership solves spent on one endpoint
 MAX_STEPS = 60
 
@@ -74,15 +77,16 @@ class LineCut:
                 "method": self.method, "notes": list(self.notes), "solves": self.solves}
 
 
-def facet_interval(a: np.ndarray, b: np.ndarray, p0: np.ndarray, v: np.ndarray
-                   ) -> Interval | None:
-    """{x : a (p0 + x v) >= b} for unit-norm rows ``a``; None when empty."""
+def facet_interval(a: np.ndarray, b: np.ndarray, p0: np.ndarray, v: np.ndarray,
+                   parallel_tol: float = LIMITS_PARALLEL_TOL) -> Interval | None:
+    """{x : a (p0 + x v) >= b} for unit-norm rows ``a``; None when empty.  Facets with
+    ``|a . v| <= parallel_tol |v|`` are taken as parallel to the line."""
     s = a @ v
     r = b - a @ p0
-    tol = LIMITS_PARALLEL_TOL * max(1.0, float(np.abs(v).max()))
+    tol = parallel_tol * float(np.linalg.norm(v))
     flat = np.abs(s) <= tol
     scale = max(1.0, float(np.abs(p0).max()), float(np.abs(b).max(initial=0.0)))
-    if np.any(r[flat] > LIMITS_PARALLEL_TOL * scale):
+    if np.any(r[flat] > max(parallel_tol, 1e-12) * scale):
         return None
     up, down = s > tol, s < -tol
     lo = float(np.max(r[up] / s[up])) if up.any() else -np.inf
@@ -198,7 +202,8 @@ def line_cut(region: Region, p0: np.ndarray, v: np.ndarray, *, exact: bool = Tru
     """
     p0, v = np.asarray(p0, dtype=float), np.asarray(v, dtype=float)
     outer = facet_interval(*region.arrays(), p0, v)
-    inner = facet_interval(*region.arrays(inner=True), p0, v) if outer is not None else None
+    inner = (facet_interval(*region.arrays(inner=True), p0, v, INNER_PARALLEL_TOL) if outer is not None
+             else None)
     if outer is None:
         return LineCut(None, None, FACETS)
     if inner is not None and inner == outer:
