@@ -100,27 +100,13 @@ class SignRule:
 def row_line(row: IntervalRow, region: Region) -> tuple[np.ndarray, np.ndarray]:
     """(p0, v): the row's line ``p0 + x v`` in the region's coordinates, through the
     theory's coordinate map with the row's convention."""
-    from eftsieve.fit.model import Fit, Parameter
-    from eftsieve.theories import coordinate_map
+    from eftsieve.limits.mapping import affine_into
 
     names = [row.coefficient, *row.others]
-    if row.coefficient in region.coordinates:
-        names += [c for c in region.coordinates if c not in names]
-    fit = Fit(row.label or row.coefficient, row.theory,
-              tuple(Parameter(n, row.convention) for n in names), dict(row.kinematics),
-              source=None)
-    cmap = coordinate_map(fit, region)
-    x0 = np.array([0.0] + [row.others.get(n, 0.0) for n in names[1:]])
-    e = np.zeros(len(names))
-    e[0] = 1.0
-    if cmap.is_affine:
-        p0 = cmap(x0[None, :])[0]
-        return p0, cmap(e[None, :] + x0[None, :])[0] - p0
-    from eftsieve.errors import InputError
-
-    raise InputError(None, "coordinate map", f"the map of {row.coefficient} onto the region "
-                     "is not affine, so a published interval is not a straight line there",
-                     "use a region in the coefficients' own basis")
+    jac, shift = affine_into(region, row.theory, row.convention, names, row.kinematics,
+                             row.label)
+    x0 = np.array([0.0] + [row.others[n] for n in names[1:]])
+    return jac @ x0 + shift, jac[:, 0]
 
 
 def _intersect(a: tuple[float, float] | None, lo: float, hi: float

@@ -340,3 +340,41 @@ def _classify_gaussian(table: HepTable, names: Sequence[str]) -> HepTable:
                          "table of two coefficient names must hold a covariance or a "
                          "correlation", "name the quantity 'covariance' or 'correlation'")
     return replace(table, layout=kind)
+
+
+def gaussian_fit(path: Path, tables: Sequence[HepTable], theory: Any, convention: Any) -> Any:
+    """A Gaussian :class:`~eftsieve.fit.model.Fit` from a record's ``central`` table and
+    its ``covariance`` or ``correlation`` table (uncorrelated errors without one)."""
+    from eftsieve.fit.model import Fit, Parameter, check_covariance
+
+    central = [t for t in tables if t.layout == "central"]
+    mats = [t for t in tables if t.layout in ("covariance", "correlation")]
+    for what, found in (("central-value", central), ("covariance", mats)):
+        if len(found) > 1:
+            raise InputError(path, "name", f"several {what} tables "
+                             f"({', '.join(repr(t.name) for t in found)})",
+                             "select one of each with --table")
+    c = central[0]
+    names = tuple(c.independent[0].values)
+    mean = np.asarray(c.dependent[0].values, dtype=float)
+    err = np.asarray(c.dependent[0].errors, dtype=float)
+    cov = np.diag(err ** 2)
+    if mats:
+        m = mats[0]
+        full = np.full((len(names), len(names)), np.nan)
+        for a, b, val in zip(m.independent[0].values, m.independent[1].values,
+                             m.dependent[0].values, strict=True):
+            if a not in names or b not in names:
+                raise InputError(m.path, "independent_variables.values", f"{a!r}/{b!r} has "
+                                 "no central value", f"the central table names {names}")
+            full[names.index(a), names.index(b)] = val
+        full = np.where(np.isnan(full), full.T, full)
+        if np.isnan(full).any():
+            raise InputError(m.path, "dependent_variables[0].values", "the matrix misses "
+                             "entries", "give every pair of coefficients (one triangle is "
+                             "enough)")
+        cov = full * np.outer(err, err) if m.layout == "correlation" else full
+        check_covariance(cov, len(names), m.path, "dependent_variables[0]")
+    params = tuple(Parameter(n, convention) for n in names)
+    return Fit(c.name, theory.name, params, {}, mean=mean, cov=cov, source=path,
+               extra={"hepdata_tables": [t.name for t in central + mats]})
