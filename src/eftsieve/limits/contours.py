@@ -10,7 +10,7 @@ coefficients), not a probability.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -48,12 +48,14 @@ class ContourResult:
     points: list[list[float]]
     truncated: list[list[float]]
     method: str
+    cut: PlaneCut | None = field(default=None, repr=False)
 
     def to_dict(self) -> dict[str, Any]:
         return {"table": self.table, "label": self.label,
                 "coefficients": list(self.coefficients), "area": self.area,
                 "fraction_inside": self.fraction_inside, "fraction_sure": self.fraction_sure,
-                "points": self.points, "truncated": self.truncated, "method": self.method}
+                "points": self.points, "truncated": self.truncated, "method": self.method,
+                "allowed_part": None if self.cut is None else self.cut.to_dict()}
 
 
 def contour_fraction(table: str, label: str, names: tuple[str, str], poly: np.ndarray,
@@ -68,4 +70,4 @@ def contour_fraction(table: str, label: str, names: tuple[str, str], poly: np.nd
     frac = polygon_area(clipped) / area if area > 0 else 0.0
     frac_sure = polygon_area(sure) / area if area > 0 else 0.0
     return ContourResult(table, label, names, area, float(frac), float(frac_sure),
-                         poly.tolist(), clipped.tolist(), cut.method)
+                         poly.tolist(), clipped.tolist(), cut.method, cut)

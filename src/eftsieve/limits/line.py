@@ -72,8 +72,10 @@ class LineCut:
     solves: int = 0
 
     def to_dict(self) -> dict[str, Any]:
-        return {"allowed": None if self.allowed is None else list(self.allowed),
-                "sure": None if self.sure is None else list(self.sure),
+        """JSON-able: an empty interval is null, an unbounded end is null."""
+        def ends(iv: Interval | None) -> list[float | None] | None:
+            return None if iv is None else [None if np.isinf(v) else float(v) for v in iv]
+        return {"allowed": ends(self.allowed), "sure": ends(self.sure),
                 "method": self.method, "notes": list(self.notes), "solves": self.solves}
 
 

@@ -81,9 +81,11 @@ class ScanResult:
     contours: dict[str, list[list[list[float]]]] = field(default_factory=dict)
     contours_before: dict[str, list[list[list[float]]]] = field(default_factory=dict)
     grid: dict[str, Any] = field(default_factory=dict, repr=False)
+    cut: Any = field(default=None, repr=False)
 
     def to_dict(self) -> dict[str, Any]:
         return {"table": self.table, "coefficients": list(self.coefficients),
+                "allowed_part": None if self.cut is None else self.cut.to_dict(),
                 "p_inside": self.p_inside, "p_inside_sure": self.p_inside_sure,
                 "intervals": self.intervals, "intervals_before": self.intervals_before,
                 "contours": self.contours, "contours_before": self.contours_before,
@@ -166,7 +168,7 @@ def scan_1d(table: str, name: str, x: np.ndarray, q: np.ndarray, cut: LineCut) -
     return ScanResult(table, (name,), p, p_sure, {name: hpd_sets(fine, dens * inside)},
                       {name: hpd_sets(fine, dens)},
                       flat_prior((name,), x[:1], x[-1:]), cut.method, numerics,
-                      grid={"x": fine, "density": dens, "inside": inside})
+                      grid={"x": fine, "density": dens, "inside": inside}, cut=cut)
 
 
 def _spline_2d(x: np.ndarray, y: np.ndarray, q: np.ndarray) -> Any:
@@ -265,4 +267,4 @@ def scan_2d(table: str, names: tuple[str, str], x: np.ndarray, y: np.ndarray, q:
                       flat_prior(names, np.array([x[0], y[0]]), np.array([x[-1], y[-1]])),
                       cut.method, numerics, contours, contours_before,
                       grid={"x": fx, "y": fy, "density": ndens, "inside": ntrunc > 0,
-                            "levels": lv_after, "levels_before": lv_before})
+                            "levels": lv_after, "levels_before": lv_before}, cut=cut)
