@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import warnings
 from pathlib import Path
 
@@ -37,7 +38,12 @@ def write_record(folder: Path, tables) -> Path:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", DeprecationWarning)
         warnings.simplefilter("ignore", ResourceWarning)
-        sub.create_files(str(folder), remove_old=True)
+        here = os.getcwd()
+        os.chdir(folder.parent)  # the archive submission.tar.gz is written to the cwd
+        try:
+            sub.create_files(str(folder), remove_old=True)
+        finally:
+            os.chdir(here)
         gc.collect()
     return folder / "submission.yaml"
 
