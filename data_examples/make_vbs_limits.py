@@ -23,7 +23,7 @@ THEORY, CONVENTION = "transverse-w", "none"
 LABEL = "INVENTED demo data: fictional experiment 'Borealis', not a measurement"
 #: invented one-coefficient 95% CL intervals, TeV^-4 (coefficient, low, high, others)
 INTERVALS = (("fT0", -0.34, 0.37, ""), ("fT1", -0.21, 0.24, ""), ("fT2", -0.55, 0.71, ""),
-             ("fT2", -0.62, -0.04, "fT0=0.1"), ("fT1", -0.30, 0.55, "fT0=-0.2"))
+             ("fT2", -0.62, -0.04, "fT0=0.1"), ("fT1", -0.30, 0.85, "fT0=-0.2"))
 
 
 def write_card(path: Path) -> None:

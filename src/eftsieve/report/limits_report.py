@@ -23,7 +23,7 @@ LIMITS_OUTPUTS = ("summary.json", "intervals.csv", "report.md", "report.html",
                   "intervals.png")
 #: how the ends of an allowed part were decided, for people
 METHOD_TEXT = {"facets": "facets (exact)", "bisection": "bisection (exact membership)",
-               "boundary": "on the cone's boundary", "undecided": "undecided"}
+               "boundary": "facets; the exact test reaches the boundary (solver accuracy)", "undecided": "undecided"}
 
 
 def _iv(iv: tuple[float, float] | None, digits: int = 3) -> str:
@@ -36,6 +36,11 @@ def _sets(sets: list[list[float]]) -> str:
     return " u ".join(_iv((a, b)) for a, b in sets) or "none"
 
 
+def how(t: TruncatedInterval) -> str:
+    """How a truncated interval was decided: an excluded one by the outer facets alone."""
+    return METHOD_TEXT["facets"] if t.allowed is None else METHOD_TEXT[t.cut.method]
+
+
 def interval_rows(rows: tuple[TruncatedInterval, ...]) -> tuple[tuple[str, ...], ...]:
     out = []
     for t in rows:
@@ -43,7 +48,7 @@ def interval_rows(rows: tuple[TruncatedInterval, ...]) -> tuple[tuple[str, ...],
         others = ", ".join(f"{k}={fmt_num(v)}" for k, v in r.others.items()) or "all 0"
         out.append((r.label or r.coefficient, r.coefficient, _iv((r.low, r.high)),
                     f"{fmt_num(100 * r.cl)}%", others, r.convention.name, _iv(t.allowed),
-                    fmt_num(t.fraction_allowed), t.status, METHOD_TEXT[t.cut.method], r.units,
+                    fmt_num(t.fraction_allowed), t.status, how(t), r.units,
                     r.source))
     return tuple(out)
 
@@ -168,12 +173,12 @@ def limits_lines(result: LimitsResult, outdir: Path | None = None) -> list[str]:
     b = banner(result)
     lines = [f"{b.label}: {b.text}"]
     if result.intervals:
-        head = f"  {'row':<16} {'published':>20} {'allowed part':>20} {'status':<10} how"
+        head = f"  {'row':<26} {'published':>16} {'allowed part':>16} {'status':<10} how"
         lines.append(head)
         for t in result.intervals:
-            lines.append(f"  {(t.row.label or t.row.coefficient)[:16]:<16} "
-                         f"{_iv((t.row.low, t.row.high)):>20} {_iv(t.allowed):>20} "
-                         f"{t.status:<10} {METHOD_TEXT[t.cut.method]}")
+            lines.append(f"  {(t.row.label or t.row.coefficient)[:26]:<26} "
+                         f"{_iv((t.row.low, t.row.high)):>16} {_iv(t.allowed):>16} "
+                         f"{t.status:<10} {how(t)}")
     for theory, rules in result.signs.items():
         lines.append(f"  signs alone ({theory}): " + "; ".join(s.text for s in rules))
     for s in result.scans:
