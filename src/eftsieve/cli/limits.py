@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from eftsieve.cli.args import csv_list, nonnegative_int, positive_int
+from eftsieve.fit.formats.hepdata import is_record
 
 if TYPE_CHECKING:
     from eftsieve.region.model import Region
@@ -49,12 +50,6 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("-q", "--quiet", action="store_true", help="print nothing but errors")
     p.set_defaults(func=cmd_limits)
     return p
-
-
-def is_record(path: Path) -> bool:
-    """A HEPData record: a submission.yaml or a folder holding one."""
-    return path.name == "submission.yaml" or (path.is_dir()
-                                              and (path / "submission.yaml").is_file())
 
 
 class _Regions:

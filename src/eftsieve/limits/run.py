@@ -175,33 +175,15 @@ def limits_from_record(path: str | Path, theory: str, convention: Convention,
                         notes=notes)
 
 
-def held_at_zero(fit: Any, region: Region) -> Any:
-    """A Gaussian fit of some of the region's coordinates, with the others added at zero
-    with zero variance (a Gaussian on a subspace: the record held them at zero)."""
-    from dataclasses import replace
-
-    from eftsieve.fit.model import Parameter
-
-    missing = [c for c in region.coordinates if c not in fit.names]
-    if not missing or not all(n in region.coordinates for n in fit.names):
-        return fit
-    conv = fit.parameters[0].convention
-    n, m = len(fit.names), len(missing)
-    cov = np.zeros((n + m, n + m))
-    cov[:n, :n] = fit.cov
-    return replace(fit, parameters=fit.parameters + tuple(Parameter(c, conv) for c in missing),
-                   mean=np.concatenate([fit.mean, np.zeros(m)]), cov=cov,
-                   extra={**fit.extra, "held_at_zero": missing})
-
-
 def _gaussian_check(path: str | Path, found: list[HepTable], th: Any, convention: Convention,
                     region: Region, draws: int, seed: int) -> dict[str, Any] | None:
     from eftsieve.api import check
-    from eftsieve.fit.formats.hepdata import gaussian_fit
+    from eftsieve.fit.formats.hepdata import gaussian_fit, held_at_zero
 
     if not any(t.layout == "central" for t in found):
         return None
-    fit = held_at_zero(gaussian_fit(Path(path), found, th, convention), region)
+    fit = held_at_zero(gaussian_fit(Path(path), found, th, convention),
+                       region.coordinates)
     res = check(fit, region, draws=draws, seed=seed)
     v = res.verdict
     return {"fit": fit.name, "parameters": list(fit.names),

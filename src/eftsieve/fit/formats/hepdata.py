@@ -378,3 +378,45 @@ def gaussian_fit(path: Path, tables: Sequence[HepTable], theory: Any, convention
     params = tuple(Parameter(n, convention) for n in names)
     return Fit(c.name, theory.name, params, {}, mean=mean, cov=cov, source=path,
                extra={"hepdata_tables": [t.name for t in central + mats]})
+
+
+def held_at_zero(fit: Any, coordinates: Sequence[str]) -> Any:
+    """A Gaussian fit of some of ``coordinates``, with the others added at zero with zero
+    variance (a Gaussian on a subspace: the record held them at zero)."""
+    from dataclasses import replace
+
+    from eftsieve.fit.model import Parameter
+
+    missing = [c for c in coordinates if c not in fit.names]
+    if not missing or not all(n in coordinates for n in fit.names):
+        return fit
+    conv = fit.parameters[0].convention
+    n, m = len(fit.names), len(missing)
+    cov = np.zeros((n + m, n + m))
+    cov[:n, :n] = fit.cov
+    return replace(fit, parameters=fit.parameters + tuple(Parameter(c, conv) for c in missing),
+                   mean=np.concatenate([fit.mean, np.zeros(m)]), cov=cov,
+                   extra={**fit.extra, "held_at_zero": missing})
+
+
+def is_record(path: str | Path) -> bool:
+    """A HEPData record: a submission.yaml, or a folder holding one."""
+    p = Path(path)
+    return p.name == "submission.yaml" or (p.is_dir() and (p / "submission.yaml").is_file())
+
+
+def fit_from_record(path: str | Path, theory: Any, convention: Any) -> Any:
+    """The Gaussian fit of a record's central-value and covariance tables (the other
+    tables are not read; coefficients the record does not give are held at zero)."""
+    p = Path(path)
+    found = []
+    for t in read_record(p):
+        try:
+            found.append(_classify_gaussian(t, theory.parameter_names))
+        except InputError:
+            continue
+    if not any(t.layout == "central" for t in found):
+        raise InputError(p, "dependent_variables", "no table of central values with errors",
+                         "use `eftsieve limits` for scans, contours and intervals")
+    sub = p / "submission.yaml" if p.is_dir() else p
+    return held_at_zero(gaussian_fit(sub, found, theory, convention), theory.coordinates)
