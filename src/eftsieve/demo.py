@@ -7,8 +7,8 @@ posterior samples, imposes positivity on both, checks the Gaussian summary with 
 power-counting truncation model, checks an invented SU(3) fit of L1, L2, L3 against the
 SU(3) region and (through the one-loop matching) the SU(2) one, and an invented
 scalar-EFT fit, and then (:mod:`eftsieve.demo_limits`) the published limits of an
-invented vector-boson-scattering analysis.  Everything goes under one directory; the few lines of the result say
-where, and what came out.  ``eftsieve demo`` prints them.
+invented vector-boson-scattering analysis.  Everything goes under one directory; the
+few lines of the result say where, and what came out.  ``eftsieve demo`` prints them.
 """
 
 from __future__ import annotations

@@ -204,8 +204,8 @@ def line_cut(region: Region, p0: np.ndarray, v: np.ndarray, *, exact: bool = Tru
     """
     p0, v = np.asarray(p0, dtype=float), np.asarray(v, dtype=float)
     outer = facet_interval(*region.arrays(), p0, v)
-    inner = (facet_interval(*region.arrays(inner=True), p0, v, INNER_PARALLEL_TOL) if outer is not None
-             else None)
+    inner = (None if outer is None else
+             facet_interval(*region.arrays(inner=True), p0, v, INNER_PARALLEL_TOL))
     if outer is None:
         return LineCut(None, None, FACETS)
     if inner is not None and inner == outer:

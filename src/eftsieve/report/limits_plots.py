@@ -7,7 +7,7 @@ parts are hatched grey, allowed parts drawn in colour, so the plots read without
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -20,7 +20,7 @@ if TYPE_CHECKING:
 BEFORE, AFTER, EXCLUDED = "#8a96a3", "#1f6f8b", "#d9dde2"
 
 
-def _plt():  # type: ignore[no-untyped-def]
+def _plt() -> Any:
     import matplotlib
 
     matplotlib.use("Agg")
@@ -29,7 +29,7 @@ def _plt():  # type: ignore[no-untyped-def]
     return plt
 
 
-def _save(fig, path: Path) -> Path:  # type: ignore[no-untyped-def]
+def _save(fig: Any, path: Path) -> Path:
     from eftsieve.io.atomic import atomic_write_with
 
     out = atomic_write_with(path, lambda t: fig.savefig(t, dpi=110, bbox_inches="tight",
@@ -84,7 +84,7 @@ def plot_scan_1d(scan: ScanResult, path: Path, units: str = "") -> Path:
     return _save(fig, path)
 
 
-def _shade_excluded(ax, cut: PlaneCut, xlim: tuple[float, float],  # type: ignore[no-untyped-def]
+def _shade_excluded(ax: Any, cut: PlaneCut, xlim: tuple[float, float],
                     ylim: tuple[float, float]) -> None:
     gx, gy = np.meshgrid(np.linspace(*xlim, 300), np.linspace(*ylim, 300))
     inside = cut.contains(np.column_stack([gx.ravel(), gy.ravel()])).reshape(gx.shape)
@@ -93,7 +93,7 @@ def _shade_excluded(ax, cut: PlaneCut, xlim: tuple[float, float],  # type: ignor
     ax.contour(gx, gy, inside.astype(float), levels=[0.5], colors=["#55606b"], linewidths=1)
 
 
-def _lines(ax, paths, color: str, style: str, label: str) -> None:  # type: ignore[no-untyped-def]
+def _lines(ax: Any, paths: Any, color: str, style: str, label: str) -> None:
     for k, seg in enumerate(paths):
         seg = np.asarray(seg)
         ax.plot(seg[:, 0], seg[:, 1], color=color, ls=style, lw=1.6,

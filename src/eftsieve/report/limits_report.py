@@ -23,7 +23,8 @@ LIMITS_OUTPUTS = ("summary.json", "intervals.csv", "report.md", "report.html",
                   "intervals.png")
 #: how the ends of an allowed part were decided, for people
 METHOD_TEXT = {"facets": "facets (exact)", "bisection": "bisection (exact membership)",
-               "boundary": "facets; the exact test reaches the boundary (solver accuracy)", "undecided": "undecided"}
+               "boundary": "facets; the exact test reaches the boundary (solver accuracy)",
+               "undecided": "undecided"}
 
 
 def _iv(iv: tuple[float, float] | None, digits: int = 3) -> str:
@@ -242,6 +243,8 @@ def limits_plots(result: LimitsResult, outdir: Path) -> dict[str, Path]:
         images[s.table] = (lp.plot_scan_1d(s, name) if len(s.coefficients) == 1
                            else lp.plot_scan_2d(s, s.cut, name))
     for k, c in enumerate(result.contours):
+        if c.cut is None:
+            continue
         images[f"{c.table}::{c.label}"] = lp.plot_contour(
             c, c.cut, outdir / f"contour_{_slug(c.table)}_{k}.png")
     return images
