@@ -157,3 +157,20 @@ def test_refuses_unknown_table_and_names(tmp_path, higgs):
     refused(tmp_path, higgs, [t], "name", tables=["Nope"])
     tabs = central_tables(["fS0", "fX9"], [0, 0], [1, 1], np.eye(2))
     refused(tmp_path, higgs, tabs, "values")
+
+
+def test_light_by_light_contour_through_photon_quartic(tmp_path, cone_regions):
+    # Light-by-light: c1 = zeta1 + zeta2/2 >= 0 and c2 = zeta2/4 >= 0 for
+    # L = c1 (F.F)^2 + c2 (F.Ftilde)^2 (Adams et al., arXiv:hep-th/0602178, Sec. 2; with
+    # F F F F = (F.F)^2/2 + (F.Ftilde)^2/4, common practice): in the (zeta1, zeta2) plane
+    # the wedge from angle 0 to pi - atan(2), so a disc about the origin keeps
+    # (pi - atan 2) / (2 pi) of its area.  GeV^-4 units as in CMS-TOTEM, arXiv:2110.05916.
+    phi = np.linspace(0, 2 * np.pi, 4000, endpoint=False)
+    r = 3e-13
+    sub = write_record(tmp_path, [contour_table("LbL", ("\\zeta_1", "\\zeta_2"),
+                                                r * np.cos(phi), r * np.sin(phi))])
+    region = cone_regions("photon-quartic")
+    res = limits_from_record(sub, "photon-quartic", NONE, region)
+    (c,) = res.contours
+    assert c.coefficients == ("zeta1", "zeta2")
+    assert c.fraction_inside == pytest.approx((np.pi - np.arctan(2)) / (2 * np.pi), abs=1e-5)
