@@ -30,17 +30,17 @@ def test_closed_form_matches_a_dense_scan():
     region = box_region()
     a, b = region.arrays()
     rng = np.random.default_rng(7)
-    for _ in range(50):
+    xs = np.linspace(-20, 20, 100_001)
+    for _ in range(25):
         p0, v = rng.normal(size=2), rng.normal(size=2)
         got = facet_interval(a, b, p0, v)
-        xs = np.linspace(-20, 20, 400_001)
         ok = ((p0 + xs[:, None] * v) @ a.T - b >= 0).all(axis=1)
         if not ok.any():
             assert got is None
             continue
         assert got is not None
-        assert got[0] == pytest.approx(max(xs[ok].min(), -20), abs=2e-4)
-        assert got[1] == pytest.approx(min(xs[ok].max(), 20), abs=2e-4)
+        assert got[0] == pytest.approx(max(xs[ok].min(), -20), abs=5e-4)
+        assert got[1] == pytest.approx(min(xs[ok].max(), 20), abs=5e-4)
 
 
 def test_a_region_without_exact_test_reports_the_gap():
