@@ -81,16 +81,22 @@ class LineCut:
 
 def facet_interval(a: np.ndarray, b: np.ndarray, p0: np.ndarray, v: np.ndarray,
                    parallel_tol: float = LIMITS_PARALLEL_TOL) -> Interval | None:
-    """{x : a (p0 + x v) >= b} for unit-norm rows ``a``; None when empty.  Facets with
-    ``|a . v| <= parallel_tol |v|`` are taken as parallel to the line."""
+    """{x : a (p0 + x v) >= b} for unit-norm rows ``a``; None when empty.
+
+    A facet with ``|a . v| <= parallel_tol |v|`` that ``p0`` satisfies (to rounding) is
+    taken as parallel to the line and dropped: it cannot cut it within the range that
+    matters, and its tiny component along ``v`` is solver noise.  One that ``p0``
+    violates still bounds x (far away), so dropping is never used to exclude a point.
+    """
     s = a @ v
     r = b - a @ p0
-    tol = parallel_tol * float(np.linalg.norm(v))
-    flat = np.abs(s) <= tol
     scale = max(1.0, float(np.abs(p0).max()), float(np.abs(b).max(initial=0.0)))
-    if np.any(r[flat] > max(parallel_tol, 1e-12) * scale):
+    satisfied = r <= 1e-12 * scale
+    keep = ~((np.abs(s) <= parallel_tol * float(np.linalg.norm(v))) & satisfied)
+    s, r, satisfied = s[keep], r[keep], satisfied[keep]
+    if np.any((s == 0) & ~satisfied):
         return None
-    up, down = s > tol, s < -tol
+    up, down = s > 0, s < 0
     lo = float(np.max(r[up] / s[up])) if up.any() else -np.inf
     hi = float(np.min(r[down] / s[down])) if down.any() else np.inf
     return (lo, hi) if lo <= hi else None

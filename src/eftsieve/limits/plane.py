@@ -77,16 +77,20 @@ class PlaneCut:
 
 def _halfplanes(a: np.ndarray, b: np.ndarray, p0: np.ndarray, d: np.ndarray,
                 parallel_tol: float = LIMITS_PARALLEL_TOL) -> np.ndarray:
-    """Half-planes (n1, n2, c) of the facets in the plane; facets whose normal has a
-    component below ``parallel_tol`` in the plane are taken as parallel to it."""
+    """Half-planes (n1, n2, c) of the facets in the plane.  A facet whose normal has a
+    component below ``parallel_tol`` in the plane and that the plane satisfies at ``p0``
+    is dropped (as for a line, :func:`eftsieve.limits.line.facet_interval`); one the
+    plane violates everywhere makes the part empty (the row (0, 0, 1))."""
     n = a @ d  # (m, 2)
     c = b - a @ p0
     norm = np.linalg.norm(n, axis=1)
-    flat = norm <= parallel_tol
     scale = max(1.0, float(np.abs(c).max(initial=0.0)))
-    rows = [np.array([0.0, 0.0, 1.0])] if np.any(c[flat] > 1e-12 * scale) else []
-    keep = ~flat
-    h = np.column_stack([n[keep] / norm[keep, None], c[keep] / norm[keep]])
+    satisfied = c <= 1e-12 * scale
+    keep = ~((norm <= parallel_tol) & satisfied)
+    n, c, norm = n[keep], c[keep], norm[keep]
+    rows = [np.array([0.0, 0.0, 1.0])] if np.any(norm == 0) else []
+    ok = norm > 0
+    h = np.column_stack([n[ok] / norm[ok, None], c[ok] / norm[ok]])
     return np.vstack([h, *rows]) if rows else h
 
 
