@@ -145,7 +145,11 @@ def truncate_rows(rows: tuple[IntervalRow, ...], regions: dict[str, Region], *,
 
 
 def sign_rules(region: Region, *, exact: bool = True) -> tuple[SignRule, ...]:
-    """For each region coordinate, the sign positivity requires of it alone."""
+    """For each region coordinate, the sign positivity requires of it alone; empty for a
+    region that is not a cone (a facet with a non-zero offset), where a sign alone is
+    not what the bounds say."""
+    if any(f.offset != 0 for f in region.facets):
+        return ()
     out = []
     for k, name in enumerate(region.coordinates):
         e = np.zeros(region.dim)

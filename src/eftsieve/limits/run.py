@@ -97,7 +97,7 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
     got = {t: regions(t) for t in theories}
     regs = {t: r for t, (r, _) in got.items()}
     out = truncate_rows(rows, regs, exact=exact)
-    signs = {t: sign_rules(regs[t], exact=exact) for t in theories}
+    signs = {t: rules for t in theories if (rules := sign_rules(regs[t], exact=exact))}
     info = {t: region_info(r, p) for t, (r, p) in got.items()}
     return LimitsResult(str(path), "interval-card", info, out, signs, notes=CARD_NOTES)
 

@@ -49,13 +49,15 @@ def interval_rows(rows: tuple[TruncatedInterval, ...]) -> tuple[tuple[str, ...],
         others = ", ".join(f"{k}={fmt_num(v)}" for k, v in r.others.items()) or "all 0"
         out.append((r.label or r.coefficient, r.coefficient, _iv((r.low, r.high)),
                     f"{fmt_num(100 * r.cl)}%", others, r.convention.name, _iv(t.allowed),
+                    _iv(t.sure) if t.sure is not None else "none proven",
                     fmt_num(t.fraction_allowed), t.status, how(t), r.units,
                     r.source))
     return tuple(out)
 
 
 INTERVAL_HEADER = ("row", "coefficient", "published", "CL", "others", "convention",
-                   "allowed part", "fraction", "status", "ends decided by", "units", "source")
+                   "allowed part", "surely allowed", "fraction", "status", "ends decided by",
+                   "units", "source")
 
 
 def banner(result: LimitsResult) -> Banner:
