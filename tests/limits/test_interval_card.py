@@ -55,3 +55,16 @@ def test_bad_cards_are_refused(name, field):
                                         ("99.7", 0.997)])
 def test_confidence_levels(text, value):
     assert parse_cl(text, Path("x.csv"), "cl") == pytest.approx(value)
+
+
+def test_a_region_that_is_not_a_cone(su2_region):
+    # chpt-su2's default region has inner (one-loop) and relaxed outer facets and no exact
+    # test between them: the interval is reported as undecided with both brackets, and no
+    # sign rule (the region is not a cone)
+    from eftsieve.limits.intervals import sign_rules
+
+    (row,) = read_interval_card(CARDS / "good_chpt.csv", get_theory)
+    (t,) = truncate_rows((row,), {"chpt-su2": su2_region})
+    assert t.status == "undecided" and t.cut.method == "undecided"
+    assert t.allowed[0] < t.sure[0] < t.sure[1] == t.allowed[1] == row.high
+    assert sign_rules(su2_region) == ()
