@@ -212,7 +212,7 @@ def _variable(path: Path, raw: Any, where: str) -> Variable:
                     if isinstance(v, dict) and "low" in v else "write {value: ...}")
             raise InputError(path, f"{where}.values[{k}]", "no value", hint)
         entries.append(v)
-    texts = [e["value"] for e in entries]
+    texts = [_maybe_number(e["value"]) for e in entries]
     if all(isinstance(t, str) for t in texts):
         values: Any = tuple(str(t).strip() for t in texts)
     else:
@@ -225,6 +225,16 @@ def _variable(path: Path, raw: Any, where: str) -> Variable:
     errs = np.array([_symerror(e) for e in entries], dtype=float)
     return Variable(str(head.get("name", "")), str(head.get("units", "")), values,
                     None if np.isnan(errs).all() else errs, quals, where)
+
+
+def _maybe_number(v: Any) -> Any:
+    """A value written as a numeric string ('0.25') is that number; other text stays."""
+    if isinstance(v, str):
+        try:
+            return float(v)
+        except ValueError:
+            return v
+    return v
 
 
 def _symerror(entry: dict[str, Any]) -> float:
