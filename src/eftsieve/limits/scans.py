@@ -100,9 +100,10 @@ def flat_prior(names: tuple[str, ...], lo: np.ndarray, hi: np.ndarray) -> str:
 
 def hpd_sets(x: np.ndarray, dens: np.ndarray, levels: tuple[float, ...] = LEVELS
              ) -> dict[str, list[list[float]]]:
-    """HPD sets of a density on a uniform grid (trapezoid weights), as intervals."""
-    w = np.full(len(x), x[1] - x[0])
-    w[[0, -1]] *= 0.5
+    """HPD sets of a density on an increasing grid (trapezoid weights), as intervals."""
+    w = np.zeros(len(x))
+    w[1:] += 0.5 * np.diff(x)
+    w[:-1] += 0.5 * np.diff(x)
     mass = dens * w
     total = mass.sum()
     out: dict[str, list[list[float]]] = {}
@@ -158,13 +159,16 @@ def scan_1d(table: str, name: str, x: np.ndarray, q: np.ndarray, cut: LineCut) -
     p = _p_interval(spline, q0, x, cut.allowed)
     p_sure = _p_interval(spline, q0, x, cut.sure)
     fine = np.linspace(x[0], x[-1], FINE_1D)
+    if cut.allowed is not None:  # the allowed ends are grid points, so HPD sets end there
+        ends = [e for e in cut.allowed if x[0] < e < x[-1]]
+        fine = np.union1d(fine, ends)
     dens = np.exp(-0.5 * (spline(fine) - q0))
     inside = np.zeros(len(fine), dtype=bool)
     if cut.allowed is not None:
         inside = (fine >= cut.allowed[0]) & (fine <= cut.allowed[1])
     numerics = (f"q interpolated by a {'not-a-knot cubic spline' if len(x) >= 4 else 'linear'}"
                 f" over {len(x)} points; p_inside by {GL_POINTS}-point Gauss-Legendre rules per "
-                f"cell, split at the allowed ends; HPD intervals on {FINE_1D} points")
+                f"cell, split at the allowed ends; HPD intervals on {FINE_1D} points and the allowed ends")
     return ScanResult(table, (name,), p, p_sure, {name: hpd_sets(fine, dens * inside)},
                       {name: hpd_sets(fine, dens)},
                       flat_prior((name,), x[:1], x[-1:]), cut.method, numerics,

@@ -68,7 +68,7 @@ def plot_scan_1d(scan: ScanResult, path: Path, units: str = "") -> Path:
     g = scan.grid
     x, dens, inside = g["x"], g["density"], g["inside"]
     w = np.gradient(x)
-    norm = float((dens * w).sum())
+    norm = float((dens * w).sum())  # plotting normalisation only
     fig, ax = plt.subplots(figsize=(6, 3.6))
     ax.plot(x, dens / norm, color=BEFORE, lw=1.5, label="scan, flat prior")
     trunc = dens * inside
