@@ -50,14 +50,16 @@ def plot_intervals(rows: tuple[TruncatedInterval, ...], path: Path) -> Path:
         if t.allowed is not None:
             ax.plot([t.allowed[0] / scale, t.allowed[1] / scale], [y, y], color=AFTER, lw=3,
                     solid_capstyle="butt", label="allowed by positivity" if k == 0 else None)
-        ax.text(1.05, y, "excluded" if t.allowed is None else f"{t.fraction_allowed:.0%} kept",
-                ha="left", va="center", fontsize=8)
+        note = ("excluded" if t.allowed is None else
+                f"<= {t.fraction_allowed:.0%} (undecided)" if t.status == "undecided"
+                else f"{t.fraction_allowed:.0%} kept")
+        ax.text(1.05, y, note, ha="left", va="center", fontsize=8)
     ax.axvline(0, color="k", lw=0.6)
     ax.set_yticks(range(len(rows)))
     ax.set_yticklabels([t.row.label or f"{t.row.coefficient} (line {t.row.line})"
                         for t in reversed(rows)], fontsize=8)
     ax.set_xlabel("value / max(|low|, |high|) of the published interval")
-    ax.set_xlim(-1.1, 1.35)
+    ax.set_xlim(-1.1, 1.6)
     ax.legend(loc="lower left", fontsize=8, frameon=False, bbox_to_anchor=(0, 1), ncol=2)
     return _save(fig, path)
 
