@@ -177,14 +177,15 @@ def limits_from_record(path: str | Path, theory: str, convention: Convention,
 
 def _gaussian_check(path: str | Path, found: list[HepTable], th: Any, convention: Convention,
                     region: Region, draws: int, seed: int) -> dict[str, Any] | None:
-    from eftsieve.api import check
+    from eftsieve.check.run import run_check
+    from eftsieve.check.verdicts import CheckSettings
     from eftsieve.fit.formats.hepdata import gaussian_fit, held_at_zero
 
     if not any(t.layout == "central" for t in found):
         return None
     fit = held_at_zero(gaussian_fit(Path(path), found, th, convention),
                        region.coordinates)
-    res = check(fit, region, draws=draws, seed=seed)
+    res = run_check(fit, region, CheckSettings(draws=draws, seed=seed), None, None, None)
     v = res.verdict
     return {"fit": fit.name, "parameters": list(fit.names),
             "mean": np.asarray(fit.mean).tolist(), "covariance": np.asarray(fit.cov).tolist(),

@@ -168,7 +168,8 @@ def scan_1d(table: str, name: str, x: np.ndarray, q: np.ndarray, cut: LineCut) -
         inside = (fine >= cut.allowed[0]) & (fine <= cut.allowed[1])
     numerics = (f"q interpolated by a {'not-a-knot cubic spline' if len(x) >= 4 else 'linear'}"
                 f" over {len(x)} points; p_inside by {GL_POINTS}-point Gauss-Legendre rules per "
-                f"cell, split at the allowed ends; HPD intervals on {FINE_1D} points and the allowed ends")
+                f"cell, split at the allowed ends; HPD intervals on {FINE_1D} points and the "
+                "allowed ends")
     return ScanResult(table, (name,), p, p_sure, {name: hpd_sets(fine, dens * inside)},
                       {name: hpd_sets(fine, dens)},
                       flat_prior((name,), x[:1], x[-1:]), cut.method, numerics,
