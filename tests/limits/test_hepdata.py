@@ -174,3 +174,16 @@ def test_light_by_light_contour_through_photon_quartic(tmp_path, cone_regions):
     (c,) = res.contours
     assert c.coefficients == ("zeta1", "zeta2")
     assert c.fraction_inside == pytest.approx((np.pi - np.arctan(2)) / (2 * np.pi), abs=1e-5)
+
+
+def test_observed_and_expected_columns_are_two_scans(tmp_path, higgs):
+    x = np.linspace(MU - 12 * SIGMA, MU + 12 * SIGMA, 481)
+    t = scan_1d_table("Scan fS0", "f_{S0}", x, ((x - MU) / SIGMA) ** 2)
+    exp = variable("$-2\\Delta\\ln L$", (x / SIGMA) ** 2, False)
+    t.variables[1].add_qualifier("Type", "Observed")
+    exp.add_qualifier("Type", "Expected")
+    t.add_variable(exp)
+    obs, expected = run(write_record(tmp_path, [t]), higgs).scans
+    assert obs.table == "Scan fS0 (Type: Observed)"
+    assert obs.p_inside == pytest.approx(norm.sf(0.0, MU, SIGMA), abs=1e-6)
+    assert expected.p_inside == pytest.approx(0.5, abs=1e-6)

@@ -102,8 +102,12 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
     return LimitsResult(str(path), "interval-card", info, out, signs, notes=CARD_NOTES)
 
 
-def _grid_1d(t: HepTable) -> tuple[np.ndarray, np.ndarray]:
-    x, q = t.independent[0].values, t.dependent[0].values * t.factor
+def _factor(t: HepTable, k: int) -> float:
+    return float(t.extra.get("factors", [t.factor] * len(t.dependent))[k])
+
+
+def _grid_1d(t: HepTable, k: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    x, q = t.independent[0].values, t.dependent[k].values * _factor(t, k)
     order = np.argsort(x, kind="stable")
     x, q = x[order], q[order]
     if len(x) < 3 or np.any(np.diff(x) <= 0):
@@ -112,7 +116,7 @@ def _grid_1d(t: HepTable) -> tuple[np.ndarray, np.ndarray]:
     return x, q
 
 
-def _grid_2d(t: HepTable) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _grid_2d(t: HepTable, k: int = 0) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     xs, ys = t.independent[0].values, t.independent[1].values
     ux, uy = np.unique(xs), np.unique(ys)
     if len(ux) < 3 or len(uy) < 3 or len(xs) != len(ux) * len(uy):
@@ -120,7 +124,7 @@ def _grid_2d(t: HepTable) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
                          f"full {len(ux)} x {len(uy)} grid (at least 3 x 3)",
                          "give every (x, y) grid point exactly once")
     q = np.full((len(ux), len(uy)), np.nan)
-    q[np.searchsorted(ux, xs), np.searchsorted(uy, ys)] = t.dependent[0].values * t.factor
+    q[np.searchsorted(ux, xs), np.searchsorted(uy, ys)] = t.dependent[k].values * _factor(t, k)
     if np.isnan(q).any():
         raise InputError(t.path, "independent_variables", "a grid point appears twice and "
                          "another is missing", "give every (x, y) grid point exactly once")
@@ -150,15 +154,20 @@ def limits_from_record(path: str | Path, theory: str, convention: Convention,
         if t.layout in ("central", "covariance", "correlation"):
             continue
         jac, shift = affine_into(region, theory, convention, t.coefficients)
+        names = [t.name if len(t.dependent) == 1 else f"{t.name} ({_label(v)})"
+                 for v in t.dependent]
         if t.layout == "scan-1d":
-            x, q = _grid_1d(t)
-            scans.append(scan_1d(t.name, t.coefficients[0], x, q,
-                                 line_cut(region, shift, jac[:, 0], exact=exact)))
+            line = line_cut(region, shift, jac[:, 0], exact=exact)
+            for k, name in enumerate(names):
+                x, q = _grid_1d(t, k)
+                scans.append(scan_1d(name, t.coefficients[0], x, q, line))
             continue
         cut = plane_cut(region, shift, jac[:, 0], jac[:, 1], exact=exact)
         if t.layout == "scan-2d":
-            x, y, q = _grid_2d(t)
-            scans.append(scan_2d(t.name, (t.coefficients[0], t.coefficients[1]), x, y, q, cut))
+            for k, name in enumerate(names):
+                x, y, q = _grid_2d(t, k)
+                scans.append(scan_2d(name, (t.coefficients[0], t.coefficients[1]), x, y, q,
+                                     cut))
         else:
             for v in t.dependent:
                 poly = np.column_stack([t.independent[0].values, v.values])

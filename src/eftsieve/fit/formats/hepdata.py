@@ -11,9 +11,10 @@ layouts eftsieve supports (docs/formats.md, "HEPData records") and refuses any o
 with a one-line error naming the file, the field and the fix:
 
 ``scan-1d``
-    one independent variable, a coefficient; one dependent variable, the scan quantity.
+    one independent variable, a coefficient; dependent variables that are all scan
+    quantities (one scan each, e.g. observed and expected).
 ``scan-2d``
-    two independent coefficients on a full rectangular grid; one dependent scan quantity.
+    two independent coefficients on a full rectangular grid; dependent scan quantities.
 ``contour``
     one independent coefficient and one or more dependent coefficients: each dependent
     variable is one closed contour, its points in order.
@@ -104,7 +105,8 @@ class HepTable:
         The coefficient names of its variables (scan and contour layouts), in the order
         x, y, ...
     factor
-        For scans: the factor that turns the dependent values into -2 Delta ln L.
+        For scans: the factor that turns the (first) dependent values into -2 Delta ln L;
+        ``extra["factors"]`` holds one per dependent variable.
     """
 
     name: str
@@ -289,10 +291,13 @@ def classify(table: HepTable, names: Sequence[str]) -> HepTable:
         if len(set(coefs)) != len(coefs):
             raise InputError(table.path, f"{ind[1].where}.header.name", "names the same "
                              f"coefficient as {ind[0].where}", _fix(names))
-        if len(dep) == 1 and scan_factor(dep[0].name) is not None:
-            _check_scan(table, dep[0])
+        factors = [scan_factor(v.name) for v in dep]
+        if all(f is not None for f in factors):  # one scan per column (observed, expected)
+            for v in dep:
+                _check_scan(table, v)
             return replace(table, layout=f"scan-{len(ind)}d", coefficients=coefs,
-                           factor=float(scan_factor(dep[0].name) or 1.0))
+                           factor=float(factors[0] or 1.0),
+                           extra={**table.extra, "factors": [float(f or 1.0) for f in factors]})
         dep_coef = [match_coefficient(v.name, names) if v.numeric else None for v in dep]
         if len(ind) == 1 and all(dep_coef) and coefs[0] not in dep_coef:
             ys = tuple(c for c in dep_coef if c is not None)
