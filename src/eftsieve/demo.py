@@ -6,8 +6,9 @@ positivity.  :func:`run_demo` builds the region, checks the Gaussian summary and
 posterior samples, imposes positivity on both, checks the Gaussian summary with the
 power-counting truncation model, checks an invented SU(3) fit of L1, L2, L3 against the
 SU(3) region and (through the one-loop matching) the SU(2) one, and an invented
-scalar-EFT fit.  Everything goes under one directory; the few lines of the result say
-where, and what came out.  ``eftsieve demo`` prints them.
+scalar-EFT fit, and then (:mod:`eftsieve.demo_limits`) the published limits of an
+invented vector-boson-scattering analysis.  Everything goes under one directory; the
+few lines of the result say where, and what came out.  ``eftsieve demo`` prints them.
 """
 
 from __future__ import annotations
@@ -174,6 +175,10 @@ def _demo_steps(ex: Path, out: Path, steps: _Steps, say: Callable[[str], None]) 
         s = steps.check(scalar, "check_scalar", None, SHORT_DRAWS)
         say(f"  {s['theory']} fit: p_inside = {s['p_inside']:.3f}, tension "
             f"{s['tension_sigma']:.2f} sigma ({out / 'check_scalar' / 'report.html'})")
+    from eftsieve.demo_limits import CARD, run_vbs_demo
+
+    if (ex / CARD).is_file():  # published limits of an invented VBS analysis
+        steps.summaries.update(run_vbs_demo(ex, steps.out, out, say))
 
 
 def _aurora_region(out: Path, card: Path) -> Path:

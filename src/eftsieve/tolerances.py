@@ -53,3 +53,15 @@ MAHALANOBIS_ZERO = 1e-6
 #: Warn on the console when p_inside before a truncation is below this: the truncated
 #: result is then driven by the bounds, not by the data.
 TINY_P_INSIDE = 1e-6
+
+# --- published limits against a region (eftsieve.limits) -------------------------------
+#: Relative width at which an endpoint of a line's (or a slice's) allowed part, settled by
+#: bisection with the exact cone membership, counts as settled.
+LIMITS_SETTLE_RTOL = 1e-7
+#: An outer facet whose unit normal has a component below this along a line (or a plane)
+#: does not cut it (dropping an outer facet only enlarges the outer set; cone facets carry
+#: solver noise of about 1e-8 in components that are zero).  Inner facets are all kept.
+LIMITS_PARALLEL_TOL = 1e-6
+#: A point whose smallest outer-facet margin, relative to its norm, is below this and that
+#: the exact test leaves undecided lies on the region's boundary (within solver accuracy).
+LIMITS_BOUNDARY_RTOL = 1e-6

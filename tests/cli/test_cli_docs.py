@@ -15,7 +15,7 @@ VERBS = verb_parsers(build_parser())
 
 
 def test_every_verb_of_the_architecture_is_documented():
-    assert set(VERBS) == {"theories", "region", "check", "impose", "cite", "demo"}
+    assert set(VERBS) == {"theories", "region", "check", "impose", "limits", "cite", "demo"}
     text = CLI_MD.read_text()
     for verb in VERBS:
         assert f"## `eftsieve {verb}" in text, verb

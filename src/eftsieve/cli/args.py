@@ -222,6 +222,10 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
     from eftsieve.fit.formats.gvar_json import is_gvar_json
 
     path = Path(args.fit)
+    from eftsieve.fit.formats.hepdata import is_record
+
+    if is_record(path):  # a HEPData record's central values and covariance
+        return _record_fit(path, args)
     card_like = path.suffix.lower() in {".yaml", ".yml", ".json"}
     if card_like and path.is_dir():
         raise InputError(path, None, "is a folder, not a fit card",
@@ -257,6 +261,26 @@ def load_fit_arg(args: argparse.Namespace) -> Fit:
             flag = KINEMATIC_FLAGS[err.field]
             raise InputError(None, flag, err.problem, f"add {flag} MEV") from err
         raise
+
+
+def _record_fit(path: Path, args: argparse.Namespace) -> Fit:
+    """The Gaussian fit of a HEPData record (--theory needed, --convention where the theory
+    offers several)."""
+    from eftsieve.errors import InputError
+    from eftsieve.fit.formats.hepdata import fit_from_record
+    from eftsieve.fit.model import parse_convention
+    from eftsieve.theories import get_theory
+
+    if not args.theory:
+        raise InputError(path, None, "a HEPData record does not name its theory",
+                         "add --theory NAME (see `eftsieve theories`)")
+    try:
+        th = get_theory(args.theory)
+    except KeyError as err:
+        raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
+    conv = parse_convention(args.convention, {}, None, "--convention",
+                            bool(th.convention_specs), th.convention_specs)
+    return fit_from_record(path, th, conv)
 
 
 def _pair(text: str, opt: str) -> tuple[float, float]:

@@ -24,7 +24,7 @@ from contextlib import contextmanager
 from typing import Any
 
 from eftsieve._version import __version__
-from eftsieve.cli import check, cite, demo, impose, region, theories
+from eftsieve.cli import check, cite, demo, impose, limits, region, theories
 
 EXIT_OK = 0
 EXIT_USAGE = 2
@@ -33,7 +33,7 @@ EXIT_INTERRUPTED = 130
 EXIT_BROKEN_PIPE = 141
 EXIT_TERMINATED = 143
 #: the verbs, in the order ``eftsieve --help`` lists them; each module has add_parser(sub)
-VERBS = (theories, region, check, impose, cite, demo)
+VERBS = (theories, region, check, impose, limits, cite, demo)
 
 
 class Terminated(BaseException):

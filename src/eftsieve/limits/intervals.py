@@ -1,0 +1,159 @@
+"""Published one-coefficient intervals against a region: what positivity leaves of them.
+
+A row of an interval card (:mod:`eftsieve.fit.formats.interval_card`) is the segment
+``c = c0 + x e_i``, ``low <= x <= high``, with the other coefficients held at ``c0``.
+The row's coefficients are mapped into the region's coordinates by the theory
+(:func:`eftsieve.theories.coordinate_map`, which applies the row's declared
+convention), the line is cut exactly (:func:`eftsieve.limits.line.line_cut`) and the
+cut is intersected with the published interval.
+
+Use :func:`truncate_rows` for the rows of a card and :func:`sign_rules` for what
+positivity says about each coefficient alone.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from eftsieve.limits.line import SIGN_TEXT, LineCut, line_cut, sign_rule
+from eftsieve.limits.line import UNDECIDED as UNDECIDED_CUT
+
+if TYPE_CHECKING:
+    from eftsieve.fit.formats.interval_card import IntervalRow
+    from eftsieve.region.model import Region
+
+#: the status of a truncated interval
+KEPT, TRUNCATED, EXCLUDED, UNDECIDED = "kept", "truncated", "excluded", "undecided"
+
+
+@dataclass(frozen=True)
+class TruncatedInterval:
+    """One published interval and the part of it that positivity allows.
+
+    Attributes
+    ----------
+    row
+        The card's row.
+    cut
+        The allowed part of the whole line (x along the row's coefficient).
+    allowed
+        The published interval intersected with what positivity cannot exclude (None:
+        entirely excluded).
+    sure
+        The published interval intersected with what positivity certainly allows.
+    status
+        ``kept`` (untouched), ``truncated``, ``excluded`` or ``undecided`` (the exact
+        part could not be settled; ``allowed`` and ``sure`` bracket it).  Where the
+        gap between ``sure`` and ``allowed`` runs along the cone's boundary (the cut's
+        method ``boundary``), the status follows ``allowed``: the bounds are
+        non-strict, and the boundary is allowed to within the solver's accuracy.
+    fraction_allowed
+        Length of ``allowed`` over the published length (the published interval's own
+        measure; 0 for an excluded one).
+    """
+
+    row: IntervalRow
+    cut: LineCut
+    allowed: tuple[float, float] | None
+    sure: tuple[float, float] | None
+    status: str
+    fraction_allowed: float
+
+    def to_dict(self) -> dict[str, Any]:
+        return {**self.row.to_dict(), "line_cut": self.cut.to_dict(),
+                "allowed": None if self.allowed is None else list(self.allowed),
+                "sure": None if self.sure is None else list(self.sure),
+                "status": self.status, "fraction_allowed": self.fraction_allowed}
+
+
+@dataclass(frozen=True)
+class SignRule:
+    """What positivity says about one coefficient alone (every other at zero).
+
+    Attributes
+    ----------
+    coefficient
+        The region coordinate.
+    rule
+        ``nonnegative``, ``nonpositive``, ``zero`` (both signs excluded), ``free``
+        (unconstrained in sign) or ``undecided``.
+    cut
+        The cut of the line x e_i.
+    """
+
+    coefficient: str
+    rule: str
+    cut: LineCut
+
+    @property
+    def text(self) -> str:
+        return f"{self.coefficient} {SIGN_TEXT[self.rule]}"
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"coefficient": self.coefficient, "rule": self.rule, "text": self.text,
+                "line_cut": self.cut.to_dict()}
+
+
+def row_line(row: IntervalRow, region: Region) -> tuple[np.ndarray, np.ndarray]:
+    """(p0, v): the row's line ``p0 + x v`` in the region's coordinates, through the
+    theory's coordinate map with the row's convention."""
+    from eftsieve.limits.mapping import affine_into
+
+    names = [row.coefficient, *row.others]
+    jac, shift = affine_into(region, row.theory, row.convention, names, row.kinematics,
+                             row.label)
+    x0 = np.array([0.0] + [row.others[n] for n in names[1:]])
+    return jac @ x0 + shift, jac[:, 0]
+
+
+def _intersect(a: tuple[float, float] | None, lo: float, hi: float
+               ) -> tuple[float, float] | None:
+    if a is None:
+        return None
+    low, high = max(a[0], lo), min(a[1], hi)
+    return (float(low), float(high)) if low <= high else None
+
+
+def truncate_row(row: IntervalRow, region: Region, *, exact: bool = True
+                 ) -> TruncatedInterval:
+    """The part of one published interval that positivity allows."""
+    p0, v = row_line(row, region)
+    cut = line_cut(region, p0, v, exact=exact)
+    allowed = _intersect(cut.allowed, row.low, row.high)
+    sure = _intersect(cut.sure, row.low, row.high)
+    width = row.high - row.low
+    frac = 0.0 if allowed is None else (
+        (allowed[1] - allowed[0]) / width if width > 0 else 1.0)
+    if allowed is None:
+        status = EXCLUDED
+    elif cut.method == UNDECIDED_CUT and sure != allowed:
+        status = UNDECIDED
+    elif allowed == (row.low, row.high):
+        status = KEPT
+    else:
+        status = TRUNCATED
+    return TruncatedInterval(row, cut, allowed, sure, status, float(frac))
+
+
+def truncate_rows(rows: tuple[IntervalRow, ...], regions: dict[str, Region], *,
+                  exact: bool = True) -> tuple[TruncatedInterval, ...]:
+    """Every row against the region of its theory (``regions``: theory -> Region)."""
+    return tuple(truncate_row(r, regions[r.theory], exact=exact) for r in rows)
+
+
+def sign_rules(region: Region, *, exact: bool = True) -> tuple[SignRule, ...]:
+    """For each region coordinate, the sign positivity requires of it alone; empty for a
+    region that is not a cone (a facet with a non-zero offset), where a sign alone is
+    not what the bounds say."""
+    if any(f.offset != 0 for f in region.facets):
+        return ()
+    out = []
+    for k, name in enumerate(region.coordinates):
+        e = np.zeros(region.dim)
+        e[k] = 1.0
+        cut = line_cut(region, np.zeros(region.dim), e, exact=exact)
+        out.append(SignRule(name, sign_rule(cut), cut))
+    return tuple(out)

@@ -1,0 +1,70 @@
+"""The interval card: what it reads, and one bad card per rule (a one-line error naming
+the file, the field and the fix)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from eftsieve.errors import InputError
+from eftsieve.fit.formats.interval_card import parse_cl, read_interval_card
+from eftsieve.limits.intervals import truncate_rows
+from eftsieve.theories import get_theory
+
+CARDS = Path(__file__).with_name("cards")
+
+
+def test_good_card():
+    rows = read_interval_card(CARDS / "good.csv", get_theory)
+    assert [r.coefficient for r in rows] == ["fS0", "fS1"]
+    assert rows[0].cl == pytest.approx(0.95) and rows[1].cl == pytest.approx(0.68)
+    assert rows[1].others == {"fS0": 0.5, "fS2": 0.0} and rows[0].others == {}
+    assert rows[0].line == 2 and rows[0].convention.name == "none"
+
+
+def test_others_move_the_line(cone_regions):
+    # fS1 with fS0 = 0.5, fS2 = 0: fS0 + fS1 + fS2 >= 0 gives fS1 >= -0.5 (higgs-quartic
+    # facets; fS0 + fS2 >= 0 holds), so [-1, 2] becomes [-0.5, 2]
+    rows = read_interval_card(CARDS / "good.csv", get_theory)
+    _, t = truncate_rows(rows, {"higgs-quartic": cone_regions("higgs-quartic")})
+    assert t.allowed[0] == pytest.approx(-0.5, abs=1e-6) and t.allowed[1] == 2.0
+
+
+@pytest.mark.parametrize("name,field", [
+    ("bad_missing_column.csv", "header.source"),
+    ("bad_unknown_column.csv", "header.extra"),
+    ("bad_low_above_high.csv", "line 2.low"),
+    ("bad_unknown_coefficient.csv", "line 2.coefficient"),
+    ("bad_cl.csv", "line 2.cl"),
+    ("bad_infinite.csv", "line 2.high"),
+    ("bad_theory.csv", "line 2.theory"),
+    ("bad_convention.csv", "line 2.convention"),
+    ("bad_others.csv", "line 2.others.fS0"),
+    ("bad_units.csv", "line 2.units"),
+])
+def test_bad_cards_are_refused(name, field):
+    with pytest.raises(InputError) as err:
+        read_interval_card(CARDS / name, get_theory)
+    e = err.value
+    assert e.path.endswith(name) and e.field == field and e.hint
+    assert "\n" not in e.one_line()
+
+
+@pytest.mark.parametrize("text,value", [("95", 0.95), ("95%", 0.95), ("0.68", 0.68),
+                                        ("99.7", 0.997)])
+def test_confidence_levels(text, value):
+    assert parse_cl(text, Path("x.csv"), "cl") == pytest.approx(value)
+
+
+def test_a_region_that_is_not_a_cone(su2_region):
+    # chpt-su2's default region has inner (one-loop) and relaxed outer facets and no exact
+    # test between them: the interval is reported as undecided with both brackets, and no
+    # sign rule (the region is not a cone)
+    from eftsieve.limits.intervals import sign_rules
+
+    (row,) = read_interval_card(CARDS / "good_chpt.csv", get_theory)
+    (t,) = truncate_rows((row,), {"chpt-su2": su2_region})
+    assert t.status == "undecided" and t.cut.method == "undecided"
+    assert t.allowed[0] < t.sure[0] < t.sure[1] == t.allowed[1] == row.high
+    assert sign_rules(su2_region) == ()
