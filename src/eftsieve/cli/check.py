@@ -107,23 +107,33 @@ def cmd_check_many(args: argparse.Namespace) -> int:
                          "each against its own default region", "build the region once with "
                          f"`eftsieve region {flag} ...` and pass it with --region (one "
                          "--pion-mass value stays the mass of bare samples files)")
+    from eftsieve.api import check_kinematics
     from eftsieve.io.outset import output_set
 
     outdir = Path(args.output or "checks")
     inputs = [args.region, *args.fit]
+    region = load_region(args.region) if args.region else None
+
+    def loader(p: Path) -> Any:
+        fit = load_fit_arg(argparse.Namespace(**{**vars(args), "fit": str(p)}))
+        if region is not None:  # every card's kinematics against the one region file
+            check_kinematics(fit, region, args.region,
+                             getattr(args, "allow_kinematics_mismatch", False))
+        return fit
+
     with output_set(outdir, inputs) as stage:
         many = check_many([Path(f) for f in args.fit], _settings(args), stage,
-                          region=load_region(args.region) if args.region else None,
-                          region_path=args.region, engine=args.engine or "local",
-                          scheduler=args.scheduler, final_outdir=outdir,
-                          loader=lambda p: load_fit_arg(argparse.Namespace(
-                              **{**vars(args), "fit": str(p)})))
+                          region=region, region_path=args.region,
+                          engine=args.engine or "local", scheduler=args.scheduler,
+                          final_outdir=outdir, loader=loader)
         for fit, res, d in zip(many.fits, many.results, many.outdirs, strict=True):
             write_check_outputs(fit, res, d, plots=not args.no_plots)
-    print(f"checked {len(many.fits)} fits; table {outdir / many.table.name}")
-    for row in many.rows:
-        print("  " + ", ".join(f"{k}={v}" for k, v in row.items()
-                               if k in ("fit", "n_total", "p_inside", "tension_sigma")))
+    if not args.quiet:
+        for res, card in zip(many.results, args.fit, strict=True):
+            v = res.verdict
+            print(f"{v.label}: {Path(card).name} ('{res.fit.name}') - {v.reason}")
+            print(f"  tension: {v.tension_text}; kinematics: {fmt_kinematics(res.kinematics)}")
+        print(f"checked {len(many.fits)} fits; table {outdir / many.table.name}")
     below = [r for r in many.rows if args.fail_below is not None
              and float(r["p_inside"]) < args.fail_below]
     return EXIT_BELOW_THRESHOLD if below else 0
