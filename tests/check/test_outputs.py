@@ -104,3 +104,18 @@ def test_region_columns_left_out_when_they_are_the_fit_columns(tmp_path, region)
     y = np.column_stack([table["lbar1"].to_numpy(), table["lbar2"].to_numpy()])
     np.testing.assert_allclose(table["min_margin"].to_numpy(), region.margins(y).min(axis=1),
                                atol=1e-12)
+
+
+def test_flagged_limit_writes_the_first_rows_and_says_so(flagged_pair, region, tmp_path):
+    """--flagged-limit N: the file holds the first N flagged rows of the full file, in
+    row order; the report's text names N and the total."""
+    from eftsieve.report.check_report import flagged_file_text
+
+    src, files = flagged_pair
+    res = local_check(make_fit(src), region, CheckSettings(plot_points=1000, flagged_limit=25,
+                                                           flagged_margins=True), tmp_path)
+    lines = (tmp_path / "flagged.csv").read_text().splitlines()
+    full = files["csv"].read_text().splitlines()
+    assert lines == full[:26]  # header + the first 25 rows
+    total = len(full) - 1
+    assert f"first 25 of the {total} rows" in flagged_file_text(res)

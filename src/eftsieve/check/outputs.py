@@ -126,10 +126,14 @@ class FlaggedWriter:
         Also write the margin to every facet (``margin_<j>``).
     coordinates
         Write the region coordinates (False when they equal the fit's columns).
+    limit
+        Write at most this many rows, the first in row order (None: all).  ``n`` still
+        counts every flagged row offered, ``written`` those in the file.
     """
 
     def __init__(self, path: Path, fit: Fit, region: Region, fmt: str = "csv",
-                 margins: bool = False, coordinates: bool = True) -> None:
+                 margins: bool = False, coordinates: bool = True,
+                 limit: int | None = None) -> None:
         import pyarrow as pa
 
         if fmt not in FLAGGED_FORMATS:
@@ -137,7 +141,8 @@ class FlaggedWriter:
                              f"use one of {', '.join(FLAGGED_FORMATS)}")
         self.path, self.fmt, self.region = path, fmt, region
         self.columns = flagged_columns(fit, region, margins, coordinates)
-        self.margins, self.coordinates = margins, coordinates
+        self.margins, self.coordinates, self.limit = margins, coordinates, limit
+        self.written = 0
         self.a, self.b = region.arrays()
         self.n_values = len(fit.names)
         facets = region.facets
@@ -174,9 +179,11 @@ class FlaggedWriter:
         """Append one block's flagged rows (blocks in row order), at most
         :data:`MAX_CELLS` cells at a time."""
         step = max(1, MAX_CELLS // len(self.columns))
-        for lo in range(0, len(f), step):
-            self.sink.write_table(self._table(f.slice(lo, lo + step)))
+        room = len(f) if self.limit is None else max(0, min(len(f), self.limit - self.written))
+        for lo in range(0, room, step):
+            self.sink.write_table(self._table(f.slice(lo, min(lo + step, room))))
         self.n += len(f)
+        self.written += room
 
     def _table(self, f: FlaggedRows) -> Any:
         import pyarrow as pa
@@ -218,7 +225,8 @@ class FlaggedWriter:
 
 @contextmanager
 def flagged_output(outdir: Path | None, fit: Fit, region: Region, fmt: str = "csv",
-                   margins: bool = False, cmap: Any = None) -> Iterator[FlaggedWriter | None]:
+                   margins: bool = False, cmap: Any = None, limit: int | None = None
+                   ) -> Iterator[FlaggedWriter | None]:
     """A FlaggedWriter for ``outdir/flagged.csv`` (or ``flagged.parquet``; None without an
     outdir): moved into place when the block succeeds, removed when it raises, so the
     file is never half-written."""
@@ -226,7 +234,7 @@ def flagged_output(outdir: Path | None, fit: Fit, region: Region, fmt: str = "cs
         yield None
         return
     writer = FlaggedWriter(outdir / FLAGGED_FORMATS.get(fmt, "flagged.csv"), fit, region, fmt,
-                           margins, not same_coordinates(cmap, fit, region))
+                           margins, not same_coordinates(cmap, fit, region), limit)
     try:
         yield writer
     except BaseException:

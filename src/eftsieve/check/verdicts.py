@@ -47,6 +47,8 @@ class CheckSettings:
         Size of the uniform subsample kept for plots.
     flagged_format
         ``csv`` (flagged.csv) or ``parquet`` (flagged.parquet) for the rows not inside.
+    flagged_limit
+        Write at most this many flagged rows (the first in row order; None: all).
     flagged_margins
         Also write each flagged row's margin to every facet (off by default: the file
         then grows with the facet count; the margins follow from the coordinates).
@@ -69,6 +71,7 @@ class CheckSettings:
     plot_points: int = 50_000
     flagged_format: str = "csv"
     flagged_margins: bool = False
+    flagged_limit: int | None = None
     blas_threads: int | None = 1
     shell_solves: int = 1000
 
@@ -81,6 +84,9 @@ class CheckSettings:
             raise InputError(None, "--flagged-format", f"unknown format "
                              f"'{self.flagged_format}'", "use csv or parquet")
 
+        if self.flagged_limit is not None and int(self.flagged_limit) < 0:
+            raise InputError(None, "--flagged-limit", f"must be 0 or more, got "
+                             f"{self.flagged_limit}", "give a row count, or leave it out")
         for name in ("draws", "chunk_rows", "plot_points"):
             if int(getattr(self, name)) < 1:
                 raise InputError(None, name, f"must be at least 1, got {getattr(self, name)}",
@@ -111,7 +117,8 @@ class CheckSettings:
         return {"draws": self.draws, "seed": self.seed, "marginal_band": self.marginal_band,
                 "chunk_rows": self.chunk_rows, "plot_points": self.plot_points,
                 "flagged_format": self.flagged_format,
-                "flagged_margins": self.flagged_margins, "shell_solves": self.shell_solves}
+                "flagged_margins": self.flagged_margins, "flagged_limit": self.flagged_limit,
+                "shell_solves": self.shell_solves}
 
 
 @dataclass(frozen=True)

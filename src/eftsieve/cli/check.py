@@ -59,6 +59,9 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     p.add_argument("--flagged-format", choices=["csv", "parquet"], default="csv",
                    help="file of the rows not inside: flagged.csv or flagged.parquet "
                         "(default csv)")
+    p.add_argument("--flagged-limit", type=nonnegative_int, default=None, metavar="N",
+                   help="write at most N flagged rows, the first in row order (default: "
+                        "all); the terminal and the report say when rows were left out")
     p.add_argument("--flagged-margins", action="store_true",
                    help="also write each flagged row's margin to every facet (margin_0, ...); "
                         "off by default: on a many-facet region it multiplies the file's size")
@@ -80,7 +83,7 @@ def _settings(args: argparse.Namespace) -> Any:
     return CheckSettings(draws=args.draws, seed=args.seed, marginal_band=args.band,
                          chunk_rows=args.chunk_rows, flagged_format=args.flagged_format,
                          flagged_margins=args.flagged_margins,
-                         shell_solves=args.shell_solves)
+                         flagged_limit=args.flagged_limit, shell_solves=args.shell_solves)
 
 
 def cmd_check(args: argparse.Namespace) -> int:
@@ -142,7 +145,7 @@ def cmd_check_many(args: argparse.Namespace) -> int:
 def cmd_check_one(args: argparse.Namespace) -> int:
     from eftsieve.check.run import run_check
     from eftsieve.io.outset import output_set
-    from eftsieve.report.check_report import corner_cap_text
+    from eftsieve.report.check_report import corner_cap_text, flagged_file_text
     from eftsieve.report.outputs import CHECK_OUTPUTS, write_check_outputs
 
     fit = load_fit_arg(args)
@@ -175,6 +178,8 @@ def cmd_check_one(args: argparse.Namespace) -> int:
         print(f"  report: {outdir / 'report.html'}")
         if "corner" in written and corner_cap_text(len(fit.names)):
             print(f"  {corner_cap_text(len(fit.names))}")
+        if flag_dir is not None and settings.flagged_limit is not None:
+            print(f"  {flagged_file_text(result)}".replace("`", ""))
     if args.fail_below is not None and result.p_inside < args.fail_below:
         if not args.quiet and not args.json:
             print(f"  p_inside {fmt_prob(result.p_inside)} < --fail-below {args.fail_below:g}")

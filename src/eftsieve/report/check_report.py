@@ -258,9 +258,22 @@ def worst_block(result: CheckResult, limit: int = 10) -> list:
     rows = tuple((str(w.row), ", ".join(fmt_num(x) for x in w.region_point),
                   fmt_num(w.min_margin), w.facet) for w in worst[:limit])
     return [Heading("Most violated rows"),
-            Para("All outside and marginal rows, with every margin and certificate, are in "
-                 "`flagged.csv`."),
+            Para(flagged_file_text(result)),
             Table(("row", "point (region coordinates)", "margin", "most violated facet"), rows)]
+
+
+def flagged_file_text(result: CheckResult) -> str:
+    """What the flagged file holds: every row not inside, or the first N of them."""
+    c = result.counts
+    n = c.marginal + c.outside + c.uncertain
+    limit = result.settings.flagged_limit
+    name = f"flagged.{result.settings.flagged_format}"
+    if limit is not None and n > limit:
+        return (f"`{name}` holds the first {limit} of the {n} rows that are not inside "
+                f"(row order; `--flagged-limit {limit}`), each with its smallest margin and "
+                "worst facet.")
+    return (f"Every row that is not inside ({n}) is in `{name}`, with its smallest margin "
+            "and worst facet (`--flagged-margins` adds the margin to every facet).")
 
 
 def cautions_block(theory: str) -> list:

@@ -111,7 +111,8 @@ def collect_check(sub: SubmittedCheck, outdir: Path | None,
     """Merge the partitions of a submitted check in order; write flagged.csv atomically."""
     retries = int(sub.engine.get("retries", 0))
     with flagged_output(outdir, sub.fit, sub.region, sub.settings.flagged_format,
-                         sub.settings.flagged_margins, sub.prep.cmap) as flagged:
+                         sub.settings.flagged_margins, sub.prep.cmap,
+                         sub.settings.flagged_limit) as flagged:
         return _merge_in_order(sub, flagged, partition_timeout, retries)
 
 

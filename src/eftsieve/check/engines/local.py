@@ -69,7 +69,8 @@ def _local_check(fit: Fit, region: Region, settings: CheckSettings, outdir: Path
         sizes = [p.n_rows for p in parts]
         progress.start(None if None in sizes else sum(s for s in sizes if s is not None))
     with flagged_output(outdir, fit, region, settings.flagged_format,
-                         settings.flagged_margins, prep.cmap) as flagged:
+                         settings.flagged_margins, prep.cmap,
+                         settings.flagged_limit) as flagged:
         merger = CheckMerger(fit, region, settings, parts, flagged, prep.source.weighted)
         for part in parts:
             job = PartitionJob(part, fit, prep.source, region, prep.cmap, settings,
