@@ -167,14 +167,14 @@ def _demo_steps(ex: Path, out: Path, steps: _Steps, say: Callable[[str], None]) 
     if su3.is_file():  # the SU(3) fit against its own region and, matched, the SU(2) one
         s3 = steps.check(su3, "check_su3", None, SHORT_DRAWS)
         s2 = steps.check(su3, "check_su3_as_su2", region, SHORT_DRAWS)
-        say(f"  SU(3) fit (L1, L2, L3 at 770 MeV): p_inside = {s3['p_inside']:.3f} against "
-            f"{s3['theory']}, {s2['p_inside']:.3f} against {g['theory']} through the one-loop "
-            f"matching ({out / 'check_su3' / 'report.html'})")
+        say(verdict_line(f"SU(3) fit against {s3['theory']}", s3,
+                         out / "check_su3" / "report.html"))
+        say(verdict_line(f"SU(3) fit against {g['theory']} (one-loop matching)", s2,
+                         out / "check_su3_as_su2" / "report.html"))
     scalar = ex / "scalar_gaussian.yaml"
     if scalar.is_file():
         s = steps.check(scalar, "check_scalar", None, SHORT_DRAWS)
-        say(f"  {s['theory']} fit: p_inside = {s['p_inside']:.3f}, tension "
-            f"{s['tension_sigma']:.2f} sigma ({out / 'check_scalar' / 'report.html'})")
+        say(verdict_line(f"{s['theory']} fit", s, out / "check_scalar" / "report.html"))
     from eftsieve.demo_limits import CARD, run_vbs_demo
 
     if (ex / CARD).is_file():  # published limits of an invented VBS analysis
@@ -204,16 +204,20 @@ def _power_counting() -> UncertaintySettings:
     return UncertaintySettings("power-counting")
 
 
+def verdict_line(label: str, summary: dict[str, Any], report: Path) -> str:
+    """One demo line, verdict first: 'label: VERDICT - reason (report ...)'."""
+    v = summary.get("verdict") or {}
+    return f"  {label}: {str(v.get('label', '?')).upper()} - {v.get('reason', '')} ({report})"
+
+
 def _aurora_lines(out: Path, g: dict[str, Any], p: dict[str, Any], ig: dict[str, Any],
                   ip: dict[str, Any]) -> list[str]:
     lines = [f"  region: {out / 'region.json'} (plot {out / 'region.png'})",
-             f"  Gaussian fit:  p_inside = {g['p_inside']:.3f} +- {g['p_inside_err']:.1g}, "
-             f"tension {g['tension_sigma']:.2f} sigma (p = {g['tension_p']:.3g}); "
-             f"report {out / 'check_gaussian' / 'report.html'}"]
+             verdict_line("Gaussian fit", g, out / "check_gaussian" / "report.html")]
     bm = p["p_inside_mc_err_batch"]  # the chain's rows are correlated: batch means
     err = f"{bm:.1g} (batch means)" if bm is not None else f"{p['p_inside_err']:.1g}"
-    lines.append(f"  posterior:     p_inside = {p['p_inside']:.3f} +- {err} "
-                 f"of {p['n_total']} samples; report {out / 'check_posterior' / 'report.html'}")
+    lines.append(verdict_line("posterior", p, out / "check_posterior" / "report.html"))
+    lines.append(f"    p_inside = {p['p_inside']:.3f} +- {err} of {p['n_total']} samples")
     for label, s in (("Gaussian, exact truncation", ig), ("posterior, reweighted", ip)):
         moves = ", ".join(f"{n} {s['before'][n]['mean']:.2f} -> {s['after'][n]['mean']:.2f}"
                           for n in list(s["before"])[:2])
