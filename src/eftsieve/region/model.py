@@ -312,11 +312,37 @@ def _check_facet(f: Any, dim: int, path: Any, where: str) -> None:
                               "region with `eftsieve region`)")
 
 
+def _interior_point(a: np.ndarray, b: np.ndarray, scale: float,
+                    iterations: int = 2000) -> np.ndarray | None:
+    """A point strictly inside ``a x >= b`` by the relaxation method for linear
+    inequalities (Motzkin & Schoenberg, Canad. J. Math. 6 (1954) 393): project onto the
+    most violated half-space, shifted inwards by a margin, until none is violated; None
+    when it does not get there (the caller then decides with an LP).  It spares loading
+    a region the import of scipy.optimize (about 0.6 s) in the usual case."""
+    norms = np.linalg.norm(a, axis=1)
+    if not len(b) or not np.all(norms > 0):
+        return None
+    u, c = a / norms[:, None], b / norms
+    x = np.zeros(a.shape[1])
+    for margin in (1e-3 * scale, 1e-6 * scale):
+        for _ in range(iterations):
+            gap = u @ x - c - margin
+            i = int(np.argmin(gap))
+            if gap[i] >= 0:
+                return x
+            x = x - gap[i] * u[i]
+    return None
+
+
 def _check_geometry(region: Region, path: Any) -> None:
     """The region has an interior (a ball of positive radius fits inside)."""
+    a, b = region.arrays()
+    scale = max(1.0, float(np.max(np.abs(b)))) if len(b) else 1.0
+    x = _interior_point(a, b, scale)
+    if x is not None and np.all(a @ x - b > 1e-9 * scale * np.linalg.norm(a, axis=1)):
+        return  # a ball of radius > 1e-9 scale fits around x
     from scipy.optimize import linprog
 
-    a, b = region.arrays()
     scale = max(1.0, float(np.max(np.abs(b))))
     box = 1e6 * scale
     c = np.zeros(region.dim + 1)
