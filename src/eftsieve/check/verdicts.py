@@ -157,8 +157,8 @@ class Verdicts:
 
 #: up to this many facets the margins are formed one facet at a time (O(n) memory)
 FEW_FACETS = 8
-#: cells (facets x rows) of one tile of the many-facet path (fits in the L2 cache)
-TILE_CELLS = 1 << 16
+#: cells (rows x facets) of one tile of the many-facet path (2 MiB: within the L2/L3 cache)
+TILE_CELLS = 1 << 18
 #: facets with at most this many nonzero coefficients on average take the per-facet
 #: path whatever their number (sparse facets, e.g. of a product of independent cones)
 SPARSE_TERMS = 3
@@ -204,23 +204,24 @@ def _columns(y: np.ndarray) -> list[np.ndarray]:
 
 def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True
                       ) -> tuple[np.ndarray, np.ndarray | None]:
+    """Tiles of (rows x facets), reduced along the contiguous facet axis: one argmin pass
+    and a gather (about 1.9x faster than reducing (facets x rows) tiles along rows, and
+    faster than one BLAS ``y @ a.T`` pass at 100 facets; benchmarks/bench_stream.py)."""
     n = len(y)
     best = np.empty(n)
-    arg = np.empty(n, dtype=np.intp) if with_arg else None
-    yt = np.ascontiguousarray(y.T)
+    arg = np.empty(n, dtype=np.intp)
     step = max(256, TILE_CELLS // len(b))
-    ac = [np.ascontiguousarray(a[:, k:k + 1]) for k in range(a.shape[1])]
-    bc = b[:, None]
+    ac = [np.ascontiguousarray(a[:, k]) for k in range(a.shape[1])]
     for lo in range(0, n, step):
         hi = min(n, lo + step)
-        tile = ac[0] * yt[0, lo:hi]
+        tile = y[lo:hi, 0:1] * ac[0]
         for k in range(1, len(ac)):
-            tile += ac[k] * yt[k, lo:hi]
-        tile -= bc
-        if arg is not None:
-            tile.argmin(axis=0, out=arg[lo:hi])
-        tile.min(axis=0, out=best[lo:hi])
-    return best, None if arg is None else arg.astype(np.int32)
+            tile += y[lo:hi, k:k + 1] * ac[k]
+        tile -= b
+        am = tile.argmin(axis=1)
+        arg[lo:hi] = am
+        best[lo:hi] = tile[np.arange(hi - lo), am]
+    return best, arg.astype(np.int32) if with_arg else None
 
 
 def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verdicts:
