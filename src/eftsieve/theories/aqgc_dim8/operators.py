@@ -100,6 +100,7 @@ class _Fields:
         self.w, self.b = w[1], b[1][..., 0, :, :]                    # F^{mu nu}, indices up
         self.wl, self.bl = _lo(self.w), _lo(self.b)
         self.h = h
+        self.shape = np.broadcast_shapes(self.w.shape[:-3], self.b.shape[:-2], h[1].shape[:-2])
 
     @cached_property
     def x(self) -> np.ndarray:
@@ -114,29 +115,36 @@ class _Fields:
         return np.einsum("...cjm,...jn->...cmn",
                          np.einsum("...im,cij->...cjm", dpc, _PAULI), dp)
 
+    @cached_property
     def gram(self) -> np.ndarray:
         """G_ab = W^a_mn W^{b, mn}."""
         return np.einsum("...amn,...bmn->...ab", self.wl, self.w)
 
+    @cached_property
     def wb(self) -> np.ndarray:
         """W^a_mn B^mn."""
         return np.einsum("...amn,...mn->...a", self.wl, self.b)
 
+    @cached_property
     def bb(self) -> np.ndarray:
         return np.einsum("...mn,...mn->...", self.bl, self.b)
 
+    @cached_property
     def k(self) -> np.ndarray:
         """K_a^b = sum_c W^c_{a m} W^{c, m b}."""
         return np.einsum("...cam,...cmb->...ab", self.wl, self.w)
 
+    @cached_property
     def l(self) -> np.ndarray:
         """L_a^b = B_{a m} B^{m b}."""
         return np.einsum("...am,...mb->...ab", self.bl, self.b)
 
+    @cached_property
     def xx(self) -> np.ndarray:
         """(D_b Phi)^+ D^b Phi."""
         return np.einsum("...mm->...", lower(self.x, (-2,)))
 
+    @cached_property
     def x_mixed(self) -> np.ndarray:
         """X_b^m = (D_b Phi)^+ D^m Phi as [b, m]."""
         return lower(self.x, (-2,))
@@ -147,57 +155,46 @@ def _tr(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.einsum("...ab,...ba->...", a, b)
 
 
-def make_operators(sin2_theta_w: float) -> dict[str, Callable[..., Any]]:
-    """Coefficient name -> density f(w, b, h) for the 18 coefficients at a weak angle
-    (each written out with the identities of :class:`_Fields`)."""
-    g, gp = couplings(sin2_theta_w)
+def _forms() -> dict[str, Callable[[_Fields], Any]]:
+    """Coefficient name -> the operator as a function of the contractions (:class:`_Fields`),
+    each written out with the identities in its docstring."""
 
-    def fields(w: Jet, b: Jet, h: Jet) -> _Fields:
-        return _Fields(w, b, h, g, gp)
-
-    def s0(w: Jet, b: Jet, h: Jet) -> Any:
-        x = fields(w, b, h).x
+    def s0(f: _Fields) -> Any:
+        x = f.x
         return np.einsum("...mn,...mn->...", _lo(x), x)
 
-    def s1(w: Jet, b: Jet, h: Jet) -> Any:
-        return fields(w, b, h).xx() ** 2
+    def s1(f: _Fields) -> Any:
+        return f.xx ** 2
 
-    def s2(w: Jet, b: Jet, h: Jet) -> Any:
-        x = fields(w, b, h).x
+    def s2(f: _Fields) -> Any:
+        x = f.x
         return np.einsum("...mn,...nm->...", _lo(x), x)
 
-    def m0(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return -f.g2 / 2 * np.einsum("...aa->...", f.gram()) * f.xx()
+    def m0(f: _Fields) -> Any:
+        return -f.g2 / 2 * np.einsum("...aa->...", f.gram) * f.xx
 
-    def m1(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return -f.g2 / 2 * np.einsum("...mb,...bm->...", f.k(), f.x_mixed())
+    def m1(f: _Fields) -> Any:
+        return -f.g2 / 2 * np.einsum("...mb,...bm->...", f.k, f.x_mixed)
 
-    def m2(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return -f.gp2 / 4 * f.bb() * f.xx()
+    def m2(f: _Fields) -> Any:
+        return -f.gp2 / 4 * f.bb * f.xx
 
-    def m3(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return -f.gp2 / 4 * np.einsum("...mb,...bm->...", f.l(), f.x_mixed())
+    def m3(f: _Fields) -> Any:
+        return -f.gp2 / 4 * np.einsum("...mb,...bm->...", f.l, f.x_mixed)
 
-    def m4(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
+    def m4(f: _Fields) -> Any:
         trace_v = np.einsum("...cmm->...c", lower(f.v, (-2,)))
-        return -f.ggp / 4 * np.einsum("...c,...c->...", f.wb(), trace_v)
+        return -f.ggp / 4 * np.einsum("...c,...c->...", f.wb, trace_v)
 
-    def m5(w: Jet, b: Jet, h: Jet) -> Any:
+    def m5(f: _Fields) -> Any:
         # W^a_{b n} B^{b m} (V^a_m^n + V^{a, n}_m), the second term being the h.c.
-        f = fields(w, b, h)
         wbm = np.einsum("...cbn,...bm->...cnm", lower(f.w, (-2,)), f.b)   # W^a_b^n B^{b m}
         vl = lower(f.v, (-2, -1))
         return -f.ggp / 4 * (np.einsum("...cnm,...cmn->...", wbm, vl)
                              + np.einsum("...cnm,...cnm->...", wbm, vl))
 
-    def m7(w: Jet, b: Jet, h: Jet) -> Any:
+    def m7(f: _Fields) -> Any:
         # W^a_{b n} W^{b', b m} contracted with X_m^n, V_m^n (indices m, n of D_m, D^n)
-        f = fields(w, b, h)
         ww = np.einsum("...abn,...cbm->...acnm", lower(f.w, (-2,)), f.w)   # W^a_b^n W^{c,b m}
         xl = _lo(f.x)                                                     # X_{m n}
         vl = _lo(f.v)
@@ -205,37 +202,58 @@ def make_operators(sin2_theta_w: float) -> dict[str, Callable[..., Any]]:
         anti = np.einsum("abc,...abnm,...cmn->...", _EPS, ww, vl)
         return -f.g2 / 4 * (sym + 1j * anti)
 
-    def t0(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return f.g2**2 / 4 * np.einsum("...aa->...", f.gram()) ** 2
+    def t0(f: _Fields) -> Any:
+        return f.g2**2 / 4 * np.einsum("...aa->...", f.gram) ** 2
 
-    def t1(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return f.g2**2 / 4 * np.einsum("...ab,...ab->...", f.gram(), f.gram())
+    def t1(f: _Fields) -> Any:
+        return f.g2**2 / 4 * np.einsum("...ab,...ab->...", f.gram, f.gram)
 
-    def t2(w: Jet, b: Jet, h: Jet) -> Any:
-        k = fields(w, b, h).k()
-        return g**4 / 4 * _tr(k, k)
+    def t2(f: _Fields) -> Any:
+        k = f.k
+        return f.g2**2 / 4 * _tr(k, k)
 
-    def t5(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return f.g2 * f.gp2 / 8 * np.einsum("...aa->...", f.gram()) * f.bb()
+    def t5(f: _Fields) -> Any:
+        return f.g2 * f.gp2 / 8 * np.einsum("...aa->...", f.gram) * f.bb
 
-    def t6(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return f.g2 * f.gp2 / 8 * np.einsum("...a,...a->...", f.wb(), f.wb())
+    def t6(f: _Fields) -> Any:
+        return f.g2 * f.gp2 / 8 * np.einsum("...a,...a->...", f.wb, f.wb)
 
-    def t7(w: Jet, b: Jet, h: Jet) -> Any:
-        f = fields(w, b, h)
-        return f.g2 * f.gp2 / 8 * _tr(f.k(), f.l())
+    def t7(f: _Fields) -> Any:
+        return f.g2 * f.gp2 / 8 * _tr(f.k, f.l)
 
-    def t8(w: Jet, b: Jet, h: Jet) -> Any:
-        return gp**4 / 16 * fields(w, b, h).bb() ** 2
+    def t8(f: _Fields) -> Any:
+        return f.gp2**2 / 16 * f.bb ** 2
 
-    def t9(w: Jet, b: Jet, h: Jet) -> Any:
-        lm = fields(w, b, h).l()
-        return gp**4 / 16 * _tr(lm, lm)
+    def t9(f: _Fields) -> Any:
+        lm = f.l
+        return f.gp2**2 / 16 * _tr(lm, lm)
 
-    return {"fS0": s0, "fS1": s1, "fS2": s2, "fM0": m0, "fM1": m1, "fM2": m2, "fM3": m3,
+    forms = {"fS0": s0, "fS1": s1, "fS2": s2, "fM0": m0, "fM1": m1, "fM2": m2, "fM3": m3,
             "fM4": m4, "fM5": m5, "fM7": m7, "fT0": t0, "fT1": t1, "fT2": t2, "fT5": t5,
             "fT6": t6, "fT7": t7, "fT8": t8, "fT9": t9}
+    return forms
+
+
+def make_operators(sin2_theta_w: float) -> dict[str, Callable[..., Any]]:
+    """Coefficient name -> density f(w, b, h) of the 18 coefficients at a weak angle."""
+    g, gp = couplings(sin2_theta_w)
+    forms = _forms()
+
+    def one(form: Callable[[_Fields], Any]) -> Callable[..., Any]:
+        def density(w: Jet, b: Jet, h: Jet) -> Any:
+            return form(_Fields(w, b, h, g, gp))
+        return density
+    return {name: one(form) for name, form in forms.items()}
+
+
+def stacked_density(coefficients: tuple[str, ...], sin2_theta_w: float) -> Callable[..., Any]:
+    """One density returning the operators ``coefficients`` stacked on a last axis (the
+    contractions are shared, so one forward-tensor pass computes all of them)."""
+    g, gp = couplings(sin2_theta_w)
+    forms = _forms()
+    chosen = [forms[c] for c in coefficients]
+
+    def density(w: Jet, b: Jet, h: Jet) -> Any:
+        f = _Fields(w, b, h, g, gp)
+        return np.stack([np.broadcast_to(form(f), f.shape) for form in chosen], axis=-1)
+    return density

@@ -10,18 +10,20 @@ exactly onto the region's coordinates.
 
 from __future__ import annotations
 
+from functools import lru_cache
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from eftsieve.bounds.cones import ConeProblem
-from eftsieve.errors import InputError
+from eftsieve.bounds.contact import forward_tensor
+from eftsieve.errors import InputError, SolverError
 from eftsieve.executors import Executor, serial
 from eftsieve.theories.aqgc_dim8 import conventions as conv
 from eftsieve.theories.aqgc_dim8 import operators as ops
 from eftsieve.theories.aqgc_dim8.references import REFERENCES
 from eftsieve.theories.base import CoordinateMap
-from eftsieve.theories.cone_theory import CONE_CAUTIONS, ConeTheory, problem_from_operators
+from eftsieve.theories.cone_theory import CONE_CAUTIONS, ConeTheory
 
 if TYPE_CHECKING:
     from eftsieve.fit.model import Fit
@@ -73,10 +75,33 @@ def parse_sin2(raw: Any) -> float:
 def aqgc_problem(coordinates: tuple[str, ...] = ops.COEFFICIENTS,
                  sin2_theta_w: float = DEFAULT_SIN2_THETA_W) -> ConeProblem:
     """The ConeProblem of the given coefficients (the others at zero) on the 12 modes."""
-    operators = ops.make_operators(sin2_theta_w)
-    return problem_from_operators(coordinates, ops.MODES, operators, {
-        "basis": AqgcDim8.basis, "convention": conv.CANONICAL,
-        "sin2_theta_w": sin2_theta_w, "g": 1.0})
+    tensors = _tensors(tuple(coordinates), float(sin2_theta_w))
+    keep = support_modes(tensors)
+    labels = tuple(ops.MODES.labels[i] for i in keep)
+    return ConeProblem(tuple(coordinates), labels, tensors[np.ix_(range(len(tensors)), keep, keep,
+                                                                   keep, keep)], {
+        "basis": AqgcDim8.basis, "convention": conv.CANONICAL, "modes": ops.MODES.to_dict(),
+        "modes_used": list(labels), "sin2_theta_w": sin2_theta_w, "g": 1.0})
+
+
+def support_modes(tensors: np.ndarray, rel: float = 1e-12) -> list[int]:
+    """The modes that some M_a involves.  Dropping a mode that no entry involves is exact:
+    rho restricted to the remaining pairs is a principal submatrix (still PSD), and a rho of
+    the remaining modes extends by zero."""
+    t = np.abs(np.asarray(tensors))
+    big = t > rel * t.max()
+    used = big.any(axis=(0, 2, 3, 4)) | big.any(axis=(0, 1, 3, 4)) | big.any(
+        axis=(0, 1, 2, 4)) | big.any(axis=(0, 1, 2, 3))
+    return [int(i) for i in np.nonzero(used)[0]]
+
+
+@lru_cache(maxsize=4)
+def _tensors(coordinates: tuple[str, ...], sin2_theta_w: float) -> np.ndarray:
+    """M_a of the coefficients (k, 12, 12, 12, 12), all in one forward-tensor pass."""
+    t = forward_tensor(ops.stacked_density(coordinates, sin2_theta_w), ops.MODES)
+    t = np.moveaxis(t, -1, 0)
+    t.setflags(write=False)
+    return t
 
 
 class AqgcDim8(ConeTheory):
@@ -115,7 +140,13 @@ class AqgcDim8(ConeTheory):
         sin2 = parse_sin2(settings.get("sin2_theta_w"))
         st = ConeSettings(family=fams[0], shell_target=float(settings.get("shell_target", 1e-3)),
                           seed=int(settings.get("seed", 0)))
-        build = build_cone(aqgc_problem(coords, sin2), st)
+        try:
+            build = build_cone(aqgc_problem(coords, sin2), st)
+        except SolverError as err:
+            raise InputError(None, "--coordinates", f"no interior point of the cone of "
+                             f"{','.join(coords)} alone ({err}); positivity then forces a "
+                             "combination of them to vanish", "add S- or T-type coefficients "
+                             "(docs/physics_aqgc.md, single-coefficient signs)") from err
         convention = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
                       "units": "all coefficients in one common unit (e.g. TeV^-4)",
                       "fixed_to_zero": [c for c in ops.COEFFICIENTS if c not in coords]}
