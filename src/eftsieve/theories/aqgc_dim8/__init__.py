@@ -1,1 +1,1 @@
-"""Theory plug-in package; physics in operators.py, conventions in conventions.py, adapter in theory.py."""
+"""Theory plug-in package; physics in operators.py, conventions.py; adapter theory.py."""

@@ -27,6 +27,7 @@ a linear map from the card's parameters (any subset of ``fS0 .. fT9`` and the re
 from __future__ import annotations
 
 from collections.abc import Sequence
+from pathlib import Path
 
 import numpy as np
 
@@ -48,7 +49,7 @@ CONVENTIONS = {name: ConventionSpec(name, (), text) for name, text in _TEXT.item
 _M_SIGN = np.array([-1.0 if c in M_COEFFICIENTS else 1.0 for c in COEFFICIENTS])
 
 
-def to_canonical(convention: str, names: Sequence[str], path: object = None,
+def to_canonical(convention: str, names: Sequence[str], path: str | Path | None = None,
                  field: str = "convention") -> AffineMap:
     """The map from parameters ``names`` stated in ``convention`` to the 18 coordinates.
 

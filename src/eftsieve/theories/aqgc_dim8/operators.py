@@ -135,7 +135,7 @@ class _Fields:
         return np.einsum("...cam,...cmb->...ab", self.wl, self.w)
 
     @cached_property
-    def l(self) -> np.ndarray:
+    def bchain(self) -> np.ndarray:
         """L_a^b = B_{a m} B^{m b}."""
         return np.einsum("...am,...mb->...ab", self.bl, self.b)
 
@@ -180,7 +180,7 @@ def _forms() -> dict[str, Callable[[_Fields], Any]]:
         return -f.gp2 / 4 * f.bb * f.xx
 
     def m3(f: _Fields) -> Any:
-        return -f.gp2 / 4 * np.einsum("...mb,...bm->...", f.l, f.x_mixed)
+        return -f.gp2 / 4 * np.einsum("...mb,...bm->...", f.bchain, f.x_mixed)
 
     def m4(f: _Fields) -> Any:
         trace_v = np.einsum("...cmm->...c", lower(f.v, (-2,)))
@@ -219,16 +219,16 @@ def _forms() -> dict[str, Callable[[_Fields], Any]]:
         return f.g2 * f.gp2 / 8 * np.einsum("...a,...a->...", f.wb, f.wb)
 
     def t7(f: _Fields) -> Any:
-        return f.g2 * f.gp2 / 8 * _tr(f.k, f.l)
+        return f.g2 * f.gp2 / 8 * _tr(f.k, f.bchain)
 
     def t8(f: _Fields) -> Any:
         return f.gp2**2 / 16 * f.bb ** 2
 
     def t9(f: _Fields) -> Any:
-        lm = f.l
+        lm = f.bchain
         return f.gp2**2 / 16 * _tr(lm, lm)
 
-    forms = {"fS0": s0, "fS1": s1, "fS2": s2, "fM0": m0, "fM1": m1, "fM2": m2, "fM3": m3,
+    forms: dict[str, Callable[[_Fields], Any]] = {"fS0": s0, "fS1": s1, "fS2": s2, "fM0": m0, "fM1": m1, "fM2": m2, "fM3": m3,
             "fM4": m4, "fM5": m5, "fM7": m7, "fT0": t0, "fT1": t1, "fT2": t2, "fT5": t5,
             "fT6": t6, "fT7": t7, "fT8": t8, "fT9": t9}
     return forms

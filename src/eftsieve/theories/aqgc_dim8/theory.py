@@ -14,6 +14,7 @@ from functools import lru_cache
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
+from scipy.spatial import QhullError as _QhullError
 
 from eftsieve.bounds.cones import ConeProblem
 from eftsieve.bounds.contact import forward_tensor
@@ -32,6 +33,9 @@ if TYPE_CHECKING:
 #: on-shell sin^2(theta_W) = 1 - m_W^2/m_Z^2 with m_W = 80.377 GeV, m_Z = 91.1876 GeV
 #: (Particle Data Group, Review of Particle Physics 2022, from memory)
 DEFAULT_SIN2_THETA_W = 1.0 - (80.377 / 91.1876) ** 2
+#: the region of ``eftsieve region --theory aqgc-dim8`` without --coordinates: a build that
+#: finishes in seconds (larger subsets fail in the hull step; docs/physics_aqgc.md)
+DEFAULT_COORDINATES = ("fT0", "fT1", "fT2")
 AQGC_CAUTIONS = CONE_CAUTIONS + (
     "interval limits quoted with all other coefficients at zero are not a fit: each is one "
     "line through the 18-dimensional space",
@@ -104,6 +108,16 @@ def _tensors(coordinates: tuple[str, ...], sin2_theta_w: float) -> np.ndarray:
     return t
 
 
+def _reduction(problem: ConeProblem, family: str) -> Any:
+    """The product-state reduction of transverse-w when only the six W modes are involved
+    (the elastic proofs are then fast); None otherwise (general branch and bound)."""
+    from eftsieve.theories.transverse_w import operators as tw
+
+    if family == "elastic" and problem.modes == tw.MODES.labels:
+        return tw.state_reduction()
+    return None
+
+
 class AqgcDim8(ConeTheory):
 
     references = REFERENCES
@@ -115,8 +129,8 @@ class AqgcDim8(ConeTheory):
     modes = ops.MODES
     operators = ops.make_operators(DEFAULT_SIN2_THETA_W)
     convention_specs = conv.CONVENTIONS
-    cautions = AQGC_CAUTIONS
-    setting_names = ConeTheory.setting_names + ("coordinates", "sin2_theta_w")
+    cautions: tuple[str, ...] = AQGC_CAUTIONS
+    setting_names: tuple[str, ...] = ConeTheory.setting_names + ("coordinates", "sin2_theta_w")
     basis = ("f_S0..2, f_M0..5, f_M7, f_T0..2, f_T5..9 over Lambda^4 (hep-ph/0606118, "
              "arXiv:1604.03555), convention hat-i; fM6 folded into fM0")
 
@@ -136,17 +150,25 @@ class AqgcDim8(ConeTheory):
             raise InputError(None, "--convention", f"{self.name} regions are stated in "
                              f"{conv.CANONICAL}", "drop --convention; a fit's own convention "
                              "is mapped onto the region when it is checked")
-        coords = parse_coordinates(settings.get("coordinates"))
+        coords = parse_coordinates(settings.get("coordinates", DEFAULT_COORDINATES))
         sin2 = parse_sin2(settings.get("sin2_theta_w"))
         st = ConeSettings(family=fams[0], shell_target=float(settings.get("shell_target", 1e-3)),
                           seed=int(settings.get("seed", 0)))
+        problem = aqgc_problem(coords, sin2)
         try:
-            build = build_cone(aqgc_problem(coords, sin2), st)
+            build = build_cone(problem, st, reduction=_reduction(problem, fams[0]))
+        except _QhullError as err:
+            raise SolverError("hull failed", f"the cutting-plane build of {len(coords)} "
+                              f"coefficients ({err.__class__.__name__}); choose 3 to 5 "
+                              "coefficients with --coordinates, or decide points one by one "
+                              "(docs/physics_aqgc.md)") from err
         except SolverError as err:
-            raise InputError(None, "--coordinates", f"no interior point of the cone of "
-                             f"{','.join(coords)} alone ({err}); positivity then forces a "
-                             "combination of them to vanish", "add S- or T-type coefficients "
-                             "(docs/physics_aqgc.md, single-coefficient signs)") from err
+            raise InputError(None, "--coordinates", f"the cone of {','.join(coords)} alone "
+                             f"has no interior point for the engine ({err}): some elastic "
+                             "channel of the modes they involve vanishes identically (e.g. "
+                             "fT0 alone gives no W_x W_y scattering)", "add the coefficients "
+                             "of those channels, e.g. all of fS0,fS1,fS2 and fT0,fT1,fT2 "
+                             "(docs/physics_aqgc.md)") from err
         convention = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
                       "units": "all coefficients in one common unit (e.g. TeV^-4)",
                       "fixed_to_zero": [c for c in ops.COEFFICIENTS if c not in coords]}
