@@ -378,3 +378,21 @@ def test_rule_in_heavy_scalar_exchanges(problem):
     # the singlet couples W.W, B.B and the Higgs current: fT0, fT5, fT8, fM0, fM2, fS1
     nonzero = {n for n, v in zip(ops.COEFFICIENTS, pts[0], strict=True) if abs(v) > 1e-9}
     assert nonzero == {"fT0", "fT5", "fT8", "fM0", "fM2", "fS1"}
+
+
+@pytest.mark.slow
+def test_s_plus_t_region_is_the_product_of_the_two_cones():
+    # without M-type operators the Higgs and the W modes do not talk: the W-H pairs are dead
+    # (rho vanishes there, eftsieve.bounds.sectors.dead_pairs) and the cone is the product
+    # of the higgs-quartic and transverse-w cones, so its facets are theirs, side by side
+    both = THEORY.build_region({"families": ["extremal"],
+                                "coordinates": "fS0,fS1,fS2,fT0,fT1,fT2"})
+    s_part = get_theory("higgs-quartic").build_region({"families": ["extremal"]})
+    t_part = get_theory("transverse-w").build_region({"families": ["extremal"]})
+    a_s, _ = s_part.arrays()
+    a_t, _ = t_part.arrays()
+    want = np.vstack([np.hstack([a_s, np.zeros((len(a_s), 3))]),
+                      np.hstack([np.zeros((len(a_t), 3)), a_t])])
+    a, _ = both.arrays()
+    norm = lambda x: sorted(map(tuple, np.round(x / np.abs(x).max(axis=1, keepdims=True), 6)))  # noqa: E731
+    assert norm(a) == norm(want)

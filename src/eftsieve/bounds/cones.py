@@ -276,13 +276,34 @@ def verify_rho(problem: ConeProblem, c: np.ndarray, rho: np.ndarray,
     """Prove M(c) in C from a numerical rho: (proven, lambda_min relative, exact rho').
 
     rho' = sym(rho) + R/2 with R = M(c) - rho - rho^x reproduces M(c) exactly; the proof
-    holds when lambda_min(rho') exceeds the eigenvalue rounding bound.
+    holds when lambda_min(rho') exceeds the eigenvalue rounding bound.  Where some pairs
+    are dead (M_a^{ijij} = 0 for all a, :func:`eftsieve.bounds.sectors.dead_pairs`),
+    every entry of rho' in a dead row or column is moved to its crossing partner (which
+    keeps rho' + rho'^x = M(c)), the dead rows must then vanish up to the rounding of M
+    itself (1e-12 of its largest entry, the tolerance of ``dead_pairs``) and are set to
+    zero, and lambda_min is taken on the live pairs.
     """
+    from eftsieve.bounds.sectors import dead_pairs
+
     m = as_matrix(problem.tensor(c))
     r0 = 0.5 * (rho + rho.T)
     resid = m - r0 - cross(r0)
     resid = 0.5 * (resid + cross(resid))
     rp = r0 + 0.5 * resid
-    lam = float(np.linalg.eigvalsh(rp)[0])
-    top = max(float(np.abs(rp).max()), 1e-300)
-    return lam > _eig_error(rp), lam / top, rp
+    dead = dead_pairs(problem.tensors)
+    if dead.any():
+        mask = dead[:, None] | dead[None, :]
+        moved = np.where(mask, rp, 0.0)
+        rp = np.where(mask, 0.0, rp) + cross(moved)
+        # what is left on dead rows is M's own rounding at entries that vanish
+        # structurally (the tolerance of dead_pairs); more than that refutes the proof
+        if np.abs(rp[mask]).max() > 1e-12 * max(float(np.abs(m).max()), 1e-300):
+            return False, -1.0, rp
+        rp = np.where(mask, 0.0, rp)
+        live = ~dead
+        sub = rp[np.ix_(live, live)]
+    else:
+        sub = rp
+    lam = float(np.linalg.eigvalsh(sub)[0])
+    top = max(float(np.abs(sub).max()), 1e-300)
+    return lam > _eig_error(sub), lam / top, rp

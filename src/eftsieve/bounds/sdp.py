@@ -124,6 +124,10 @@ class ExtremalSDP:
         self.sectors = pair_sectors(problem.tensors)
         rows_of = _row_maps(self.sectors, n2, perm, reps)
         mr = problem.matrices().reshape(problem.k, -1)[:, reps].T           # (rows, k)
+        live = np.zeros((n2, n2))
+        for sec in self.sectors:
+            live[sec, sec] = 1.0
+        eye = live.ravel()                              # identity on the live pairs only
         i_rows = (eye + eye[perm])[reps]                                     # (I + I^x) rows
         live = np.nonzero(sum(abs(a).sum(axis=1).A1 for a in rows_of)
                           + np.abs(mr).sum(axis=1) + np.abs(i_rows) > 0)[0]
@@ -159,6 +163,13 @@ class ExtremalSDP:
             *[b >> 0 for b in self._s3],
             lhs(self._s3) + self._t3 * self._i_rows == self._mr @ self._cv,
             problem.tau() @ self._cv == 1, self._t3 <= 1])
+
+    def _eye(self) -> np.ndarray:
+        """The identity on the live pairs (dead pairs: eftsieve.bounds.sectors)."""
+        out = np.zeros((self.problem.n ** 2,) * 2)
+        for sec in self.sectors:
+            out[sec, sec] = 1.0
+        return out
 
     def _full(self, parts: list[Any]) -> np.ndarray | None:
         """The n^2 x n^2 matrix of per-sector blocks (values or duals), or None."""
@@ -197,7 +208,7 @@ class ExtremalSDP:
         if s1 is None or self._t1.value is None:
             return SDPResult(status, float("nan"), None, None)
         t = float(self._t1.value)
-        rho = s1 + t * np.eye(s1.shape[0])
+        rho = s1 + t * self._eye()
         return SDPResult(status, t, rho, self._full([c.dual_value for c in self._psd1]))
 
     def shoot(self, c0: np.ndarray, d: np.ndarray, cap: float = 1e3) -> SDPResult:
@@ -219,7 +230,7 @@ class ExtremalSDP:
         if s3 is None or self._cv.value is None or self._t3.value is None:
             return SDPResult(status, float("nan"), None, None)
         t = float(self._t3.value)
-        rho = s3 + t * np.eye(s3.shape[0])
+        rho = s3 + t * self._eye()
         return SDPResult(status, t, rho, None, np.asarray(self._cv.value, dtype=float))
 
 

@@ -67,13 +67,29 @@ def sign_charges(tensors: np.ndarray, tol: float = 1e-12) -> np.ndarray:
 def pair_sectors(tensors: np.ndarray) -> list[np.ndarray]:
     """Flat pair indices p = i n + j grouped by pair charge q_i + q_j (each sorted).
 
-    One sector holding every pair when there is no sign symmetry.
+    One sector holding every pair when there is no sign symmetry.  Dead pairs
+    (:func:`dead_pairs`) are left out: rho vanishes on them.
     """
     n = np.asarray(tensors).shape[-1]
+    live = ~dead_pairs(tensors)
     q = sign_charges(tensors)
     if len(q) == 0:
-        return [np.arange(n * n)]
+        return [np.nonzero(live)[0]]
     weights = 1 << np.arange(len(q), dtype=np.int64)
     label = (q.astype(np.int64) * weights[:, None]).sum(axis=0)      # charge of each mode
     pair = (label[:, None] ^ label[None, :]).ravel()
-    return [np.nonzero(pair == v)[0] for v in np.unique(pair)]
+    out = [np.nonzero((pair == v) & live)[0] for v in np.unique(pair)]
+    return [sec for sec in out if len(sec)]
+
+
+def dead_pairs(tensors: np.ndarray, rel: float = 1e-12) -> np.ndarray:
+    """Pairs p = (ij) with M_a^{ijij} = 0 for every a, as a boolean (n^2,) mask.
+
+    M^{ijij} = 2 rho_{(ij),(ij)}, so on such a pair every rho of the cone has a zero
+    diagonal entry and, being PSD, a zero row: rho lives on the other ("live") pairs.
+    """
+    t = np.asarray(tensors)
+    n = t.shape[-1]
+    diag = np.abs(t.reshape(t.shape[0], n * n, n * n).diagonal(axis1=1, axis2=2))
+    scale = float(np.abs(t).max()) if t.size else 0.0
+    return (diag <= rel * scale).all(axis=0)

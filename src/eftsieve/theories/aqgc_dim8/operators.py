@@ -228,7 +228,8 @@ def _forms() -> dict[str, Callable[[_Fields], Any]]:
         lm = f.bchain
         return f.gp2**2 / 16 * _tr(lm, lm)
 
-    forms: dict[str, Callable[[_Fields], Any]] = {"fS0": s0, "fS1": s1, "fS2": s2, "fM0": m0, "fM1": m1, "fM2": m2, "fM3": m3,
+    forms: dict[str, Callable[[_Fields], Any]] = {
+            "fS0": s0, "fS1": s1, "fS2": s2, "fM0": m0, "fM1": m1, "fM2": m2, "fM3": m3,
             "fM4": m4, "fM5": m5, "fM7": m7, "fT0": t0, "fT1": t1, "fT2": t2, "fT5": t5,
             "fT6": t6, "fT7": t7, "fT8": t8, "fT9": t9}
     return forms
