@@ -35,7 +35,7 @@ if TYPE_CHECKING:
 DEFAULT_SIN2_THETA_W = 1.0 - (80.377 / 91.1876) ** 2
 #: the region of ``eftsieve region --theory aqgc-dim8`` without --coordinates: a build that
 #: finishes in seconds (larger subsets fail in the hull step; docs/physics_aqgc.md)
-DEFAULT_COORDINATES = ("fT0", "fT1", "fT2")
+DEFAULT_COORDINATES = ("fS0", "fS1", "fS2", "fT0", "fT1", "fT2")
 AQGC_CAUTIONS = CONE_CAUTIONS + (
     "interval limits quoted with all other coefficients at zero are not a fit: each is one "
     "line through the 18-dimensional space",
@@ -164,11 +164,10 @@ class AqgcDim8(ConeTheory):
                               "(docs/physics_aqgc.md)") from err
         except SolverError as err:
             raise InputError(None, "--coordinates", f"the cone of {','.join(coords)} alone "
-                             f"has no interior point for the engine ({err}): some elastic "
-                             "channel of the modes they involve vanishes identically (e.g. "
-                             "fT0 alone gives no W_x W_y scattering)", "add the coefficients "
-                             "of those channels, e.g. all of fS0,fS1,fS2 and fT0,fT1,fT2 "
-                             "(docs/physics_aqgc.md)") from err
+                             f"has no interior point ({err}): positivity forces a combination "
+                             "of them to vanish, or it is a single coefficient", "add more "
+                             "coefficients (e.g. fS0,fS1,fS2 with fT0,fT1,fT2); single "
+                             "coefficients: the sign table of docs/physics_aqgc.md") from err
         convention = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
                       "units": "all coefficients in one common unit (e.g. TeV^-4)",
                       "fixed_to_zero": [c for c in ops.COEFFICIENTS if c not in coords]}
