@@ -272,7 +272,8 @@ def check_facet_on_cone(problem: ConeProblem, cert: FacetCertificate,
     """Worst value of the facet's linear form on random members of the cone (>= 0 if valid).
 
     Random members are built without any solver: M = rho + rho^x for random PSD rho
-    (Wishart; zero on dead pairs, where every member's rho vanishes), and the form is applied on the tensor level, n . c -> <Z, M>/2 + repair tau
+    (Wishart; zero on dead pairs, where every member's rho vanishes), and the form is
+    applied on the tensor level, n . c -> <Z, M>/2 + repair tau
     for ``dual-psd`` and E(u, v) for ``product-state``.  Returns the smallest value
     relative to the form's size (an independent check of the certificate).
     """

@@ -119,15 +119,14 @@ class ExtremalSDP:
         n2 = problem.n ** 2
         reps = orbit_representatives(problem.n)
         perm = _cross_perm(problem.n)
-        eye = np.eye(n2).ravel()
         # S is block diagonal in the sectors of the pair space (eftsieve.bounds.sectors)
         self.sectors = pair_sectors(problem.tensors)
         rows_of = _row_maps(self.sectors, n2, perm, reps)
         mr = problem.matrices().reshape(problem.k, -1)[:, reps].T           # (rows, k)
-        live = np.zeros((n2, n2))
+        eye_live = np.zeros((n2, n2))
         for sec in self.sectors:
-            live[sec, sec] = 1.0
-        eye = live.ravel()                              # identity on the live pairs only
+            eye_live[sec, sec] = 1.0                    # identity on the live pairs only
+        eye = eye_live.ravel()
         i_rows = (eye + eye[perm])[reps]                                     # (I + I^x) rows
         live = np.nonzero(sum(abs(a).sum(axis=1).A1 for a in rows_of)
                           + np.abs(mr).sum(axis=1) + np.abs(i_rows) > 0)[0]

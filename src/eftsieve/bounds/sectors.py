@@ -70,7 +70,6 @@ def pair_sectors(tensors: np.ndarray) -> list[np.ndarray]:
     One sector holding every pair when there is no sign symmetry.  Dead pairs
     (:func:`dead_pairs`) are left out: rho vanishes on them.
     """
-    n = np.asarray(tensors).shape[-1]
     live = ~dead_pairs(tensors)
     q = sign_charges(tensors)
     if len(q) == 0:
