@@ -28,6 +28,7 @@ from eftsieve.bounds.contact import (
 )
 from eftsieve.bounds.elastic import search_states
 from eftsieve.bounds.sdp import ExtremalSDP
+from eftsieve.bounds.sectors import dead_pairs
 from eftsieve.errors import InputError
 from eftsieve.theories import get_theory
 from eftsieve.theories.aqgc_dim8 import conventions as conv
@@ -221,7 +222,9 @@ def _excluded(problem, sign, rng):
     cert = facet_from_dual(problem, res.z)
     if cert is None or not cert.normal[0] * sign < 0:
         return None
-    z = certificate_matrix(cert.data["Z_factors"])
+    # Z is PSD on the live pairs (rho of every member vanishes on the dead ones)
+    live = ~dead_pairs(problem.tensors)
+    z = certificate_matrix(cert.data["Z_factors"], ~live)[np.ix_(live, live)]
     assert np.linalg.eigvalsh(z)[0] >= -1e-6 * np.abs(z).max()
     assert check_facet_on_cone(problem, cert, rng) >= -1e-12
     return "dual PSD matrix"
