@@ -22,7 +22,7 @@ import time
 
 import numpy as np
 
-from eftsieve.bounds.cone_region import _extremal_one
+from eftsieve.bounds.cone_region import shell_membership
 from eftsieve.bounds.cones import INSIDE, OUTSIDE, elastic_values
 from eftsieve.bounds.elastic import search_states
 from eftsieve.theories.aqgc_dim8.theory import aqgc_problem
@@ -52,7 +52,9 @@ def main(n_points: int = 20_000, seed: int = 0) -> None:
     n_el = int(alive.sum())
     print(f"after the search: {n_el} survive ({time.perf_counter() - t0:.1f} s)")
     # 2. extremal SDP on the survivors
-    codes = [(_extremal_one(problem, x[i])[0]) for i in np.nonzero(alive)[0]]
+    survivors = np.nonzero(alive)[0]
+    codes = (shell_membership(problem, x[survivors], family="extremal")[0].tolist()
+             if len(survivors) else [])
     n_in, n_out = codes.count(INSIDE), codes.count(OUTSIDE)
     n_marg = len(codes) - n_in - n_out
     seconds = time.perf_counter() - t0

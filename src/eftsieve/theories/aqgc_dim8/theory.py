@@ -3,7 +3,10 @@
 Region settings besides the cone engine's: ``coordinates`` (any subset of the 18
 coefficients; the others are fixed to zero; CLI ``--coordinates fT0,fT1``) and
 ``sin2_theta_w`` (the weak angle of the hatted field strengths; it changes the forward
-tensors but not the cone, see operators.py).  The region is stated in the convention
+tensors but not the cone, see operators.py).  Without ``coordinates`` the region is
+fS0..fS2, fT0..fT2 (about 20 s); subsets with M-type coefficients need 7 or more
+coordinates, where the cutting-plane build fails in its hull step (reported as an error,
+never as a bound; docs/physics_aqgc.md).  The region is stated in the convention
 ``hat-i``; a fit must declare its own convention (conventions.py), which is mapped
 exactly onto the region's coordinates.
 """
