@@ -33,7 +33,7 @@ from eftsieve.errors import InputError
 from eftsieve.theories import get_theory
 from eftsieve.theories.aqgc_dim8 import conventions as conv
 from eftsieve.theories.aqgc_dim8 import operators as ops
-from eftsieve.theories.aqgc_dim8.theory import aqgc_problem
+from eftsieve.theories.aqgc_dim8.theory import SINGLE_COEFFICIENT_SIGNS, aqgc_problem
 from tests.theories.cone_helpers import coefficients_of
 
 THEORY = get_theory("aqgc-dim8")
@@ -204,10 +204,9 @@ def test_weak_angle_drops_out_of_the_cone():
 
 
 # ---- single-coefficient signs -------------------------------------------------------------
-#: derived here (docs/physics_aqgc.md): the coefficients that may be non-zero on their own,
+#: the table of the theory (theory.py), re-derived here: the coefficients that may be non-zero alone,
 #: with the sign they must have; every other sign is excluded by a certificate below
-ALONE_ALLOWED = {"fS0": 1, "fS1": 1, "fS2": 1, "fM1": -1, "fM3": -1, "fT0": 1, "fT1": 1,
-                 "fT2": 1, "fT6": 1, "fT8": 1, "fT9": 1}
+ALONE_ALLOWED = SINGLE_COEFFICIENT_SIGNS
 
 
 def _excluded(problem, sign, rng):

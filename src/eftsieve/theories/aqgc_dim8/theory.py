@@ -36,6 +36,12 @@ if TYPE_CHECKING:
 #: on-shell sin^2(theta_W) = 1 - m_W^2/m_Z^2 with m_W = 80.377 GeV, m_Z = 91.1876 GeV
 #: (Particle Data Group, Review of Particle Physics 2022, from memory)
 DEFAULT_SIN2_THETA_W = 1.0 - (80.377 / 91.1876) ** 2
+#: the sign each coefficient must have when it is the only non-zero one (convention hat-i):
+#: +1 (>= 0) or -1 (<= 0); coefficients not listed cannot be non-zero alone.  Derived with
+#: a certificate for every excluded sign and checked by
+#: tests/theories/test_aqgc_dim8.py::test_single_coefficient_signs (docs/physics_aqgc.md)
+SINGLE_COEFFICIENT_SIGNS = {"fS0": 1, "fS1": 1, "fS2": 1, "fM1": -1, "fM3": -1, "fT0": 1,
+                            "fT1": 1, "fT2": 1, "fT6": 1, "fT8": 1, "fT9": 1}
 #: the region of ``eftsieve region --theory aqgc-dim8`` without --coordinates: a build that
 #: finishes in seconds (larger subsets fail in the hull step; docs/physics_aqgc.md)
 DEFAULT_COORDINATES = ("fS0", "fS1", "fS2", "fT0", "fT1", "fT2")
