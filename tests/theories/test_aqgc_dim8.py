@@ -204,7 +204,7 @@ def test_weak_angle_drops_out_of_the_cone():
 
 
 # ---- single-coefficient signs -------------------------------------------------------------
-#: the table of the theory (theory.py), re-derived here: the coefficients that may be non-zero alone,
+#: the table of theory.py, re-derived here: the coefficients that may be non-zero alone,
 #: with the sign they must have; every other sign is excluded by a certificate below
 ALONE_ALLOWED = SINGLE_COEFFICIENT_SIGNS
 
