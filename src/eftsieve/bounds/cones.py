@@ -22,7 +22,8 @@ Two bound families:
 Certificates (checked here, independently of any solver status):
 
 * an outer facet of ``extremal`` is a crossing-symmetric PSD matrix Z: for M = rho +
-  rho^x, <Z, M>/2 = <Z, rho> >= lambda_min(Z) tr(rho) = lambda_min(Z) tau(M) with
+  rho^x, <Z, M>/2 = <Z, rho> >= lambda_min(Z) tr(rho) = lambda_min(Z) tau(M) (Z on the
+  live pairs only, :func:`eftsieve.bounds.sectors.dead_pairs`: rho vanishes elsewhere) with
   tau(M) = (1/2) sum_ij M^{ijij}; so ``n_a = <Z, M_a>/2 - min(lambda_min(Z), 0) tau_a``
   is valid whatever the solver did (:func:`facet_from_dual`).
 * an outer facet of ``elastic`` is a product state (u, v): n_a = E_a(u, v), exact.
@@ -179,11 +180,26 @@ def _eig_error(z: np.ndarray) -> float:
     return 8 * z.shape[-1] * np.finfo(float).eps * float(np.linalg.norm(z))
 
 
-def certificate_matrix(factors: list[list[float]]) -> np.ndarray:
-    """Z = (Zt + Zt^x)/2 with Zt = sum_k l_k z_k z_k^T from stored ``[l_k, *z_k]`` rows."""
+def certificate_matrix(factors: list[list[float]], dead: np.ndarray | None = None,
+                       ) -> np.ndarray:
+    """Z = (Zt + Zt^x)/2 with Zt = sum_k l_k z_k z_k^T from stored ``[l_k, *z_k]`` rows.
+
+    With dead pairs (boolean mask, :func:`eftsieve.bounds.sectors.dead_pairs`), Zt counts
+    on the live-live entries only: Z = (Zt + Zt^x)/2 where an entry and its crossing
+    partner are both live-live, Zt where only the entry is, Zt^x where only the partner
+    is, 0 elsewhere.  Z is crossing-symmetric and equals Zt on the live pairs up to that
+    average; without dead pairs it is (Zt + Zt^x)/2.
+    """
     f = np.asarray(factors, dtype=float)
     zt = np.einsum("k,kp,kq->pq", f[:, 0], f[:, 1:], f[:, 1:])
-    return 0.5 * (zt + cross(zt))
+    if dead is None or not dead.any():
+        return 0.5 * (zt + cross(zt))
+    live = ~dead
+    ll = (live[:, None] & live[None, :]).astype(float)
+    llx = cross(ll) > 0.5
+    ll_b = ll > 0.5
+    zx = cross(zt)
+    return np.where(ll_b & llx, 0.5 * (zt + zx), np.where(ll_b, zt, np.where(llx, zx, 0.0)))
 
 
 def facet_from_dual(problem: ConeProblem, z: np.ndarray) -> FacetCertificate | None:
@@ -206,12 +222,18 @@ def facet_from_dual(problem: ConeProblem, z: np.ndarray) -> FacetCertificate | N
 
 def _facet_from_factors(problem: ConeProblem, factors: list[list[float]],
                         ) -> FacetCertificate | None:
-    zc = certificate_matrix(factors)
-    lmin = float(np.linalg.eigvalsh(zc)[0])
+    from eftsieve.bounds.sectors import dead_pairs
+
+    dead = dead_pairs(problem.tensors)
+    zc = certificate_matrix(factors, dead)
+    # every rho of the cone vanishes on dead pairs, so only Zc on the live pairs matters
+    live = ~dead
+    zl = zc[np.ix_(live, live)]
+    lmin = float(np.linalg.eigvalsh(zl)[0])
     top = float(np.abs(zc).max())
     if lmin < -CONE_CERT_TOL * top:
         return None
-    repair = max(-lmin, 0.0) + _eig_error(zc)
+    repair = max(-lmin, 0.0) + _eig_error(zl)
     normal = 0.5 * np.einsum("pq,apq->a", zc, problem.matrices()) + repair * problem.tau()
     norm = float(np.linalg.norm(normal))
     if norm == 0:
@@ -250,16 +272,21 @@ def check_facet_on_cone(problem: ConeProblem, cert: FacetCertificate,
     """Worst value of the facet's linear form on random members of the cone (>= 0 if valid).
 
     Random members are built without any solver: M = rho + rho^x for random PSD rho
-    (Wishart), and the form is applied on the tensor level, n . c -> <Z, M>/2 + repair tau
+    (Wishart; zero on dead pairs, where every member's rho vanishes), and the form is
+    applied on the tensor level, n . c -> <Z, M>/2 + repair tau
     for ``dual-psd`` and E(u, v) for ``product-state``.  Returns the smallest value
     relative to the form's size (an independent check of the certificate).
     """
+    from eftsieve.bounds.sectors import dead_pairs
+
     n2 = problem.n ** 2
+    dead = dead_pairs(problem.tensors)
     g = rng.normal(size=(draws, n2, 3))
+    g[:, dead, :] = 0.0                             # members of the cone vanish there
     rho = g @ np.swapaxes(g, 1, 2)
     m = rho + cross(rho)
     if cert.kind == "dual-psd":
-        z = certificate_matrix(cert.data["Z_factors"]) / cert.data["scale"]
+        z = certificate_matrix(cert.data["Z_factors"], dead) / cert.data["scale"]
         tau_m = 0.5 * np.einsum("bijij->b", m.reshape(draws, *(problem.n,) * 4))
         vals = 0.5 * np.einsum("pq,bpq->b", z, m) + cert.repair * tau_m
         scale = np.abs(z).sum() * np.abs(m).max(axis=(1, 2))
@@ -276,13 +303,34 @@ def verify_rho(problem: ConeProblem, c: np.ndarray, rho: np.ndarray,
     """Prove M(c) in C from a numerical rho: (proven, lambda_min relative, exact rho').
 
     rho' = sym(rho) + R/2 with R = M(c) - rho - rho^x reproduces M(c) exactly; the proof
-    holds when lambda_min(rho') exceeds the eigenvalue rounding bound.
+    holds when lambda_min(rho') exceeds the eigenvalue rounding bound.  Where some pairs
+    are dead (M_a^{ijij} = 0 for all a, :func:`eftsieve.bounds.sectors.dead_pairs`),
+    every entry of rho' in a dead row or column is moved to its crossing partner (which
+    keeps rho' + rho'^x = M(c)), the dead rows must then vanish up to the rounding of M
+    itself (1e-12 of its largest entry, the tolerance of ``dead_pairs``) and are set to
+    zero, and lambda_min is taken on the live pairs.
     """
+    from eftsieve.bounds.sectors import dead_pairs
+
     m = as_matrix(problem.tensor(c))
     r0 = 0.5 * (rho + rho.T)
     resid = m - r0 - cross(r0)
     resid = 0.5 * (resid + cross(resid))
     rp = r0 + 0.5 * resid
-    lam = float(np.linalg.eigvalsh(rp)[0])
-    top = max(float(np.abs(rp).max()), 1e-300)
-    return lam > _eig_error(rp), lam / top, rp
+    dead = dead_pairs(problem.tensors)
+    if dead.any():
+        mask = dead[:, None] | dead[None, :]
+        moved = np.where(mask, rp, 0.0)
+        rp = np.where(mask, 0.0, rp) + cross(moved)
+        # what is left on dead rows is M's own rounding at entries that vanish
+        # structurally (the tolerance of dead_pairs); more than that refutes the proof
+        if np.abs(rp[mask]).max() > 1e-12 * max(float(np.abs(m).max()), 1e-300):
+            return False, -1.0, rp
+        rp = np.where(mask, 0.0, rp)
+        live = ~dead
+        sub = rp[np.ix_(live, live)]
+    else:
+        sub = rp
+    lam = float(np.linalg.eigvalsh(sub)[0])
+    top = max(float(np.abs(sub).max()), 1e-300)
+    return lam > _eig_error(sub), lam / top, rp

@@ -18,6 +18,11 @@ four-point amplitude.  Nothing is typed in by hand:
   coefficient of the forward amplitude, read off by a discrete Cauchy integral on a
   circle in the complex s plane (exact for polynomials of degree < ``CAUCHY_POINTS``).
 
+Several kinds of fields at once (vectors and scalars together, e.g. the gauge bosons and
+the Higgs doublet) form a :class:`ModeGroups`: a tuple of named :class:`ModeSet` groups.
+Its density receives one jet per group, ``f((A_W, F_W), (A_B, F_B), (phi, dphi))``; a leg
+of group g has zero components in every other group.  The single-kind API is unchanged.
+
 Heavy exchanges (rule-in models) are evaluated from the same legs:
 :func:`exchange_forward_tensor` sums the s-, t- and u-channel trees of a heavy scalar or
 vector coupled linearly to a current J that is quadratic in the light fields, from
@@ -43,7 +48,7 @@ CAUCHY_POINTS = 8
 #: relative size of s^0, s^1 terms above which a "contact" density is rejected
 CONTACT_PURITY_TOL = 1e-9
 
-Density = Callable[[Any, Any], Any]
+Density = Callable[..., Any]
 
 
 def dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -115,6 +120,73 @@ class ModeSet:
                 self.kind == "vector" else "real field components"}
 
 
+@dataclass(frozen=True)
+class ModeGroups:
+    """Modes of several field groups (scalars and vectors together).
+
+    Attributes
+    ----------
+    groups
+        (name, ModeSet) pairs; the modes are those of the groups in this order, and a
+        density receives one jet per group in this order.
+    """
+
+    groups: tuple[tuple[str, ModeSet], ...]
+
+    def __post_init__(self) -> None:
+        names = [g for g, _ in self.groups]
+        if not names or len(set(names)) != len(names):
+            raise ValueError("mode groups need distinct names")
+
+    kind = "mixed"
+
+    @property
+    def n(self) -> int:
+        """Number of modes."""
+        return sum(m.n for _, m in self.groups)
+
+    @property
+    def labels(self) -> tuple[str, ...]:
+        return tuple(lab for _, m in self.groups for lab in m.labels)
+
+    def offsets(self) -> dict[str, tuple[int, int]]:
+        """Group name -> (first mode, number of modes)."""
+        out, o = {}, 0
+        for g, m in self.groups:
+            out[g] = (o, m.n)
+            o += m.n
+        return out
+
+    def group_components(self) -> list[tuple[str, np.ndarray, np.ndarray]]:
+        """Per group: kind, field components (n, n_fields_g) and polarisations (n, 4) of
+        every mode (zero outside the group)."""
+        out = []
+        for (_, m), (o, k) in zip(self.groups, self.offsets().values(), strict=True):
+            e_loc, eps_loc = m.components()
+            e = np.zeros((self.n, m.n_fields))
+            eps = np.zeros((self.n, 4))
+            e[o:o + k], eps[o:o + k] = e_loc, eps_loc
+            out.append((m.kind, e, eps))
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"kind": self.kind, "groups": {g: m.to_dict() for g, m in self.groups},
+                "modes": list(self.labels)}
+
+
+#: either kind of mode set
+AnyModes = ModeSet | ModeGroups
+Jet = Any  # (value, derivative), or a tuple of those (one per group of a ModeGroups)
+
+
+def _jet_sum(items: list[Jet]) -> Jet:
+    """Sum of jets of the same structure (arrays, or nested tuples of arrays)."""
+    first = items[0]
+    if isinstance(first, tuple):
+        return tuple(_jet_sum([it[k] for it in items]) for k in range(len(first)))
+    return sum(items[1:], start=first)
+
+
 def legs(kind: str, field: np.ndarray, mom: np.ndarray, eps: np.ndarray,
          ) -> tuple[np.ndarray, np.ndarray]:
     """Plane-wave jets of legs with incoming momenta (batched over leading axes).
@@ -146,12 +218,13 @@ def legs(kind: str, field: np.ndarray, mom: np.ndarray, eps: np.ndarray,
     return a, -1j * field[..., :, None, None] * wedge[..., None, :, :]
 
 
-def contact_amplitude(density: Density, jets: list[tuple[np.ndarray, np.ndarray]],
-                      degree: int = 4) -> np.ndarray:
+def contact_amplitude(density: Density, jets: list[Jet], degree: int = 4) -> np.ndarray:
     """The contact amplitude of a density homogeneous of ``degree`` in the fields.
 
     Sum over all assignments of the legs to the field slots, by the polarisation
-    identity ``sum_S (-1)^(d - |S|) f(sum_{a in S} X_a)`` (module docstring).
+    identity ``sum_S (-1)^(d - |S|) f(sum_{a in S} X_a)`` (module docstring).  A jet is
+    ``(value, derivative)`` (one field kind), or a tuple of those, one per group of a
+    :class:`ModeGroups` (the density then takes one argument per group).
     """
     if len(jets) != degree:
         raise ValueError(f"{degree} legs are needed, got {len(jets)}")
@@ -159,9 +232,7 @@ def contact_amplitude(density: Density, jets: list[tuple[np.ndarray, np.ndarray]
     for size in range(1, degree + 1):
         sign = (-1) ** (degree - size)
         for subset in combinations(range(degree), size):
-            v = sum(jets[a][0] for a in subset)
-            d = sum(jets[a][1] for a in subset)
-            total = total + sign * np.asarray(density(v, d))
+            total = total + sign * np.asarray(density(*_jet_sum([jets[a] for a in subset])))
     return np.asarray(total)
 
 
@@ -171,17 +242,23 @@ def forward_kinematics(s: complex) -> tuple[np.ndarray, np.ndarray]:
     return (np.array([e, 0, 0, e], dtype=complex), np.array([e, 0, 0, -e], dtype=complex))
 
 
-def _forward_jets(modes: ModeSet, s: complex) -> list[tuple[np.ndarray, np.ndarray]]:
+def _forward_jets(modes: AnyModes, s: complex) -> list[Jet]:
     """Jets of the four legs for every (i, j, k, l), broadcast on axes (i, j, k, l)."""
     p1, p2 = forward_kinematics(s)
-    e, eps = modes.components()
     n = modes.n
-    out = []
+    if isinstance(modes, ModeGroups):
+        parts = modes.group_components()
+    else:
+        parts = [(modes.kind, *modes.components())]
+    out: list[Jet] = []
     for pos, mom in enumerate((p1, p2, -p1, -p2)):  # legs 3, 4 are outgoing: p -> -p
         shape = [1, 1, 1, 1]
         shape[pos] = n
-        v, d = legs(modes.kind, e, np.broadcast_to(mom, (n, 4)), eps)
-        out.append((v.reshape(*shape, *v.shape[1:]), d.reshape(*shape, *d.shape[1:])))
+        jet = []
+        for kind, e, eps in parts:
+            v, d = legs(kind, e, np.broadcast_to(mom, (n, 4)), eps)
+            jet.append((v.reshape(*shape, *v.shape[1:]), d.reshape(*shape, *d.shape[1:])))
+        out.append(tuple(jet) if isinstance(modes, ModeGroups) else jet[0])
     return out
 
 
@@ -196,7 +273,7 @@ def s_coefficients(amplitude_of_s: Callable[[complex], np.ndarray], radius: floa
                              axis=0) for m in range(points)])
 
 
-def forward_tensor(density: Density, modes: ModeSet) -> np.ndarray:
+def forward_tensor(density: Density, modes: AnyModes) -> np.ndarray:
     """M^{ijkl} = (1/2) d^2/ds^2 A(ij -> kl) at s = 0, t = 0 of a contact density (real, n^4).
 
     Raises ValueError when the density is not a pure four-derivative contact (s^0 or s^1
@@ -215,15 +292,14 @@ def forward_tensor(density: Density, modes: ModeSet) -> np.ndarray:
     return np.ascontiguousarray(a[2].real)
 
 
-def bilinear(current: Density, ja: tuple[np.ndarray, np.ndarray],
-             jb: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
+def bilinear(current: Density, ja: Jet, jb: Jet) -> np.ndarray:
     """B(a, b) = (J(a + b) - J(a) - J(b)) / 2 of a current quadratic in the fields."""
-    both = (ja[0] + jb[0], ja[1] + jb[1])
+    both = _jet_sum([ja, jb])
     return (np.asarray(current(*both)) - np.asarray(current(*ja))
             - np.asarray(current(*jb))) / 2
 
 
-def exchange_forward_tensor(current: Density, modes: ModeSet, mass: float, spin: int,
+def exchange_forward_tensor(current: Density, modes: AnyModes, mass: float, spin: int,
                             ) -> np.ndarray:
     """Forward tensor of the tree exchange of a heavy state coupled as ``X . J``.
 

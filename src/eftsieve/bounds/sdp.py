@@ -2,7 +2,9 @@
 
 All three programs share the constraint ``S + S^x = M(.)`` restricted to one
 representative of each orbit of matrix entries under transposition and crossing (the
-other rows repeat them), with S PSD on the n^2-dimensional pair space:
+other rows repeat them), with S PSD on the n^2-dimensional pair space and block diagonal
+in the sectors that the sign symmetries of M imply (:mod:`eftsieve.bounds.sectors`; one
+block when there are none):
 
 * :meth:`ExtremalSDP.membership`: maximise t with rho = S + t I, rho + rho^x = M(c),
   t <= 1.  t* > 0 means c is strictly inside, t* < 0 outside; the dual of S >= 0 is a
@@ -25,6 +27,7 @@ from typing import Any
 import numpy as np
 
 from eftsieve.bounds.cones import ConeProblem, as_matrix, cross
+from eftsieve.bounds.sectors import pair_sectors
 
 
 @dataclass(frozen=True)
@@ -73,6 +76,32 @@ def orbit_representatives(n: int) -> np.ndarray:
     return np.unique(label)
 
 
+def _row_maps(sectors: list[np.ndarray], n2: int, perm: np.ndarray, reps: np.ndarray,
+              ) -> list[Any]:
+    """Per sector, the sparse map vec(S_b) -> rows of (S + S^x) at the orbit
+    representatives, with S the block-diagonal embedding of the blocks S_b."""
+    from scipy import sparse
+
+    where = np.full(n2 * n2, -1, dtype=np.int64)      # flat (p, q) -> (sector, flat in block)
+    block = np.full(n2 * n2, -1, dtype=np.int64)
+    for b, sec in enumerate(sectors):
+        m = len(sec)
+        flat = (sec[:, None] * n2 + sec[None, :]).ravel()
+        where[flat] = np.arange(m * m)
+        block[flat] = b
+    out = []
+    for b, sec in enumerate(sectors):
+        m = len(sec)
+        rows, cols = [], []
+        for source in (reps, perm[reps]):             # S at the entry, and at its crossing
+            hit = block[source] == b
+            rows.append(np.nonzero(hit)[0])
+            cols.append(where[source[hit]])
+        r, c = np.concatenate(rows), np.concatenate(cols)
+        out.append(sparse.csr_matrix((np.ones(len(r)), (r, c)), shape=(len(reps), m * m)))
+    return out
+
+
 def _cross_perm(n: int) -> np.ndarray:
     """perm with vec(X^x) = vec(X)[perm] (C order)."""
     n2 = n * n
@@ -90,35 +119,66 @@ class ExtremalSDP:
         n2 = problem.n ** 2
         reps = orbit_representatives(problem.n)
         perm = _cross_perm(problem.n)
-        self._mr = problem.matrices().reshape(problem.k, -1)[:, reps].T   # (rows, k)
-        eye = np.eye(n2).ravel()
-        self._i_rows = (eye + eye[perm])[reps]                            # (I + I^x) rows
+        # S is block diagonal in the sectors of the pair space (eftsieve.bounds.sectors)
+        self.sectors = pair_sectors(problem.tensors)
+        rows_of = _row_maps(self.sectors, n2, perm, reps)
+        mr = problem.matrices().reshape(problem.k, -1)[:, reps].T           # (rows, k)
+        eye_live = np.zeros((n2, n2))
+        for sec in self.sectors:
+            eye_live[sec, sec] = 1.0                    # identity on the live pairs only
+        eye = eye_live.ravel()
+        i_rows = (eye + eye[perm])[reps]                                     # (I + I^x) rows
+        live = np.nonzero(sum(abs(a).sum(axis=1).A1 for a in rows_of)
+                          + np.abs(mr).sum(axis=1) + np.abs(i_rows) > 0)[0]
+        rows_of = [a[live] for a in rows_of]
+        self._mr, self._i_rows = mr[live], i_rows[live]
 
-        def lhs(s: Any) -> Any:
-            flat = cp.reshape(s, (n2 * n2,), order="C")
-            return (flat + flat[perm])[reps]
+        def blocks() -> list[Any]:
+            return [cp.Variable((len(sec), len(sec)), symmetric=True) for sec in self.sectors]
+
+        def lhs(bs: list[Any]) -> Any:
+            return sum(a @ cp.reshape(b, (b.shape[0] ** 2,), order="C")
+                       for a, b in zip(rows_of, bs, strict=True))
 
         # membership: max t, (S + tI) + (S + tI)^x = M(c)
         self._c = cp.Parameter(problem.k)
-        self._s1, self._t1 = cp.Variable((n2, n2), symmetric=True), cp.Variable()
-        self._psd1 = self._s1 >> 0
+        self._s1, self._t1 = blocks(), cp.Variable()
+        self._psd1 = [b >> 0 for b in self._s1]
         self._p1 = cp.Problem(cp.Maximize(self._t1), [
-            self._psd1, lhs(self._s1) + self._t1 * self._i_rows == self._mr @ self._c,
+            *self._psd1, lhs(self._s1) + self._t1 * self._i_rows == self._mr @ self._c,
             self._t1 <= 1])
         # shooting: max lam, S + S^x = M(c0) + lam M(d)
         self._c0, self._d = cp.Parameter(problem.k), cp.Parameter(problem.k)
         self._cap = cp.Parameter(nonneg=True)
-        self._s2, self._lam = cp.Variable((n2, n2), symmetric=True), cp.Variable()
-        self._psd2 = self._s2 >> 0
+        self._s2, self._lam = blocks(), cp.Variable()
+        self._psd2 = [b >> 0 for b in self._s2]
         self._p2 = cp.Problem(cp.Maximize(self._lam), [
-            self._psd2, lhs(self._s2) == self._mr @ self._c0 + self._lam * (self._mr @ self._d),
+            *self._psd2, lhs(self._s2) == self._mr @ self._c0 + self._lam * (self._mr @ self._d),
             self._lam <= self._cap])
         # centre: max t, (S + tI) + (S + tI)^x = M(c), tau . c = 1
-        self._s3, self._t3 = cp.Variable((n2, n2), symmetric=True), cp.Variable()
+        self._s3, self._t3 = blocks(), cp.Variable()
         self._cv = cp.Variable(problem.k)
         self._p3 = cp.Problem(cp.Maximize(self._t3), [
-            self._s3 >> 0, lhs(self._s3) + self._t3 * self._i_rows == self._mr @ self._cv,
+            *[b >> 0 for b in self._s3],
+            lhs(self._s3) + self._t3 * self._i_rows == self._mr @ self._cv,
             problem.tau() @ self._cv == 1, self._t3 <= 1])
+
+    def _eye(self) -> np.ndarray:
+        """The identity on the live pairs (dead pairs: eftsieve.bounds.sectors)."""
+        out = np.zeros((self.problem.n ** 2,) * 2)
+        for sec in self.sectors:
+            out[sec, sec] = 1.0
+        return out
+
+    def _full(self, parts: list[Any]) -> np.ndarray | None:
+        """The n^2 x n^2 matrix of per-sector blocks (values or duals), or None."""
+        n2 = self.problem.n ** 2
+        out = np.zeros((n2, n2))
+        for sec, part in zip(self.sectors, parts, strict=True):
+            if part is None:
+                return None
+            out[np.ix_(sec, sec)] = np.asarray(part)
+        return out
 
     def _solve(self, prob: Any) -> str:
         """Solve; an inaccurate solve shows in the returned status (cvxpy's warning about
@@ -143,12 +203,12 @@ class ExtremalSDP:
         c = np.asarray(c, dtype=float)
         self._c.value = c / np.linalg.norm(c)
         status = self._solve(self._p1)
-        if self._s1.value is None or self._t1.value is None:
+        s1 = self._full([b.value for b in self._s1])
+        if s1 is None or self._t1.value is None:
             return SDPResult(status, float("nan"), None, None)
         t = float(self._t1.value)
-        rho = self._s1.value + t * np.eye(self._s1.shape[0])
-        z = None if self._psd1.dual_value is None else np.asarray(self._psd1.dual_value)
-        return SDPResult(status, t, rho, z)
+        rho = s1 + t * self._eye()
+        return SDPResult(status, t, rho, self._full([c.dual_value for c in self._psd1]))
 
     def shoot(self, c0: np.ndarray, d: np.ndarray, cap: float = 1e3) -> SDPResult:
         """max lam with M(c0 + lam d) in C, lam <= cap; rho is S at the boundary."""
@@ -156,18 +216,20 @@ class ExtremalSDP:
         self._d.value = np.asarray(d, dtype=float)
         self._cap.value = float(cap)
         status = self._solve(self._p2)
-        if self._s2.value is None or self._lam.value is None:
+        s2 = self._full([b.value for b in self._s2])
+        if s2 is None or self._lam.value is None:
             return SDPResult(status, float("nan"), None, None)
-        z = None if self._psd2.dual_value is None else np.asarray(self._psd2.dual_value)
-        return SDPResult(status, float(self._lam.value), np.asarray(self._s2.value), z)
+        z = self._full([c.dual_value for c in self._psd2])
+        return SDPResult(status, float(self._lam.value), s2, z)
 
     def centre(self) -> SDPResult:
         """The point of {tau . c = 1} deepest inside the cone (largest lambda_min(rho))."""
         status = self._solve(self._p3)
-        if self._s3.value is None or self._cv.value is None or self._t3.value is None:
+        s3 = self._full([b.value for b in self._s3])
+        if s3 is None or self._cv.value is None or self._t3.value is None:
             return SDPResult(status, float("nan"), None, None)
         t = float(self._t3.value)
-        rho = self._s3.value + t * np.eye(self._s3.shape[0])
+        rho = s3 + t * self._eye()
         return SDPResult(status, t, rho, None, np.asarray(self._cv.value, dtype=float))
 
 

@@ -25,7 +25,8 @@ KINEMATIC_FLAGS = {"pion_mass_mev": "--pion-mass", "mu_mev": "--scale", "gap_mev
 REGION_SETTINGS = {"family": "families", "pion_mass": "pion_masses_mev", "fpi": "fpi_mev",
                    "convention": "convention", "scale": "mu_mev", "grid": "grid",
                    "order": "order", "spins": "spins", "coordinates": "coordinates",
-                   "truncation": "truncation", "heavy_scale": "heavy_scale_mev"}
+                   "truncation": "truncation", "heavy_scale": "heavy_scale_mev",
+                   "sin2_theta_w": "sin2_theta_w"}
 
 
 def _number(text: str, kind: type) -> Any:
@@ -137,6 +138,9 @@ def add_region_args(p: argparse.ArgumentParser) -> None:
                    help="spin cut-off of the heavy-state grid (theories with sum rules)")
     p.add_argument("--coordinates", type=csv_list, default=None,
                    help="region coordinates, e.g. g3t,g4t (theories that offer a choice)")
+    p.add_argument("--sin2-theta-w", type=positive_float, default=None, metavar="X",
+                   help="weak mixing angle sin^2(theta_W) of theories with hatted field "
+                        "strengths (the default is the theory's; it does not move the cone)")
     p.add_argument("--engine", choices=["local", "processes", "dask"], default=None,
                    help="processes (a local process pool, one per core) or dask: solve the "
                         "independent directions of a region build in parallel (theories "

@@ -30,6 +30,7 @@ REGISTRY = {
     "higgs-quartic": "eftsieve.theories.higgs_quartic.theory",
     "ew-chiral": "eftsieve.theories.ew_chiral.theory",
     "transverse-w": "eftsieve.theories.transverse_w.theory",
+    "aqgc-dim8": "eftsieve.theories.aqgc_dim8.theory",
 }
 
 #: the theory of ``eftsieve region`` without --theory

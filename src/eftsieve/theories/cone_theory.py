@@ -14,7 +14,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from eftsieve.bounds.cones import ConeProblem
-from eftsieve.bounds.contact import Density, ModeSet, forward_tensor
+from eftsieve.bounds.contact import AnyModes, Density, forward_tensor
 from eftsieve.errors import InputError
 from eftsieve.executors import Executor, serial
 from eftsieve.fit.conventions import ConventionSpec
@@ -38,7 +38,7 @@ CONE_CAUTIONS = (
 )
 
 
-def problem_from_operators(coefficients: tuple[str, ...], modes: ModeSet,
+def problem_from_operators(coefficients: tuple[str, ...], modes: AnyModes,
                            operators: Mapping[str, Density], info: dict[str, Any],
                            ) -> ConeProblem:
     """The ConeProblem with each M_a computed from its operator's density."""
@@ -51,14 +51,15 @@ class ConeTheory(Theory):
     """A dimension-8 theory on the positivity-cone engine (subclasses set the attributes)."""
 
     convention_specs: dict[str, ConventionSpec] = {}
-    setting_names = ("families", "family", "shell_target", "seed", "convention")
-    cautions = CONE_CAUTIONS
+    setting_names: tuple[str, ...] = ("families", "family", "shell_target", "seed",
+                                      "convention")
+    cautions: tuple[str, ...] = CONE_CAUTIONS
     kinematic_inputs: dict[str, tuple[str, float | None]] = {}
     families = CONE_FAMILIES
     #: a cone is unchanged by a common rescaling, so a window about the apex shows it all
     coordinate_unit = "common unit, e.g. TeV$^{-4}$"
     #: the operators' modes and densities, coefficient name -> density
-    modes: ModeSet
+    modes: AnyModes
     operators: Mapping[str, Density] = {}
     basis: str = ""
     #: other bases a fit may use: name -> (parameter names, J) with coordinates = J @ params
