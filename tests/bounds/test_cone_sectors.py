@@ -15,7 +15,7 @@ import pytest
 
 from eftsieve.bounds.cone_region import ConeShell, decide_point
 from eftsieve.bounds.cone_sectors import product_region, sectors, union_problem
-from eftsieve.bounds.cones import INSIDE, MARGINAL, OUTSIDE
+from eftsieve.bounds.cones import INSIDE, OUTSIDE
 from eftsieve.theories import get_theory
 from eftsieve.theories.photon_quartic import operators as photon
 
@@ -60,14 +60,14 @@ def test_product_region_verdicts_match_the_classic_statements(product):
     assert a.shape == (4, 4) and (np.count_nonzero(a, axis=1) <= 2).all()
 
 
-def test_the_undecomposed_program_cannot_prove_a_product_point_inside(product):
-    # mixed pairs (one mode of each factor) force rho's mixed rows to zero, so the whole
-    # program has no strictly feasible rho: a point inside both factors is not provable
-    # by one solve of the union, only sector by sector
+def test_the_undecomposed_program_agrees_with_the_sectors_on_a_product_point(product):
+    # mixed pairs (one mode of each factor) have no elastic channel, so rho vanishes on
+    # them; with those dead pairs removed (bounds/cones.py) the whole program is strictly
+    # feasible again and proves a point inside both factors, as the sectors do
     problem = union_problem([get_theory(t).problem() for t in ("photon-quartic", "ew-chiral")])
     inside = np.array([1.0, 1.0, 1.0, 0.5])
     assert classic(inside[None, :])[0] == 1
     code, why, _ = decide_point(problem, "extremal", inside, np.random.default_rng(0))
-    assert code == MARGINAL, why
+    assert code == INSIDE, why
     codes, _, _ = ConeShell(problem, "extremal").decide(inside[None, :], np.arange(1))
     assert codes[0] == INSIDE
