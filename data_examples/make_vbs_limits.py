@@ -19,7 +19,7 @@ import numpy as np
 
 HERE = Path(__file__).parent
 #: the demo's theory and convention (the only place they are named)
-THEORY, CONVENTION = "transverse-w", "none"
+THEORY, CONVENTION = "aqgc-dim8", "hat-i"
 LABEL = "INVENTED demo data: fictional experiment 'Borealis', not a measurement"
 #: invented one-coefficient 95% CL intervals, TeV^-4 (coefficient, low, high, others)
 INTERVALS = (("fT0", -0.34, 0.37, ""), ("fT1", -0.21, 0.24, ""), ("fT2", -0.55, 0.71, ""),
