@@ -159,8 +159,9 @@ class Verdicts:
 FEW_FACETS = 8
 #: cells (rows x facets) of one tile of the many-facet path (2 MiB: within the L2/L3 cache)
 TILE_CELLS = 1 << 18
-#: facets with at most this many nonzero coefficients on average take the per-facet
-#: path whatever their number (sparse facets, e.g. of a product of independent cones)
+#: facets with at most this many nonzero coefficients on average (and fewer than the
+#: dimension, so that there are zeros to skip) take the per-facet path whatever their
+#: number (sparse facets, e.g. of a product of independent cones)
 SPARSE_TERMS = 3
 
 
@@ -176,7 +177,8 @@ def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = Tr
     at a time, skipping zero coefficients (for finite points adding ``0 * y`` changes no
     value); many: tiles of (facets x rows) reduced along the facet axis.
     """
-    if len(b) > FEW_FACETS and np.count_nonzero(a) > SPARSE_TERMS * len(b):
+    sparse_at = min(SPARSE_TERMS, a.shape[1] - 1) if a.ndim == 2 and a.shape[1] else 0
+    if len(b) > FEW_FACETS and np.count_nonzero(a) > sparse_at * len(b):
         return _min_margin_tiled(y, a, b, with_arg)
     n = len(y)
     best = np.full(n, np.inf)
