@@ -6,7 +6,7 @@ temporary directory (deleted at the end) and checked against the default chpt-su
 
 - ``local_check``: this process, one file at a time (the canonical block order);
 - ``dask_check`` on the engine's LocalCluster of 2 single-threaded worker processes
-  (``eftsieve.check.engines.dask.local_cluster``, started before the clock runs; its
+  (``eftsieve.io.dask_client.local_cluster``, started before the clock runs; its
   start-up time is shown separately).
 
 Both runs must give the same summary numbers and the same flagged.csv bytes, which the
@@ -101,9 +101,10 @@ def run(d: Path, region) -> tuple[list[list[str]], float]:
     """Local against Dask on ``region``: the table rows and the Dask speed-up."""
     from distributed import Client
 
-    from eftsieve.check.engines.dask import dask_check, local_cluster
+    from eftsieve.check.engines.dask import dask_check
     from eftsieve.check.engines.local import local_check
     from eftsieve.check.verdicts import CheckSettings
+    from eftsieve.io.dask_client import local_cluster
 
     fit, settings = bench_fit(d), CheckSettings()
     n = N_FILES * ROWS_PER_FILE

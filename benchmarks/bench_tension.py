@@ -15,7 +15,7 @@ from __future__ import annotations
 import numpy as np
 from common import best_time, table
 
-from eftsieve import stats
+from eftsieve.stats import tension as stats
 from eftsieve.theories.scalar_eft.theory import THEORY
 
 
