@@ -1,7 +1,7 @@
 """The eighteen dimension-8 quartic-gauge-coupling operators of ``aqgc-dim8`` and their modes.
 
 Basis of vector-boson-scattering analyses: Eboli, Gonzalez-Garcia & Mizukoshi,
-hep-ph/0606118, Eqs. (2)-(16), with the later update by Eboli & Gonzalez-Garcia,
+arXiv:hep-ph/0606118, Eqs. (2)-(16), with the later update by Eboli & Gonzalez-Garcia,
 arXiv:1604.03555, which adds O_S2 and writes O_M5 with its hermitian conjugate
 (definitions from memory; checked term by term against docs/physics_aqgc.md):
 
