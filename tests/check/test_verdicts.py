@@ -23,3 +23,27 @@ def test_tiled_min_margin_equals_the_per_facet_loop(m, monkeypatch):
     # the definition, with numpy's matrix product as the (last-bits) oracle
     np.testing.assert_allclose(tiled[0], (y @ a.T - b).min(axis=1), rtol=0, atol=1e-12)
     assert tiled[1].dtype == np.int32
+
+
+def test_inner_test_skips_outside_rows_without_changing_any_verdict():
+    """Rows outside a verified outer facet are outside; the inner facets are evaluated on
+    the other rows only.  Oracle: the verdict rule written out with numpy on all rows
+    (inside the inner set by more than the band, else outside the outer set by more than
+    the band, else marginal), for an inner set within the outer one."""
+    import numpy as np
+
+    from eftsieve.check.verdicts import INSIDE, MARGINAL, OUTSIDE, classify
+    from eftsieve.region.model import Facet, Region
+
+    outer = (Facet((1.0, 0.0), -1.0, "f", "a", {}), Facet((0.0, 1.0), -1.0, "f", "b", {}))
+    inner = (Facet((1.0, 0.0), -0.5, "f", "a", {}), Facet((0.0, 1.0), -0.5, "f", "b", {}),
+             Facet((1.0, 1.0), -0.8, "f", "c", {}))
+    region = Region("chpt-su2", ("lbar1", "lbar2"), {"name": "lbar"}, outer, {}, inner)
+    y = np.random.default_rng(8).normal(size=(5000, 2))
+    v = classify(y, region, 0.01)
+    a, b = region.arrays()
+    ai, bi = region.arrays(inner=True)
+    m_out, m_in = (y @ a.T - b).min(axis=1), (y @ ai.T - bi).min(axis=1)
+    want = np.where(m_in > 0.01, INSIDE, np.where(m_out < -0.01, OUTSIDE, MARGINAL))
+    assert np.array_equal(v.verdict, want)
+    assert (want == OUTSIDE).any() and (want == INSIDE).any() and (want == MARGINAL).any()

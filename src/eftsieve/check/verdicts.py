@@ -237,10 +237,19 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
     if worst is None:  # with_arg=True always returns the facets (for the type checker)
         raise RuntimeError("facet indices missing")
     verdict = np.full(len(y), MARGINAL, dtype=np.int8)
-    verdict[outer < -band] = OUTSIDE
+    out = outer < -band
+    verdict[out] = OUTSIDE
     if region.inner_facets:
+        # a point outside a verified outer facet is outside, whatever the inner facets say
+        # (the inner set lies within the outer one): the inner test runs on the rest only
         ai, bi = region.arrays(inner=True)
-        inner, _ = _min_margin(y, ai, bi, with_arg=False, cols=cols)
+        if not out.any():
+            inner, _ = _min_margin(y, ai, bi, with_arg=False, cols=cols)
+        else:
+            inner = np.full(len(y), -np.inf)
+            rest = np.flatnonzero(~out)
+            if len(rest):
+                inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False)[0]
     else:
         inner = outer
     verdict[inner > band] = INSIDE
