@@ -96,7 +96,9 @@ def to_markdown(doc: Document) -> str:
 
 
 _CSS = ("body{font-family:system-ui,sans-serif;max-width:60em;margin:2em auto;padding:0 1em;"
-        "color:#1d2733;line-height:1.45}table{border-collapse:collapse;margin:1em 0}"
+        "color:#1d2733;line-height:1.45}"
+        "table{border-collapse:collapse;margin:1em 0;display:block;overflow-x:auto;"
+        "max-width:100%}"
         "td,th{border:1px solid #c9d1da;padding:.25em .6em;font-size:.92em}"
         "th{background:#eef2f6}code{background:#f3f5f7;padding:0 .2em}"
         "img{max-width:100%;border:1px solid #e1e6eb}h1{border-bottom:2px solid #2b6f8f}"

@@ -23,7 +23,7 @@ LIMITS_OUTPUTS = ("summary.json", "intervals.csv", "report.md", "report.html",
                   "intervals.png")
 #: how the ends of an allowed part were decided, for people
 METHOD_TEXT = {"facets": "facets (exact)", "bisection": "bisection (exact membership)",
-               "boundary": "facets; the exact test reaches the boundary (solver accuracy)",
+               "boundary": "facets (end on the cone's boundary)",
                "undecided": "undecided"}
 
 
