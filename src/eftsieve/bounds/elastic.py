@@ -170,11 +170,9 @@ def prove_elastic(m: np.ndarray, max_cells: int = 400_000, batch: int = 20_000,
     m = 0.5 * (m + m.transpose(2, 3, 0, 1))  # E is unchanged; A(u) is then symmetric
     # the quadratic remainder: |A(d, d)| <= sum_ik |d_i||d_k| |A(e_i, e_k)|_F, and also
     # <= |d|^2 sigma_max(Q) with Q[(i,k),(j,l)] = M^{ijkl}
-    aik = np.einsum("ijkl->ikjl", m)
-    aik = 0.5 * (aik + np.swapaxes(aik, 2, 3))
+    aik, sigma_q = _remainder_norms(m)
     quad = np.linalg.norm(aik, axis=(2, 3)) + np.linalg.norm(np.swapaxes(aik, 0, 1), axis=(2, 3))
     quad = 0.5 * quad
-    sigma_q = float(np.linalg.norm(aik.reshape(n * n, n * n), 2))
     centres, halves = [], []
     for face in range(n):
         c = np.zeros(n)
@@ -209,14 +207,21 @@ def prove_elastic(m: np.ndarray, max_cells: int = 400_000, batch: int = 20_000,
         cb, hb = cb[keep], hb[keep]
         if not len(cb):
             continue
-        axis = np.argmax(hb, axis=1)
-        step = np.zeros_like(hb)
-        step[np.arange(len(hb)), axis] = hb[np.arange(len(hb)), axis] / 2
-        hb2 = hb.copy()
-        hb2[np.arange(len(hb)), axis] /= 2
-        cen = np.concatenate([cen, cb - step, cb + step])
-        hal = np.concatenate([hal, hb2, hb2])
+        cen, hal = _split(cen, hal, cb, hb)
     return ElasticProof("proven", done)
+
+
+def _split(cen: np.ndarray, hal: np.ndarray, cb: np.ndarray, hb: np.ndarray
+           ) -> tuple[np.ndarray, np.ndarray]:
+    """The queue with each undecided box (centres cb, half-widths hb) halved along its
+    widest side appended."""
+    axis = np.argmax(hb, axis=1)
+    rows = np.arange(len(hb))
+    step = np.zeros_like(hb)
+    step[rows, axis] = hb[rows, axis] / 2
+    hb2 = hb.copy()
+    hb2[rows, axis] /= 2
+    return np.concatenate([cen, cb - step, cb + step]), np.concatenate([hal, hb2, hb2])
 
 
 def _remainder_norms(m: np.ndarray) -> tuple[np.ndarray, float]:
@@ -260,12 +265,5 @@ def _prove_reduced(m: np.ndarray, red: StateReduction, max_cells: int, batch: in
         cb, hb = cb[keep], hb[keep]
         if not len(cb):
             continue
-        axis = np.argmax(hb, axis=1)
-        rows = np.arange(len(hb))
-        step = np.zeros_like(hb)
-        step[rows, axis] = hb[rows, axis] / 2
-        hb2 = hb.copy()
-        hb2[rows, axis] /= 2
-        cen = np.concatenate([cen, cb - step, cb + step])
-        hal = np.concatenate([hal, hb2, hb2])
+        cen, hal = _split(cen, hal, cb, hb)
     return ElasticProof("proven", done)
