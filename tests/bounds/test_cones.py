@@ -23,6 +23,7 @@ from eftsieve.bounds.cones import (
     FacetCertificate,
     check_facet_on_cone,
     cross,
+    dense_factors,
     facet_from_dual,
     verify_certificate,
     verify_rho,
@@ -242,13 +243,21 @@ def test_shooting_finds_the_photon_boundary_and_a_tight_facet(photon_problem):
 def test_certificates_verify_and_wrong_ones_fail(photon_region, photon_problem, rng):
     for f in photon_region.facets:
         assert verify_certificate(photon_problem, f.extra["certificate"], np.array(f.normal))
-        cert = FacetCertificate(np.array(f.normal), "dual-psd", 0.0,
-                                f.extra["certificate"]["repair"],
-                                {k: f.extra["certificate"][k] for k in ("Z_factors", "scale")})
+        stored = f.extra["certificate"]
+        assert "Z_sparse" in stored                    # the compact form is what is written
+        cert = FacetCertificate(np.array(f.normal), "dual-psd", 0.0, stored["repair"],
+                                {"Z_sparse": stored["Z_sparse"], "scale": stored["scale"]})
         assert check_facet_on_cone(photon_problem, cert, rng) >= 0
-        bad = {**f.extra["certificate"], "Z_factors": [[-1.0] + r[1:] for r in
-                                                       f.extra["certificate"]["Z_factors"]]}
+        # the same certificate written dense verifies too; a tampered one does not
+        dense = dense_factors(stored)
+        assert verify_certificate(photon_problem, {"kind": "dual-psd", "Z_factors": dense},
+                                  np.array(f.normal))
+        bad = {"kind": "dual-psd", "Z_factors": [[-1.0] + r[1:] for r in dense]}
         assert not verify_certificate(photon_problem, bad, np.array(f.normal))
+        sp = stored["Z_sparse"]
+        bad_sparse = {"kind": "dual-psd", "Z_sparse": {"size": sp["size"], "factors": [
+            [lam, idx, [2 * v for v in val[:1]] + val[1:]] for lam, idx, val in sp["factors"]]}}
+        assert not verify_certificate(photon_problem, bad_sparse, np.array(f.normal))
     # a non-PSD matrix is no certificate
     assert facet_from_dual(photon_problem, -np.eye(4)) is None
 

@@ -19,7 +19,12 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from eftsieve.bounds.cones import certificate_matrix, check_facet_on_cone, facet_from_dual
+from eftsieve.bounds.cones import (
+    certificate_matrix,
+    check_facet_on_cone,
+    dense_factors,
+    facet_from_dual,
+)
 from eftsieve.bounds.contact import (
     contact_amplitude,
     exchange_forward_tensor,
@@ -223,7 +228,7 @@ def _excluded(problem, sign, rng):
         return None
     # Z is PSD on the live pairs (rho of every member vanishes on the dead ones)
     live = ~dead_pairs(problem.tensors)
-    z = certificate_matrix(cert.data["Z_factors"], ~live)[np.ix_(live, live)]
+    z = certificate_matrix(dense_factors(cert.data), ~live)[np.ix_(live, live)]
     assert np.linalg.eigvalsh(z)[0] >= -1e-6 * np.abs(z).max()
     assert check_facet_on_cone(problem, cert, rng) >= -1e-12
     return "dual PSD matrix"

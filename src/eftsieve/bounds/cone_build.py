@@ -16,6 +16,26 @@ w = tau (tau . c = tr rho > 0 on K \\ {0}).  Starting from the point c0 deepest 
 Rounds of cutting planes then aim rays at the vertices of the outer polyhedron that lie
 farthest outside the inner hull, until the Monte Carlo estimate of the shell (outer minus
 inner) falls below ``shell_target`` of the unit sphere's area, or the round limit.
+
+Two geometries serve the rounds:
+
+* ``hull`` (slice dimension up to :data:`HULL_MAX_DIM`): the outer polyhedron's vertices
+  by half-space intersection and the inner cone as the convex hull of the verified inner
+  points (Qhull, through scipy.spatial).  The number of hull facets grows too fast for
+  more coordinates, and Qhull then fails on precision.
+* ``lp`` (more coordinates, or when Qhull fails): no vertex enumeration and no hull.  Each
+  round maximises random linear objectives over the outer polyhedron (one LP each, HiGHS
+  through scipy) and shoots a ray at every optimal vertex: a vertex outside the cone is
+  cut off by the new facet, one on it shows the outer set is tight there (Kelley's
+  cutting-plane method, J. Soc. Indust. Appl. Math. 8 (1960) 703, applied to the cone's
+  support function).  The inner set is the hull of the verified inner points up to
+  :data:`INNER_HULL_MAX_DIM` slice dimensions, and above that the simplicial cone spanned
+  by k verified inner rays chosen greedily for a large volume (the cone spanned by points
+  of a convex cone lies in it, so it needs no further proof; k facets, cheap to test).
+  The simplicial cone is a tiny part of the cone in many dimensions: points between it
+  and the outer facets are the shell, decided by the exact solves of the check
+  (:mod:`eftsieve.check.shell`).  The build stops when a round finds nearly every probed
+  vertex on the cone, or at the round limit.
 """
 
 from __future__ import annotations
@@ -45,6 +65,17 @@ from eftsieve.bounds.sdp import ExtremalSDP
 from eftsieve.errors import SolverError
 
 _OK = ("optimal", "optimal_inaccurate")
+#: largest slice dimension (coefficients - 1) built with hulls (``hull`` geometry); above
+#: it the ``lp`` geometry (module docstring).  Qhull fails on precision from about 6.
+HULL_MAX_DIM = 5
+#: largest slice dimension whose inner set is the hull of the verified inner points in the
+#: ``lp`` geometry (thousands of facets at 6-7; tens of thousands from 8); above it the
+#: inner set is a simplicial cone
+INNER_HULL_MAX_DIM = 7
+#: ... and whose hull has at most this many facets (the facet test's cost grows with it)
+INNER_HULL_MAX_FACETS = 5000
+#: an LP vertex whose ray reaches the cone within this relative distance counts as tight
+TIGHT_REL = 1e-3
 
 
 @dataclass(frozen=True)
@@ -69,6 +100,10 @@ class ConeSettings:
         Seed of every random number.
     elastic_cells
         Cell budget of each elastic proof.
+    geometry
+        ``auto`` (``hull`` up to :data:`HULL_MAX_DIM`, ``lp`` above), ``hull`` or ``lp``.
+    tight_stop
+        ``lp`` geometry: stop when this share of a round's probed vertices lie on the cone.
     """
 
     family: str = "extremal"
@@ -79,6 +114,8 @@ class ConeSettings:
     mc_points: int = 200_000
     seed: int = 0
     elastic_cells: int = 300_000
+    geometry: str = "auto"
+    tight_stop: float = 0.9
 
     def to_dict(self) -> dict[str, Any]:
         return dict(self.__dict__)
@@ -128,6 +165,8 @@ class _Builder:
                  reduction: StateReduction | None = None) -> None:
         if st.family not in ("extremal", "elastic"):
             raise ValueError(f"unknown family '{st.family}'")
+        if st.geometry not in ("auto", "hull", "lp"):
+            raise ValueError(f"unknown geometry '{st.geometry}' (auto, hull or lp)")
         if problem.rank() < problem.k:
             raise ValueError("the coefficients are not independent in the forward tensor")
         self.p, self.st, self.reduction = problem, st, reduction
@@ -149,20 +188,25 @@ class _Builder:
         self.inner: list[np.ndarray] = []
         self.solves = 0
         self.rays = 0
+        self.geometry = st.geometry if st.geometry != "auto" else (
+            "hull" if problem.k - 1 <= HULL_MAX_DIM else "lp")
+        self.hull_error: str | None = None
+        self.inner_kind = "hull"
 
     # ---- rays ----------------------------------------------------------------------------
-    def shoot(self, d: np.ndarray) -> None:
+    def shoot(self, d: np.ndarray) -> float:
+        """Shoot the ray c0 + lambda d (d of unit norm); the boundary's lambda (an upper
+        estimate for ``elastic``; nan when the solve failed)."""
         self.rays += 1
         if self.st.family == "extremal":
-            self._shoot_extremal(d)
-        else:
-            self._shoot_elastic(d)
+            return self._shoot_extremal(d)
+        return self._shoot_elastic(d)
 
-    def _shoot_extremal(self, d: np.ndarray, with_facet: bool = True) -> None:
+    def _shoot_extremal(self, d: np.ndarray, with_facet: bool = True) -> float:
         res = self.sdp.shoot(self.c0, d, cap=1e6)
         self.solves += 1
         if res.status not in _OK or res.rho is None:
-            return
+            return float("nan")
         if with_facet and res.z is not None:
             cert = facet_from_dual(self.p, res.z)
             if cert is not None:
@@ -173,7 +217,8 @@ class _Builder:
             ok, _, _ = verify_rho(self.p, c_in, (1 - delta) * res.rho + delta * self.rho0)
             if ok:
                 self.inner.append(c_in / (self.w @ c_in))
-                return
+                break
+        return float(res.value)
 
     def _dinkelbach(self, d: np.ndarray, lam: float) -> float:
         t0, td = self.p.tensor(self.c0), self.p.tensor(d)
@@ -213,14 +258,14 @@ class _Builder:
         proof = prove_elastic(self.p.tensor(c), self.st.elastic_cells)
         return proof.outcome, proof
 
-    def _shoot_elastic(self, d: np.ndarray) -> None:
+    def _shoot_elastic(self, d: np.ndarray) -> float:
         lam = self._dinkelbach(d, 1e6)
         for delta in (1e3 * self.st.shrink, 1e4 * self.st.shrink, 1e5 * self.st.shrink):
             c_in = self.c0 + (1 - delta) * lam * d
             outcome, proof = self.prove_elastic_point(c_in)
             if outcome == "proven":
                 self.inner.append(c_in / (self.w @ c_in))
-                return
+                return lam
             if outcome == "violated" and proof.witness is not None:
                 u, v, _ = proof.witness
                 self.facets.append(facet_from_states(self.p, u, v))
@@ -228,6 +273,7 @@ class _Builder:
         # no proof near the elastic boundary: keep the extremal inner point (extremal is
         # inside elastic), but not its dual facet (not valid for elastic)
         self._shoot_extremal(d, with_facet=False)
+        return lam
 
     # ---- geometry on the slice ---------------------------------------------------------------
     def to_slice(self, c: np.ndarray) -> np.ndarray:
@@ -251,9 +297,51 @@ class _Builder:
         hs = HalfspaceIntersection(np.column_stack([a, b]), np.zeros(dim))
         return np.asarray(hs.intersections)
 
+    def lp_vertices(self, m: int) -> np.ndarray:
+        """Vertices of the outer polyhedron on the slice (rows, slice coordinates) that
+        maximise m random linear objectives, duplicates dropped (``lp`` geometry)."""
+        from scipy.optimize import linprog
+
+        normals = np.array([f.normal for f in self.facets])
+        a_ub = -(normals @ self.basis)
+        b_ub = normals @ self.c0
+        scale = np.linalg.norm(a_ub, axis=1)
+        a_ub, b_ub = a_ub / scale[:, None], b_ub / scale
+        box = 1e3 * max(1.0, float(np.linalg.norm(self.c0)))
+        dim = self.p.k - 1
+        found: list[np.ndarray] = []
+        for _ in range(m):
+            g = self.rng.normal(size=dim)
+            res = linprog(-g, A_ub=a_ub, b_ub=b_ub, bounds=[(-box, box)] * dim,
+                          method="highs")
+            if res.status != 0 or res.x is None:
+                continue
+            y = np.asarray(res.x)
+            if all(np.abs(y - z).max() > 1e-9 * max(1.0, float(np.abs(z).max()))
+                   for z in found):
+                found.append(y)
+        return np.array(found).reshape(-1, dim)
+
     def inner_normals(self) -> np.ndarray:
+        if self.geometry == "lp":
+            if self.p.k - 1 > INNER_HULL_MAX_DIM:
+                return self._simplex_normals()
+            from scipy.spatial import ConvexHull
+
+            try:
+                n_facets = len(ConvexHull(_distinct(self.to_slice(np.array(
+                    self.inner)))).equations)
+                if n_facets > INNER_HULL_MAX_FACETS:
+                    return self._simplex_normals()
+                return self._hull_normals()
+            except _qhull_error():
+                return self._simplex_normals()
+        return self._hull_normals()
+
+    def _hull_normals(self) -> np.ndarray:
         from scipy.spatial import ConvexHull
 
+        self.inner_kind = "hull"
         ys = _distinct(self.to_slice(np.array(self.inner)))
         dim = self.p.k - 1
         if dim == 1:
@@ -265,12 +353,71 @@ class _Builder:
         normals = np.vstack([normals, self.w])
         return normals / np.linalg.norm(normals, axis=1, keepdims=True)
 
+    def _simplex_normals(self) -> np.ndarray:
+        """Normals of the simplicial cone spanned by k verified inner rays of large volume
+        (rows of R^-1 for the ray matrix R: c = R lam with lam >= 0)."""
+        self.inner_kind = "simplex"
+        pts = np.array(self.inner)
+        idx = _large_simplex(self.to_slice(pts))
+        rays = pts[idx]                                   # (k, k), on the slice w . c = 1
+        inv = np.linalg.inv(rays.T)
+        return inv / np.linalg.norm(inv, axis=1, keepdims=True)
+
     def shell(self) -> tuple[float, float]:
         x = self.rng.normal(size=(self.st.mc_points, self.p.k))
         outer = (x @ np.array([f.normal for f in self.facets]).T >= 0).all(axis=1)
-        inner = (x @ self.inner_normals().T >= 0).all(axis=1)
+        normals = self.inner_normals()
+        inner = np.zeros(len(x), dtype=bool)
+        rest = np.flatnonzero(outer)                  # the inner set lies in the outer one
+        for lo in range(0, len(rest), 4096):          # bounded memory for many facets
+            rows = rest[lo:lo + 4096]
+            inner[rows] = (x[rows] @ normals.T >= 0).all(axis=1)
         frac = float(np.mean(outer & ~inner))
         return frac, float(np.sqrt(max(frac, 1.0 / len(x)) / len(x)))
+
+
+def _large_simplex(ys: np.ndarray, passes: int = 3) -> np.ndarray:
+    """Indices of dim + 1 rows of ys (points in dim dimensions) spanning a simplex of large
+    volume: greedy farthest-point selection from the affine hull of those chosen, then
+    single-vertex exchange passes that keep any exchange increasing |det| (the classic
+    heuristic for the maximum-volume simplex in a point set).  Raises ValueError when the
+    points do not span the space."""
+    m, dim = ys.shape
+    if m < dim + 1:
+        raise ValueError("too few points for a simplex")
+    chosen = [int(np.argmax(np.linalg.norm(ys - ys.mean(axis=0), axis=1)))]
+    while len(chosen) < dim + 1:
+        base = ys[chosen[0]]
+        diff = ys - base
+        if len(chosen) > 1:
+            q, _ = np.linalg.qr((ys[chosen[1:]] - base).T)
+            diff = diff - (diff @ q) @ q.T
+        dist = np.linalg.norm(diff, axis=1)
+        dist[chosen] = -1.0
+        nxt = int(np.argmax(dist))
+        if dist[nxt] <= 1e-12 * max(1.0, float(np.abs(ys).max())):
+            raise ValueError("the points do not span the space")
+        chosen.append(nxt)
+
+    def logvol(ids: list[int]) -> float:
+        sign, val = np.linalg.slogdet((ys[ids[1:]] - ys[ids[0]]).T)
+        return float(val) if sign != 0 else -np.inf
+
+    best = logvol(chosen)
+    for _ in range(passes):
+        improved = False
+        for pos in range(dim + 1):
+            for cand in range(m):
+                if cand in chosen:
+                    continue
+                trial = chosen.copy()
+                trial[pos] = cand
+                val = logvol(trial)
+                if val > best + 1e-9:
+                    chosen, best, improved = trial, val, True
+        if not improved:
+            break
+    return np.array(chosen)
 
 
 def _distinct(ys: np.ndarray, rel: float = 1e-6) -> np.ndarray:
@@ -317,6 +464,61 @@ def build_cone(problem: ConeProblem, settings: ConeSettings | None = None,
     for j in range(problem.k - 1):
         bld.shoot(bld.basis[:, j])
         bld.shoot(-bld.basis[:, j])
+    if bld.geometry == "lp":
+        return _build_lp(bld, t_start)
+    try:
+        return _build_hull(bld, t_start)
+    except _qhull_error() as err:
+        if st.geometry == "hull":
+            raise
+        # Qhull's precision gives out (usually from 6 slice dimensions): go on with the
+        # LP geometry, keeping every verified facet and inner point found so far
+        bld.geometry = "lp"
+        bld.hull_error = f"{err.__class__.__name__}: {str(err).splitlines()[0][:120]}"
+        return _build_lp(bld, t_start)
+
+
+def _qhull_error() -> type[Exception]:
+    from scipy.spatial import QhullError
+
+    return QhullError
+
+
+def _build_lp(bld: _Builder, t_start: float) -> ConeBuild:
+    """The rounds of the ``lp`` geometry (module docstring)."""
+    st, problem = bld.st, bld.p
+    rounds, frac, tight_share = 0, (1.0, 0.0), 0.0
+    while rounds < st.max_rounds:
+        rounds += 1
+        if len(bld.inner) < problem.k:
+            raise SolverError("too few inner points", "cone build: rays did not verify")
+        verts = bld.lp_vertices(st.rays_per_round)
+        tight = 0
+        for y in verts:
+            d = y @ bld.basis.T
+            dist = float(np.linalg.norm(d))
+            lam = bld.shoot(d / dist)
+            tight += int(lam >= dist * (1 - TIGHT_REL))
+        tight_share = tight / max(1, len(verts))
+        if tight_share >= st.tight_stop:
+            break
+    if len(bld.inner) < problem.k:
+        raise SolverError("too few inner points", "cone build: rays did not verify")
+    normals = bld.inner_normals()
+    frac = bld.shell()
+    stats = {"rays": bld.rays, "solves": bld.solves, "rounds": rounds,
+             "seconds": time.perf_counter() - t_start, "centre": bld.c0.tolist(),
+             "geometry": "lp", "tight_share_last_round": tight_share,
+             "inner_set": bld.inner_kind}
+    if bld.hull_error:
+        stats["hull_error"] = bld.hull_error
+    return ConeBuild(problem, st.family, tuple(bld.facets), np.array(bld.inner),
+                     normals, frac, stats)
+
+
+def _build_hull(bld: _Builder, t_start: float) -> ConeBuild:
+    """The rounds of the ``hull`` geometry (module docstring)."""
+    st, problem = bld.st, bld.p
     rounds, frac = 0, (1.0, 0.0)
     while rounds < st.max_rounds:
         rounds += 1
@@ -334,10 +536,12 @@ def build_cone(problem: ConeProblem, settings: ConeSettings | None = None,
                 break
             d = verts[i] @ bld.basis.T
             bld.shoot(d / np.linalg.norm(d))
+    normals = bld.inner_normals()
     stats = {"rays": bld.rays, "solves": bld.solves, "rounds": rounds,
-             "seconds": time.perf_counter() - t_start, "centre": bld.c0.tolist()}
+             "seconds": time.perf_counter() - t_start, "centre": bld.c0.tolist(),
+             "geometry": "hull", "inner_set": bld.inner_kind}
     return ConeBuild(problem, st.family, tuple(bld.facets), np.array(bld.inner),
-                     bld.inner_normals(), frac, stats)
+                     normals, frac, stats)
 
 
 def crossing_symmetric(z: np.ndarray) -> np.ndarray:

@@ -68,7 +68,9 @@ def _channel(cert: FacetCertificate, modes: tuple[str, ...]) -> str:
             i = np.argsort(-np.abs(v))[:2]
             return " + ".join(f"{v[j]:+.3g} {modes[j]}" for j in i if abs(v[j]) > 1e-3)
         return f"product state u = {top(cert.data['u'])}; v = {top(cert.data['v'])}"
-    return f"dual PSD matrix of rank {len(cert.data['Z_factors'])}"
+    data = cert.data
+    rank = len(data["Z_factors"]) if "Z_factors" in data else len(data["Z_sparse"]["factors"])
+    return f"dual PSD matrix of rank {rank}"
 
 
 def cone_region(theory: str, build: ConeBuild, convention: dict[str, Any],
@@ -78,8 +80,11 @@ def cone_region(theory: str, build: ConeBuild, convention: dict[str, Any],
     facets = [Facet(tuple(float(x) for x in c.normal), 0.0, build.family,
                     _channel(c, p.modes), {}, 0.0, "verified",
                     {"certificate": c.to_dict()}) for c in prune(build.outer)]
-    inner = [Facet(tuple(float(x) for x in n), 0.0, build.family, "inner cone (hull of "
-                   "verified rays)", {}, 0.0, "verified", {"kind": "inner"})
+    label = ("inner cone (simplicial, spanned by verified rays)"
+             if build.stats.get("inner_set") == "simplex" else
+             "inner cone (hull of verified rays)")
+    inner = [Facet(tuple(float(x) for x in n), 0.0, build.family, label, {}, 0.0,
+                   "verified", {"kind": "inner"})
              for n in build.inner_normals]
     # wall time is left out so that the same build gives the same hash
     stats = {k: v for k, v in build.stats.items() if k != "seconds"}

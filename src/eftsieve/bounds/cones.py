@@ -180,6 +180,30 @@ def _eig_error(z: np.ndarray) -> float:
     return 8 * z.shape[-1] * np.finfo(float).eps * float(np.linalg.norm(z))
 
 
+def dense_factors(data: dict[str, Any]) -> list[list[float]]:
+    """The ``[l_k, *z_k]`` rows of a stored dual certificate: ``Z_factors`` as written, or
+    ``Z_sparse`` (``{"size": n^2, "factors": [[l_k, [indices], [values]], ...]}``, the
+    compact form that :func:`facet_from_dual` writes)."""
+    if "Z_factors" in data:
+        return data["Z_factors"]
+    sp = data["Z_sparse"]
+    rows = []
+    for lam, idx, val in sp["factors"]:
+        z = np.zeros(int(sp["size"]))
+        z[np.asarray(idx, dtype=int)] = val
+        rows.append([float(lam), *z.tolist()])
+    return rows
+
+
+def _sparse(factors: np.ndarray) -> dict[str, Any]:
+    """Z_sparse of dense ``[l_k, *z_k]`` rows (entries that are exactly zero dropped)."""
+    out = []
+    for row in factors:
+        idx = np.flatnonzero(row[1:])
+        out.append([float(row[0]), idx.tolist(), row[1:][idx].tolist()])
+    return {"size": int(factors.shape[1] - 1), "factors": out}
+
+
 def certificate_matrix(factors: list[list[float]], dead: np.ndarray | None = None,
                        ) -> np.ndarray:
     """Z = (Zt + Zt^x)/2 with Zt = sum_k l_k z_k z_k^T from stored ``[l_k, *z_k]`` rows.
@@ -202,22 +226,50 @@ def certificate_matrix(factors: list[list[float]], dead: np.ndarray | None = Non
     return np.where(ll_b & llx, 0.5 * (zt + zx), np.where(ll_b, zt, np.where(llx, zx, 0.0)))
 
 
+def _block_eigh(z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Eigenpairs of a symmetric matrix, block by block of its exact-zero pattern (the
+    SDP's dual is block diagonal in the sign sectors, :mod:`eftsieve.bounds.sectors`):
+    each eigenvector is supported on one block, so the stored factors stay sparse even
+    where eigenvalues of different blocks coincide."""
+    from scipy.sparse.csgraph import connected_components
+
+    n_blocks, label = connected_components(z != 0, directed=False)
+    lams, vecs = [], []
+    for b in range(n_blocks):
+        idx = np.flatnonzero(label == b)
+        lb, vb = np.linalg.eigh(z[np.ix_(idx, idx)])
+        full = np.zeros((len(z), len(idx)))
+        full[idx] = vb
+        lams.append(lb)
+        vecs.append(full)
+    return np.concatenate(lams), np.hstack(vecs)
+
+
 def facet_from_dual(problem: ConeProblem, z: np.ndarray) -> FacetCertificate | None:
     """A valid facet from a (numerical) dual matrix Z, or None when Z is far from PSD.
 
-    Z is symmetrised and its eigenpairs above ``1e-12`` of the largest are kept (the
-    stored certificate, a PSD Zt); the linear form on crossing-symmetric M sees only
+    Z is symmetrised and its eigenpairs above ``1e-12`` of the largest are kept, with the
+    eigenvector entries below ``1e-13`` set to zero and the rest rounded to 12 significant
+    digits (the stored certificate, still a PSD Zt = sum_k l_k z_k z_k^T whatever the
+    rounding, and stored sparse); the normal is computed from the stored Zt, so it is
+    exact for what is written.  The linear form on crossing-symmetric M sees only
     Zc = (Zt + Zt^x)/2, whose eigenvalues are re-evaluated; a negative smallest eigenvalue
     -e is absorbed exactly by adding (e + rounding) tau to the normal (module docstring).
     """
     z = 0.5 * (z + z.T)
-    lam, vec = np.linalg.eigh(z)
+    lam, vec = _block_eigh(z)
     top = float(np.abs(lam).max()) if len(lam) else 0.0
-    if top == 0 or lam[0] < -CONE_CERT_TOL * top:
+    if top == 0 or lam.min() < -CONE_CERT_TOL * top:
         return None
     keep = lam > 1e-12 * top
-    factors = np.column_stack([lam[keep] / top, vec[:, keep].T]).tolist()
-    return _facet_from_factors(problem, factors)
+    f = np.column_stack([lam[keep] / top, vec[:, keep].T])
+    f[:, 1:][np.abs(f[:, 1:]) < 1e-13] = 0.0
+    f = np.array([[float(f"{x:.12g}") for x in row] for row in f]).reshape(f.shape)
+    cert = _facet_from_factors(problem, f.tolist())
+    if cert is None:
+        return None
+    data = {"Z_sparse": _sparse(f), "scale": cert.data["scale"]}
+    return FacetCertificate(cert.normal, cert.kind, cert.lambda_min, cert.repair, data)
 
 
 def _facet_from_factors(problem: ConeProblem, factors: list[list[float]],
@@ -248,7 +300,7 @@ def verify_certificate(problem: ConeProblem, cert: dict[str, Any],
     if cert.get("kind") == "product-state":
         again = facet_from_states(problem, np.asarray(cert["u"]), np.asarray(cert["v"]))
     elif cert.get("kind") == "dual-psd":
-        got = _facet_from_factors(problem, cert["Z_factors"])
+        got = _facet_from_factors(problem, dense_factors(cert))
         if got is None:
             return False
         again = got
@@ -286,7 +338,7 @@ def check_facet_on_cone(problem: ConeProblem, cert: FacetCertificate,
     rho = g @ np.swapaxes(g, 1, 2)
     m = rho + cross(rho)
     if cert.kind == "dual-psd":
-        z = certificate_matrix(cert.data["Z_factors"], dead) / cert.data["scale"]
+        z = certificate_matrix(dense_factors(cert.data), dead) / cert.data["scale"]
         tau_m = 0.5 * np.einsum("bijij->b", m.reshape(draws, *(problem.n,) * 4))
         vals = 0.5 * np.einsum("pq,bpq->b", z, m) + cert.repair * tau_m
         scale = np.abs(z).sum() * np.abs(m).max(axis=(1, 2))

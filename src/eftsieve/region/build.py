@@ -53,6 +53,10 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
     if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
         lines.append(f"  inner set: {len(region.inner_facets)} facets (the one-loop bounds; "
                      "points between inner and outer facets are uncertain)")
+    elif region.inner_facets and "cone_problem" in region.settings:
+        lines.append(f"  inner set: {len(region.inner_facets)} facets ("
+                     f"{region.inner_facets[0].channel}; points between the inner and outer "
+                     "facets get exact solves in eftsieve check)")
     elif region.inner_facets:
         lines.append(f"  inner set: {len(region.inner_facets)} facets (reached by explicit "
                      "positive spectra: consistent with every sum rule used)")

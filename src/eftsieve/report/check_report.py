@@ -57,9 +57,13 @@ def region_block(region: Region) -> list:
     elif region.inner_facets and "cone_problem" in region.settings:
         blocks.append(Para(f"The region is a positivity cone: the outer facets above are "
                            f"verified dual certificates, and the inner cone "
-                           f"({len(region.inner_facets)} facets) is the hull of rays proven "
-                           "inside by explicit solutions. Points between them (the shell) "
-                           "are decided by one exact solve each (section Shell)."))
+                           f"({len(region.inner_facets)} facets) is spanned by rays proven "
+                           "inside by explicit solutions"
+                           + (" (a simplicial cone: in many dimensions it holds only a "
+                              "small part of the cone)" if "simplicial" in
+                              region.inner_facets[0].channel else "")
+                           + ". Points between them (the shell) are decided by one exact "
+                           "solve each (section Shell)."))
     elif region.inner_facets:
         blocks.append(Para(f"The region also has an inner set of {len(region.inner_facets)} "
                            "facets, reached by explicit positive heavy-state spectra: points "

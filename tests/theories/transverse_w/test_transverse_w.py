@@ -17,6 +17,7 @@ from eftsieve.bounds.cones import (
     certificate_matrix,
     check_facet_on_cone,
     cross,
+    dense_factors,
     facet_from_dual,
     verify_certificate,
 )
@@ -53,7 +54,7 @@ def test_facet_only_extremal_finds(problem):
     n = cert.normal / cert.normal[0] * 12
     np.testing.assert_allclose(n, [12.0, 4.0, 5.0], atol=1e-5)
     # the certificate: Z is PSD and crossing-symmetric, and reproduces the facet
-    z = certificate_matrix(cert.data["Z_factors"])
+    z = certificate_matrix(dense_factors(cert.data))
     assert np.abs(z - cross(z)).max() < 1e-12
     assert np.linalg.eigvalsh(z)[0] >= -1e-6 * np.abs(z).max()
     assert verify_certificate(problem, cert.to_dict(), cert.normal)

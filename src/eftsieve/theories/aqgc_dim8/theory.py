@@ -4,11 +4,12 @@ Region settings besides the cone engine's: ``coordinates`` (any subset of the 18
 coefficients; the others are fixed to zero; CLI ``--coordinates fT0,fT1``) and
 ``sin2_theta_w`` (the weak angle of the hatted field strengths; it changes the forward
 tensors but not the cone, see operators.py).  Without ``coordinates`` the region is
-fS0..fS2, fT0..fT2 (about 20 s); subsets with M-type coefficients need 7 or more
-coordinates, where the cutting-plane build fails in its hull step (reported as an error,
-never as a bound; docs/physics_aqgc.md).  The region is stated in the convention
-``hat-i``; a fit must declare its own convention (conventions.py), which is mapped
-exactly onto the region's coordinates.
+fS0..fS2, fT0..fT2 (about 20 s); ``all`` names the 18.  Subsets of more than six
+coefficients (every subset with M-type coefficients and an interior) are built with the
+LP geometry of :mod:`eftsieve.bounds.cone_build`: verified outer facets, a small inner set,
+and the exact solves of the check for the points between (docs/physics_aqgc.md).  The
+region is stated in the convention ``hat-i``; a fit must declare its own convention
+(conventions.py), which is mapped exactly onto the region's coordinates.
 """
 
 from __future__ import annotations
@@ -17,7 +18,6 @@ from functools import lru_cache
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
-from scipy.spatial import QhullError as _QhullError
 
 from eftsieve.bounds.cones import ConeProblem
 from eftsieve.bounds.contact import forward_tensor
@@ -56,7 +56,8 @@ AQGC_CAUTIONS = CONE_CAUTIONS + (
 def parse_coordinates(raw: Any) -> tuple[str, ...]:
     """The region's coordinates from a setting (a list or a comma-separated string),
     in the canonical order; InputError for unknown, duplicate or redundant names."""
-    if raw is None:
+    if raw is None or (isinstance(raw, str) and raw.strip() == "all") or (
+            not isinstance(raw, str) and [str(x).strip() for x in raw] == ["all"]):
         return ops.COEFFICIENTS
     names = [s.strip() for s in (raw.split(",") if isinstance(raw, str) else raw)]
     for name in names:
@@ -166,11 +167,6 @@ class AqgcDim8(ConeTheory):
         problem = aqgc_problem(coords, sin2)
         try:
             build = build_cone(problem, st, reduction=_reduction(problem, fams[0]))
-        except _QhullError as err:
-            raise SolverError("hull failed", f"the cutting-plane build of {len(coords)} "
-                              f"coefficients ({err.__class__.__name__}); choose 3 to 5 "
-                              "coefficients with --coordinates, or decide points one by one "
-                              "(docs/physics_aqgc.md)") from err
         except SolverError as err:
             raise InputError(None, "--coordinates", f"the cone of {','.join(coords)} alone "
                              f"has no interior point ({err}): positivity forces a combination "
