@@ -127,12 +127,11 @@ def record_convention(theory: str, name: str | None) -> Any:
     """The declared convention of a record's coefficients (refused when the theory offers
     several and none is given)."""
     from eftsieve.errors import InputError
-    from eftsieve.fit.model import parse_convention
+    from eftsieve.fit.formats.interval_card import declared_convention
     from eftsieve.theories import get_theory
 
     try:
         th = get_theory(theory)
     except KeyError as err:
         raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
-    return parse_convention(name, {}, None, "--convention", bool(th.convention_specs),
-                            th.convention_specs)
+    return declared_convention(th, name, {}, None, "--convention")
