@@ -57,12 +57,30 @@ class _Regions:
 
     def __init__(self, args: argparse.Namespace, stage: Path, outdir: Path) -> None:
         from eftsieve.api import load_region
+        from eftsieve.errors import InputError
 
         self.given: dict[str, tuple[Region, str]] = {}
+        self.files: dict[str, str] = {}
         for f in args.region or []:
             r = load_region(f)
+            if r.theory in self.given:
+                raise InputError(f, "--region", f"a second region of {r.theory} (the first "
+                                 f"is {self.given[r.theory][1]})", "give one region per "
+                                 "theory")
             self.given[r.theory] = (r, f)
+            self.files[r.theory] = f
         self.family, self.stage, self.outdir = args.family, stage, outdir
+
+    def refuse_unused(self, theories: Any) -> None:
+        """A --region file whose theory no row or record uses was read for nothing: refuse
+        it rather than let the user believe the result used it."""
+        from eftsieve.errors import InputError
+
+        for theory, f in self.files.items():
+            if theory not in theories:
+                raise InputError(f, "--region", f"is a region of {theory}, which the input "
+                                 f"does not use (it uses {', '.join(sorted(theories))})",
+                                 "give the region of the input's theory, or omit --region")
 
     def __call__(self, theory: str) -> tuple[Region, str | None]:
         from eftsieve.region.build import build_region
@@ -106,6 +124,12 @@ def _run(args: argparse.Namespace, path: Path, regions: _Regions) -> Any:
 
     exact = not args.no_exact
     if not is_record(path):
+        if path.is_dir():
+            raise InputError(path, None, "is a folder without a submission.yaml",
+                             "give an interval card (.csv), a HEPData submission.yaml or "
+                             "the folder holding it")
+        if not path.exists():
+            raise InputError(path, None, "file not found", "check the path")
         if path.suffix.lower() != ".csv":
             raise InputError(path, None, "is neither an interval card (.csv) nor a HEPData "
                              "record", "give a .csv interval card or a submission.yaml")
@@ -113,12 +137,15 @@ def _run(args: argparse.Namespace, path: Path, regions: _Regions) -> Any:
             if getattr(args, opt):
                 raise InputError(None, f"--{opt}", "applies to HEPData records only",
                                  "an interval card states theory and convention per row")
-        return limits_from_card(path, regions, exact=exact)
+        result = limits_from_card(path, regions, exact=exact)
+        regions.refuse_unused(result.regions)
+        return result
     if not args.theory:
         raise InputError(path, None, "a HEPData record does not name its theory",
                          "add --theory NAME (see `eftsieve theories`)")
     conv = record_convention(args.theory, args.convention)
     region, rpath = regions(args.theory)
+    regions.refuse_unused({args.theory: None})
     return limits_from_record(path, args.theory, conv, region, rpath, tables=args.table,
                               exact=exact, draws=args.draws, seed=args.seed)
 

@@ -110,9 +110,13 @@ def _grid_1d(t: HepTable, k: int = 0) -> tuple[np.ndarray, np.ndarray]:
     x, q = t.independent[0].values, t.dependent[k].values * _factor(t, k)
     order = np.argsort(x, kind="stable")
     x, q = x[order], q[order]
-    if len(x) < 3 or np.any(np.diff(x) <= 0):
-        raise InputError(t.path, f"{t.independent[0].where}.values", "a scan needs at least 3 "
-                         "distinct points", "give each grid point once")
+    twice = x[1:][np.diff(x) <= 0]
+    if twice.size:
+        raise InputError(t.path, f"{t.independent[0].where}.values", f"the grid point "
+                         f"{twice[0]:g} appears twice", "give each grid point once")
+    if len(x) < 3:
+        raise InputError(t.path, f"{t.independent[0].where}.values", f"a scan needs at least "
+                         f"3 points, got {len(x)}", "give the whole scanned grid")
     return x, q
 
 
