@@ -137,9 +137,12 @@ def _run(args: argparse.Namespace, path: Path, regions: _Regions) -> Any:
             if getattr(args, opt):
                 raise InputError(None, f"--{opt}", "applies to HEPData records only",
                                  "an interval card states theory and convention per row")
-        result = limits_from_card(path, regions, exact=exact)
-        regions.refuse_unused(result.regions)
-        return result
+        from eftsieve.fit.formats.interval_card import read_interval_card
+        from eftsieve.theories import get_theory
+
+        rows = read_interval_card(path, get_theory)
+        regions.refuse_unused({r.theory for r in rows})
+        return limits_from_card(path, regions, exact=exact, rows=rows)
     if not args.theory:
         raise InputError(path, None, "a HEPData record does not name its theory",
                          "add --theory NAME (see `eftsieve theories`)")

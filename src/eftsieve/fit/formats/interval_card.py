@@ -151,7 +151,12 @@ def _table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]]]:
     rows = []
     try:
         for r in reader:  # a quoted cell may span lines: number rows by their first line
-            rows.append((start + reader.line_num - _newlines(r), r))
+            n = start + reader.line_num - _newlines(r)
+            if _newlines(r):  # an unclosed quote swallows the rows below it
+                raise InputError(path, f"line {n}", f"a quoted cell runs over "
+                                 f"{_newlines(r) + 1} lines (an unclosed quote?)",
+                                 "close the quote: every cell holds one line")
+            rows.append((n, r))
     except csv.Error as err:
         raise InputError(path, f"line {start + reader.line_num}", f"not a CSV row ({err})",
                          "close every quoted cell") from err
