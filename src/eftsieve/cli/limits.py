@@ -71,7 +71,7 @@ class _Regions:
             self.files[r.theory] = f
         self.family, self.stage, self.outdir = args.family, stage, outdir
 
-    def refuse_unused(self, theories: Any) -> None:
+    def refuse_unused(self, theories: set[str]) -> None:
         """A --region file whose theory no row or record uses was read for nothing: refuse
         it rather than let the user believe the result used it."""
         from eftsieve.errors import InputError
@@ -147,8 +147,8 @@ def _run(args: argparse.Namespace, path: Path, regions: _Regions) -> Any:
         raise InputError(path, None, "a HEPData record does not name its theory",
                          "add --theory NAME (see `eftsieve theories`)")
     conv = record_convention(args.theory, args.convention)
+    regions.refuse_unused({args.theory})
     region, rpath = regions(args.theory)
-    regions.refuse_unused({args.theory: None})
     return limits_from_record(path, args.theory, conv, region, rpath, tables=args.table,
                               exact=exact, draws=args.draws, seed=args.seed)
 
