@@ -92,9 +92,11 @@ def test_the_cycle_finder_finds_a_planted_cycle(tmp_path):
 
 def test_no_library_module_imports_the_command_line():
     graph = import_graph()
+    # eftsieve.__main__ (``python -m eftsieve``) is an entry point like the console
+    # script, not a library module: it only calls eftsieve.cli.main.main
     bad = sorted(m for m, deps in graph.items()
-                 if not m.startswith("eftsieve.cli") and any(d.startswith("eftsieve.cli")
-                                                             for d in deps))
+                 if not m.startswith("eftsieve.cli") and m != "eftsieve.__main__"
+                 and any(d.startswith("eftsieve.cli") for d in deps))
     assert bad == []
 
 

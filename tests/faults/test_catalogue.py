@@ -32,11 +32,13 @@ import yaml
 from tests.faults.builders import (
     BUILDERS,
     GOOD_CARD,
+    GOOD_INTERVAL_CARD,
     GOOD_SAMPLES_CARD,
     card_text,
     good_samples,
     merge,
     write_csv,
+    write_record,
 )
 
 HERE = Path(__file__).parent
@@ -45,6 +47,9 @@ CHECK_ARGS = ["--draws", "2000", "--no-plots", "--seed", "1"]
 #: a case that hangs fails after this long (``--chunk-rows 0`` once hung for ever)
 CASE_SECONDS = 60
 IMPOSE_ARGS = ["--samples", "400", "--no-progress", "--no-plots"]
+LIMITS_ARGS = ["--no-plots", "-q"]
+#: the input and region of a ``verb: limits`` case unless it says otherwise
+LIMITS_INPUT, LIMITS_REGION = "{d}/limits.csv", "{d}/higgs.json"
 
 
 @pytest.fixture(scope="session")
@@ -52,11 +57,27 @@ def region_dict(su2_region) -> dict[str, Any]:
     return su2_region.to_dict()
 
 
-def _write_base(d: Path, region: dict[str, Any]) -> None:
+@pytest.fixture(scope="session")
+def higgs_region_text() -> str:
+    """The default higgs-quartic region (the theory of the limits cases), as JSON."""
+    from eftsieve.region.build import build_region
+
+    return json.dumps(build_region("higgs-quartic", {}).to_dict())
+
+
+def _is_limits(case: dict[str, Any]) -> bool:
+    return case.get("verb") == "limits" or (case.get("argv") or [""])[0] == "limits"
+
+
+def _write_base(d: Path, region: dict[str, Any], limits_region: str | None = None) -> None:
     (d / "card.yaml").write_text(card_text(GOOD_CARD, "card.yaml"))
     (d / "samples_card.yaml").write_text(card_text(GOOD_SAMPLES_CARD, "samples_card.yaml"))
     write_csv(d / "samples.csv", good_samples())
     (d / "region.json").write_text(json.dumps(region))
+    if limits_region is not None:  # an interval card, a record and the higgs region
+        (d / "limits.csv").write_text(GOOD_INTERVAL_CARD, encoding="utf-8")
+        write_record(d, "rec")
+        (d / "higgs.json").write_text(limits_region)
 
 
 def _region_file(region: dict[str, Any], spec: dict[str, Any]) -> str:
@@ -105,17 +126,20 @@ def _digest(root: Path, skip: Path) -> dict[str, str]:
 
 
 @pytest.fixture(scope="session")
-def previous_sets(tmp_path_factory, region_dict) -> dict[str, Path]:
-    """A complete check output set and a complete impose output set of the good card."""
+def previous_sets(tmp_path_factory, region_dict, higgs_region_text) -> dict[str, Path]:
+    """A complete check, impose and limits output set of the good inputs."""
     from eftsieve.cli.main import main
 
     d = tmp_path_factory.mktemp("previous")
-    _write_base(d, region_dict)
-    sets = {"check": d / "prev_check", "impose": d / "prev_impose"}
+    _write_base(d, region_dict, higgs_region_text)
+    sets = {"check": d / "prev_check", "impose": d / "prev_impose",
+            "limits": d / "prev_limits"}
     assert main(["check", str(d / "card.yaml"), "--region", str(d / "region.json"), "-o",
                  str(sets["check"]), *CHECK_ARGS]) == 0
     assert main(["impose", str(d / "card.yaml"), "--region", str(d / "region.json"), "-o",
                  str(sets["impose"]), *IMPOSE_ARGS]) == 0
+    assert main(["limits", str(d / "limits.csv"), "--region", str(d / "higgs.json"), "-o",
+                 str(sets["limits"]), *LIMITS_ARGS]) == 0
     return sets
 
 
@@ -126,10 +150,11 @@ def _argv(case: dict[str, Any], d: Path, out: Path) -> list[str]:
     if "argv" in case:
         return [sub(a) for a in case["argv"]]
     verb = case.get("verb", "check")
-    fit = sub(case.get("fit", "{d}/card.yaml"))
-    region = [] if case.get("no_region") else ["--region", sub(case.get("region",
-                                                                         "{d}/region.json"))]
-    base = CHECK_ARGS if verb == "check" else IMPOSE_ARGS
+    limits = verb == "limits"
+    fit = sub(case.get("fit", LIMITS_INPUT if limits else "{d}/card.yaml"))
+    region = [] if case.get("no_region") else [
+        "--region", sub(case.get("region", LIMITS_REGION if limits else "{d}/region.json"))]
+    base = {"check": CHECK_ARGS, "impose": IMPOSE_ARGS, "limits": LIMITS_ARGS}[verb]
     return [verb, fit, *region, "-o", str(out), *base, *[sub(a) for a in case.get("args", [])]]
 
 
@@ -157,8 +182,36 @@ def _unreadable(monkeypatch: Any, target: Path) -> None:
     monkeypatch.setattr("eftsieve.io.textfile.open", guarded, raising=False)
 
 
+def _read_only(monkeypatch: Any, folder: Path) -> None:
+    """Creating anything in ``folder`` fails with EACCES (what a read-only folder does to
+    a user who is not root; as root the folder's mode is not enough, so the refusal is
+    injected into os.open and os.mkdir as well)."""
+    import errno
+
+    if os.geteuid() != 0:
+        os.chmod(folder, 0o555)
+    real_open, real_mkdir = os.open, os.mkdir
+    ro = folder.resolve()
+
+    def inside(path: Any) -> bool:
+        return Path(os.path.abspath(path)).parent.resolve() == ro
+
+    def open_(path: Any, flags: int, *args: Any, **kw: Any) -> int:
+        if flags & (os.O_CREAT | os.O_WRONLY | os.O_RDWR) and inside(path):
+            raise PermissionError(errno.EACCES, "Permission denied", str(path))
+        return real_open(path, flags, *args, **kw)
+
+    def mkdir_(path: Any, *args: Any, **kw: Any) -> None:
+        if inside(path):
+            raise PermissionError(errno.EACCES, "Permission denied", str(path))
+        real_mkdir(path, *args, **kw)
+    monkeypatch.setattr(os, "open", open_)
+    monkeypatch.setattr(os, "mkdir", mkdir_)
+
+
 @pytest.mark.parametrize("case", CASES, ids=[c["id"] for c in CASES])
-def test_fault_case(case, tmp_path, region_dict, previous_sets, capsys, monkeypatch):
+def test_fault_case(case, tmp_path, region_dict, higgs_region_text, previous_sets, capsys,
+                    monkeypatch):
     from eftsieve.cli.main import main
     from eftsieve.io.outset import verify_manifest
 
@@ -166,7 +219,7 @@ def test_fault_case(case, tmp_path, region_dict, previous_sets, capsys, monkeypa
         pytest.skip("root reads every file")
     d = tmp_path / "case"
     d.mkdir()
-    _write_base(d, region_dict)
+    _write_base(d, region_dict, higgs_region_text if _is_limits(case) else None)
     for name, spec in (case.get("files") or {}).items():
         _make_file(d, name, spec, region_dict)
     for mod_attr, value in (case.get("limits") or {}).items():
@@ -180,14 +233,19 @@ def test_fault_case(case, tmp_path, region_dict, previous_sets, capsys, monkeypa
         monkeypatch.setattr("eftsieve.io.atomic.atomic_write_bytes", full)
     if isinstance(case.get("inject"), dict) and "eacces" in case["inject"]:
         _unreadable(monkeypatch, d / case["inject"]["eacces"])
+    if isinstance(case.get("inject"), dict) and "readonly" in case["inject"]:
+        (d / case["inject"]["readonly"]).mkdir()
     out = Path(str(case.get("out", "{d}/out")).replace("{d}", str(d)))
-    prev = case.get("previous", "impose" if case.get("verb") == "impose" else "check")
+    verb = case.get("verb", "check")
+    prev = case.get("previous", verb if verb in ("impose", "limits") else "check")
     if prev != "none" and not out.exists():
         shutil.copytree(previous_sets[prev], out)
     before_out = _digest(out, tmp_path / "none") if out.is_dir() else None
     for p in case.get("chmod", []):
         os.chmod(d / p, 0)
     inputs = _digest(d, out)
+    if isinstance(case.get("inject"), dict) and "readonly" in case["inject"]:
+        _read_only(monkeypatch, d / case["inject"]["readonly"])
     capsys.readouterr()
 
     def too_long(signum: int, frame: Any) -> None:
@@ -204,6 +262,9 @@ def test_fault_case(case, tmp_path, region_dict, previous_sets, capsys, monkeypa
     err_text = capsys.readouterr().err
     for p in case.get("chmod", []):
         os.chmod(d / p, 0o644)
+    if isinstance(case.get("inject"), dict) and "readonly" in case["inject"]:
+        monkeypatch.undo()
+        os.chmod(d / case["inject"]["readonly"], 0o755)
     assert code == case["exit"], err_text
     assert "Traceback" not in err_text
     if case["exit"] != 0:

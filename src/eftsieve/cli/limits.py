@@ -57,12 +57,30 @@ class _Regions:
 
     def __init__(self, args: argparse.Namespace, stage: Path, outdir: Path) -> None:
         from eftsieve.api import load_region
+        from eftsieve.errors import InputError
 
         self.given: dict[str, tuple[Region, str]] = {}
+        self.files: dict[str, str] = {}
         for f in args.region or []:
             r = load_region(f)
+            if r.theory in self.given:
+                raise InputError(f, "--region", f"a second region of {r.theory} (the first "
+                                 f"is {self.given[r.theory][1]})", "give one region per "
+                                 "theory")
             self.given[r.theory] = (r, f)
+            self.files[r.theory] = f
         self.family, self.stage, self.outdir = args.family, stage, outdir
+
+    def refuse_unused(self, theories: set[str]) -> None:
+        """A --region file whose theory no row or record uses was read for nothing: refuse
+        it rather than let the user believe the result used it."""
+        from eftsieve.errors import InputError
+
+        for theory, f in self.files.items():
+            if theory not in theories:
+                raise InputError(f, "--region", f"is a region of {theory}, which the input "
+                                 f"does not use (it uses {', '.join(sorted(theories))})",
+                                 "give the region of the input's theory, or omit --region")
 
     def __call__(self, theory: str) -> tuple[Region, str | None]:
         from eftsieve.region.build import build_region
@@ -106,6 +124,12 @@ def _run(args: argparse.Namespace, path: Path, regions: _Regions) -> Any:
 
     exact = not args.no_exact
     if not is_record(path):
+        if path.is_dir():
+            raise InputError(path, None, "is a folder without a submission.yaml",
+                             "give an interval card (.csv), a HEPData submission.yaml or "
+                             "the folder holding it")
+        if not path.exists():
+            raise InputError(path, None, "file not found", "check the path")
         if path.suffix.lower() != ".csv":
             raise InputError(path, None, "is neither an interval card (.csv) nor a HEPData "
                              "record", "give a .csv interval card or a submission.yaml")
@@ -113,11 +137,17 @@ def _run(args: argparse.Namespace, path: Path, regions: _Regions) -> Any:
             if getattr(args, opt):
                 raise InputError(None, f"--{opt}", "applies to HEPData records only",
                                  "an interval card states theory and convention per row")
-        return limits_from_card(path, regions, exact=exact)
+        from eftsieve.fit.formats.interval_card import read_interval_card
+        from eftsieve.theories import get_theory
+
+        rows = read_interval_card(path, get_theory)
+        regions.refuse_unused({r.theory for r in rows})
+        return limits_from_card(path, regions, exact=exact, rows=rows)
     if not args.theory:
         raise InputError(path, None, "a HEPData record does not name its theory",
                          "add --theory NAME (see `eftsieve theories`)")
     conv = record_convention(args.theory, args.convention)
+    regions.refuse_unused({args.theory})
     region, rpath = regions(args.theory)
     return limits_from_record(path, args.theory, conv, region, rpath, tables=args.table,
                               exact=exact, draws=args.draws, seed=args.seed)
@@ -127,12 +157,11 @@ def record_convention(theory: str, name: str | None) -> Any:
     """The declared convention of a record's coefficients (refused when the theory offers
     several and none is given)."""
     from eftsieve.errors import InputError
-    from eftsieve.fit.model import parse_convention
+    from eftsieve.fit.formats.interval_card import declared_convention
     from eftsieve.theories import get_theory
 
     try:
         th = get_theory(theory)
     except KeyError as err:
         raise InputError(None, "--theory", str(err.args[0]), "run `eftsieve theories`") from err
-    return parse_convention(name, {}, None, "--convention", bool(th.convention_specs),
-                            th.convention_specs)
+    return declared_convention(th, name, {}, None, "--convention")

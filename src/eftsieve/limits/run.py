@@ -24,6 +24,7 @@ from eftsieve.limits.scans import ScanResult, scan_1d, scan_2d
 if TYPE_CHECKING:
     from eftsieve.fit.conventions import Convention
     from eftsieve.fit.formats.hepdata import HepTable
+    from eftsieve.fit.formats.interval_card import IntervalRow
     from eftsieve.region.model import Region
 
 #: theory name -> its region (given, or built with the theory's defaults) and its file
@@ -86,17 +87,19 @@ CARD_NOTES = ("A one-coefficient interval holds the other coefficients at fixed 
               "about directions the analysis did not vary.",)
 
 
-def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = True
-                     ) -> LimitsResult:
-    """Every row of an interval card against the region of its theory."""
+def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = True,
+                     rows: Sequence[IntervalRow] | None = None) -> LimitsResult:
+    """Every row of an interval card against the region of its theory (``rows``: the
+    card's rows when the caller has read them already)."""
     from eftsieve.fit.formats.interval_card import read_interval_card
     from eftsieve.theories import get_theory
 
-    rows = read_interval_card(path, get_theory)
+    if rows is None:
+        rows = read_interval_card(path, get_theory)
     theories = list(dict.fromkeys(r.theory for r in rows))
     got = {t: regions(t) for t in theories}
     regs = {t: r for t, (r, _) in got.items()}
-    out = truncate_rows(rows, regs, exact=exact)
+    out = truncate_rows(tuple(rows), regs, exact=exact)
     signs = {t: rules for t in theories if (rules := sign_rules(regs[t], exact=exact))}
     info = {t: region_info(r, p) for t, (r, p) in got.items()}
     return LimitsResult(str(path), "interval-card", info, out, signs, notes=CARD_NOTES)
@@ -110,9 +113,13 @@ def _grid_1d(t: HepTable, k: int = 0) -> tuple[np.ndarray, np.ndarray]:
     x, q = t.independent[0].values, t.dependent[k].values * _factor(t, k)
     order = np.argsort(x, kind="stable")
     x, q = x[order], q[order]
-    if len(x) < 3 or np.any(np.diff(x) <= 0):
-        raise InputError(t.path, f"{t.independent[0].where}.values", "a scan needs at least 3 "
-                         "distinct points", "give each grid point once")
+    twice = x[1:][np.diff(x) <= 0]
+    if twice.size:
+        raise InputError(t.path, f"{t.independent[0].where}.values", f"the grid point "
+                         f"{twice[0]:g} appears twice", "give each grid point once")
+    if len(x) < 3:
+        raise InputError(t.path, f"{t.independent[0].where}.values", f"a scan needs at least "
+                         f"3 points, got {len(x)}", "give the whole scanned grid")
     return x, q
 
 

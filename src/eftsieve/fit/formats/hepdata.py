@@ -129,17 +129,58 @@ def _yaml_error(path: Path, problem: str, hint: str) -> InputError:
     return InputError(path, None, problem, hint)
 
 
-def _load_all(path: Path) -> list[Any]:
+def _record_loader() -> type:
+    """PyYAML's safe loader (YAML 1.2 numbers) refusing a key given twice in a mapping:
+    a second ``values:`` would silently replace the first."""
+    import yaml
+
+    from eftsieve.io.yaml12 import CardLoader
+
+    class RecordLoader(CardLoader):
+        """Safe loader of HEPData YAML files."""
+
+    def mapping(loader: Any, node: Any, deep: bool = False) -> dict[Any, Any]:
+        loader.flatten_mapping(node)
+        out: dict[Any, Any] = {}
+        for knode, vnode in node.value:
+            key = loader.construct_object(knode, deep=deep)
+            if not isinstance(key, (str, int, float, bool)) or key in out:
+                what = "a key that is not text" if not isinstance(
+                    key, (str, int, float, bool)) else f"duplicate key {key!r}"
+                raise yaml.constructor.ConstructorError(None, None, what, knode.start_mark)
+            out[key] = loader.construct_object(vnode, deep=deep)
+        return out
+
+    RecordLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, mapping)
+    return RecordLoader
+
+
+def _yaml_problem(err: Exception) -> str:
+    """A YAML error in one short phrase with its line and column."""
+    problem = getattr(err, "problem", None) or " ".join(str(err).split())[:120]
+    mark = getattr(err, "problem_mark", None)
+    where = f" (line {mark.line + 1}, column {mark.column + 1})" if mark is not None else ""
+    return f"{problem}{where}"
+
+
+def _load_all(path: Path, what: str = "HEPData file") -> list[Any]:
     import yaml
 
     from eftsieve.io.textfile import read_text
 
-    text = read_text(path, MAX_BYTES, _yaml_error, "HEPData file")
+    text = read_text(path, MAX_BYTES, _yaml_error, what)
     try:
-        return [d for d in yaml.safe_load_all(text) if d is not None]
+        return [d for d in yaml.load_all(text, Loader=_record_loader())  # noqa: S506
+                if d is not None]
     except yaml.YAMLError as err:
-        raise InputError(path, None, f"not valid YAML ({' '.join(str(err).split())[:120]})",
-                         "give the record's submission.yaml and its table files") from err
+        problem = _yaml_problem(err)
+        raise InputError(path, None, f"not valid YAML: {problem}",
+                         "give each key once" if problem.startswith("duplicate key") else
+                         "correct the YAML syntax (the HEPData submission format: "
+                         "hepdata-submission.readthedocs.io)") from err
+    except RecursionError as err:
+        raise InputError(path, None, "lists or mappings nested too deeply",
+                         "check that this is a HEPData submission.yaml or table file") from err
 
 
 def read_record(path: str | Path, tables: Sequence[str] | None = None
@@ -150,14 +191,18 @@ def read_record(path: str | Path, tables: Sequence[str] | None = None
     that lists the record's tables.
     """
     p = Path(path)
-    if p.is_dir():
+    if p.is_dir() and (p / "submission.yaml").is_file():
         p = p / "submission.yaml"
-    docs = _load_all(p)
+    docs = _load_all(p, "HEPData submission.yaml")
     entries = [(i, d) for i, d in enumerate(docs) if isinstance(d, dict) and "data_file" in d]
     if not entries:
         raise InputError(p, "data_file", "no table in the record",
                          "give a HEPData submission.yaml whose documents name data_file")
     names = [str(d.get("name", "")) for _, d in entries]
+    for k, n in enumerate(names):
+        if n in names[:k]:
+            raise InputError(p, f"document {entries[k][0]}.name", f"two tables are named "
+                             f"{n!r}", "give each table its own name (HEPData requires it)")
     if tables:
         unknown = [t for t in tables if t not in names]
         if unknown:
@@ -172,21 +217,27 @@ def _table(sub: Path, i: int, doc: dict[str, Any]) -> HepTable:
     if not isinstance(file, str):
         raise InputError(sub, f"document {i}.data_file", "must be a file name",
                          "name the table's YAML file")
-    path = (sub.parent / file).resolve()
-    if sub.parent.resolve() not in path.parents:
+    path = sub.parent / file
+    if sub.parent.resolve() not in path.resolve().parents:
         raise InputError(sub, f"document {i}.data_file", f"{file!r} lies outside the "
                          "record's folder", "keep the table files beside submission.yaml")
-    data = _load_all(path)
+    if not path.exists():
+        raise InputError(sub, f"document {i}.data_file", f"the table file {file!r} of "
+                         f"table {doc.get('name', file)!r} is not in the record's folder",
+                         "put the table file beside submission.yaml, or correct data_file")
+    data = _load_all(path, "HEPData table file")
     if len(data) != 1 or not isinstance(data[0], dict):
         raise InputError(path, None, "a table file holds one mapping",
                          "give independent_variables and dependent_variables")
     body = data[0]
     ind = _variables(path, body, "independent_variables")
     dep = _variables(path, body, "dependent_variables")
-    n = {len(v.values) for v in ind + dep}
-    if len(n) > 1:
-        raise InputError(path, "values", f"the variables have different lengths "
-                         f"{sorted(n)}", "give one value per row in every variable")
+    first = ind[0]
+    for v in ind[1:] + dep:
+        if len(v.values) != len(first.values):
+            raise InputError(path, f"{v.where}.values", f"has {len(v.values)} values, "
+                             f"{first.where} has {len(first.values)}",
+                             "give one value per row in every variable")
     return HepTable(str(doc.get("name", file)), str(doc.get("description", "")), path,
                     ind, dep)
 
@@ -222,9 +273,15 @@ def _variable(path: Path, raw: Any, where: str) -> Variable:
                or not isinstance(t, (int, float)) or not np.isfinite(t)]
         if bad:
             raise InputError(path, f"{where}.values[{bad[0]}].value", f"not a finite number: "
-                             f"{texts[bad[0]]!r}", "give numbers (no '-' placeholders)")
+                             f"{texts[bad[0]]!r}", "give a finite number at every point (no "
+                             "NaN, inf or '-' placeholders: drop the point from every "
+                             "variable instead)")
         values = np.asarray(texts, dtype=float)
     errs = np.array([_symerror(e) for e in entries], dtype=float)
+    neg = np.flatnonzero(errs < 0)
+    if neg.size:
+        raise InputError(path, f"{where}.values[{neg[0]}].errors", f"negative symmetric "
+                         f"error {errs[neg[0]]:g}", "give the error's size (symerror >= 0)")
     return Variable(str(head.get("name", "")), str(head.get("units", "")), values,
                     None if np.isnan(errs).all() else errs, quals, where)
 
@@ -285,6 +342,9 @@ def classify(table: HepTable, names: Sequence[str]) -> HepTable:
     from dataclasses import replace
 
     ind, dep = table.independent, table.dependent
+    if len(ind) > 2:
+        raise InputError(table.path, "independent_variables", f"{len(ind)} independent "
+                         "variables; the supported layouts have one or two", _fix(names))
     ind_coef = [match_coefficient(v.name, names) if v.numeric else None for v in ind]
     if all(ind_coef) and len(ind) in (1, 2) and all(v.numeric for v in ind):
         coefs = tuple(c for c in ind_coef if c is not None)
@@ -305,15 +365,30 @@ def classify(table: HepTable, names: Sequence[str]) -> HepTable:
                 raise InputError(table.path, "dependent_variables", "the contours of one "
                                  f"table name different coefficients {sorted(set(ys))}",
                                  "one table per pair of coefficients")
-            if len(ind[0].values) < 3:
-                raise InputError(table.path, f"{ind[0].where}.values", "a contour needs at "
-                                 "least 3 points", "give the contour's points in order")
+            for v in dep:
+                _check_contour(table, ind[0], v)
             return replace(table, layout="contour", coefficients=(coefs[0], ys[0]))
         bad = dep[0]
         raise InputError(table.path, f"{bad.where}.header.name", f"{bad.name!r} is neither "
                          "a scan quantity (Delta chi^2, -2 Delta ln L, Delta NLL) nor a "
                          "coefficient", _fix(names))
     return _classify_gaussian(table, names)
+
+
+def _check_contour(table: HepTable, x: Variable, y: Variable) -> None:
+    """A contour is a polygon: at least 3 distinct points enclosing a non-zero area."""
+    pts = np.column_stack([x.values, y.values])
+    distinct = len(np.unique(pts, axis=0))
+    if distinct < 3:
+        raise InputError(table.path, f"{y.where}.values", f"a contour needs at least 3 "
+                         f"distinct points, got {distinct}", "give the contour's points in "
+                         "order around it")
+    xs, ys = pts[:, 0], pts[:, 1]  # the shoelace formula (signed parts of a crossed
+    area = 0.5 * abs(np.dot(xs, np.roll(ys, -1)) - np.dot(ys, np.roll(xs, -1)))  # one cancel)
+    if not area > 1e-12 * float(np.ptp(xs) * np.ptp(ys)):
+        raise InputError(table.path, f"{y.where}.values", "the contour encloses no area (its "
+                         "points lie on a line, or it crosses itself so that its parts "
+                         "cancel)", "give the contour's points in order around it")
 
 
 def _check_scan(table: HepTable, dep: Variable) -> None:
@@ -343,6 +418,10 @@ def _classify_gaussian(table: HepTable, names: Sequence[str]) -> HepTable:
                              "coefficient of the theory", f"use {', '.join(names)}")
     head = normalise(dep[0].name).lower()
     if len(ind) == 1:
+        twice = [t for k, t in enumerate(ind[0].values) if t in ind[0].values[:k]]
+        if twice:
+            raise InputError(table.path, f"{ind[0].where}.values", f"{twice[0]!r} has two "
+                             "central values", "give each coefficient once")
         if dep[0].errors is None or np.isnan(dep[0].errors).any():
             raise InputError(table.path, f"{dep[0].where}.values", "central values need one "
                              "symmetric error each (errors: [{symerror: ...}])",
@@ -382,6 +461,9 @@ def gaussian_fit(path: Path, tables: Sequence[HepTable], theory: Any, convention
             if a not in names or b not in names:
                 raise InputError(m.path, "independent_variables.values", f"{a!r}/{b!r} has "
                                  "no central value", f"the central table names {names}")
+            if not np.isnan(full[names.index(a), names.index(b)]):
+                raise InputError(m.path, "independent_variables.values", f"the entry "
+                                 f"{a!r}/{b!r} is given twice", "give each pair once")
             full[names.index(a), names.index(b)] = val
         full = np.where(np.isnan(full), full.T, full)
         if np.isnan(full).any():

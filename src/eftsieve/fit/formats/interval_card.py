@@ -85,26 +85,34 @@ def _error(path: Path, problem: str, hint: str) -> InputError:
     return InputError(path, None, problem, hint)
 
 
-def _number(text: str, path: Path, where: str) -> float:
+#: the fix of a cell that must hold a finite number (an end of an interval, a value in
+#: ``others`` or ``kinematics``)
+NUMBER_FIX = ("write a plain finite number, e.g. -0.28 or 1.5e-2 (an open-ended interval "
+              "is not a published limit: give both ends)")
+#: the fix of a bad ``cl`` cell
+CL_FIX = "write the confidence level as 95, 95% or 0.95"
+
+
+def _number(text: str, path: Path, where: str, fix: str = NUMBER_FIX) -> float:
     try:
         value = float(text)
     except ValueError as err:
-        raise InputError(path, where, f"not a number: {text!r}", "write a plain number, "
-                         "e.g. -0.28 or 1.5e-2") from err
+        shown = f"not a number: {text!r}" if text else "is empty"
+        raise InputError(path, where, shown, fix) from err
     if not math.isfinite(value):
-        raise InputError(path, where, f"must be finite, got {text!r}",
-                         "an open-ended interval is not a published limit; give both ends")
+        raise InputError(path, where, f"must be finite, got {text!r}", fix)
     return value
 
 
 def parse_cl(text: str, path: Path, where: str) -> float:
-    """``95``, ``95%`` or ``0.95`` -> 0.95."""
+    """``95``, ``95%`` or ``0.95`` -> 0.95 (a fraction in (0, 1) or a percent in
+    (1, 100); anything else is refused with the fix)."""
     raw = text.strip().rstrip("%").strip()
-    value = _number(raw, path, where)
+    value = _number(raw, path, where, CL_FIX)
     frac = value / 100.0 if (text.strip().endswith("%") or value > 1) else value
     if not 0 < frac < 1:
         raise InputError(path, where, f"confidence level {text!r} is not in (0, 100)%",
-                         "write e.g. 95 or 0.95")
+                         CL_FIX)
     return frac
 
 
@@ -118,6 +126,9 @@ def parse_assignments(text: str, path: Path, where: str) -> dict[str, float]:
             raise InputError(path, where, f"expected NAME=VALUE, got {item.strip()!r}",
                              "write e.g. fT1=0; fT2=0")
         k, v = (s.strip() for s in item.split("=", 1))
+        if not k:
+            raise InputError(path, where, f"no name before '=' in {item.strip()!r}",
+                             "write e.g. fT1=0; fT2=0")
         if k in out:
             raise InputError(path, where, f"'{k}' is given twice", "give each name once")
         out[k] = _number(v, path, f"{where}.{k}")
@@ -127,14 +138,28 @@ def parse_assignments(text: str, path: Path, where: str) -> dict[str, float]:
 def _table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]]]:
     from eftsieve.io.textfile import read_text
 
-    text = read_text(path, MAX_BYTES, _error, "interval card")
+    text = read_text(path, MAX_BYTES, _error, "CSV interval card")
+    if "\x00" in text:
+        raise InputError(path, None, "holds NUL bytes: not a text table",
+                         "give the interval card as a UTF-8 CSV file")
     lines = text.splitlines()
     start = 0
     while start < len(lines) and (not lines[start].strip() or
                                   lines[start].lstrip().startswith("#")):
         start += 1
     reader = csv.reader(io.StringIO("\n".join(lines[start:])))
-    rows = [(start + i + 1, r) for i, r in enumerate(reader)]
+    rows = []
+    try:
+        for r in reader:  # a quoted cell may span lines: number rows by their first line
+            n = start + reader.line_num - _newlines(r)
+            if _newlines(r):  # an unclosed quote swallows the rows below it
+                raise InputError(path, f"line {n}", f"a quoted cell runs over "
+                                 f"{_newlines(r) + 1} lines (an unclosed quote?)",
+                                 "close the quote: every cell holds one line")
+            rows.append((n, r))
+    except csv.Error as err:
+        raise InputError(path, f"line {start + reader.line_num}", f"not a CSV row ({err})",
+                         "close every quoted cell") from err
     if not rows:
         raise InputError(path, None, "no header line", f"the first line names the columns: "
                          f"{','.join(REQUIRED)}")
@@ -154,6 +179,33 @@ def _table(path: Path) -> tuple[list[str], list[tuple[int, list[str]]]]:
         raise InputError(path, None, "no intervals below the header", "add one row per "
                          "published interval")
     return header, body
+
+
+def _newlines(row: list[str]) -> int:
+    return sum(c.count("\n") for c in row)
+
+
+def _duplicates(p: Path, header: list[str], body: list[tuple[int, list[str]]]) -> None:
+    """Refuse a row that repeats an earlier one, or that the report could not tell apart
+    from an earlier one (same theory, coefficient, CL, others, convention, source and
+    label, other numbers): every row read is accounted for once."""
+    seen: dict[tuple[str, ...], int] = {}
+    keyed: dict[tuple[str, ...], int] = {}
+    key_cols = [c for c in header if c not in ("low", "high")]
+    for n, raw in body:
+        cells = dict(zip(header, (c.strip() for c in raw), strict=True))
+        full = tuple(cells[c] for c in header)
+        if full in seen:
+            raise InputError(p, f"line {n}", f"repeats line {seen[full]} cell for cell",
+                             "delete the duplicate row")
+        seen[full] = n
+        key = tuple(cells[c] for c in key_cols)
+        if key in keyed:
+            raise InputError(p, f"line {n}", f"gives another interval for the same "
+                             f"coefficient, CL, others, convention, source and label as line "
+                             f"{keyed[key]}", "tell the rows apart with a label column "
+                             "(e.g. observed, expected), or delete one")
+        keyed[key] = n
 
 
 def read_interval_card(path: str | Path, theory_of: Callable[[str], Any]
@@ -180,6 +232,8 @@ def read_interval_card(path: str | Path, theory_of: Callable[[str], Any]
         if len(raw) != len(header):
             raise InputError(p, f"line {n}", f"has {len(raw)} cells for {len(header)} "
                              "columns", "quote cells that hold commas")
+    _duplicates(p, header, body)
+    for n, raw in body:
         out.append(_row(p, n, dict(zip(header, (c.strip() for c in raw), strict=True)),
                         theory_of))
     return tuple(out)
@@ -212,12 +266,35 @@ def _row(p: Path, n: int, cells: dict[str, str], theory_of: Callable[[str], Any]
             raise InputError(p, f"{where}.{key}", "is empty", "state the units (e.g. TeV^-4)"
                              if key == "units" else "cite the paper (arXiv id and table)")
     kin = parse_assignments(cells.get("kinematics", ""), p, f"{where}.kinematics")
-    conv = parse_convention(cells["convention"] or None, kin, p, f"{where}.convention",
-                            bool(th.convention_specs), th.convention_specs)
-    if conv.name == NONE and th.convention_specs:
-        raise InputError(p, f"{where}.convention", f"{th.name} coefficients need a stated "
-                         "convention (signs and normalisations differ between them)",
-                         f"use one of {', '.join(th.convention_specs)}")
+    conv = declared_convention(th, cells["convention"], kin, p, f"{where}.convention")
     return IntervalRow(n, th.name, coef, low, high, parse_cl(cells["cl"], p, f"{where}.cl"),
                        others, conv, cells["units"], cells["source"], cells.get("label", ""),
                        cells.get("note", ""), kin)
+
+
+def declared_convention(theory: Any, raw: str | None, kin: dict[str, float],
+                        path: Path | None, where: str) -> Convention:
+    """The convention a result declares for ``theory``'s coefficients, never guessed.
+
+    A theory that offers conventions (sign or normalisation maps) must be told one of
+    them: an empty entry and ``none`` are refused, and so is an unknown name, each with
+    the theory's conventions as the fix.  A theory that offers none takes ``none`` (or
+    an empty entry).
+    """
+    specs = theory.convention_specs
+    name = (raw or "").strip()
+    if specs:
+        fix = f"state one of {', '.join(specs)} (see `eftsieve theories`)"
+        if name in ("", NONE):
+            what = "missing convention" if not name else f"'{NONE}' is not enough"
+            raise InputError(path, where, f"{what}: {theory.name} coefficients need a stated "
+                             "convention (the same numbers mean different coefficients in "
+                             "different conventions; eftsieve does not guess)", fix)
+        if name not in specs:
+            raise InputError(path, where, f"unknown convention '{name}' for {theory.name}",
+                             fix)
+    elif name not in ("", NONE):
+        raise InputError(path, where, f"{theory.name} has no conventions, got '{name}'",
+                         "omit --convention" if where.startswith("--")
+                         else f"write {NONE} (or leave the cell empty)")
+    return parse_convention(name or None, kin, path, where, bool(specs), specs)
