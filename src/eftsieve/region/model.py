@@ -90,11 +90,18 @@ class Facet:
                        if k != "pion_mass_mev")
         return f"{self.family} / {self.channel}" + (f" at {pt}" if pt else "")
 
-    def inequality(self, coordinates: tuple[str, ...]) -> str:
-        """The facet as readable text, e.g. ``lbar1 + 2 lbar2 >= 5.568``."""
+    def inequality(self, coordinates: tuple[str, ...], drop: float = 1e-6) -> str:
+        """The facet as readable text, e.g. ``lbar1 + 2 lbar2 >= 5.568``.  Terms smaller
+        than ``drop`` times the largest are left out of the text (and counted at its end):
+        numerical facets of many coordinates carry such dust; the stored normal keeps them."""
         terms = []
+        top = max((abs(c) for c in self.normal), default=0.0)
+        small = 0
         for c, name in zip(self.normal, coordinates, strict=True):
             if abs(c) < 1e-12:
+                continue
+            if abs(c) < drop * top:
+                small += 1
                 continue
             mag = "" if abs(abs(c) - 1) < 1e-12 else f"{abs(c):.6g} "
             sign = "-" if c < 0 else "+"
@@ -102,6 +109,8 @@ class Facet:
         text = " ".join(f"{s} {t}" for s, t in terms).lstrip("+ ")
         if text.startswith("- "):
             text = "-" + text[2:]
+        if small:
+            text += f" (+ {small} term{'s' if small > 1 else ''} below {drop:g} of the largest)"
         return f"{text} >= {self.offset:.6g}"
 
 

@@ -80,6 +80,8 @@ def projection_interval(normals: np.ndarray, offsets: np.ndarray,
 
     normals = drop_noise(normals)
     d = normals.shape[1]
+    if not np.any(offsets):
+        return _cone_projection_interval(normals, k)
     ends = []
     for sign in (1.0, -1.0):
         c = np.zeros(d)
@@ -90,6 +92,26 @@ def projection_interval(normals: np.ndarray, offsets: np.ndarray,
             return np.inf, -np.inf
         ends.append(sign * float(res.fun) if res.status == 0 else -sign * np.inf)
     return ends[0], ends[1]
+
+
+def _cone_projection_interval(normals: np.ndarray, k: int,
+                              tol: float = 1e-9) -> tuple[float, float]:
+    """:func:`projection_interval` of a cone {x : normals x >= 0}: each end is 0 or
+    infinite.  Solved over the cone cut by the box |x_i| <= 1 (a bounded LP; HiGHS can
+    stumble on the unbounded one in many dimensions): an end is infinite when the box
+    optimum leaves 0."""
+    from scipy.optimize import linprog
+
+    d = normals.shape[1]
+    ends = []
+    for sign in (1.0, -1.0):
+        c = np.zeros(d)
+        c[k] = -sign
+        res = linprog(c, A_ub=-normals, b_ub=np.zeros(len(normals)), bounds=[(-1, 1)] * d,
+                      method="highs")
+        reach = -float(res.fun) if res.status == 0 else np.inf
+        ends.append(sign * np.inf if reach > tol else 0.0)
+    return ends[1], ends[0]
 
 
 def _ray_in_projection(normals: np.ndarray, pair: Sequence[int], ang: float) -> bool:

@@ -174,8 +174,10 @@ class AqgcDim8(ConeTheory):
                              "coefficients (e.g. fS0,fS1,fS2 with fT0,fT1,fT2); single "
                              "coefficients: the sign table of docs/physics_aqgc.md") from err
         convention = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
-                      "units": "all coefficients in one common unit (e.g. TeV^-4)",
-                      "fixed_to_zero": [c for c in ops.COEFFICIENTS if c not in coords]}
+                      "units": "all coefficients in one common unit (e.g. TeV^-4)"}
+        fixed = [c for c in ops.COEFFICIENTS if c not in coords]
+        if fixed:
+            convention["fixed_to_zero"] = fixed
         return cone_region(self.name, build, convention, notes=AQGC_CAUTIONS)
 
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
