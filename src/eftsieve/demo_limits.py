@@ -36,7 +36,8 @@ def run_vbs_demo(ex: Path, stage: Path, shown: Path, say: Callable[[str], None]
     region.save(stage / f"region_{theory}.json")
     rpath = str(shown / f"region_{theory}.json")
 
-    def regions(name: str) -> tuple[Any, str | None]:
+    def regions(name: str, coefficients: Any = ()) -> tuple[Any, str | None]:
+        # the demo card uses the default region's coefficients only
         return (region, rpath) if name == theory else (build_region(name, {}), None)
 
     cards = limits_from_card(ex / CARD, regions)

@@ -38,7 +38,11 @@ from eftsieve.errors import InputError
 from eftsieve.theories import get_theory
 from eftsieve.theories.aqgc_dim8 import conventions as conv
 from eftsieve.theories.aqgc_dim8 import operators as ops
-from eftsieve.theories.aqgc_dim8.theory import SINGLE_COEFFICIENT_SIGNS, aqgc_problem
+from eftsieve.theories.aqgc_dim8.theory import (
+    SINGLE_COEFFICIENT_SIGNS,
+    aqgc_problem,
+    parse_coordinates,
+)
 from tests.theories.cone_helpers import coefficients_of
 
 THEORY = get_theory("aqgc-dim8")
@@ -318,7 +322,8 @@ def test_a_card_must_declare_its_convention(tmp_path):
     assert "parameters[0].convention" in str(err.value)
     path.write_text(body % (", convention: hat-real", ", convention: hat-real"))
     fit = load_fit(path)
-    assert THEORY.region_settings_for_fit(fit)["coordinates"] == ["fM1", "fT0"]
+    # an M-type coefficient: the region is all 18 (flat M subsets; docs/physics_aqgc.md)
+    assert THEORY.region_settings_for_fit(fit)["coordinates"] == "all"
     region = SimpleNamespace(coordinates=("fS0", "fM1", "fT0"), convention={"name": "hat-i"})
     cmap = THEORY.coordinate_map(fit, region)        # fS0 = 0 (not in the fit); fM1 flips
     np.testing.assert_allclose(cmap(np.array([[0.1, -0.2]])), [[0.0, 0.2, 0.1]])
@@ -403,3 +408,36 @@ def test_s_plus_t_region_is_the_product_of_the_two_cones():
     a, _ = both.arrays()
     norm = lambda x: sorted(map(tuple, np.round(x / np.abs(x).max(axis=1, keepdims=True), 6)))  # noqa: E731
     assert norm(a) == norm(want)
+
+
+# ---- many coordinates: the LP geometry of the cone build ----------------------------------
+def test_regions_cover_the_coefficients_of_a_card_or_fit():
+    # the default region for S and T0..T2 rows, S + T widened for T5..T9, and all 18 as
+    # soon as an M-type coefficient appears (M subsets are often flat cones)
+    assert THEORY.region_settings_for_coefficients(["fT0", "fS1"]) == {}
+    got = THEORY.region_settings_for_coefficients(["fT8", "fT0"])["coordinates"]
+    assert got == ["fS0", "fS1", "fS2", "fT0", "fT1", "fT2", "fT8"]
+    assert THEORY.region_settings_for_coefficients(["fM6"]) == {"coordinates": "all"}
+    assert parse_coordinates("all") == ops.COEFFICIENTS == parse_coordinates(["all"])
+
+
+@pytest.mark.slow
+def test_all_18_region_reproduces_the_single_coefficient_signs():
+    # the 18-coefficient region (LP geometry, built once) against the sign table derived
+    # coefficient by coefficient with certificates (SINGLE_COEFFICIENT_SIGNS, checked by
+    # test_single_coefficient_signs): the line cuts of the region (its facets, then exact
+    # bisection) give the same rule for every coefficient, and the rule-in heavy singlet
+    # exchange is not excluded by any facet
+    from eftsieve.limits.intervals import sign_rules
+
+    region = THEORY.build_region({"families": ["extremal"], "coordinates": "all"})
+    assert region.settings["build"]["geometry"] == "lp"
+    want = {c: {1: "nonnegative", -1: "nonpositive"}[s]
+            for c, s in SINGLE_COEFFICIENT_SIGNS.items()}
+    got = {r.coefficient: r.rule for r in sign_rules(region, exact=True)}
+    assert got == {c: want.get(c, "zero") for c in ops.COEFFICIENTS}
+    problem = aqgc_problem()
+    singlet, _ = _currents(0.8, 0.5, 1.0, 0.7, 0.6)
+    c, _ = coefficients_of(problem, exchange_forward_tensor(singlet[0], ops.MODES, 3.0, 0))
+    a, _ = region.arrays()
+    assert (a @ c >= -1e-9 * np.linalg.norm(c)).all()

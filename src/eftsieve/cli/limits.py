@@ -9,6 +9,7 @@ physics or statistics happen here.
 from __future__ import annotations
 
 import argparse
+from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -82,12 +83,16 @@ class _Regions:
                                  f"does not use (it uses {', '.join(sorted(theories))})",
                                  "give the region of the input's theory, or omit --region")
 
-    def __call__(self, theory: str) -> tuple[Region, str | None]:
+    def __call__(self, theory: str, coefficients: Sequence[str] = ()
+                 ) -> tuple[Region, str | None]:
         from eftsieve.region.build import build_region
+        from eftsieve.theories import get_theory
 
         if theory in self.given:
             return self.given[theory]
-        settings = {"families": self.family} if self.family else {}
+        settings: dict[str, Any] = {"families": self.family} if self.family else {}
+        # the theory's default region, widened to cover the card's coefficients
+        settings.update(get_theory(theory).region_settings_for_coefficients(coefficients))
         region = build_region(theory, settings)
         name = f"region_{theory}.json"
         region.save(self.stage / name)

@@ -28,7 +28,8 @@ if TYPE_CHECKING:
     from eftsieve.region.model import Region
 
 #: theory name -> its region (given, or built with the theory's defaults) and its file
-RegionSource = Callable[[str], "tuple[Region, str | None]"]
+#: the region of a theory (and its file), given the coefficients the input moves
+RegionSource = Callable[[str, Sequence[str]], "tuple[Region, str | None]"]
 
 
 @dataclass(frozen=True)
@@ -97,7 +98,10 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
     if rows is None:
         rows = read_interval_card(path, get_theory)
     theories = list(dict.fromkeys(r.theory for r in rows))
-    got = {t: regions(t) for t in theories}
+    names = {t: list(dict.fromkeys(n for r in rows if r.theory == t
+                                   for n in (r.coefficient, *r.others)))
+             for t in theories}
+    got = {t: regions(t, names[t]) for t in theories}
     regs = {t: r for t, (r, _) in got.items()}
     out = truncate_rows(tuple(rows), regs, exact=exact)
     signs = {t: rules for t in theories if (rules := sign_rules(regs[t], exact=exact))}

@@ -8,7 +8,7 @@ into the statistics of ``check`` or ``impose``.
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
@@ -231,6 +231,11 @@ class Theory(ABC):
     @abstractmethod
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         """Default region settings matching a fit's kinematics."""
+
+    def region_settings_for_coefficients(self, names: Sequence[str]) -> dict[str, Any]:
+        """Region settings whose coordinates cover these coefficients (the rows of an
+        interval card); empty: the theory's default region."""
+        return {}
 
     @abstractmethod
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:

@@ -14,6 +14,7 @@ region is stated in the convention ``hat-i``; a fit must declare its own convent
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from functools import lru_cache
 from typing import TYPE_CHECKING, Any
 
@@ -71,6 +72,16 @@ def parse_coordinates(raw: Any) -> tuple[str, ...]:
         raise InputError(None, "--coordinates", "empty or duplicate coefficient names",
                          "name each coefficient once")
     return tuple(c for c in ops.COEFFICIENTS if c in names)
+
+
+def _covering(used: Sequence[str]) -> list[str] | str:
+    """Coordinates of a region that decides points moving ``used``: those themselves, or
+    all 18 once an M-type coefficient is among them (subsets with M-type coefficients are
+    often flat cones without an interior point, while the 18-coefficient cone meets every
+    subspace in that subspace's own cone)."""
+    if any(c.startswith("fM") for c in used):
+        return "all"
+    return list(used)
 
 
 def parse_sin2(raw: Any) -> float:
@@ -183,7 +194,14 @@ class AqgcDim8(ConeTheory):
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         jac = self._fit_jacobian(fit)
         used = [c for c, row in zip(ops.COEFFICIENTS, jac, strict=True) if np.any(row)]
-        return {"families": ["extremal"], "coordinates": used}
+        return {"families": ["extremal"], "coordinates": _covering(used)}
+
+    def region_settings_for_coefficients(self, names: Sequence[str]) -> dict[str, Any]:
+        names = ["fM0" if n == "fM6" else n for n in names]
+        if all(n in DEFAULT_COORDINATES for n in names):
+            return {}
+        return {"coordinates": _covering([c for c in ops.COEFFICIENTS
+                                          if c in names or c in DEFAULT_COORDINATES])}
 
     def _fit_jacobian(self, fit: Fit) -> np.ndarray:
         """(18, p) map of the fit's parameters onto the 18 coordinates (zero columns for
