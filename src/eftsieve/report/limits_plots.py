@@ -50,9 +50,13 @@ def plot_intervals(rows: tuple[TruncatedInterval, ...], path: Path) -> Path:
         if t.allowed is not None:
             ax.plot([t.allowed[0] / scale, t.allowed[1] / scale], [y, y], color=AFTER, lw=3,
                     solid_capstyle="butt", label="allowed by positivity" if k == 0 else None)
+            if t.allowed[0] == t.allowed[1]:          # a single point (e.g. only 0) is kept
+                ax.plot([t.allowed[0] / scale], [y], "o", color=AFTER, ms=5)
+        frac = abs(t.fraction_allowed) + 0.0 if t.allowed is not None else 0.0
         note = ("excluded" if t.allowed is None else
-                f"<= {t.fraction_allowed:.0%} (undecided)" if t.status == "undecided"
-                else f"{t.fraction_allowed:.0%} kept")
+                f"<= {frac:.0%} (undecided)" if t.status == "undecided"
+                else f"only {t.allowed[0] + 0.0:g} kept" if t.allowed[0] == t.allowed[1]
+                else f"{frac:.0%} kept")
         ax.text(1.05, y, note, ha="left", va="center", fontsize=8)
     ax.axvline(0, color="k", lw=0.6)
     ax.set_yticks(range(len(rows)))
