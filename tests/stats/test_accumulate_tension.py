@@ -150,3 +150,48 @@ def test_tension_of_an_inside_mean_is_one():
     t = tension(np.array([0.0, 3.0]), np.eye(2) * 0.1, reg, np.random.default_rng(0))
     assert t.mahalanobis_min == pytest.approx(0.0, abs=1e-6)
     assert t.p_value == 1.0 and t.sigma == 0.0
+
+
+def test_nnls_weights_of_an_orthant_are_binomial():
+    """The orthant of R^k with identity covariance: w_i = C(k, i)/2^k (Silvapulle & Sen
+    2005, Sec. 3.4; here against scipy.stats.binom), with the orthant's normals repeated
+    and mixed with redundant rows so that the NNLS path (many rows) is taken."""
+    from eftsieve.stats.tension import MAX_ACTIVE_SETS, _cone_weights_nnls
+
+    k = 8
+    rng = np.random.default_rng(5)
+    extra = np.abs(rng.normal(size=(40, k)))            # redundant: implied by the orthant
+    g = np.vstack([np.eye(k), extra / np.linalg.norm(extra, axis=1)[:, None]])
+    assert math.comb(len(g), k) > MAX_ACTIVE_SETS       # cone_weights takes the NNLS path
+    w = cone_weights(g, np.random.default_rng(6))
+    np.testing.assert_allclose(w, sps.binom.pmf(np.arange(k + 1), k, 0.5), atol=0.012)
+    # and the NNLS path agrees with the active-set enumeration on a small cone
+    small = np.vstack([np.eye(3), [[1.0, 1.0, -0.5]]])
+    small /= np.linalg.norm(small, axis=1)[:, None]
+    np.testing.assert_allclose(_cone_weights_nnls(small, np.random.default_rng(7), 20_000),
+                               cone_weights(small, np.random.default_rng(8), n=200_000),
+                               atol=0.012)
+
+
+def test_tension_of_a_many_facet_cone_uses_its_apex():
+    """A cone with many facets (offsets 0): the least favourable point is the apex, whose
+    tangent cone is the cone itself, so no vertex enumeration is needed.  For the orthant
+    of R^6 (with redundant rows) and a mean at -d e_1, the distance is d and the p-value
+    sum_i C(6, i)/2^6 P(chi2_(6-i) >= d^2) (weights of the polar cone reversed)."""
+    from eftsieve.region.model import Facet, Region
+
+    k, d = 6, 2.5
+    rng = np.random.default_rng(9)
+    extra = np.abs(rng.normal(size=(60, k)))
+    normals = np.vstack([np.eye(k), extra / np.linalg.norm(extra, axis=1)[:, None]])
+    names = tuple(f"c{i}" for i in range(k))
+    reg = Region("test", names, {"name": "none"}, tuple(
+        Facet(tuple(n), 0.0, "test", f"f{i}", {}) for i, n in enumerate(normals)))
+    mean = np.zeros(k)
+    mean[0] = -d
+    t = tension(mean, np.eye(k), reg, np.random.default_rng(10))
+    assert t.cone == "apex"
+    assert t.mahalanobis_min == pytest.approx(d, rel=1e-6)
+    w = sps.binom.pmf(np.arange(k + 1), k, 0.5)[::-1]
+    want = sum(w[i] * sps.chi2.sf(d**2, i) for i in range(1, k + 1))
+    assert t.p_value == pytest.approx(want, abs=0.01)

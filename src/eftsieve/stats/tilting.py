@@ -326,7 +326,8 @@ def _saddle_eval(x: FloatArray, system: tuple[Any, ...]) -> tuple[Any, ...] | No
     psi_xx = pc.T @ dx_a + qc.T @ dx_b
     psi_mx = (dx_a + dx_b)[:k1] - np.eye(k1)
     psi_mm = (1.0 + h_aa + 2.0 * h_ab + h_bb)[:k1]
-    hess = psi_xx - psi_mx.T @ (psi_mx / psi_mm[:, None])
+    with np.errstate(divide="ignore", invalid="ignore"):   # a failed step is caught above
+        hess = psi_xx - psi_mx.T @ (psi_mx / psi_mm[:, None])
     return val, grad, hess, mu
 
 
