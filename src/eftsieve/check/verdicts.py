@@ -181,18 +181,21 @@ def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = Tr
     if len(b) > FEW_FACETS and np.count_nonzero(a) > sparse_at * len(b):
         return _min_margin_tiled(y, a, b, with_arg)
     n = len(y)
-    best = np.full(n, np.inf)
+    best = np.empty(n) if len(b) else np.full(n, np.inf)
     arg = np.zeros(n, dtype=np.int32) if with_arg else None
     if cols is None:
         cols = _columns(y)
     m, term = np.empty(n), np.empty(n)
     for j in range(len(b)):
         nz = np.flatnonzero(a[j]) if np.any(a[j]) else np.zeros(1, dtype=int)
-        np.multiply(cols[nz[0]], a[j, nz[0]], out=m)
+        out = best if j == 0 else m  # the first facet's margins are the minimum so far
+        np.multiply(cols[nz[0]], a[j, nz[0]], out=out)
         for k in nz[1:]:
             np.multiply(cols[k], a[j, k], out=term)
-            m += term
-        m -= b[j]
+            out += term
+        out -= b[j]
+        if j == 0:
+            continue
         if arg is not None:
             arg[m < best] = j
         np.minimum(best, m, out=best)
@@ -243,13 +246,17 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
         # a point outside a verified outer facet is outside, whatever the inner facets say
         # (the inner set lies within the outer one): the inner test runs on the rest only
         ai, bi = region.arrays(inner=True)
-        if not out.any():
+        rest = np.flatnonzero(~out)
+        if 2 * len(rest) > len(y):
+            # most rows remain: evaluate every row (a gather and a scatter would cost
+            # more than the rows they save) and overrule the outside ones
             inner, _ = _min_margin(y, ai, bi, with_arg=False, cols=cols)
+            inner[out] = -np.inf
         else:
             inner = np.full(len(y), -np.inf)
-            rest = np.flatnonzero(~out)
             if len(rest):
-                inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False)[0]
+                inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False,
+                                          cols=[c[rest] for c in cols])[0]
     else:
         inner = outer
     verdict[inner > band] = INSIDE
