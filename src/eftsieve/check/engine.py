@@ -31,6 +31,7 @@ from eftsieve.check.blocks import (
     sample_keys,
 )
 from eftsieve.check.outputs import FlaggedRows, FlaggedWriter
+from eftsieve.check.prefetch import read_ahead
 from eftsieve.check.result import N_WORST, CheckResult, WorstPoint, summarize
 from eftsieve.check.shell import (
     ShellBudget,
@@ -282,6 +283,8 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
 
     With a ``sink`` every block is handed over as soon as it is done (and the result
     carries only the row count); without, the blocks are collected into the result.
+    The next chunk is read on a second thread meanwhile
+    (:func:`eftsieve.check.prefetch.read_ahead`; the same chunks in the same order).
     """
     keys = sample_keys(job.settings.seed, job.part.start)
     dim = job.region.dim
@@ -293,7 +296,8 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
     shells: list[ShellSums] = []
     budget = None if job.uncertainty is not None else shell_budget(job.region, job.settings)
     n = 0
-    for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
+    chunks = read_ahead(job.source.iter_part(job.part, job.settings.chunk_rows))
+    for block in iter_blocks(chunks):
         out = process_block(job, block, keys, Cutoffs.of(sample, worst), budget)
         n += out.n
         worst.add(out.worst)
