@@ -212,6 +212,8 @@ class Selection:
 
     def add(self, piece: Ranked) -> None:
         """Offer a piece (rows after every row offered before)."""
+        if not len(piece):
+            return
         cut = self.cutoff
         if cut < np.inf:
             piece = piece.take(np.flatnonzero(piece.keys <= cut))

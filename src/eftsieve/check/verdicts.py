@@ -261,14 +261,14 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND, *,
         # a point outside a verified outer facet is outside, whatever the inner facets say
         # (the inner set lies within the outer one): the inner test runs on the rest only
         ai, bi = region.arrays(inner=True)
-        rest = np.flatnonzero(~out)
-        if 2 * len(rest) > len(y):
+        if 2 * np.count_nonzero(out) < len(y):
             # most rows remain: evaluate every row (a gather and a scatter would cost
             # more than the rows they save) and overrule the outside ones
             inner, _ = _min_margin(y, ai, bi, with_arg=False, cols=cols)
             inner[out] = -np.inf
         else:
             inner = np.full(len(y), -np.inf)
+            rest = np.flatnonzero(~out)
             if len(rest):
                 inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False,
                                           cols=[c[rest] for c in cols])[0]
