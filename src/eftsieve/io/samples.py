@@ -39,6 +39,8 @@ GLOB_CHARS = frozenset("*?[")
 DEFAULT_CHUNK_ROWS = 1_000_000
 #: cells (rows x columns) of one CSV chunk at most: bounds the memory of wide files
 CSV_CELLS_PER_CHUNK = 1 << 24
+#: the largest finite double (a weight above it is infinite)
+MAX_FLOAT = float(np.finfo(np.float64).max)
 
 
 @dataclass(frozen=True)
@@ -344,7 +346,7 @@ class SamplesSource:
         weights = None
         if self.weight_column:
             weights = frame[self.weight_column].to_numpy(dtype=float)
-            badw = None if in_range(weights[:, None], 0.0, np.inf) else (
+            badw = None if in_range(weights[:, None], 0.0, MAX_FLOAT) else (
                 ~np.isfinite(weights) | (weights < 0))
             if badw is not None and badw.any():
                 raise InputError(
