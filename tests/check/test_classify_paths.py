@@ -53,3 +53,32 @@ def test_inner_test_on_mostly_outside_rows_matches_the_rule():
     assert (want == OUTSIDE).mean() > 0.5
     assert np.array_equal(v.verdict, want)
     assert (want == INSIDE).any() and (want == MARGINAL).any()
+
+
+def test_a_check_with_the_lazy_worst_facets_writes_the_same_files(tmp_path, monkeypatch):
+    """A mostly-inside check (the lazy path after the first block) against the same check
+    with the worst facet tracked on every row: the same flagged file, worst points and
+    summary."""
+    import importlib
+    import json
+
+    engine = importlib.import_module("eftsieve.check.engine")
+    from eftsieve.check.engines.local import local_check
+    from eftsieve.check.verdicts import CheckSettings
+    from eftsieve.theories import get_theory
+    from tests.check.conftest import make_fit, write_parts
+
+    (path,) = write_parts(tmp_path / "in", (150_000,), seed=21)
+    fit = make_fit(path)
+    region = get_theory("chpt-su2").build_region({"families": ["second-derivative"]})
+    st = CheckSettings(plot_points=500)
+    lazy = local_check(fit, region, st, tmp_path / "lazy")
+    share = (lazy.counts.marginal + lazy.counts.outside) / lazy.summary["n_total"]
+    assert 0 < share < 1 / engine.FEW_FLAGGED  # the lazy path ran
+    monkeypatch.setattr(engine, "FEW_FLAGGED", 0)  # never lazy
+    full = local_check(fit, region, st, tmp_path / "full")
+    assert ((tmp_path / "lazy" / "flagged.csv").read_bytes()
+            == (tmp_path / "full" / "flagged.csv").read_bytes())
+    assert lazy.worst == full.worst and len(lazy.worst) > 0
+    assert (json.dumps(lazy.summary, sort_keys=True, default=str)
+            == json.dumps(full.summary, sort_keys=True, default=str))
