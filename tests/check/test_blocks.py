@@ -68,6 +68,24 @@ def test_apply_map_matches_the_map_and_is_row_wise_reproducible(rng):
                                             x[:3]), [[2.0]] * 3)
 
 
+def test_apply_map_skips_products_by_one_with_the_same_bits(rng):
+    """The identity map (products by 1.0 left out) gives x + 0.0, exactly what the
+    general formula x * 1.0 + 0.0 gives (the sign of an exact zero included), and
+    columns that are contiguous."""
+    x = rng.normal(size=(5_000, 3))
+    x[0, 0], x[1, 1] = -0.0, 0.0
+    ident = CoordinateMap(np.eye(3), np.zeros(3))
+    y = apply_map(ident, x)
+    np.testing.assert_array_equal(y, x * 1.0 + 0.0)
+    assert not np.signbit(y[0, 0])  # -0.0 + 0.0 is +0.0 under round-to-nearest
+    assert all(y[:, k].flags.c_contiguous for k in range(3))
+    # a coefficient of one next to others: (x0 * 1.0 + x2 * 2.5) + 1.0 as written out
+    mixed = CoordinateMap(np.array([[1.0, 0.0, 2.5], [0.0, 1.0, 1.0]]), np.array([1.0, 0.0]))
+    ym = apply_map(mixed, x)
+    np.testing.assert_array_equal(ym[:, 0], (x[:, 0] * 1.0 + x[:, 2] * 2.5) + 1.0)
+    np.testing.assert_array_equal(ym[:, 1], (x[:, 1] * 1.0 + x[:, 2] * 1.0) + 0.0)
+
+
 def test_apply_map_calls_a_nonlinear_map():
     cmap = CoordinateMap(None, None, nonlinear=lambda x: x**2)
     np.testing.assert_array_equal(apply_map(cmap, np.array([[2.0, 3.0]])), [[4.0, 9.0]])

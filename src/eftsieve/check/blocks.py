@@ -36,7 +36,10 @@ def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:
     """Region coordinates of fit points ``x`` (n, p), row by row reproducible.
 
     Affine maps are evaluated as ``sum_i x[:, i] * J[k, i] + c[k]`` with element-wise
-    operations (zero coefficients skipped); nonlinear maps are called as they are.
+    operations (zero coefficients skipped, and products by exactly 1.0, which change no
+    bit, left out: the identity map costs one pass per column); nonlinear maps are
+    called as they are.  The result is column-major (``order="F"``), so its columns are
+    contiguous for :func:`eftsieve.check.verdicts.classify`.
     """
     if not cmap.is_affine or cmap.shift is None:
         return np.asarray(cmap(x), dtype=float)
@@ -44,13 +47,18 @@ def apply_map(cmap: CoordinateMap, x: np.ndarray) -> np.ndarray:
     jac = cmap.jacobian
     if jac is None:  # is_affine says it is not; kept for the type checker
         return np.asarray(cmap(x), dtype=float)
-    out = np.empty((len(x), jac.shape[0]))
+    out = np.empty((len(x), jac.shape[0]), order="F")
     for k in range(jac.shape[0]):
-        col: np.ndarray | None = None
-        for i in np.flatnonzero(jac[k] != 0):
-            term = x[:, i] * jac[k, i]
-            col = term if col is None else np.add(col, term, out=col)
-        out[:, k] = cmap.shift[k] if col is None else col + cmap.shift[k]
+        col = out[:, k]  # a contiguous view
+        terms = [(i, float(jac[k, i])) for i in np.flatnonzero(jac[k] != 0)]
+        if not terms:
+            col[:] = cmap.shift[k]
+            continue
+        i0, c0 = terms[0]
+        acc = x[:, i0] if c0 == 1.0 else np.multiply(x[:, i0], c0, out=col)
+        for i, c in terms[1:]:
+            acc = np.add(acc, x[:, i] if c == 1.0 else x[:, i] * c, out=col)
+        np.add(acc, cmap.shift[k], out=col)
     return out
 
 
@@ -204,6 +212,8 @@ class Selection:
 
     def add(self, piece: Ranked) -> None:
         """Offer a piece (rows after every row offered before)."""
+        if not len(piece):
+            return
         cut = self.cutoff
         if cut < np.inf:
             piece = piece.take(np.flatnonzero(piece.keys <= cut))

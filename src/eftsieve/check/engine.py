@@ -31,6 +31,7 @@ from eftsieve.check.blocks import (
     sample_keys,
 )
 from eftsieve.check.outputs import FlaggedRows, FlaggedWriter
+from eftsieve.check.prefetch import read_ahead
 from eftsieve.check.result import N_WORST, CheckResult, WorstPoint, summarize
 from eftsieve.check.shell import (
     ShellBudget,
@@ -192,6 +193,11 @@ class PartitionResult:
         return sum(len(f) for f in self.flagged)
 
 
+#: a block that flags fewer than one row in this many lets the next one find the worst
+#: facets of its flagged rows only (a speed choice; the results are the same)
+FEW_FLAGGED = 4
+
+
 def empty_worst(dim: int) -> Ranked:
     """No worst points yet (payload: region point, worst facet)."""
     return empty_ranked((dim, None), (float, np.int32))
@@ -232,8 +238,8 @@ class Cutoffs:
 
 
 def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator,
-                  cut: Cutoffs | None = None, shell: ShellBudget | None = None
-                  ) -> BlockOutput:
+                  cut: Cutoffs | None = None, shell: ShellBudget | None = None,
+                  few_flagged: bool = False) -> BlockOutput:
     """Classify one block and compute everything it contributes.
 
     ``keys`` draws one plot-subsample key per row (always, so that it stays positioned at
@@ -241,12 +247,17 @@ def process_block(job: PartitionJob, block: Chunk, keys: np.random.Generator,
     the subsample and of the worst points falls as the partition proceeds.  With a
     ``shell`` budget (regions with an exact solver, hard facets) the block's marginal
     points are decided exactly while the partition's budget lasts
-    (:func:`eftsieve.check.shell.resolve_shell`).
+    (:func:`eftsieve.check.shell.resolve_shell`).  With ``few_flagged`` (the previous
+    block flagged few rows) the worst facet is found only for the rows flagged or
+    ranked (:func:`eftsieve.check.verdicts.classify` with ``all_worst=False``: the same
+    facets, found at less cost when few rows need them).
     """
     st = job.settings
     cut = cut or Cutoffs()
     y = apply_map(job.cmap, block.values)
-    v = classify(y, job.region, st.band(job.region))
+    # the verdicts may still change (shell solves, an uncertainty model): all facets then
+    v = classify(y, job.region, st.band(job.region), all_worst=not few_flagged
+                 or job.uncertainty is not None or shell is not None)
     shell_sums = ShellSums()
     if shell is not None and job.uncertainty is None:
         v, shell_sums = resolve_shell(v, y, block.rows, block.weights, shell)
@@ -282,6 +293,8 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
 
     With a ``sink`` every block is handed over as soon as it is done (and the result
     carries only the row count); without, the blocks are collected into the result.
+    The next chunk is read on a second thread meanwhile
+    (:func:`eftsieve.check.prefetch.read_ahead`; the same chunks in the same order).
     """
     keys = sample_keys(job.settings.seed, job.part.start)
     dim = job.region.dim
@@ -293,8 +306,11 @@ def run_partition(job: PartitionJob, sink: Callable[[BlockOutput], None] | None 
     shells: list[ShellSums] = []
     budget = None if job.uncertainty is not None else shell_budget(job.region, job.settings)
     n = 0
-    for block in iter_blocks(job.source.iter_part(job.part, job.settings.chunk_rows)):
-        out = process_block(job, block, keys, Cutoffs.of(sample, worst), budget)
+    few = False
+    chunks = read_ahead(job.source.iter_part(job.part, job.settings.chunk_rows))
+    for block in iter_blocks(chunks):
+        out = process_block(job, block, keys, Cutoffs.of(sample, worst), budget, few)
+        few = FEW_FLAGGED * out.n > int(out.sums.counts[1:].sum())
         n += out.n
         worst.add(out.worst)
         sample.add(out.sample)

@@ -15,7 +15,9 @@ it multiplies the file's size and writing time by the facet count (68 facets: 78
 of 11 columns, about 25x slower to write as CSV; benchmarks/bench_stream.py).
 
 Speed and memory: the writer formats whole columns in Arrow's C++ code (no per-cell
-Python), and it never holds more than :data:`MAX_CELLS` cells of one block at a time,
+Python).  It gathers the flagged rows of consecutive blocks until :data:`MAX_CELLS` cells
+wait (a mostly-inside check flags a few rows per block, and one small table per block
+cost more than classifying the block) and formats at most that many cells at a time,
 whatever the number of facets (the per-facet margins are made slice by slice), so the
 memory of the flagged output stays bounded for any facet count and outside fraction.
 
@@ -77,6 +79,12 @@ class FlaggedRows:
         """Rows ``lo:hi``."""
         return FlaggedRows(self.rows[lo:hi], self.values[lo:hi], self.y[lo:hi],
                            self.verdict[lo:hi], self.min_margin[lo:hi], self.worst[lo:hi])
+
+
+def concat_flagged(parts: list[FlaggedRows]) -> FlaggedRows:
+    """The rows of several blocks, one after another."""
+    return FlaggedRows(*(np.concatenate([getattr(p, name) for p in parts])
+                         for name in ("rows", "values", "y", "verdict", "min_margin", "worst")))
 
 
 def same_coordinates(cmap: Any, fit: Fit, region: Region) -> bool:
@@ -180,6 +188,8 @@ class FlaggedWriter:
         self.fh = open(fd, "wb")  # noqa: SIM115 - closed by commit or abort
         self.sink = self._open_sink()
         self.n = 0
+        self.pending: list[FlaggedRows] = []
+        self.n_pending = 0
 
     def _open_sink(self) -> Any:
         if self.fmt == "csv":
@@ -195,15 +205,37 @@ class FlaggedWriter:
         return pq.ParquetWriter(self.fh, self.schema, compression="snappy",
                                 use_dictionary=["verdict", "family", "channel", "point"])
 
+    @property
+    def step(self) -> int:
+        """Rows formatted at once: :data:`MAX_CELLS` cells."""
+        return max(1, MAX_CELLS // len(self.columns))
+
     def write_rows(self, f: FlaggedRows) -> None:
-        """Append one block's flagged rows (blocks in row order), at most
-        :data:`MAX_CELLS` cells at a time."""
-        step = max(1, MAX_CELLS // len(self.columns))
+        """Append one block's flagged rows (blocks in row order).
+
+        Rows are gathered until :attr:`step` rows (:data:`MAX_CELLS` cells) are waiting and
+        then formatted together: a mostly-inside check flags a few rows per block, and
+        one Arrow table per block cost more than the classification of the block
+        (issue 18).  The file holds the same rows whatever the blocks; both engines call
+        this with the same blocks, so their files have the same bytes.
+        """
         room = len(f) if self.limit is None else max(0, min(len(f), self.limit - self.written))
-        for lo in range(0, room, step):
-            self.sink.write_table(self._table(f.slice(lo, min(lo + step, room))))
+        if room:
+            self.pending.append(f if room == len(f) else f.slice(0, room))
+            self.n_pending += room
         self.n += len(f)
         self.written += room
+        if self.n_pending >= self.step:
+            self.flush()
+
+    def flush(self) -> None:
+        """Format and write the waiting rows, :attr:`step` rows at a time."""
+        if not self.pending:
+            return
+        rows = self.pending[0] if len(self.pending) == 1 else concat_flagged(self.pending)
+        self.pending, self.n_pending = [], 0
+        for lo in range(0, len(rows), self.step):
+            self.sink.write_table(self._table(rows.slice(lo, min(lo + self.step, len(rows)))))
 
     def _table(self, f: FlaggedRows) -> Any:
         import pyarrow as pa
@@ -224,6 +256,7 @@ class FlaggedWriter:
         return pa.Table.from_arrays(cols, schema=self.schema)
 
     def commit(self) -> None:
+        self.flush()
         self.sink.close()
         self.fh.flush()
         os.fsync(self.fh.fileno())
@@ -234,6 +267,7 @@ class FlaggedWriter:
         os.replace(self.tmp, self.path)
 
     def abort(self) -> None:
+        self.pending, self.n_pending = [], 0
         if not self.fh.closed:
             try:
                 self.sink.close()

@@ -133,7 +133,9 @@ class Verdicts:
     min_margin
         The smallest signed margin over the outer facets (positive inside).
     worst
-        Index of the facet with the smallest margin.
+        Index of the facet with the smallest margin (the first of equal ones); -1 on
+        rows that are inside with no negative margin when :func:`classify` was asked
+        for the flagged rows' facets only (``all_worst=False``).
     satisfies
         True where every outer facet holds (margin >= 0).
     """
@@ -177,22 +179,24 @@ def _min_margin(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = Tr
     at a time, skipping zero coefficients (for finite points adding ``0 * y`` changes no
     value); many: tiles of (facets x rows) reduced along the facet axis.
     """
-    sparse_at = min(SPARSE_TERMS, a.shape[1] - 1) if a.ndim == 2 and a.shape[1] else 0
-    if len(b) > FEW_FACETS and np.count_nonzero(a) > sparse_at * len(b):
+    if not _few_facets(a, b):
         return _min_margin_tiled(y, a, b, with_arg)
     n = len(y)
-    best = np.full(n, np.inf)
+    best = np.empty(n) if len(b) else np.full(n, np.inf)
     arg = np.zeros(n, dtype=np.int32) if with_arg else None
     if cols is None:
         cols = _columns(y)
     m, term = np.empty(n), np.empty(n)
     for j in range(len(b)):
         nz = np.flatnonzero(a[j]) if np.any(a[j]) else np.zeros(1, dtype=int)
-        np.multiply(cols[nz[0]], a[j, nz[0]], out=m)
+        out = best if j == 0 else m  # the first facet's margins are the minimum so far
+        np.multiply(cols[nz[0]], a[j, nz[0]], out=out)
         for k in nz[1:]:
             np.multiply(cols[k], a[j, k], out=term)
-            m += term
-        m -= b[j]
+            out += term
+        out -= b[j]
+        if j == 0:
+            continue
         if arg is not None:
             arg[m < best] = j
         np.minimum(best, m, out=best)
@@ -226,16 +230,30 @@ def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: boo
     return best, arg.astype(np.int32) if with_arg else None
 
 
-def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verdicts:
-    """Verdicts of points ``y`` (n, dim) in region coordinates."""
+def _few_facets(a: np.ndarray, b: np.ndarray) -> bool:
+    """Whether :func:`_min_margin` takes the facet-by-facet path."""
+    sparse_at = min(SPARSE_TERMS, a.shape[1] - 1) if a.ndim == 2 and a.shape[1] else 0
+    return not (len(b) > FEW_FACETS and np.count_nonzero(a) > sparse_at * len(b))
+
+
+def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND, *,
+             all_worst: bool = True) -> Verdicts:
+    """Verdicts of points ``y`` (n, dim) in region coordinates.
+
+    With ``all_worst=False`` the worst facet is found only for the rows that are not
+    inside or have a negative margin (the rows a check writes or ranks), and is -1
+    elsewhere.  Tracking the worst facet costs about as much as the margins themselves
+    (a data-dependent store per facet and row), while a check needs it for few rows.
+    Each row's margins are the same element-wise sums on any subset of rows, so the
+    facets found are the same as with ``all_worst=True``.
+    """
     y = np.asarray(y, dtype=float)
     if y.ndim != 2 or y.shape[1] != region.dim:
         raise ValueError(f"points must have shape (n, {region.dim}), got {y.shape}")
     a, b = region.arrays()
     cols = _columns(y)
-    outer, worst = _min_margin(y, a, b, cols=cols)
-    if worst is None:  # with_arg=True always returns the facets (for the type checker)
-        raise RuntimeError("facet indices missing")
+    lazy = not all_worst and _few_facets(a, b)
+    outer, worst = _min_margin(y, a, b, with_arg=not lazy, cols=cols)
     verdict = np.full(len(y), MARGINAL, dtype=np.int8)
     out = outer < -band
     verdict[out] = OUTSIDE
@@ -243,17 +261,28 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND) -> Verd
         # a point outside a verified outer facet is outside, whatever the inner facets say
         # (the inner set lies within the outer one): the inner test runs on the rest only
         ai, bi = region.arrays(inner=True)
-        if not out.any():
+        if 2 * np.count_nonzero(out) < len(y):
+            # most rows remain: evaluate every row (a gather and a scatter would cost
+            # more than the rows they save) and overrule the outside ones
             inner, _ = _min_margin(y, ai, bi, with_arg=False, cols=cols)
+            inner[out] = -np.inf
         else:
             inner = np.full(len(y), -np.inf)
             rest = np.flatnonzero(~out)
             if len(rest):
-                inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False)[0]
+                inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False,
+                                          cols=[c[rest] for c in cols])[0]
     else:
         inner = outer
     verdict[inner > band] = INSIDE
     if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
         # the gap between inner and outer facets is a truncation allowance (chpt-su2)
         verdict[(outer > band) & (inner <= band)] = UNCERTAIN
+    if worst is None:  # lazy: the worst facet of the rows a check keeps, -1 elsewhere
+        worst = np.full(len(y), -1, dtype=np.int32)
+        need = np.flatnonzero((verdict != INSIDE) | (outer < 0))
+        if len(need):
+            _, sub = _min_margin(y[need], a, b, cols=[c[need] for c in cols])
+            if sub is not None:
+                worst[need] = sub
     return Verdicts(verdict, outer, worst, outer >= 0)

@@ -39,6 +39,8 @@ GLOB_CHARS = frozenset("*?[")
 DEFAULT_CHUNK_ROWS = 1_000_000
 #: cells (rows x columns) of one CSV chunk at most: bounds the memory of wide files
 CSV_CELLS_PER_CHUNK = 1 << 24
+#: the largest finite double (a weight above it is infinite)
+MAX_FLOAT = float(np.finfo(np.float64).max)
 
 
 @dataclass(frozen=True)
@@ -327,24 +329,26 @@ class SamplesSource:
         except (ValueError, TypeError) as err:
             raise InputError(where, "columns", f"non-numeric values in rows {start}.."
                              f"{start + n - 1}: {err}", "samples must be numbers") from err
-        bad = ~np.isfinite(values).all(axis=1)
-        if bad.any():
-            raise InputError(where, "samples",
-                             f"NaN or inf in row(s) {_rows_text(rows[bad], first)}",
-                             "remove or repair those rows; nothing is repaired silently")
         from eftsieve.io import limits
 
-        huge = (np.abs(values) > limits.MAX_ABS_VALUE).any(axis=1)
-        if huge.any():
-            raise InputError(where, "samples", f"values outside the supported range |x| <= "
-                             f"{limits.MAX_ABS_VALUE:g} in row(s) "
-                             f"{_rows_text(rows[huge], first)}",
-                             "rescale the parameter or remove those rows")
+        if not in_range(values, -limits.MAX_ABS_VALUE, limits.MAX_ABS_VALUE):
+            bad = ~np.isfinite(values).all(axis=1)
+            if bad.any():
+                raise InputError(where, "samples",
+                                 f"NaN or inf in row(s) {_rows_text(rows[bad], first)}",
+                                 "remove or repair those rows; nothing is repaired silently")
+            huge = (np.abs(values) > limits.MAX_ABS_VALUE).any(axis=1)
+            if huge.any():  # always true here: in_range failed on a finite value
+                raise InputError(where, "samples", f"values outside the supported range "
+                                 f"|x| <= {limits.MAX_ABS_VALUE:g} in row(s) "
+                                 f"{_rows_text(rows[huge], first)}",
+                                 "rescale the parameter or remove those rows")
         weights = None
         if self.weight_column:
             weights = frame[self.weight_column].to_numpy(dtype=float)
-            badw = ~np.isfinite(weights) | (weights < 0)
-            if badw.any():
+            badw = None if in_range(weights[:, None], 0.0, MAX_FLOAT) else (
+                ~np.isfinite(weights) | (weights < 0))
+            if badw is not None and badw.any():
                 raise InputError(
                     where, self.weight_column,
                     f"negative or non-finite weight in row(s) {_rows_text(rows[badw], first)}",
@@ -369,10 +373,17 @@ class BatchFrame:
         return BatchFrame(self.batch.select([key]), column=True)
 
     def to_numpy(self, dtype: Any = float) -> np.ndarray:
-        cols = [arrow_column_numpy(c).astype(dtype) for c in self.batch.columns]
+        """The columns as one array, column-major (``order="F"``): every column is one
+        contiguous copy of the Arrow buffer, and the check reads the rows column by column
+        (:func:`eftsieve.check.blocks.apply_map`, :func:`eftsieve.check.verdicts.classify`)
+        without copying them again.  One column: a fresh 1-D array."""
+        cols = [arrow_column_numpy(c) for c in self.batch.columns]
         if self.column:
-            return cols[0]
-        return np.column_stack(cols) if cols else np.empty((len(self), 0), dtype=dtype)
+            return cols[0].astype(dtype)
+        out = np.empty((len(self), len(cols)), dtype=dtype, order="F")
+        for i, c in enumerate(cols):
+            out[:, i] = c
+        return out
 
 
 def arrow_column_numpy(col: Any) -> np.ndarray:
@@ -391,6 +402,22 @@ def arrow_column_numpy(col: Any) -> np.ndarray:
         return np.frombuffer(col.buffers()[1], dtype=dtype, count=len(col),
                              offset=col.offset * dtype.itemsize)
     return np.asarray(col.to_numpy(zero_copy_only=False))
+
+
+def in_range(values: np.ndarray, lo: float, hi: float) -> bool:
+    """True when every value of ``values`` (n, p) lies in [lo, hi] (NaN never does).
+
+    Two reductions per column and no temporary arrays: the cheap test of every row read;
+    the rows that fail are found only when it fails.  ``min`` and ``max`` propagate NaN,
+    and a NaN compares false.
+    """
+    if values.size == 0:
+        return True
+    for k in range(values.shape[1]):
+        col = values[:, k]
+        if not (lo <= col.min() and col.max() <= hi):
+            return False
+    return True
 
 
 @contextmanager

@@ -58,8 +58,7 @@ def _corner_layer(fig: Figure, x: np.ndarray, w: np.ndarray | None, ranges: np.n
                   names: Sequence[str], colour: str, smooth: bool) -> None:
     """One sample set drawn by ``corner`` into ``fig`` (``smooth``: a Gaussian smoothing
     of one bin, only for sets without a hard edge)."""
-    import corner
-
+    corner = _corner_package()
     contours = kish_ess(w, len(x)) >= MIN_ESS_CONTOURS
     corner.corner(x, bins=CORNER_BINS, weights=w, fig=fig, range=[tuple(r) for r in ranges],
                   color=colour, labels=list(names), smooth=1.0 if smooth else None,
@@ -72,6 +71,33 @@ def _corner_layer(fig: Figure, x: np.ndarray, w: np.ndarray | None, ranges: np.n
                                               tint(colour, 0.32)]}, max_n_ticks=3,
                   hist_kwargs={"density": True, "color": colour, "linewidth": 1.4},
                   label_kwargs={"fontsize": 10})
+
+
+def _corner_package() -> Any:
+    """The ``corner`` package, imported without its optional arviz support when arviz is
+    not loaded yet.
+
+    ``corner`` imports arviz (and with it xarray, pandas and scipy.stats: about 0.8 s of
+    a check's run, issue 18) only for plotting arviz data sets, and carries on without it
+    when that import fails; we pass numpy arrays, so the import is blocked for the
+    moment ``corner`` loads (a ``None`` entry in ``sys.modules`` makes an import fail,
+    as the import system documents) and the entry is removed right after.  Where arviz
+    is already loaded (a NetCDF fit), corner is imported as usual.
+    """
+    import sys
+
+    if "corner" in sys.modules or "arviz" in sys.modules:
+        import corner
+
+        return corner
+    blocked = "corner.arviz_corner"
+    sys.modules[blocked] = None  # type: ignore[assignment]
+    try:
+        import corner
+    finally:
+        if sys.modules.get(blocked, 0) is None:
+            del sys.modules[blocked]
+    return corner
 
 
 def _fix_diagonal(axes: np.ndarray) -> None:

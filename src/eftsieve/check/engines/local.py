@@ -2,7 +2,9 @@
 
 :func:`local_check` reads the rows one partition (file, or the Gaussian draws) at a
 time, block by block in the canonical order of :mod:`eftsieve.check.blocks`, with
-bounded memory (one chunk plus the flagged rows of one block at a time).  It calls the
+bounded memory: three chunks (the one being checked, one read ahead on a second thread
+and one being read, :mod:`eftsieve.check.prefetch`) plus at most
+:data:`eftsieve.check.outputs.MAX_CELLS` cells of flagged rows waiting.  It calls the
 same kernel (:func:`eftsieve.check.engine.run_partition`) as the Dask engine, so every
 count and every figure of the result is bit-identical to
 :func:`eftsieve.check.engines.dask.dask_check` on the same inputs, whatever the chunk
