@@ -119,5 +119,11 @@ def impose_lines(name: str, result: Any, summary: dict[str, Any], outdir: Path) 
         was = "" if b is None else f"{fmt_pm(b['mean'], b['std'])}  ->  "
         lines.append(f"  {p.name}: {was}{fmt_pm(p.mean, p.std)} "
                      f"(68%: [{fmt_num(lo, 4)}, {fmt_num(hi, 4)}])")
+    from eftsieve.report.impose_report import cone_shell_text
+
+    note = result.figures.get("cone_shell")
+    if note and note["shell_fraction"] > 0:
+        lines.append("  " + cone_shell_text(note))
     lines.append(f"  report: {outdir / 'report.html'}")
     return lines
+

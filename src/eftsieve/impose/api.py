@@ -101,7 +101,8 @@ def impose(fit: Fit, region: Region, *, mode: str | None = None,
 
         if fu is None:
             run = core.reweight if chosen == "reweight" else core.exact
-            return run(fit, region, cmap, settings)
+            return cone_shell_note(run(fit, region, cmap, settings), region, cmap,
+                                   settings.seed)
         run_soft = soft.soft_reweight if chosen == "reweight" else soft.soft_exact
         return run_soft(fit, region, cmap, settings, fu)
     from eftsieve.impose import refit, soft
@@ -109,7 +110,45 @@ def impose(fit: Fit, region: Region, *, mode: str | None = None,
     loglike, label = refit_likelihood(fit, data, likelihood)
     before = before_samples(fit, settings.seed)
     log_soft = None if fu is None else soft.log_soft_indicator(region, cmap, fu)
-    return refit.run_refit(fit, region, cmap, loglike, settings, label, before, log_soft)
+    return cone_shell_note(refit.run_refit(fit, region, cmap, loglike, settings, label,
+                                           before, log_soft), region, cmap, settings.seed)
+
+
+#: exact solves spent on the imposed samples that lie in a cone's shell
+SHELL_NOTE_SOLVES = 100
+
+
+def cone_shell_note(res: ImposeResult, region: Region, cmap: Any, seed: int,
+                    solves: int = SHELL_NOTE_SOLVES) -> ImposeResult:
+    """For a positivity cone, the truncation uses its verified outer facets: samples in the
+    shell (outside the inner cone) may lie outside the cone itself.  Up to ``solves`` of
+    them, drawn at random, are decided exactly, and the share of the imposed samples that
+    lie in the cone is estimated (``figures["cone_shell"]``).  Regions without a shell are
+    returned unchanged."""
+    if "cone_problem" not in region.settings or not region.inner_facets:
+        return res
+    from eftsieve.bounds.cone_region import ConeShell
+    from eftsieve.bounds.cones import INSIDE, OUTSIDE
+
+    y = cmap(np.asarray(res.samples, dtype=float))
+    w = (np.ones(len(y)) if res.weights is None else np.asarray(res.weights, dtype=float))
+    ai, bi = region.arrays(inner=True)
+    sure = (y @ ai.T - bi >= 0).all(axis=1)
+    shell_w = float(w[~sure].sum() / w.sum())
+    note: dict[str, Any] = {"shell_fraction": shell_w, "checked": 0, "inside": 0,
+                            "outside": 0, "marginal": 0, "in_cone_estimate": 1.0}
+    rows = np.flatnonzero(~sure)
+    if len(rows):
+        rng = np.random.default_rng([seed, 7])
+        pick = np.sort(rng.choice(rows, size=min(solves, len(rows)), replace=False))
+        codes, _, _ = ConeShell.from_region(region).decide(y[pick], pick, seed=seed)
+        n_in, n_out = int((codes == INSIDE).sum()), int((codes == OUTSIDE).sum())
+        decided = n_in + n_out
+        note.update(checked=len(pick), inside=n_in, outside=n_out,
+                    marginal=len(pick) - decided,
+                    in_cone_estimate=(1.0 - shell_w) + shell_w * (n_in / decided)
+                    if decided else None)
+    return replace(res, figures={**res.figures, "cone_shell": note})
 
 
 def refit_likelihood(fit: Fit, data: Any,

@@ -261,13 +261,22 @@ def exact(fit: Fit, region: Region, cmap: CoordinateMap,
     if fit.mean is None or fit.cov is None:
         raise InputError(fit.source, "mean", "mode 'exact' needs a Gaussian summary",
                          "use --mode reweight for samples, or refit")
+    from eftsieve.errors import SolverError
     from eftsieve.stats.gaussian import reduce_to_subspace, whitening
 
     a, b = cmap.pull_back(*region.arrays())
     rng = np.random.default_rng(settings.seed)
     w = whitening(fit.cov)
     if w.shape[1] == len(fit.mean):
-        ts = sample_truncated_normal(fit.mean, fit.cov, a, b, settings.n_samples, rng=rng)
+        try:
+            ts = sample_truncated_normal(fit.mean, fit.cov, a, b, settings.n_samples,
+                                         rng=rng)
+        except SolverError as err:
+            # the tilting optimisation fails on some many-facet regions (e.g. a mean on
+            # the boundary of the 18-coefficient aqgc cone): plain rejection from the
+            # Gaussian is exact too, when the probability inside is not tiny
+            ts = rejection_sample(fit.mean, fit.cov, a, b, settings.n_samples, rng,
+                                  reason=str(err))
         samples = ts.samples
     else:  # a singular covariance: truncate the Gaussian on its subspace
         g, h, unreachable = reduce_to_subspace(fit.mean, w, a, b)
@@ -286,6 +295,40 @@ def exact(fit: Fit, region: Region, cmap: CoordinateMap,
                "normalisation_method": prob.method}
     res = ImposeResult("exact", fit.names, samples, None, before, None, summary)
     return with_moments(res, np.arange(len(samples)))
+
+
+#: proposals of the plain-rejection fall-back (2e7 x d doubles in batches of 1e6)
+REJECTION_MAX_PROPOSALS = 20_000_000
+
+
+def rejection_sample(mean: np.ndarray, cov: np.ndarray, a: np.ndarray, b: np.ndarray,
+                     n: int, rng: np.random.Generator, reason: str = "",
+                     max_proposals: int = REJECTION_MAX_PROPOSALS) -> Any:
+    """I.i.d. draws of N(mean, cov) restricted to ``a x >= b`` by plain rejection (exact:
+    every kept draw is a draw of the truncated law; common practice), with P(inside) as
+    the kept fraction and its binomial standard error.  SamplingError when fewer than n
+    draws are kept within ``max_proposals``."""
+    from eftsieve.stats.tmvn import PolytopeProbability, TruncatedSample
+
+    factor = psd_factor(cov)
+    parts, kept, proposed = [], 0, 0
+    while kept < n and proposed < max_proposals:
+        size = int(min(1_000_000, max_proposals - proposed))
+        x = draw(mean, factor, size, rng)
+        ok = (x @ a.T >= b).all(axis=1)
+        parts.append(x[ok])
+        kept, proposed = kept + int(ok.sum()), proposed + size
+    if kept < n:
+        raise SamplingError(f"the exact sampler failed ({reason}) and plain rejection kept "
+                            f"{kept} of {proposed} draws, fewer than the {n} asked",
+                            "use --mode refit, or ask for fewer samples")
+    p = kept / proposed
+    prob = PolytopeProbability(p, math.sqrt(p * (1 - p) / proposed), proposed,
+                               f"plain rejection (the minimax tilting failed: {reason})",
+                               math.log(p))
+    samples = np.concatenate(parts)[:n]
+    samples.setflags(write=False)
+    return TruncatedSample(samples, p, proposed, prob)
 
 
 def with_moments(res: ImposeResult, rows: np.ndarray) -> ImposeResult:

@@ -109,6 +109,18 @@ def diagnostics_block(result: ImposeResult) -> list:
             Table(("quantity", "value"), tuple(rows))]
 
 
+def cone_shell_text(note: dict) -> str:
+    """One sentence on the samples of a cone's shell (eftsieve.impose.api.cone_shell_note)."""
+    est = note.get("in_cone_estimate")
+    share = ("" if est is None else f"; about {fmt_num(100 * est, 3)}% of the imposed "
+             "samples lie in the cone")
+    return (f"truncated to the cone's verified outer facets: "
+            f"{fmt_num(100 * note['shell_fraction'], 3)}% of the samples lie between its "
+            f"inner and outer facets, where exact solves of {note['checked']} of them found "
+            f"{note['inside']} inside, {note['outside']} outside and {note['marginal']} "
+            f"undecided{share}")
+
+
 def impose_document(fit: Fit, region: Region, result: ImposeResult,
                     images: dict[str, Path], kinematics: dict | None = None) -> Document:
     """The impose report (``kinematics``: the region's, as every verb prints them)."""
@@ -119,6 +131,12 @@ def impose_document(fit: Fit, region: Region, result: ImposeResult,
                          f"Region `{region.theory}`, {len(region.facets)} facets, content "
                          f"hash `{region.hash[:16]}`.")))
     doc.add(*posterior_block(result), *diagnostics_block(result))
+    note = result.figures.get("cone_shell")
+    if note and note["shell_fraction"] > 0:
+        doc.add(Heading("Shell of the cone"),
+                Para(cone_shell_text(note)[0].upper() + cone_shell_text(note)[1:] + ". The "
+                     "samples outside the cone are kept: the truncation is to an outer "
+                     "approximation of the allowed set (docs/physics_cones.md)."))
     if "corner" in images:
         doc.add(Image(images["corner"], "corner plot without and with positivity "
                       "(same data and likelihood)"))
