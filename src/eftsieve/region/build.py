@@ -34,6 +34,10 @@ def build_region(theory: str, settings: dict[str, Any],
     return th.build_region(dict(settings), executor=executor or serial)
 
 
+#: facets listed by :func:`describe_region` (a cone of many coefficients has hundreds)
+MAX_LISTED_FACETS = 30
+
+
 def describe_region(region: Region, path: str | Path | None = None) -> str:
     """A short human-readable description of a region and its facets."""
     conv = ", ".join(f"{k}={v}" for k, v in region.convention.items())
@@ -46,10 +50,14 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
         heavy = region.settings.get("heavy_scale_mev")
         lines.append(f"  families: {', '.join(fams)}; truncation model: {truncation}"
                      + (f" (heavy scale {heavy:g} MeV)" if truncation != "none" else ""))
-    for f in region.facets:
+    for f in region.facets[:MAX_LISTED_FACETS]:
         shift = f.extra.get("truncation_shift_region")
         note = f"; relaxed by {shift:.3g} for truncation" if shift is not None else ""
         lines.append(f"  {f.inequality(region.coordinates):<28} [{f.label()}; {f.status}{note}]")
+    if len(region.facets) > MAX_LISTED_FACETS:
+        lines.append(f"  ... and {len(region.facets) - MAX_LISTED_FACETS} more facets "
+                     f"({len(region.facets)} in all, each in the region file with its "
+                     "certificate)")
     if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
         lines.append(f"  inner set: {len(region.inner_facets)} facets (the one-loop bounds; "
                      "points between inner and outer facets are uncertain)")
