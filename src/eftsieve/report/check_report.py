@@ -29,11 +29,15 @@ def fit_block(fit: Fit) -> list:
             Table(("parameter", "convention"), rows)]
 
 
+#: facets listed in a report's tables (a cone of many coefficients has hundreds)
+MAX_REPORT_FACETS = 25
+
+
 def region_block(region: Region) -> list:
     conv = ", ".join(f"{k} = {fmt_num(v, 6) if isinstance(v, float) else v}"
                      for k, v in region.convention.items())
     rows = []
-    for i, f in enumerate(region.facets):
+    for i, f in enumerate(region.facets[:MAX_REPORT_FACETS]):
         pt = ", ".join(f"{k} = {fmt_num(v, 6)}" if k.endswith("_mev") else
                        f"{k} = {fmt_num(0.0 if abs(v) < 1e-6 else v)}"
                        for k, v in f.point.items())
@@ -47,6 +51,10 @@ def region_block(region: Region) -> list:
                    "of M_pi^2."),
               Table(("facet", "inequality", "family", "channel", "point", "status"),
                     tuple(rows))]
+    if len(region.facets) > MAX_REPORT_FACETS:
+        blocks.append(Para(f"The first {MAX_REPORT_FACETS} of the {len(region.facets)} "
+                           "facets are listed; the region file holds them all, each with its "
+                           "certificate."))
     if region.inner_facets and any("truncation_shift" in f.extra for f in region.facets):
         blocks.append(Para(f"The inner set ({len(region.inner_facets)} facets) is the one-loop "
                            "bound; the outer facets above are relaxed by each facet's "
@@ -111,12 +119,17 @@ def facet_table_block(result: CheckResult) -> list:
         else "fraction of rows violating it")
     rows = tuple((str(v.index), v.inequality, v.label, _distance(v),
                   fmt_pct(v.p_violate) if exact else
-                  f"{fmt_pct(v.p_violate)} +- {fmt_pct(v.p_violate_err)}") for v in facets)
+                  f"{fmt_pct(v.p_violate)} +- {fmt_pct(v.p_violate_err)}")
+                 for v in facets[:MAX_REPORT_FACETS])
     note = ("exact for the Gaussian summary" if exact else
             f"from a uniform subsample of {len(result.plot_region_coords)} of the rows")
+    more = (f" The {MAX_REPORT_FACETS} most violated of the {len(facets)} facets are "
+            "listed; summary.json and the region file hold them all."
+            if len(facets) > MAX_REPORT_FACETS else "")
     return [Heading("Facets, most violated first"),
             Para(f"Distance: how far the fit's mean lies from the facet, in standard "
-                 f"deviations of the fit along the facet's normal. The {prob} is {note}."),
+                 f"deviations of the fit along the facet's normal. The {prob} is {note}."
+                 + more),
             Table(("facet", "inequality", "certificate", "mean", prob), rows)]
 
 
