@@ -47,3 +47,29 @@ def test_inner_test_skips_outside_rows_without_changing_any_verdict():
     want = np.where(m_in > 0.01, INSIDE, np.where(m_out < -0.01, OUTSIDE, MARGINAL))
     assert np.array_equal(v.verdict, want)
     assert (want == OUTSIDE).any() and (want == INSIDE).any() and (want == MARGINAL).any()
+
+
+@pytest.mark.parametrize(("k", "m"), [(7, 40), (18, 183)])
+def test_blas_screen_gives_the_elementwise_bits(k, m):
+    """Many coordinates: the BLAS screen (one product per tile, then the element-wise
+    margin of the winning facet) gives the element-wise values and facets bit for bit,
+    for any batch, also with exact and near ties and non-finite rows; the error bound it
+    relies on is Higham's gamma_n bound for sums in any order (common practice)."""
+    rng = np.random.default_rng(k)
+    a = rng.normal(size=(m, k))
+    b = 0.1 * rng.normal(size=m)
+    a[1], b[1] = a[0], b[0]                   # an exact duplicate facet: a tie everywhere
+    a[3] = a[2] * (1 + 1e-15)                 # a near duplicate
+    y = rng.normal(size=(30_011, k))
+    y[:50] = 0.0                              # every margin is -b: ties between facets
+    y[60, 2], y[61, 0] = np.inf, np.nan       # non-finite rows take the element-wise path
+    assert k >= verdicts.BLAS_MIN_DIM
+    got = verdicts._min_margin_blas(y, a, b)
+    want = verdicts._min_margin_elementwise(y, a, b)
+    assert np.array_equal(got[0], want[0], equal_nan=True)
+    assert np.array_equal(got[1], want[1])
+    part = verdicts._min_margin_blas(y[:1234], a, b)           # another batch
+    assert np.array_equal(part[0], want[0][:1234], equal_nan=True)
+    assert np.array_equal(part[1], want[1][:1234])
+    np.testing.assert_allclose(got[0][100:], (y[100:] @ a.T - b).min(axis=1), rtol=0,
+                               atol=1e-12)

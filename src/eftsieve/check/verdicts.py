@@ -208,11 +208,78 @@ def _columns(y: np.ndarray) -> list[np.ndarray]:
     return [np.ascontiguousarray(y[:, k]) for k in range(y.shape[1])]
 
 
+#: coordinates from which the many-facet path screens with one BLAS product per tile
+BLAS_MIN_DIM = 7
+
+
 def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True
                       ) -> tuple[np.ndarray, np.ndarray | None]:
     """Tiles of (rows x facets), reduced along the contiguous facet axis: one argmin pass
     and a gather (about 1.9x faster than reducing (facets x rows) tiles along rows, and
-    faster than one BLAS ``y @ a.T`` pass at 100 facets; benchmarks/bench_stream.py)."""
+    faster than one BLAS ``y @ a.T`` pass at 100 facets; benchmarks/bench_stream.py).
+    From :data:`BLAS_MIN_DIM` coordinates the BLAS screen of :func:`_min_margin_blas`
+    finds the same values and facets faster."""
+    if a.shape[1] >= BLAS_MIN_DIM:
+        return _min_margin_blas(y, a, b, with_arg)
+    return _min_margin_elementwise(y, a, b, with_arg)
+
+
+def _min_margin_blas(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True
+                     ) -> tuple[np.ndarray, np.ndarray | None]:
+    """The element-wise minimum margin and its facet, bit for bit, with the facet found by
+    one BLAS product per tile.
+
+    A BLAS product may sum in any order, so its margins differ from the element-wise ones
+    in the last bits, and differently for other batches.  Both lie within
+    E = gamma_(k+2) (|y|_1 max|a| + max|b|) of the exact margin (gamma_n = n u / (1 - n u);
+    Higham, "Accuracy and Stability of Numerical Algorithms", 2nd ed., Sec. 3.1, the
+    bound for a sum in any order; from memory), so where the smallest BLAS margin beats
+    the next by more than 4E (5E is used, for the rounding of E itself) its facet is the
+    element-wise argmin, and the margin is then recomputed element-wise for that facet
+    alone.  The other rows (near-ties, non-finite values) take the element-wise path.
+    The result does not depend on the batch."""
+    n, k = y.shape
+    best = np.empty(n)
+    arg = np.empty(n, dtype=np.intp)
+    u = np.finfo(float).eps / 2
+    gamma = (k + 2) * u / (1 - (k + 2) * u)
+    amax, bmax = float(np.abs(a).max()), float(np.abs(b).max())
+    at = np.ascontiguousarray(a.T)
+    step = max(256, TILE_CELLS // len(b))
+    for lo in range(0, n, step):
+        hi = min(n, lo + step)
+        yt = y[lo:hi]
+        tile = yt @ at
+        tile -= b
+        rows = np.arange(hi - lo)
+        am = tile.argmin(axis=1)
+        v1 = tile[rows, am]
+        tile[rows, am] = np.inf
+        v2 = tile.min(axis=1)
+        err = gamma * (np.abs(yt).sum(axis=1) * amax + bmax)
+        with np.errstate(invalid="ignore"):           # non-finite rows: not ok, below
+            ok = (v2 - v1 > 5.0 * err) & np.isfinite(v1) & np.isfinite(v2)
+        sel = am[ok]
+        ys = yt[ok]
+        asel = a[sel]
+        m = ys[:, 0] * asel[:, 0]
+        for c in range(1, k):
+            m += ys[:, c] * asel[:, c]
+        m -= b[sel]
+        best[lo:hi][ok] = m
+        arg[lo:hi][ok] = sel
+        if not ok.all():
+            bad = np.flatnonzero(~ok)
+            bv, ba = _min_margin_elementwise(yt[bad], a, b, True)
+            assert ba is not None
+            best[lo + bad] = bv
+            arg[lo + bad] = ba
+    return best, arg.astype(np.int32) if with_arg else None
+
+
+def _min_margin_elementwise(y: np.ndarray, a: np.ndarray, b: np.ndarray,
+                            with_arg: bool = True) -> tuple[np.ndarray, np.ndarray | None]:
+    """:func:`_min_margin_tiled` in element-wise double arithmetic, tile by tile."""
     n = len(y)
     best = np.empty(n)
     arg = np.empty(n, dtype=np.intp)
