@@ -392,13 +392,18 @@ def test_rule_in_heavy_scalar_exchanges(problem):
     assert nonzero == {"fT0", "fT5", "fT8", "fM0", "fM2", "fS1"}
 
 
-@pytest.mark.slow
 def test_s_plus_t_region_is_the_product_of_the_two_cones():
     # without M-type operators the Higgs and the W modes do not talk: the W-H pairs are dead
     # (rho vanishes there, eftsieve.bounds.sectors.dead_pairs) and the cone is the product
     # of the higgs-quartic and transverse-w cones, so its facets are theirs, side by side
+    # (the region is now built sector by sector, and must still equal the theories' cones)
     both = THEORY.build_region({"families": ["extremal"],
                                 "coordinates": "fS0,fS1,fS2,fT0,fT1,fT2"})
+    assert [s["coordinates"] for s in both.settings["sectors"]] == [
+        ["fS0", "fS1", "fS2"], ["fT0", "fT1", "fT2"]] or [
+        s["coordinates"] for s in both.settings["sectors"]] == [
+        ["fT0", "fT1", "fT2"], ["fS0", "fS1", "fS2"]]
+    assert both.coordinates == ("fS0", "fS1", "fS2", "fT0", "fT1", "fT2")
     s_part = get_theory("higgs-quartic").build_region({"families": ["extremal"]})
     t_part = get_theory("transverse-w").build_region({"families": ["extremal"]})
     a_s, _ = s_part.arrays()

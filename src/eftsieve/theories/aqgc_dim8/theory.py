@@ -54,6 +54,11 @@ AQGC_CAUTIONS = CONE_CAUTIONS + (
 )
 
 
+#: relative size below which a forward-tensor entry is rounding dust (they sit at 1e-17
+#: and below; true entries are O(1) combinations of the weak angle's sines and cosines)
+ROUNDING_DUST = 1e-13
+
+
 def parse_coordinates(raw: Any) -> tuple[str, ...]:
     """The region's coordinates from a setting (a list or a comma-separated string),
     in the canonical order; InputError for unknown, duplicate or redundant names."""
@@ -82,6 +87,52 @@ def _covering(used: Sequence[str]) -> list[str] | str:
     if any(c.startswith("fM") for c in used):
         return "all"
     return list(used)
+
+
+def _independent_sectors(problem: ConeProblem) -> list[Any]:
+    """The independent sectors of a problem (:func:`eftsieve.bounds.cone_sectors.sectors`)
+    when each has at least two coefficients, else the problem as one sector.  Without
+    M-type coefficients the Higgs and the gauge modes do not talk, and the cone is the
+    product of its S-type and T-type cones: each is built on its own (fewer coordinates,
+    an inner set of its own), and the region is their product."""
+    from eftsieve.bounds.cone_sectors import Sector, sectors
+
+    secs = sectors(problem)
+    if len(secs) > 1 and all(s.problem.k >= 2 for s in secs):
+        return list(secs)
+    return [Sector(tuple(range(problem.k)), tuple(range(problem.n)), problem)]
+
+
+def _product(name: str, problem: ConeProblem, regions: list[Region],
+             convention: dict[str, Any]) -> Region:
+    """The product of the sectors' regions, with its coordinates (and the facets' and
+    inner rays' components) in the problem's order; settings keep each sector's build."""
+    from dataclasses import replace
+
+    from eftsieve.bounds.cone_sectors import product_region
+    from eftsieve.region.model import Region as RegionType
+
+    prod = product_region(name, regions)
+    order = [prod.coordinates.index(c) for c in problem.coefficients]
+
+    def perm(f: Any) -> Any:
+        return replace(f, normal=tuple(f.normal[i] for i in order))
+
+    settings = dict(prod.settings)
+    settings["sectors"] = [{"coordinates": list(r.coordinates),
+                            "shell_fraction": r.settings.get("shell_fraction"),
+                            "build": r.settings.get("build")} for r in regions]
+    return RegionType(name, problem.coefficients, convention,
+                      tuple(perm(f) for f in prod.facets), _reorder_problem(settings, order),
+                      tuple(perm(f) for f in prod.inner_facets), (), notes=AQGC_CAUTIONS)
+
+
+def _reorder_problem(settings: dict[str, Any], order: list[int]) -> dict[str, Any]:
+    """The stored cone problem with its coefficients in ``order`` (the region's)."""
+    cp = ConeProblem.from_dict(settings["cone_problem"])
+    re = ConeProblem(tuple(cp.coefficients[i] for i in order), cp.modes,
+                     np.ascontiguousarray(cp.tensors[order]), dict(cp.info))
+    return {**settings, "cone_problem": re.to_dict()}
 
 
 def parse_sin2(raw: Any) -> float:
@@ -124,7 +175,10 @@ def support_modes(tensors: np.ndarray, rel: float = 1e-12) -> list[int]:
 def _tensors(coordinates: tuple[str, ...], sin2_theta_w: float) -> np.ndarray:
     """M_a of the coefficients (k, 12, 12, 12, 12), all in one forward-tensor pass."""
     t = forward_tensor(ops.stacked_density(coordinates, sin2_theta_w), ops.MODES)
-    t = np.moveaxis(t, -1, 0)
+    t = np.ascontiguousarray(np.moveaxis(t, -1, 0))
+    # rounding dust (entries below 1e-13 of the largest, from vanishing terms)
+    # would join sectors that no operator couples; they are set to zero
+    t[np.abs(t) < ROUNDING_DUST * np.abs(t).max()] = 0.0
     t.setflags(write=False)
     return t
 
@@ -177,7 +231,9 @@ class AqgcDim8(ConeTheory):
                           seed=int(settings.get("seed", 0)))
         problem = aqgc_problem(coords, sin2)
         try:
-            build = build_cone(problem, st, reduction=_reduction(problem, fams[0]))
+            parts = [(sec, build_cone(sec.problem, st, reduction=_reduction(sec.problem,
+                                                                            fams[0])))
+                     for sec in _independent_sectors(problem)]
         except SolverError as err:
             raise InputError(None, "--coordinates", f"the cone of {','.join(coords)} alone "
                              f"has no interior point ({err}): positivity forces a combination "
@@ -189,7 +245,11 @@ class AqgcDim8(ConeTheory):
         fixed = [c for c in ops.COEFFICIENTS if c not in coords]
         if fixed:
             convention["fixed_to_zero"] = fixed
-        return cone_region(self.name, build, convention, notes=AQGC_CAUTIONS)
+        if len(parts) == 1:
+            return cone_region(self.name, parts[0][1], convention, notes=AQGC_CAUTIONS)
+        return _product(self.name, problem, [cone_region(self.name, b, convention,
+                                                         notes=AQGC_CAUTIONS)
+                                             for _, b in parts], convention)
 
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         jac = self._fit_jacobian(fit)
