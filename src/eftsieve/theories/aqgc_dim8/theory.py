@@ -4,7 +4,8 @@ Region settings besides the cone engine's: ``coordinates`` (any subset of the 18
 coefficients; the others are fixed to zero; CLI ``--coordinates fT0,fT1``) and
 ``sin2_theta_w`` (the weak angle of the hatted field strengths; it changes the forward
 tensors but not the cone, see operators.py).  Without ``coordinates`` the region is
-fS0..fS2, fT0..fT2 (about 20 s); ``all`` names the 18.  Subsets of more than six
+fS0..fS2, fT0..fT2 (about 2 s: without M-type coefficients the cone is the product of
+its S-type and T-type sectors, built one by one); ``all`` names the 18.  Subsets of more than six
 coefficients (every subset with M-type coefficients and an interior) are built with the
 LP geometry of :mod:`eftsieve.bounds.cone_build`: verified outer facets, a small inner set,
 and the exact solves of the check for the points between (docs/physics_aqgc.md).  The
