@@ -25,9 +25,9 @@ from tests.faults.builders import GOOD_CARD, card_text
 
 SRC = str(Path(__file__).resolve().parents[2] / "src")
 #: draws of the long run: long enough that every signal point below lands mid-run
-LONG_DRAWS = "40000000"
+LONG_DRAWS = "200000000"
 #: draws of the first of two concurrent runs: it must outlast the second one's start-up
-BUSY_DRAWS = "40000000"
+BUSY_DRAWS = "80000000"
 
 
 def _env() -> dict[str, str]:
