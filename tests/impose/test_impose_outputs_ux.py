@@ -87,3 +87,19 @@ def test_unconverged_refit_exits_non_zero(tmp_path, capsys):
     assert "not converged" in err and "--allow-unconverged" in err
     assert main([*args, "-o", str(tmp_path / "b"), "--allow-unconverged"]) == 0
     assert "NOT CONVERGED" in (tmp_path / "b" / "report.md").read_text()
+
+
+def test_all_samples_inside_is_a_bound_not_a_probability_of_one():
+    # every one of N samples inside: the rule of three gives p_inside > 1 - 3/N at 95%
+    # (common practice), not p_inside = 1
+    import numpy as np
+
+    from eftsieve.impose.core import ImposeResult
+    from eftsieve.report.impose_report import impose_banner
+
+    n = 1000
+    res = ImposeResult("reweight", ("a",), np.zeros((n, 1)), None, np.zeros((n, 1)), None,
+                       {"p_inside_before": 1.0, "n_samples": n, "ess": float(n)})
+    text = impose_banner(res).text
+    assert "> 0.997 (all 1000 samples inside; 95% lower bound)" in text
+    assert "= 1" not in text

@@ -35,6 +35,12 @@ def impose_banner(result: ImposeResult) -> Banner:
     f = result.figures
     p = f.get("p_inside_before")
     ptext = "" if p is None else f"; p_inside without positivity = {fmt_prob(p)}"
+    n_before = len(result.before_samples)
+    if p is not None and p >= 1.0 and result.mode != "exact" and n_before:
+        # every sample inside: a count, not a probability of 1 (the rule of three gives
+        # the one-sided 95% lower bound 1 - 3/N; common practice)
+        ptext = (f"; p_inside without positivity > {1 - 3 / n_before:.4g} (all "
+                 f"{n_before} samples inside; 95% lower bound)")
     n = f.get("n_samples", len(result.samples))
     if not result.converged:
         return Banner("not converged", f"the refit chain is not converged by the stated "
