@@ -73,6 +73,8 @@ def fmt_kinematics(kin: dict) -> str:
     parts, tail = [], []
     for k, v in kin.items():
         vals = v if isinstance(v, (list, tuple)) else [v]
+        if not vals:                                  # an empty list says nothing
+            continue
         if k.endswith("_mev"):
             txt = ", ".join(fmt_num(x, 6) for x in vals)
             parts.append(f"{k[:-4]} = {txt} MeV")

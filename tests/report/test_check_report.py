@@ -98,3 +98,14 @@ def test_cautions_are_those_of_the_region_theory():
     assert "chpt-su2" not in su3 and "400 MeV" not in su3
     assert "chpt-su2" in " ".join(cautions_for("chpt-su2"))
     assert "to that order" in " ".join(cautions_for("scalar-eft"))
+
+
+def test_kinematics_line_skips_empty_lists():
+    # a region with every coefficient in use stores no coordinate as fixed to zero; an
+    # empty list (regions of earlier versions) says nothing and is left out of the line
+    from eftsieve.numbers import fmt_kinematics
+
+    line = fmt_kinematics({"name": "hat-i", "fixed_to_zero": [], "units": "TeV^-4",
+                           "pion_mass_mev": 139.57})
+    assert "fixed" not in line and ";  ;" not in line
+    assert line == "pion_mass = 139.57 MeV; name hat-i; units TeV^-4"
