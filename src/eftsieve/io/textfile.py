@@ -12,7 +12,7 @@ from __future__ import annotations
 import json
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any
+from typing import Any, NoReturn
 
 from eftsieve.errors import EftsieveError
 
@@ -98,31 +98,15 @@ def parse_json(text: str, path: Path, make: ErrorFactory, max_depth: int) -> Any
 
 
 def _yaml_loader(path: Path, make: ErrorFactory) -> type:
-    import yaml
+    from eftsieve.io.yaml12 import strict_loader
 
-    from eftsieve.io.yaml12 import CardLoader
+    def refuse(knode: Any, key: Any, reason: str) -> NoReturn:
+        line = knode.start_mark.line + 1
+        if reason == "duplicate":
+            raise make(path, f"duplicate key '{key}' (line {line})", "give each key once")
+        raise make(path, f"line {line}: a key that is not text", "use plain keys") from None
 
-    class Loader(CardLoader):
-        """The YAML 1.2-number safe loader, refusing duplicate keys."""
-
-    def mapping(loader: Any, node: Any, deep: bool = False) -> dict[Any, Any]:
-        loader.flatten_mapping(node)
-        out: dict[Any, Any] = {}
-        for knode, vnode in node.value:
-            key = loader.construct_object(knode, deep=deep)
-            try:
-                dup = key in out
-            except TypeError:
-                raise make(path, f"line {knode.start_mark.line + 1}: a key that is not text",
-                           "use plain keys") from None
-            if dup:
-                raise make(path, f"duplicate key '{key}' (line {knode.start_mark.line + 1})",
-                           "give each key once")
-            out[key] = loader.construct_object(vnode, deep=deep)
-        return out
-
-    Loader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, mapping)
-    return Loader
+    return strict_loader(refuse)
 
 
 def parse_yaml(text: str, path: Path, make: ErrorFactory, max_depth: int) -> Any:

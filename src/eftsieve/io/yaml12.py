@@ -9,7 +9,8 @@ core-schema float pattern added (YAML 1.2.2 spec, Sec. 10.3.2), so ``9e-8`` is a
 from __future__ import annotations
 
 import re
-from typing import Any
+from collections.abc import Callable
+from typing import Any, NoReturn
 
 import yaml
 
@@ -30,3 +31,35 @@ CardLoader.add_implicit_resolver(
 def load_yaml(text: str) -> Any:
     """Parse YAML text with :class:`CardLoader`."""
     return yaml.load(text, Loader=CardLoader)  # noqa: S506 - a SafeLoader subclass
+
+
+def strict_loader(refuse: Callable[[Any, Any, str], NoReturn],
+                  plain: Callable[[Any], bool] | None = None) -> type:
+    """A :class:`CardLoader` whose mappings refuse a key given twice (a second ``values:``
+    would silently replace the first) and a key that is not plain.
+
+    ``refuse(key_node, key, reason)`` must raise; ``reason`` is ``"duplicate"`` or
+    ``"not text"`` (an unhashable key, or one that ``plain`` rejects).
+    """
+
+    class StrictLoader(CardLoader):
+        """The YAML 1.2-number safe loader, refusing duplicate and non-plain keys."""
+
+    def mapping(loader: Any, node: Any, deep: bool = False) -> dict[Any, Any]:
+        loader.flatten_mapping(node)
+        out: dict[Any, Any] = {}
+        for knode, vnode in node.value:
+            key = loader.construct_object(knode, deep=deep)
+            if plain is not None and not plain(key):
+                refuse(knode, key, "not text")
+            try:
+                dup = key in out
+            except TypeError:
+                refuse(knode, key, "not text")
+            if dup:
+                refuse(knode, key, "duplicate")
+            out[key] = loader.construct_object(vnode, deep=deep)
+        return out
+
+    StrictLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, mapping)
+    return StrictLoader

@@ -37,7 +37,7 @@ import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, NoReturn
 
 import numpy as np
 
@@ -134,25 +134,13 @@ def _record_loader() -> type:
     a second ``values:`` would silently replace the first."""
     import yaml
 
-    from eftsieve.io.yaml12 import CardLoader
+    from eftsieve.io.yaml12 import strict_loader
 
-    class RecordLoader(CardLoader):
-        """Safe loader of HEPData YAML files."""
+    def refuse(knode: Any, key: Any, reason: str) -> NoReturn:
+        what = f"duplicate key {key!r}" if reason == "duplicate" else "a key that is not text"
+        raise yaml.constructor.ConstructorError(None, None, what, knode.start_mark)
 
-    def mapping(loader: Any, node: Any, deep: bool = False) -> dict[Any, Any]:
-        loader.flatten_mapping(node)
-        out: dict[Any, Any] = {}
-        for knode, vnode in node.value:
-            key = loader.construct_object(knode, deep=deep)
-            if not isinstance(key, (str, int, float, bool)) or key in out:
-                what = "a key that is not text" if not isinstance(
-                    key, (str, int, float, bool)) else f"duplicate key {key!r}"
-                raise yaml.constructor.ConstructorError(None, None, what, knode.start_mark)
-            out[key] = loader.construct_object(vnode, deep=deep)
-        return out
-
-    RecordLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, mapping)
-    return RecordLoader
+    return strict_loader(refuse, plain=lambda key: isinstance(key, (str, int, float, bool)))
 
 
 def _yaml_problem(err: Exception) -> str:
