@@ -363,10 +363,11 @@ class _Builder:
         inv = np.linalg.inv(rays.T)
         return inv / np.linalg.norm(inv, axis=1, keepdims=True)
 
-    def shell(self) -> tuple[float, float]:
+    def shell(self, normals: np.ndarray) -> tuple[float, float]:
+        """Monte Carlo share of the unit sphere between the outer facets and the inner
+        cone of ``normals`` (:meth:`inner_normals`, computed once by the caller)."""
         x = self.rng.normal(size=(self.st.mc_points, self.p.k))
         outer = (x @ np.array([f.normal for f in self.facets]).T >= 0).all(axis=1)
-        normals = self.inner_normals()
         inner = np.zeros(len(x), dtype=bool)
         rest = np.flatnonzero(outer)                  # the inner set lies in the outer one
         for lo in range(0, len(rest), 4096):          # bounded memory for many facets
@@ -505,7 +506,7 @@ def _build_lp(bld: _Builder, t_start: float) -> ConeBuild:
     if len(bld.inner) < problem.k:
         raise SolverError("too few inner points", "cone build: rays did not verify")
     normals = bld.inner_normals()
-    frac = bld.shell()
+    frac = bld.shell(normals)
     stats = {"rays": bld.rays, "solves": bld.solves, "rounds": rounds,
              "seconds": time.perf_counter() - t_start, "centre": bld.c0.tolist(),
              "geometry": "lp", "tight_share_last_round": tight_share,
@@ -520,15 +521,16 @@ def _build_hull(bld: _Builder, t_start: float) -> ConeBuild:
     """The rounds of the ``hull`` geometry (module docstring)."""
     st, problem = bld.st, bld.p
     rounds, frac = 0, (1.0, 0.0)
+    normals: np.ndarray | None = None           # the inner cone of the current rays
     while rounds < st.max_rounds:
         rounds += 1
         if len(bld.inner) < problem.k:
             raise SolverError("too few inner points", "cone build: rays did not verify")
-        frac = bld.shell()
+        normals = bld.inner_normals()
+        frac = bld.shell(normals)
         if frac[0] < st.shell_target or problem.k == 2:
             break
         verts = bld.outer_vertices()
-        normals = bld.inner_normals()
         cv = bld.c0 + verts @ bld.basis.T
         depth = -(cv @ normals.T).min(axis=1) / np.linalg.norm(cv, axis=1)
         for i in np.argsort(-depth)[: st.rays_per_round]:
@@ -536,7 +538,9 @@ def _build_hull(bld: _Builder, t_start: float) -> ConeBuild:
                 break
             d = verts[i] @ bld.basis.T
             bld.shoot(d / np.linalg.norm(d))
-    normals = bld.inner_normals()
+            normals = None                       # new rays: the inner cone is stale
+    if normals is None:
+        normals = bld.inner_normals()
     stats = {"rays": bld.rays, "solves": bld.solves, "rounds": rounds,
              "seconds": time.perf_counter() - t_start, "centre": bld.c0.tolist(),
              "geometry": "hull", "inner_set": bld.inner_kind}
