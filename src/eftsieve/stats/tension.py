@@ -180,7 +180,10 @@ def _cone_weights_nnls(g: np.ndarray, rng: np.random.Generator, n: int) -> np.nd
     dim = np.empty(n, dtype=int)
     gt = np.ascontiguousarray(g.T)
     for i in range(n):
-        lam, _ = nnls(gt, -z[i])
+        try:
+            lam, _ = nnls(gt, -z[i])
+        except RuntimeError as err:   # scipy's iteration limit: no weights, never a guess
+            raise SolverError("nnls-failed", f"chi-bar-squared weights ({err})") from err
         proj = z[i] + gt @ lam
         tol = 1e-9 * max(1.0, float(np.abs(z[i]).max()))
         act = np.abs(g @ proj) <= tol
