@@ -273,7 +273,7 @@ def exact(fit: Fit, region: Region, cmap: CoordinateMap,
                                          rng=rng)
         except SolverError as err:
             # the tilting optimisation fails on some many-facet regions (e.g. a mean on
-            # the boundary of the 18-coefficient aqgc cone): plain rejection from the
+            # the boundary of a positivity cone with 18 coordinates): plain rejection from the
             # Gaussian is exact too, when the probability inside is not tiny
             ts = rejection_sample(fit.mean, fit.cov, a, b, settings.n_samples, rng,
                                   reason=str(err))
