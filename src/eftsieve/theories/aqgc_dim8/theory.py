@@ -45,7 +45,7 @@ DEFAULT_SIN2_THETA_W = 1.0 - (80.377 / 91.1876) ** 2
 SINGLE_COEFFICIENT_SIGNS = {"fS0": 1, "fS1": 1, "fS2": 1, "fM1": -1, "fM3": -1, "fT0": 1,
                             "fT1": 1, "fT2": 1, "fT6": 1, "fT8": 1, "fT9": 1}
 #: the region of ``eftsieve region --theory aqgc-dim8`` without --coordinates: a build that
-#: finishes in seconds (larger subsets fail in the hull step; docs/physics_aqgc.md)
+#: finishes in seconds (two sectors, built one by one; docs/physics_aqgc.md)
 DEFAULT_COORDINATES = ("fS0", "fS1", "fS2", "fT0", "fT1", "fT2")
 AQGC_CAUTIONS = CONE_CAUTIONS + (
     "interval limits quoted with all other coefficients at zero are not a fit: each is one "
