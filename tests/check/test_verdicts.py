@@ -63,6 +63,10 @@ def test_blas_screen_gives_the_elementwise_bits(k, m):
     y = rng.normal(size=(30_011, k))
     y[:50] = 0.0                              # every margin is -b: ties between facets
     y[60, 2], y[61, 0] = np.inf, np.nan       # non-finite rows take the element-wise path
+    y[70] *= 1e37                             # would overflow the float32 screen
+    y[71] *= 1e-42                            # subnormal in float32 (absolute error term)
+    y[72] *= 1e-300                           # rounds to zero in float32: ties of -b
+    y[73, :] = 3e38                           # finite in double, inf in float32
     assert k >= verdicts.BLAS_MIN_DIM
     got = verdicts._min_margin_blas(y, a, b)
     want = verdicts._min_margin_elementwise(y, a, b)
@@ -73,3 +77,4 @@ def test_blas_screen_gives_the_elementwise_bits(k, m):
     assert np.array_equal(part[1], want[1][:1234])
     np.testing.assert_allclose(got[0][100:], (y[100:] @ a.T - b).min(axis=1), rtol=0,
                                atol=1e-12)
+    np.testing.assert_allclose(got[0][70], (y[70] @ a.T - b).min(), rtol=1e-12)

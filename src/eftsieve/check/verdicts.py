@@ -227,38 +227,54 @@ def _min_margin_tiled(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: boo
 def _min_margin_blas(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool = True
                      ) -> tuple[np.ndarray, np.ndarray | None]:
     """The element-wise minimum margin and its facet, bit for bit, with the facet found by
-    one BLAS product per tile.
+    one single-precision BLAS product per tile.
 
-    A BLAS product may sum in any order, so its margins differ from the element-wise ones
-    in the last bits, and differently for other batches.  Both lie within
-    E = gamma_(k+2) (|y|_1 max|a| + max|b|) of the exact margin (gamma_n = n u / (1 - n u);
-    Higham, "Accuracy and Stability of Numerical Algorithms", 2nd ed., Sec. 3.1, the
-    bound for a sum in any order; from memory), so where the smallest BLAS margin beats
-    the next by more than 4E (5E is used, for the rounding of E itself) its facet is the
-    element-wise argmin, and the margin is then recomputed element-wise for that facet
-    alone.  The other rows (near-ties, non-finite values) take the element-wise path.
-    The result does not depend on the batch."""
+    The screen rounds y, a and b to float32 and multiplies them with ``sgemm``, which may
+    sum in any order.  Its margins lie within
+    E = gamma_(k+6) (|y|_1 max|a| + max|b|) + (k+2) 2^-149 of the exact ones
+    (gamma_n = n u / (1 - n u) with the float32 unit roundoff u = 2^-24; Higham, "Accuracy
+    and Stability of Numerical Algorithms", 2nd ed., Sec. 3.1, the bound for a sum in any
+    order, from memory; the six extra u cover the three conversions, their products and
+    the subtraction of b, and the last term the absolute error of subnormal products),
+    and so do the element-wise double margins (a smaller bound).  Where the smallest
+    screened margin beats the next by more than 4E (5E is used, for the rounding of E
+    itself), its facet is therefore the element-wise argmin, and the margin is then
+    recomputed element-wise in double for that facet alone.  The other rows (near-ties,
+    non-finite values, and rows so large that float32 could overflow) take the
+    element-wise path.  The result does not depend on the batch.  Single precision halves
+    the product's time and the memory the reductions stream through
+    (benchmarks/bench_cones.py); the double screen it replaced gave the same bits.
+    """
     n, k = y.shape
     best = np.empty(n)
     arg = np.empty(n, dtype=np.intp)
-    u = np.finfo(float).eps / 2
-    gamma = (k + 2) * u / (1 - (k + 2) * u)
+    u = 2.0 ** -24
+    gamma = (k + 6) * u / (1 - (k + 6) * u)
+    tiny = (k + 2) * 2.0 ** -149
     amax, bmax = float(np.abs(a).max()), float(np.abs(b).max())
-    at = np.ascontiguousarray(a.T)
-    step = max(256, TILE_CELLS // len(b))
+    at32 = np.ascontiguousarray(a.T, dtype=np.float32)
+    b32 = b.astype(np.float32)
+    # |y|_1 max|a| + max|b| below this cannot overflow float32 (max 3.4e38) on the way
+    safe = 1e36
+    ones = np.ones(k)
+    step = max(512, 2 * TILE_CELLS // len(b))
     for lo in range(0, n, step):
         hi = min(n, lo + step)
         yt = y[lo:hi]
-        tile = yt @ at
-        tile -= b
+        # |y|_1 by a BLAS product (a row sum of 18 terms is slow in numpy); its own
+        # rounding, a few units of 1e-16, is covered by the 5E margin below
+        size = (np.abs(yt) @ ones) * amax + bmax
+        with np.errstate(over="ignore", invalid="ignore"):
+            tile = yt.astype(np.float32) @ at32
+        tile -= b32
         rows = np.arange(hi - lo)
         am = tile.argmin(axis=1)
-        v1 = tile[rows, am]
+        v1 = tile[rows, am].astype(float)
         tile[rows, am] = np.inf
-        v2 = tile.min(axis=1)
-        err = gamma * (np.abs(yt).sum(axis=1) * amax + bmax)
+        v2 = tile.min(axis=1).astype(float)
+        err = gamma * size + tiny
         with np.errstate(invalid="ignore"):           # non-finite rows: not ok, below
-            ok = (v2 - v1 > 5.0 * err) & np.isfinite(v1) & np.isfinite(v2)
+            ok = (v2 - v1 > 5.0 * err) & np.isfinite(v1) & np.isfinite(v2) & (size < safe)
         sel = am[ok]
         ys = yt[ok]
         asel = a[sel]
