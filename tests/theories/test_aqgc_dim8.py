@@ -446,3 +446,45 @@ def test_all_18_region_reproduces_the_single_coefficient_signs():
     c, _ = coefficients_of(problem, exchange_forward_tensor(singlet[0], ops.MODES, 3.0, 0))
     a, _ = region.arrays()
     assert (a @ c >= -1e-9 * np.linalg.norm(c)).all()
+
+
+# ---- projections: other coefficients free (eftsieve.bounds.projection) ---------------------
+@pytest.fixture(scope="module")
+def theory():
+    return get_theory("aqgc-dim8")
+
+
+@pytest.mark.parametrize(("coef", "normals"), [("fS0", [(1.0,)]), ("fT9", [(1.0,)])])
+def test_projections_with_every_other_coefficient_free(theory, coef, normals):
+    # fS0 >= 0 whatever the other 17 do: the hh -> hh forward amplitude involves the
+    # S-type operators only (an M-type operator needs external gauge bosons), and with
+    # fS1, fS2 free the Remmen & Rodd inequalities (arXiv:1908.09845, from memory) leave
+    # fS0 >= 0 (tests/bounds/test_projection.py).  fT9 >= 0: the pure-B operators are the
+    # light-by-light pair, O_T8 = (B.B)^2 and O_T9 = B^4 = (B.B)^2/2 + (B.B~)^2/4 (a
+    # four-dimensional identity, from memory), and positivity of the two light-by-light
+    # coefficients (arXiv:1808.00010 among others, common practice) gives fT9 >= 0 with
+    # fT8 free.
+    region = theory.build_region({"coordinates": [coef], "free": "all"})
+    assert [tuple(np.round(f.normal, 12)) for f in region.facets] == normals
+    assert all(f.extra["free_residual"] <= 1e-6 for f in region.facets)
+    assert region.convention["free"] == [c for c in ops.COEFFICIENTS if c != coef]
+    assert "free" in region.notes[0]
+
+
+def test_a_coefficient_free_in_sign_is_refused_with_the_answer(theory):
+    # fT8 with fT9 (and the rest) free: fT8 + fT9/2 >= 0 can always be met (the identity
+    # above), so the projection is the whole line: said, not written as a region
+    with pytest.raises(InputError, match="unconstrained when 17 coefficients are free"):
+        theory.build_region({"coordinates": ["fT8"], "free": "all"})
+
+
+@pytest.mark.parametrize(("settings", "match"), [
+    ({"coordinates": ["fT0"], "free": "all", "families": ["elastic"]}, "extremal family"),
+    ({"coordinates": ["fT0", "fT1", "fT2"], "free": "all"}, "one or two"),
+    ({"coordinates": ["fT0"], "free": "fT0"}, "also in --coordinates"),
+    ({"coordinates": ["fT0"], "free": "fX1"}, "not a coefficient"),
+    ({"coordinates": ["fT0"], "free": "fT1,fT1"}, "duplicate"),
+])
+def test_free_settings_are_checked(theory, settings, match):
+    with pytest.raises(InputError, match=match):
+        theory.build_region(settings)

@@ -13,6 +13,10 @@ block when there are none):
   lambda <= cap: the boundary along a ray, and the supporting hyperplane there.
 * :meth:`ExtremalSDP.centre`: maximise t with rho = S + t I, rho + rho^x = M(c),
   tau(c) = 1: a well-inside point of the cone and its rho.
+* :meth:`ExtremalSDP.shoot_free`: :meth:`~ExtremalSDP.shoot` with some coefficients free
+  (variables of the program): the boundary of the cone's projection onto the others
+  along a ray (:mod:`eftsieve.bounds.projection`).  The free coefficients' rows of the
+  dual vanish at the optimum, up to the solver's accuracy.
 
 The solver is Clarabel (through cvxpy; SCS as fall-back).  Solver statuses are returned
 as they come; no result is trusted without the checks of :mod:`eftsieve.bounds.cones`.
@@ -162,6 +166,8 @@ class ExtremalSDP:
             *[b >> 0 for b in self._s3],
             lhs(self._s3) + self._t3 * self._i_rows == self._mr @ self._cv,
             problem.tau() @ self._cv == 1, self._t3 <= 1])
+        self._lhs, self._blocks = lhs, blocks
+        self._free_programs: dict[tuple[int, ...], Any] = {}
 
     def _eye(self) -> np.ndarray:
         """The identity on the live pairs (dead pairs: eftsieve.bounds.sectors)."""
@@ -180,18 +186,24 @@ class ExtremalSDP:
             out[np.ix_(sec, sec)] = np.asarray(part)
         return out
 
-    def _solve(self, prob: Any) -> str:
+    def _solve(self, prob: Any, time_limit: float | None = None, fallback: bool = True) -> str:
         """Solve; an inaccurate solve shows in the returned status (cvxpy's warning about
-        it is absorbed, the status says the same)."""
+        it is absorbed, the status says the same).  With ``time_limit`` (seconds, Clarabel
+        only) a solve that runs out returns its status (``user_limit``), never a value.
+        When Clarabel raises, SCS is tried (``fallback``) or the error is the status."""
         import warnings
 
         import cvxpy as cp
 
+        opts = {"time_limit": float(time_limit)} if time_limit and self.solver == "CLARABEL" \
+            else {}
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", UserWarning)
             try:
-                prob.solve(solver=self.solver)
-            except cp.error.SolverError:
+                prob.solve(solver=self.solver, **opts)
+            except cp.error.SolverError as first:
+                if not fallback:
+                    return f"solver_error: {first}"
                 try:
                     prob.solve(solver="SCS", eps=1e-9, max_iters=200_000)
                 except cp.error.SolverError as err:
@@ -221,6 +233,56 @@ class ExtremalSDP:
             return SDPResult(status, float("nan"), None, None)
         z = self._full([c.dual_value for c in self._psd2])
         return SDPResult(status, float(self._lam.value), s2, z)
+
+    def shoot_free(self, c0: np.ndarray, d: np.ndarray, free: tuple[int, ...],
+                   cap: float = 1e3, time_limit: float | None = None) -> SDPResult:
+        """max lam with M(c0 + lam d + f) in C for some f supported on ``free`` (indices of
+        coefficients; c0 and d should vanish there), lam <= cap.
+
+        ``rho`` is S at the boundary, ``z`` the dual of S >= 0, ``c`` the lifted point
+        c0 + lam d + f (as the solver found it; prove it with
+        :func:`eftsieve.bounds.cones.verify_rho` before use).  Where the boundary is
+        degenerate, interior-point solvers stall on the free directions; the program is
+        then re-solved with a small penalty -p |f|_1 in the objective (p = 1e-7, then
+        1e-6), which bounds the free rows of the dual by p instead of pinning them to 0.
+        The lifted point stays a point of the cone, and the facet's residual on the free
+        coefficients is measured from its certificate (:mod:`eftsieve.bounds.projection`).
+        No SCS fall-back: a shot that fails is reported as failed.
+        """
+        import cvxpy as cp
+
+        key = tuple(sorted(int(i) for i in free))
+        if key not in self._free_programs:
+            k = self.problem.k
+            sel = np.zeros((k, len(key)))
+            sel[list(key), range(len(key))] = 1.0
+            c0p, dp = cp.Parameter(k), cp.Parameter(k)
+            capp, pen = cp.Parameter(nonneg=True), cp.Parameter(nonneg=True)
+            s, lam, f = self._blocks(), cp.Variable(), cp.Variable(len(key))
+            psd = [b >> 0 for b in s]
+            prob = cp.Problem(cp.Maximize(lam - pen * cp.norm1(f)), [
+                *psd, self._lhs(s) == self._mr @ c0p + lam * (self._mr @ dp)
+                + (self._mr @ sel) @ f, lam <= capp])
+            self._free_programs[key] = (prob, c0p, dp, capp, pen, s, lam, f, psd, sel)
+        prob, c0p, dp, capp, pen, s, lam, f, psd, sel = self._free_programs[key]
+        c0p.value = np.asarray(c0, dtype=float)
+        dp.value = np.asarray(d, dtype=float)
+        capp.value = float(cap)
+        status = "not solved"
+        for penalty in (0.0, 1e-7, 1e-6):
+            pen.value = penalty
+            status = self._solve(prob, time_limit, fallback=False)
+            if status in ("optimal", "optimal_inaccurate") and lam.value is not None:
+                break
+        else:
+            return SDPResult(status, float("nan"), None, None)
+        sv = self._full([b.value for b in s])
+        if sv is None or f.value is None:
+            return SDPResult(status, float("nan"), None, None)
+        z = self._full([c.dual_value for c in psd])
+        lifted = np.asarray(c0, dtype=float) + float(lam.value) * np.asarray(d, dtype=float) \
+            + sel @ np.asarray(f.value, dtype=float)
+        return SDPResult(status, float(lam.value), sv, z, lifted)
 
     def centre(self) -> SDPResult:
         """The point of {tau . c = 1} deepest inside the cone (largest lambda_min(rho))."""

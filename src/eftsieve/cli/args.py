@@ -26,7 +26,7 @@ REGION_SETTINGS = {"family": "families", "pion_mass": "pion_masses_mev", "fpi": 
                    "convention": "convention", "scale": "mu_mev", "grid": "grid",
                    "order": "order", "spins": "spins", "coordinates": "coordinates",
                    "truncation": "truncation", "heavy_scale": "heavy_scale_mev",
-                   "sin2_theta_w": "sin2_theta_w"}
+                   "sin2_theta_w": "sin2_theta_w", "free": "free"}
 
 
 def _number(text: str, kind: type) -> Any:
@@ -138,6 +138,10 @@ def add_region_args(p: argparse.ArgumentParser) -> None:
                    help="spin cut-off of the heavy-state grid (theories with sum rules)")
     p.add_argument("--coordinates", type=csv_list, default=None,
                    help="region coordinates, e.g. g3t,g4t (theories that offer a choice)")
+    p.add_argument("--free", type=csv_list, default=None, metavar="NAMES",
+                   help="coefficients left free (any value) instead of zero, or 'all' for "
+                        "every coefficient not in --coordinates: the region is the cone's "
+                        "projection onto one or two --coordinates (theories that offer it)")
     p.add_argument("--sin2-theta-w", type=positive_float, default=None, metavar="X",
                    help="weak mixing angle sin^2(theta_W) of theories with hatted field "
                         "strengths (the default is the theory's; it does not move the cone)")

@@ -65,6 +65,14 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
         lines.append(f"  inner set: {len(region.inner_facets)} facets ("
                      f"{region.inner_facets[0].channel}; points between the inner and outer "
                      "facets get exact solves in eftsieve check)")
+    elif "projection" in region.settings:
+        proj = region.settings["projection"]
+        lines.append(f"  projection: {len(proj['free'])} coefficients free (any value, not "
+                     f"zero): {', '.join(proj['free'])}; outer facets hold up to a residual "
+                     f"<= {proj['max_residual']:.1e} (docs/physics_aqgc.md)")
+        lines.append(f"  inner set: {len(region.inner_facets)} facets (projections of proven "
+                     "points of the full cone; points between the inner and outer facets "
+                     "stay marginal)")
     elif region.inner_facets:
         lines.append(f"  inner set: {len(region.inner_facets)} facets (reached by explicit "
                      "positive spectra: consistent with every sum rule used)")

@@ -87,6 +87,9 @@ def plot_title(region: Region, title: str | None, extra: Sequence[str] = (),
     conv = view.convention if view is not None and view.convention else (
         region.convention.get("name") if isinstance(region.convention, dict) else None)
     what = "allowed cone" if is_cone(region) else "allowed region"
+    proj = region.settings.get("projection") if isinstance(region.settings, dict) else None
+    if proj:
+        what = f"projection of the allowed cone, {len(proj['free'])} others free"
     head = f"{region.theory}: {what}" + (f" ({conv})" if conv and conv != NONE else "")
     return "\n".join([head, kinematics_line(region), *[e for e in extra if e]])
 

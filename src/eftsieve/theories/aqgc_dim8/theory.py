@@ -80,6 +80,29 @@ def parse_coordinates(raw: Any) -> tuple[str, ...]:
     return tuple(c for c in ops.COEFFICIENTS if c in names)
 
 
+def parse_free(raw: Any, coords: tuple[str, ...]) -> tuple[str, ...]:
+    """The free coefficients from a setting (``all``, a list or a comma-separated string),
+    in the canonical order; InputError for unknown or redundant names and for names that
+    are also coordinates."""
+    if raw is None or raw == [] or raw == "":
+        return ()
+    items = [s.strip() for s in (raw.split(",") if isinstance(raw, str) else raw)]
+    if items == ["all"]:
+        return tuple(c for c in ops.COEFFICIENTS if c not in coords)
+    for name in items:
+        if name == "fM6":
+            raise InputError(None, "--free", "fM6 is redundant (O_M6 = O_M0/2)", "use fM0")
+        if name not in ops.COEFFICIENTS:
+            raise InputError(None, "--free", f"'{name}' is not a coefficient of aqgc-dim8",
+                             f"choose among {','.join(ops.COEFFICIENTS)}, or all")
+        if name in coords:
+            raise InputError(None, "--free", f"'{name}' is also in --coordinates",
+                             "a coefficient is either a coordinate or free")
+    if len(set(items)) != len(items):
+        raise InputError(None, "--free", "duplicate coefficient names", "name each once")
+    return tuple(c for c in ops.COEFFICIENTS if c in items)
+
+
 def _covering(used: Sequence[str]) -> list[str] | str:
     """Coordinates of a region that decides points moving ``used``: those themselves, or
     all 18 once an M-type coefficient is among them (subsets with M-type coefficients are
@@ -206,7 +229,8 @@ class AqgcDim8(ConeTheory):
     operators = ops.make_operators(DEFAULT_SIN2_THETA_W)
     convention_specs = conv.CONVENTIONS
     cautions: tuple[str, ...] = AQGC_CAUTIONS
-    setting_names: tuple[str, ...] = ConeTheory.setting_names + ("coordinates", "sin2_theta_w")
+    setting_names: tuple[str, ...] = ConeTheory.setting_names + ("coordinates", "sin2_theta_w",
+                                                                 "free")
     basis = ("f_S0..2, f_M0..5, f_M7, f_T0..2, f_T5..9 over Lambda^4 (hep-ph/0606118, "
              "arXiv:1604.03555), convention hat-i; fM6 folded into fM0")
 
@@ -228,6 +252,9 @@ class AqgcDim8(ConeTheory):
                              "is mapped onto the region when it is checked")
         coords = parse_coordinates(settings.get("coordinates", DEFAULT_COORDINATES))
         sin2 = parse_sin2(settings.get("sin2_theta_w"))
+        free = parse_free(settings.get("free"), coords)
+        if free:
+            return self._projection(coords, free, fams[0], sin2)
         st = ConeSettings(family=fams[0], shell_target=float(settings.get("shell_target", 1e-3)),
                           seed=int(settings.get("seed", 0)))
         problem = aqgc_problem(coords, sin2)
@@ -251,6 +278,43 @@ class AqgcDim8(ConeTheory):
         return _product(self.name, problem, [cone_region(self.name, b, convention,
                                                          notes=AQGC_CAUTIONS)
                                              for _, b in parts], convention)
+
+    def _projection(self, coords: tuple[str, ...], free: tuple[str, ...], family: str,
+                    sin2: float) -> Region:
+        """The cone on coords + free projected onto coords (eftsieve.bounds.projection)."""
+        from eftsieve.bounds.projection import project_cone, projection_region
+
+        if family != "extremal":
+            raise InputError(None, "--free", "projections are built for the extremal family "
+                             "only", "use --family extremal (the elastic cone's product "
+                             "states are not searched with free coefficients)")
+        if not 1 <= len(coords) <= 2:
+            raise InputError(None, "--coordinates", f"a projection is built onto one or two "
+                             f"coefficients, got {len(coords)}", "give one or two names, "
+                             "e.g. --coordinates fT0,fT1 --free all")
+        names = tuple(c for c in ops.COEFFICIENTS if c in coords or c in free)
+        try:
+            pc = project_cone(aqgc_problem(names, sin2), coords)
+        except SolverError as err:
+            raise InputError(None, "--free", f"the projection of the cone of "
+                             f"{','.join(names)} onto {','.join(coords)} failed ({err})",
+                             "free more coefficients, or --free all") from err
+        if not len(pc.normals):
+            what = "line" if len(coords) == 1 else "plane"
+            whole = not len(pc.inner_normals())
+            raise InputError(None, "--free", (
+                f"positivity leaves {','.join(coords)} unconstrained when {len(free)} "
+                f"coefficients are free: the projection is the whole {what} (proven points "
+                f"in every direction)") if whole else (
+                f"the projection onto {','.join(coords)} has no verified outer facet (its "
+                f"boundary shots failed)"), "fix some of them to zero (a shorter --free "
+                "list), or build the cone itself without --free")
+        convention = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
+                      "units": "all coefficients in one common unit (e.g. TeV^-4)"}
+        fixed = [c for c in ops.COEFFICIENTS if c not in names]
+        if fixed:
+            convention["fixed_to_zero"] = fixed
+        return projection_region(self.name, pc, convention, notes=AQGC_CAUTIONS)
 
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         jac = self._fit_jacobian(fit)
@@ -285,8 +349,9 @@ class AqgcDim8(ConeTheory):
     def coordinate_map(self, fit: Fit, region: Region) -> CoordinateMap:
         jac18 = self._fit_jacobian(fit)
         rows = [ops.COEFFICIENTS.index(c) for c in region.coordinates]
+        free = list(region.convention.get("free", []))      # a projection's free coefficients
         dropped = [c for k, c in enumerate(ops.COEFFICIENTS)
-                   if k not in rows and np.any(jac18[k])]
+                   if k not in rows and np.any(jac18[k]) and c not in free]
         if dropped:
             raise InputError(fit.source, "parameters", f"the fit moves {', '.join(dropped)} "
                              f"but the region fixes {'it' if len(dropped) == 1 else 'them'} "

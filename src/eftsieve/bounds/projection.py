@@ -1,0 +1,273 @@
+"""The projection of a positivity cone onto one or two coefficients, the others free.
+
+With coefficients K kept and F free, the projection of the cone C (on K and F) is
+
+    P = {c_K : (c_K, c_F) in C for some c_F}.
+
+It answers "which values of c_K can a UV completion give, whatever the free coefficients
+do?", the question behind a limit on c_K that was obtained with the other coefficients
+profiled or marginalised.  The slice c_F = 0 (the ordinary region) is a subset of P.
+
+The projection is built by shooting rays in the plane of the kept coefficients from the
+projection of the cone's centre (:meth:`eftsieve.bounds.sdp.ExtremalSDP.shoot_free`,
+``extremal`` family):
+
+* **inner points, exact.**  Each shot ends at a boundary point of P with the free
+  coefficients that reach it.  Pulled back towards the centre by a small delta, that
+  lifted point is proven inside C by :func:`eftsieve.bounds.cones.verify_rho` on the full
+  problem, so its kept part is a point of P with a proof.  The inner set is the conic
+  hull of these points.
+* **outer facets, with a stated residual.**  Each shot's dual gives, through
+  :func:`eftsieve.bounds.cones.facet_from_dual` on the full problem, a verified facet
+  n . c >= 0 of C.  Its free part n_F vanishes only to the solver's accuracy, so for every
+  point of C
+
+      n_K . c_K >= -|n_F|_1 max_f |c_f|.
+
+  The kept part n_K is therefore a facet of P up to the residual r = |n_F|_1 / |n_K|,
+  which is stored with it: a point c_K outside that facet by the distance m is outside P
+  unless some free coefficient exceeds m / r in absolute value (r is about the solver's
+  tolerance or the penalty of :meth:`~eftsieve.bounds.sdp.ExtremalSDP.shoot_free`, 1e-13 to
+  1e-6).  Facets with r above :data:`MAX_RESIDUAL` are dropped, never reported.
+
+Only the ``extremal`` family is projected: the ``elastic`` cone's facets are product
+states, and a product state whose free components vanish is a constrained search that is
+not done here.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from eftsieve.bounds.cones import ConeProblem, FacetCertificate, facet_from_dual, verify_rho
+from eftsieve.errors import SolverError
+
+#: largest residual r = |n_F|_1/|n_K| of a kept outer facet (module docstring)
+MAX_RESIDUAL = 1e-5
+#: the shooting range: a shot that reaches it found no boundary in that direction
+CAP = 1e6
+#: time limit of one shot's solve: a shot that runs out fails (its direction is skipped);
+#: a few near-degenerate directions otherwise take Clarabel tens of seconds
+SHOT_SECONDS = 5.0
+_OK = ("optimal", "optimal_inaccurate")
+
+
+@dataclass(frozen=True)
+class ProjectedCone:
+    """A built projection (module docstring).
+
+    Attributes
+    ----------
+    keep, free
+        The kept and the free coefficients.
+    normals
+        Irredundant outer facets ``n . c_K >= 0`` of P (unit normals over ``keep``).
+    residuals
+        Each facet's residual r (module docstring).
+    certificates
+        Each facet's certificate on the full problem (its normal has all coefficients).
+    points
+        Verified points of P (unit norm, over ``keep``), one per successful shot.
+    lifts
+        The points of C they are projected from (over keep + free, in the problem's order).
+    stats
+        Shots, failed shots, facets dropped for their residual, the largest residual kept.
+    """
+
+    keep: tuple[str, ...]
+    free: tuple[str, ...]
+    normals: np.ndarray
+    residuals: np.ndarray
+    certificates: tuple[FacetCertificate, ...]
+    points: np.ndarray
+    lifts: np.ndarray
+    stats: dict[str, Any] = field(default_factory=dict)
+
+    def inner_normals(self) -> np.ndarray:
+        """Inward normals of the conic hull of ``points`` (none when it is all of R^k)."""
+        return _hull_normals(self.points)
+
+
+def _angle(v: np.ndarray) -> float:
+    return math.atan2(float(v[1]), float(v[0]))
+
+
+def _arc(vectors: np.ndarray) -> tuple[int, int, float] | None:
+    """For unit vectors in the plane: the indices of the two ends of the smallest arc that
+    holds them all (clockwise end first) and its length; None when no arc shorter than pi
+    holds them (they positively span the plane or a line)."""
+    ang = np.sort(np.array([_angle(v) for v in vectors]))
+    order = np.argsort([_angle(v) for v in vectors])
+    gaps = np.diff(np.concatenate([ang, [ang[0] + 2 * math.pi]]))
+    g = int(np.argmax(gaps))
+    length = 2 * math.pi - float(gaps[g])
+    if length >= math.pi:
+        return None
+    return int(order[(g + 1) % len(ang)]), int(order[g]), length
+
+
+def _hull_normals(points: np.ndarray) -> np.ndarray:
+    """Inward normals of the conic hull of points in one or two dimensions."""
+    dim = points.shape[1]
+    if dim == 1:
+        pos, neg = (points[:, 0] > 0).any(), (points[:, 0] < 0).any()
+        if pos and neg:
+            return np.zeros((0, 1))
+        return np.array([[1.0]]) if pos else np.array([[-1.0]])
+    ends = _arc(points)
+    if ends is None:
+        return np.zeros((0, 2))
+    p1, p2 = points[ends[0]], points[ends[1]]
+    out = np.array([[-p1[1], p1[0]], [p2[1], -p2[0]]])
+    return out / np.linalg.norm(out, axis=1, keepdims=True)
+
+
+def _irredundant(normals: np.ndarray, residuals: np.ndarray) -> list[int]:
+    """Indices of the facets that bound the intersection of the half-spaces n . x >= 0
+    (one or two dimensions); of facets with the same normal, the smallest residual."""
+    if not len(normals):
+        return []
+    if normals.shape[1] == 1:
+        keep = []
+        for sign in (1.0, -1.0):
+            idx = np.flatnonzero(np.sign(normals[:, 0]) == sign)
+            if len(idx):
+                keep.append(int(idx[np.argmin(residuals[idx])]))
+        return keep
+    ends = _arc(normals)
+    if ends is None:
+        raise SolverError("inconsistent", "projection: the outer facets leave no interior "
+                          "(the projection is flat: a ray, a line or the apex)")
+    a, b, length = ends
+
+    def best_near(i: int) -> int:
+        # of the normals within 1e-6 rad of an end (the same facet up to the solves'
+        # accuracy; a slightly looser one is still valid), the smallest residual
+        near = np.flatnonzero(normals @ normals[i] > math.cos(1e-6))
+        return int(near[np.argmin(residuals[near])])
+
+    if length < 1e-6:                        # one half-plane, found by several shots
+        return [best_near(a)]
+    return [best_near(a), best_near(b)]
+
+
+def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
+                 shrink: float = 1e-6) -> ProjectedCone:
+    """The projection of the extremal cone of ``problem`` onto ``keep`` (one or two of its
+    coefficients), every other coefficient of the problem free (module docstring).
+
+    Raises SolverError when the centre of the cone cannot be found or proven, when fewer
+    than two shots succeed, or when a kept facet contradicts a proven point.
+    """
+    from eftsieve.bounds.sdp import ExtremalSDP
+
+    names = problem.coefficients
+    ki = [names.index(c) for c in keep]
+    fi = tuple(i for i in range(problem.k) if i not in ki)
+    if not 1 <= len(ki) <= 2 or len(set(ki)) != len(ki):
+        raise ValueError(f"keep one or two distinct coefficients, got {list(keep)}")
+    if not fi:
+        raise ValueError("no coefficient is left free: this is the cone itself")
+    sdp = ExtremalSDP(problem)
+    cen = sdp.centre()
+    if cen.status not in _OK or cen.c is None or cen.rho is None or not cen.value > 0:
+        raise SolverError(cen.status, "centre SDP of the cone (no interior point found)")
+    ok, _, rho0 = verify_rho(problem, cen.c, cen.rho)
+    if not ok:
+        raise SolverError(cen.status, "centre SDP: its rho failed verification")
+    c0 = np.zeros(problem.k)
+    c0[ki] = cen.c[ki]
+    if len(ki) == 1:
+        dirs = [np.array([1.0]), np.array([-1.0])]
+    else:
+        th = 2 * math.pi * (np.arange(shots) + 0.5) / shots
+        dirs = list(np.column_stack([np.cos(th), np.sin(th)]))
+    normals, residuals, certs, points, lifts = [], [], [], [], []
+    failed = dropped = unbounded = 0
+    for dk in dirs:
+        d = np.zeros(problem.k)
+        d[ki] = dk
+        res = sdp.shoot_free(c0, d, fi, cap=CAP, time_limit=SHOT_SECONDS)
+        if res.status not in _OK or res.rho is None or res.c is None:
+            failed += 1
+            continue
+        for delta in (shrink, 10 * shrink, 100 * shrink, 1000 * shrink):
+            c_in = (1 - delta) * res.c + delta * cen.c
+            proven, _, _ = verify_rho(problem, c_in, (1 - delta) * res.rho + delta * rho0)
+            if proven:
+                points.append(c_in[ki] / np.linalg.norm(c_in[ki]))
+                lifts.append(c_in)
+                break
+        if res.value >= CAP * (1 - 1e-6):
+            unbounded += 1                   # no boundary that way: no facet either
+            continue
+        if res.z is not None:
+            cert = facet_from_dual(problem, res.z)
+            if cert is None:
+                continue
+            nk, nf = cert.normal[ki], cert.normal[list(fi)]
+            size = float(np.linalg.norm(nk))
+            r = float(np.abs(nf).sum()) / size if size > 0 else math.inf
+            if r > MAX_RESIDUAL:
+                dropped += 1
+                continue
+            normals.append(nk / size)
+            residuals.append(r)
+            certs.append(cert)
+    if len(points) < 2:
+        raise SolverError("failed", f"projection onto {', '.join(keep)}: only {len(points)} "
+                          f"of {len(dirs)} shots gave a proven point")
+    pts, lf = np.array(points), np.array(lifts)
+    nrm = np.array(normals).reshape(-1, len(ki))
+    rs = np.array(residuals)
+    for n, r in zip(nrm, rs, strict=True):
+        # the facet holds on every proven point up to its residual (plus rounding)
+        slack = r * np.abs(lf[:, list(fi)]).max(axis=1) / np.linalg.norm(lf[:, ki], axis=1)
+        if (pts @ n < -slack - 1e-9).any():
+            raise SolverError("inconsistent", f"projection onto {', '.join(keep)}: an "
+                              "outer facet cuts a proven point")
+    idx = _irredundant(nrm, rs)
+    stats = {"shots": len(dirs), "failed_shots": failed, "unbounded_shots": unbounded,
+             "dropped_for_residual": dropped,
+             "max_residual": float(rs[idx].max()) if idx else 0.0, "points": len(pts)}
+    return ProjectedCone(tuple(keep), tuple(names[i] for i in fi), nrm[idx], rs[idx],
+                         tuple(certs[i] for i in idx), pts, lf, stats)
+
+
+#: the caution every projected region carries (docs/physics_aqgc.md, "Other coefficients
+#: free")
+PROJECTION_NOTE = (
+    "Projection: the coefficients {free} are free (any value), not zero. A point is "
+    "allowed when SOME values of them put it in the cone; a fit's own values of them are "
+    "not used. The outer facets hold up to the residual r stated with each (largest "
+    "{rmax:.1e}): a point outside a facet by m is excluded unless a free coefficient "
+    "exceeds m/r in size.")
+
+
+def projection_region(theory: str, pc: ProjectedCone, convention: dict[str, Any],
+                      notes: tuple[str, ...] = ()) -> Any:
+    """The :class:`eftsieve.region.Region` of a projection: facets ``n . c >= 0`` over the
+    kept coefficients with their certificates (on the full problem) and residuals, and the
+    conic hull of the proven points as the inner set.  It has no exact shell solver (the
+    shell between the two is a thin wedge of about ``shrink``)."""
+    from eftsieve.region.model import Facet, Region
+
+    label = f"projection, {len(pc.free)} free"
+    facets = tuple(Facet(tuple(float(x) for x in n), 0.0, "extremal", label, {}, 0.0,
+                         "verified", {"certificate": c.to_dict(), "free_residual": float(r),
+                                      "full_normal": [float(x) for x in c.normal]})
+                   for n, r, c in zip(pc.normals, pc.residuals, pc.certificates, strict=True))
+    inner = tuple(Facet(tuple(float(x) for x in n), 0.0, "extremal",
+                        "inner cone (hull of proven points of the projection)", {}, 0.0,
+                        "verified", {"kind": "inner"}) for n in pc.inner_normals())
+    settings = {"family": "extremal",
+                "projection": {"keep": list(pc.keep), "free": list(pc.free), **pc.stats}}
+    note = PROJECTION_NOTE.format(free=", ".join(pc.free), rmax=pc.stats["max_residual"])
+    return Region(theory, pc.keep, {**convention, "free": list(pc.free)}, facets, settings,
+                  inner, tuple(tuple(float(x) for x in p) for p in pc.points),
+                  notes=(note, *notes))

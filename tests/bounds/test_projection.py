@@ -1,0 +1,126 @@
+"""Projections of positivity cones with free coefficients (eftsieve.bounds.projection).
+
+The independent construction: the Higgs-sector cone is polyhedral, with the published
+inequalities of Remmen & Rodd, "Consistency of the Standard Model Effective Field Theory",
+arXiv:1908.09845 (from memory; the same form as tests/theories/higgs_quartic): C2 >= 0,
+C1 + C2 >= 0, C1 + C2 + C3 >= 0 with C1 = fS2, C2 = fS0, C3 = fS1.  Its projection with
+some coefficients free is decided point by point by a linear feasibility problem (scipy's
+HiGHS): is there c_F with A (c_K, c_F) >= 0?  No SDP is involved.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.optimize import linprog
+
+from eftsieve.bounds.cones import verify_certificate
+from eftsieve.bounds.projection import (
+    MAX_RESIDUAL,
+    ProjectedCone,
+    project_cone,
+    projection_region,
+)
+from eftsieve.check.verdicts import INSIDE, MARGINAL, OUTSIDE, classify
+from eftsieve.theories import get_theory
+
+#: fS0 >= 0, fS0 + fS2 >= 0, fS0 + fS1 + fS2 >= 0 (arXiv:1908.09845, from memory)
+REMMEN_RODD = np.array([[1.0, 0.0, 0.0], [1.0, 0.0, 1.0], [1.0, 1.0, 1.0]])
+NAMES = ("fS0", "fS1", "fS2")
+
+
+def lp_member(x_keep: np.ndarray, keep: list[int], margin: float) -> bool:
+    """Whether some c_F gives A c >= margin |x| (a strict version of membership)."""
+    free = [i for i in range(3) if i not in keep]
+    a_k, a_f = REMMEN_RODD[:, keep], REMMEN_RODD[:, free]
+    rhs = a_k @ x_keep - margin * np.linalg.norm(x_keep)
+    res = linprog(np.zeros(len(free)), A_ub=-a_f, b_ub=rhs, bounds=[(None, None)] * len(free),
+                  method="highs")
+    return res.status == 0
+
+
+@pytest.fixture(scope="module")
+def problem():
+    return get_theory("higgs-quartic").problem()
+
+
+@pytest.fixture(scope="module")
+def projections(problem):
+    return {keep: project_cone(problem, list(keep))
+            for keep in [("fS0",), ("fS1",), ("fS2",), ("fS0", "fS1"), ("fS0", "fS2"),
+                         ("fS1", "fS2")]}
+
+
+@pytest.mark.parametrize("keep", [("fS0",), ("fS1",), ("fS2",), ("fS0", "fS1"),
+                                  ("fS0", "fS2"), ("fS1", "fS2")])
+def test_projection_agrees_with_the_lp_projection_of_the_published_cone(projections, keep):
+    pc = projections[keep]
+    idx = [NAMES.index(c) for c in keep]
+    rng = np.random.default_rng(len(keep))
+    pts = rng.normal(size=(300, len(keep)))
+    region = projection_region("higgs-quartic", pc, {"name": "none"}) if len(pc.normals) \
+        else None
+    for x in pts:
+        inside = lp_member(x, idx, 1e-6)
+        outside = not lp_member(x, idx, -1e-6)
+        if region is None:                     # the whole line or plane
+            assert inside and not pc.inner_normals().size
+            continue
+        v = classify(x[None, :], region, 0.0).verdict[0]
+        if inside:
+            assert v in (INSIDE, MARGINAL), (keep, x)
+            # the inner set (proven points) holds it unless it sits within the thin wedge
+            # between the inner and outer sets
+            assert v == INSIDE or np.min(np.array(pc.normals) @ x) < 1e-4 * np.linalg.norm(x)
+        if outside:
+            assert v == OUTSIDE, (keep, x)
+
+
+def test_expected_shapes(projections):
+    # fS0 >= 0 survives any freedom of fS1 and fS2; fS1 and fS2 are free in sign; the
+    # (fS0, fS2) projection keeps fS0 >= 0 and fS0 + fS2 >= 0 (Fourier-Motzkin by hand on
+    # the inequalities above)
+    assert np.allclose(projections[("fS0",)].normals, [[1.0]])
+    assert not len(projections[("fS1",)].normals) and not len(projections[("fS2",)].normals)
+    got = sorted(map(tuple, np.round(projections[("fS0", "fS2")].normals, 9)))
+    s = 1 / np.sqrt(2)
+    assert got == sorted([(1.0, 0.0), (round(s, 9), round(s, 9))])
+    assert np.allclose(projections[("fS0", "fS1")].normals, [[1.0, 0.0]])
+    assert not len(projections[("fS1", "fS2")].normals)
+
+
+def test_facets_carry_certificates_and_residuals(problem, projections):
+    for pc in projections.values():
+        fi = [NAMES.index(c) for c in pc.free]
+        ki = [NAMES.index(c) for c in pc.keep]
+        for n, r, cert in zip(pc.normals, pc.residuals, pc.certificates, strict=True):
+            assert verify_certificate(problem, cert.to_dict(), cert.normal)
+            full = cert.normal
+            assert r == pytest.approx(np.abs(full[fi]).sum() / np.linalg.norm(full[ki]))
+            assert r <= MAX_RESIDUAL
+            np.testing.assert_allclose(n, full[ki] / np.linalg.norm(full[ki]))
+
+
+def test_inner_points_are_projections_of_proven_points(problem, projections):
+    pc: ProjectedCone = projections[("fS0", "fS2")]
+    ki = [NAMES.index(c) for c in pc.keep]
+    for p, lift in zip(pc.points, pc.lifts, strict=True):
+        np.testing.assert_allclose(p, lift[ki] / np.linalg.norm(lift[ki]))
+        # proven in the full cone by the published inequalities too
+        assert (REMMEN_RODD @ lift >= -1e-9 * np.linalg.norm(lift)).all()
+
+
+def test_refuses_bad_requests(problem):
+    with pytest.raises(ValueError, match="one or two"):
+        project_cone(problem, ["fS0", "fS1", "fS2"])
+    with pytest.raises(ValueError, match="one or two"):
+        project_cone(problem, ["fS0", "fS0"])
+
+
+def test_lifts_are_inside_by_the_exact_membership_test(problem, projections):
+    # a lifted point is a point of the full cone: the exact membership test says so
+    from eftsieve.bounds.cone_region import shell_membership
+
+    lifts = projections[("fS0",)].lifts
+    codes, _ = shell_membership(problem, lifts, family="extremal")
+    assert (codes == INSIDE).all()
