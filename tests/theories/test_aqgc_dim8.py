@@ -488,3 +488,22 @@ def test_a_coefficient_free_in_sign_is_refused_with_the_answer(theory):
 def test_free_settings_are_checked(theory, settings, match):
     with pytest.raises(InputError, match=match):
         theory.build_region(settings)
+
+
+def test_a_fit_moving_a_free_coefficient_is_checked_against_the_projection(tmp_path):
+    # the fit's fT0 is free in a projection onto fT2 (its value is not used); on a region
+    # that fixes fT0 to zero the same fit is refused (test_a_card_must_declare_...)
+    from eftsieve.api import load_fit
+
+    path = tmp_path / "card.yaml"
+    path.write_text("format_version: 1\nname: t\ntheory: aqgc-dim8\nparameters:\n"
+                    "  - {name: fT2, convention: hat-i}\n  - {name: fT0, convention: hat-i}\n"
+                    "mean: [0.1, -0.2]\ncovariance: [[1, 0], [0, 1]]\n")
+    fit = load_fit(path)
+    free = [c for c in ops.COEFFICIENTS if c != "fT2"]
+    cmap = THEORY.coordinate_map(fit, SimpleNamespace(
+        coordinates=("fT2",), convention={"name": "hat-i", "free": free}))
+    np.testing.assert_allclose(cmap(np.array([[0.1, -0.2]])), [[0.1]])
+    with pytest.raises(InputError, match="fixes it to zero"):
+        THEORY.coordinate_map(fit, SimpleNamespace(coordinates=("fT2",),
+                                                   convention={"name": "hat-i"}))
