@@ -124,3 +124,17 @@ def test_lifts_are_inside_by_the_exact_membership_test(problem, projections):
     lifts = projections[("fS0",)].lifts
     codes, _ = shell_membership(problem, lifts, family="extremal")
     assert (codes == INSIDE).all()
+
+
+def test_sign_with_others_free_in_the_limits_table():
+    # fS0 >= 0 and fS1, fS2 unconstrained with the other two free (the LP projection
+    # above); the limits table states it next to the signs alone
+    from eftsieve.limits.intervals import sign_rules, with_free_signs
+
+    region = get_theory("higgs-quartic").build_region({})
+    rules = with_free_signs(sign_rules(region), region, ["fS0", "fS1"])
+    got = {r.coefficient: r.free_rule for r in rules}
+    assert got == {"fS0": "nonnegative", "fS1": "free", "fS2": None}
+    fs0 = next(r for r in rules if r.coefficient == "fS0")
+    assert fs0.free_residual is not None and fs0.free_residual <= MAX_RESIDUAL
+    assert fs0.to_dict()["with_others_free"] == "nonnegative"

@@ -93,6 +93,18 @@ class ProjectedCone:
         return _hull_normals(self.points)
 
 
+def sign_with_others_free(pc: ProjectedCone) -> str:
+    """For a one-coefficient projection: ``nonnegative``, ``nonpositive``, ``zero``,
+    ``free`` (proven points of both signs) or ``undecided``."""
+    signs = {float(np.sign(n[0])) for n in pc.normals}
+    if signs == {1.0, -1.0}:
+        return "zero"
+    if signs:
+        return "nonnegative" if signs == {1.0} else "nonpositive"
+    both = (pc.points[:, 0] > 0).any() and (pc.points[:, 0] < 0).any()
+    return "free" if both else "undecided"
+
+
 def _angle(v: np.ndarray) -> float:
     return math.atan2(float(v[1]), float(v[0]))
 
@@ -157,12 +169,14 @@ def _irredundant(normals: np.ndarray, residuals: np.ndarray) -> list[int]:
 
 
 def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
-                 shrink: float = 1e-6) -> ProjectedCone:
+                 shrink: float = 1e-6, sdp: Any = None) -> ProjectedCone:
     """The projection of the extremal cone of ``problem`` onto ``keep`` (one or two of its
     coefficients), every other coefficient of the problem free (module docstring).
 
-    Raises SolverError when the centre of the cone cannot be found or proven, when fewer
-    than two shots succeed, or when a kept facet contradicts a proven point.
+    ``sdp``: an :class:`eftsieve.bounds.sdp.ExtremalSDP` of ``problem`` to reuse (its
+    programs are compiled once).  Raises SolverError when the centre of the cone cannot
+    be found or proven, when fewer than two shots succeed, or when a kept facet
+    contradicts a proven point.
     """
     from eftsieve.bounds.sdp import ExtremalSDP
 
@@ -173,7 +187,7 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
         raise ValueError(f"keep one or two distinct coefficients, got {list(keep)}")
     if not fi:
         raise ValueError("no coefficient is left free: this is the cone itself")
-    sdp = ExtremalSDP(problem)
+    sdp = ExtremalSDP(problem) if sdp is None else sdp
     cen = sdp.centre()
     if cen.status not in _OK or cen.c is None or cen.rho is None or not cen.value > 0:
         raise SolverError(cen.status, "centre SDP of the cone (no interior point found)")

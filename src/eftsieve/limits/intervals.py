@@ -13,7 +13,8 @@ positivity says about each coefficient alone.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
+from functools import lru_cache
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -77,6 +78,10 @@ class SignRule:
     ----------
     coefficient
         The region coordinate.
+    free_rule, free_residual
+        The sign with every other coefficient of the theory free instead of zero (the
+        projection of the extremal cone, :mod:`eftsieve.bounds.projection`), and the
+        residual of the facet that proves it (None: not computed, or no facet).
     rule
         ``nonnegative``, ``nonpositive``, ``zero`` (both signs excluded), ``free``
         (unconstrained in sign) or ``undecided``.
@@ -87,14 +92,26 @@ class SignRule:
     coefficient: str
     rule: str
     cut: LineCut
+    free_rule: str | None = None
+    free_residual: float | None = None
 
     @property
     def text(self) -> str:
         return f"{self.coefficient} {SIGN_TEXT[self.rule]}"
 
+    @property
+    def free_text(self) -> str:
+        """The sign with every other coefficient free, with the facet's residual."""
+        if self.free_rule is None:
+            return "-"
+        res = (f" (residual {self.free_residual:.0e})"
+               if self.free_residual is not None else "")
+        return SIGN_TEXT[self.free_rule] + res
+
     def to_dict(self) -> dict[str, Any]:
         return {"coefficient": self.coefficient, "rule": self.rule, "text": self.text,
-                "line_cut": self.cut.to_dict()}
+                "line_cut": self.cut.to_dict(), "with_others_free": self.free_rule,
+                "with_others_free_residual": self.free_residual}
 
 
 def row_line(row: IntervalRow, region: Region) -> tuple[np.ndarray, np.ndarray]:
@@ -156,4 +173,60 @@ def sign_rules(region: Region, *, exact: bool = True) -> tuple[SignRule, ...]:
         e[k] = 1.0
         cut = line_cut(region, np.zeros(region.dim), e, exact=exact)
         out.append(SignRule(name, sign_rule(cut), cut))
+    return tuple(out)
+
+
+@lru_cache(maxsize=256)
+def _free_sign(theory: str, name: str) -> tuple[str, float | None]:
+    from eftsieve.bounds.projection import project_cone, sign_with_others_free
+    from eftsieve.bounds.sdp import ExtremalSDP
+    from eftsieve.errors import SolverError
+
+    problem = _full_problem(theory)
+    try:
+        pc = project_cone(problem, [name], sdp=_sdp_of(theory, ExtremalSDP))
+    except SolverError:
+        return "undecided", None
+    rule = sign_with_others_free(pc)
+    return rule, (float(pc.residuals.max()) if len(pc.residuals) else None)
+
+
+@lru_cache(maxsize=8)
+def _full_problem(theory: str) -> Any:
+    from eftsieve.theories import get_theory
+
+    cone_theory: Any = get_theory(theory)        # a ConeTheory (checked by the caller)
+    return cone_theory.problem()
+
+
+@lru_cache(maxsize=8)
+def _sdp_of(theory: str, make: Any) -> Any:
+    return make(_full_problem(theory))
+
+
+def with_free_signs(rules: tuple[SignRule, ...], region: Region, names: list[str]
+                    ) -> tuple[SignRule, ...]:
+    """The rules of ``names`` with their sign when every other coefficient of the theory
+    is free (its whole cone projected onto the one coefficient); unchanged for regions
+    that are not extremal positivity cones of a theory with a full problem, and for
+    coefficients not in ``names`` (computing one costs a few SDPs)."""
+    from eftsieve.theories import get_theory
+
+    if region.settings.get("family") != "extremal" or "cone_problem" not in region.settings:
+        return rules
+    try:
+        theory = get_theory(region.theory)
+    except KeyError:
+        return rules
+    if not callable(getattr(theory, "problem", None)):
+        return rules
+    full = _full_problem(region.theory).coefficients
+    if len(full) < 2:
+        return rules
+    out = []
+    for r in rules:
+        if r.coefficient in names and r.coefficient in full:
+            rule, res = _free_sign(region.theory, r.coefficient)
+            r = replace(r, free_rule=rule, free_residual=res)
+        out.append(r)
     return tuple(out)

@@ -17,7 +17,13 @@ import numpy as np
 
 from eftsieve.errors import InputError
 from eftsieve.limits.contours import ContourResult, contour_fraction
-from eftsieve.limits.intervals import SignRule, TruncatedInterval, sign_rules, truncate_rows
+from eftsieve.limits.intervals import (
+    SignRule,
+    TruncatedInterval,
+    sign_rules,
+    truncate_rows,
+    with_free_signs,
+)
 from eftsieve.limits.mapping import affine_into
 from eftsieve.limits.scans import ScanResult, scan_1d, scan_2d
 
@@ -104,7 +110,8 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
     got = {t: regions(t, names[t]) for t in theories}
     regs = {t: r for t, (r, _) in got.items()}
     out = truncate_rows(tuple(rows), regs, exact=exact)
-    signs = {t: rules for t in theories if (rules := sign_rules(regs[t], exact=exact))}
+    signs = {t: with_free_signs(rules, regs[t], names[t]) for t in theories
+             if (rules := sign_rules(regs[t], exact=exact))}
     info = {t: region_info(r, p) for t, (r, p) in got.items()}
     return LimitsResult(str(path), "interval-card", info, out, signs, notes=CARD_NOTES)
 

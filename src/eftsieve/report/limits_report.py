@@ -11,6 +11,7 @@ import re
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
+from eftsieve.limits.line import SIGN_TEXT
 from eftsieve.numbers import fmt_num, fmt_prob
 from eftsieve.report.document import Banner, Bullets, Document, Heading, Image, Para, Table
 
@@ -84,12 +85,16 @@ def _sign_blocks(result: LimitsResult) -> list[Any]:
     blocks: list[Any] = []
     for theory, rules in result.signs.items():
         free = [s.coefficient for s in rules if s.rule == "free"]
-        rows = tuple((s.coefficient, s.text.split(" ", 1)[1], METHOD_TEXT[s.cut.method])
-                     for s in rules)
+        rows = tuple((s.coefficient, s.text.split(" ", 1)[1], METHOD_TEXT[s.cut.method],
+                      s.free_text) for s in rules)
         blocks += [Heading(f"Single-coefficient signs ({theory})", 3),
-                   Table(("coefficient", "alone, positivity requires", "allowed side decided by"),
-                         rows),
-                   Para("Unconstrained in sign: " + (", ".join(free) if free else "none") + ".")]
+                   Table(("coefficient", "alone, positivity requires", "allowed side decided by",
+                          "with every other coefficient free"), rows),
+                   Para("Unconstrained in sign alone: " + (", ".join(free) if free else "none")
+                        + ". The last column is the cone's projection onto the coefficient "
+                        "(the card's coefficients only; '-': not computed): a facet there "
+                        "holds up to its residual r, i.e. unless another coefficient exceeds "
+                        "m/r for a point outside by m (docs/physics_aqgc.md).")]
     return blocks
 
 
@@ -184,6 +189,10 @@ def limits_lines(result: LimitsResult, outdir: Path | None = None) -> list[str]:
                          f"{t.status:<10} {how(t)}")
     for theory, rules in result.signs.items():
         lines.append(f"  signs alone ({theory}): " + "; ".join(s.text for s in rules))
+        free = [f"{s.coefficient} {SIGN_TEXT[s.free_rule]}" for s in rules
+                if s.free_rule is not None]
+        if free:
+            lines.append("  signs with every other coefficient free: " + "; ".join(free))
     for s in result.scans:
         hp = "; ".join(f"{n} 95% {_sets(s.intervals[n]['0.95'])}" for n in s.coefficients)
         lines.append(f"  scan '{s.table}': p_inside = {fmt_prob(s.p_inside)}; truncated {hp}")
