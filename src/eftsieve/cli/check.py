@@ -224,8 +224,9 @@ def shell_line(result: CheckResult) -> str:
     if sh is None:
         return ""
     text = (f"shell (between inner and outer cones): {sh.n_shell} points "
-            f"({fmt_pct(sh.shell_fraction)}); solved inside {sh.n_inside}, outside "
-            f"{sh.n_outside}, left marginal {sh.n_marginal}")
+            f"({fmt_pct(sh.shell_fraction)}); inside {sh.n_inside}, outside "
+            f"{sh.n_outside} ({sh.n_learned} by learned facets, no solve), left marginal "
+            f"{sh.n_marginal}; {sh.n_solves} exact solves")
     if sh.reasons:
         text += " (" + "; ".join(f"{r}: {n}" for r, n in sh.reasons[:2]) + ")"
     if sh.n_marginal:
