@@ -182,3 +182,31 @@ def test_facet_forms_have_the_same_bits_in_any_batch():
     np.testing.assert_allclose(np.linalg.norm(u, axis=1), 1.0, rtol=1e-15)
     bad = unit_rows(np.array([[0.0, 0.0], [np.inf, 1.0]]))
     assert np.isnan(bad).all()
+
+
+@pytest.mark.slow
+def test_eighteen_coefficient_cone_learns_valid_facets():
+    # the 18-coefficient aqgc-dim8 cone (about 35 s to build): shell points of a fictional
+    # Gaussian (the benchmark's demo scenario: the inner cone's centre pushed past its
+    # first facet) decided with learning; every learned normal must hold on the region's
+    # verified inner rays, and a learned point's own solve must never prove it inside
+    from eftsieve.check.verdicts import classify
+
+    region = get_theory("aqgc-dim8").build_region({"families": ["extremal"],
+                                                   "coordinates": "all"})
+    rays = np.array(region.inner_vertices)
+    centre = rays.mean(axis=0)
+    a, _ = region.arrays()
+    mean = centre - 0.3 * (a[0] @ centre) * a[0] / (a[0] @ a[0])
+    pts = mean + 0.5 * np.linalg.norm(centre) * np.random.default_rng(20).normal(
+        size=(300_000, region.dim))
+    shell_pts = pts[classify(pts, region, 0.0).verdict == MARGINAL][:120]
+    assert len(shell_pts) == 120
+    shell = ConeShell.from_region(region)
+    learned = LearnedFacets(region.dim)
+    got = shell.decide_in_order(shell_pts, np.arange(len(shell_pts)), 0, learned)
+    assert got.n_learned > 10 and got.n_solves + got.n_learned == len(shell_pts)
+    assert (rays @ learned.normals.T >= -1e-9 * np.linalg.norm(rays, axis=1)[:, None]).all()
+    idx = np.flatnonzero(got.learned)[:8]
+    own, why, _ = shell.decide(shell_pts[idx], idx)
+    assert INSIDE not in own.tolist(), why
