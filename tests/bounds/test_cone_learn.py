@@ -12,6 +12,8 @@ for the published inequalities A c >= 0):
 * photon-quartic: a >= 0 and b >= 0 for a (F.F)^2 + b (F.Ftilde)^2 (Adams,
   Arkani-Hamed, Dubovsky, Nicolis & Rattazzi, hep-th/0602178, Sec. 3; from memory, as in
   tests/check/test_cone_shell.py);
+* a product of independent cones (photon-quartic and higgs-quartic side by side): the
+  product of the two published cones (eftsieve.bounds.cone_sectors);
 * transverse-w, elastic family: fT2 >= 0, 4 fT1 + fT2 >= 0, 8 fT0 + 4 fT1 + 3 fT2 >= 0
   (Zhang & Zhou, arXiv:1808.00010; Bi, Zhang & Zhou, arXiv:1902.08977; from memory, as
   in tests/bounds/test_cone_build_lp.py).
@@ -167,6 +169,34 @@ def test_script_api_learns_only_when_asked():
     clear = np.abs(margin) > 1e-6
     for c in (c0, c1):
         assert ((c[clear] == INSIDE) == (margin[clear] > 0)).all()
+
+
+def test_a_product_of_independent_cones_learns_facets_of_one_factor():
+    # photon-quartic and higgs-quartic side by side: the product cone's verdict is
+    # outside iff either factor's published inequalities fail; a learned facet is one
+    # factor's facet, zero on the other's coordinates, valid on every published ray
+    from eftsieve.bounds.cone_sectors import union_problem
+
+    problem = union_problem([get_theory("photon-quartic").problem(),
+                             get_theory("higgs-quartic").problem()])
+    a = np.zeros((5, 5))
+    a[:2, :2], a[2:, 2:] = PUBLISHED["photon-quartic"], PUBLISHED["higgs-quartic"]
+    rays = np.linalg.inv(a)
+    rng = np.random.default_rng(8)
+    centre = (rays / np.linalg.norm(rays, axis=0)).sum(axis=1)
+    pts = centre + 0.7 * np.linalg.norm(centre) * rng.normal(size=(70, 5))
+    learned = LearnedFacets(5)
+    got = ConeShell(problem, "extremal").decide_in_order(pts, np.arange(70), 0, learned)
+    assert got.n_learned > 5 and len(learned) >= 2
+    assert (learned.normals @ rays >= -1e-9).all()
+    photon_part = np.abs(learned.normals[:, :2]).max(axis=1) > 0
+    higgs_part = np.abs(learned.normals[:, 2:]).max(axis=1) > 0
+    assert not (photon_part & higgs_part).any()
+    an = a / np.linalg.norm(a, axis=1, keepdims=True)
+    margin = (pts @ an.T).min(axis=1) / np.linalg.norm(pts, axis=1)
+    assert (margin[got.learned] < 0).all()
+    clear = np.abs(margin) > 1e-6
+    assert ((got.codes[clear] == INSIDE) == (margin[clear] > 0)).all()
 
 
 def test_facet_forms_have_the_same_bits_in_any_batch():
