@@ -40,12 +40,15 @@ from __future__ import annotations
 import math
 from collections import Counter
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from eftsieve.check.verdicts import INSIDE, MARGINAL, OUTSIDE, Verdicts
 from eftsieve.region.model import Region
+
+if TYPE_CHECKING:
+    from eftsieve.bounds.cone_learn import LearnedFacets
 
 #: the reason of shell points left ``marginal`` because the budget was used up
 BUDGET_REASON = "shell-solve budget reached"
@@ -153,7 +156,7 @@ class ShellBudget:
     solver: Any
     left: int
     seed: int = 0
-    learned: Any = None
+    learned: LearnedFacets | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {"left": self.left, "seed": self.seed,
