@@ -2,9 +2,13 @@
 
 - ours: what the check kernel does (:func:`eftsieve.check.engine.process_block`): the facet
   test against the inner and outer cones (:func:`eftsieve.check.verdicts.classify`, band
-  0, in the kernel's blocks of 65536 points), then one exact solve for each point in
-  the shell between them (:class:`eftsieve.bounds.cone_region.ConeShell`, every shell
-  point solved: no budget);
+  0, in the kernel's blocks of 65536 points), then the shell between them decided in
+  row order with learned facets (:meth:`eftsieve.bounds.cone_region.ConeShell.
+  decide_in_order`: a point excluded by the verified certificate of an earlier
+  ``outside`` solve needs no solve; the others get one; no budget);
+- beside it, the same shell points with one solve each (what the kernel did before
+  learned facets), so that the shell's ratio shows, with the solves made and the points
+  decided by learned facets;
 - the simple alternative: one exact membership solve per point (the same solver, cvxpy +
   Clarabel, compiled once and re-solved), timed on a few hundred points and extrapolated;
 - ``eftsieve check`` end to end on a Gaussian card (draws, kernel, statistics), for one
@@ -12,8 +16,9 @@
 - the build time of the ``transverse-w`` region, both families, from scratch.
 
 Cones: ``higgs-quartic`` and ``transverse-w`` (3 coefficients each), the 18-coefficient
-``aqgc-dim8`` cone (LP geometry; its shell solves are capped at AQGC_SHELL_CAP and the
-rest extrapolated), and a 10-coefficient
+``aqgc-dim8`` cone (LP geometry; only its first AQGC_SHELL_CAP shell points are decided,
+both ways, and the time of the rest extrapolated linearly: for the learned mode this
+overstates the cost, since later points meet more learned facets), and a 10-coefficient
 cone that is the product of the four independent cone theories side by side
 (photon-quartic 2 + higgs-quartic 3 + ew-chiral 2 + transverse-w 3 coefficients, 15 modes;
 :func:`eftsieve.bounds.cone_sectors.product_region`): a block-diagonal problem, solved
@@ -35,8 +40,8 @@ from common import load, table, target
 
 N = 10_000_000
 BASELINE_SOLVES = 300
-#: exact solves made for the 18-coefficient cone's shell points (the rest extrapolated)
-AQGC_SHELL_CAP = 300
+#: shell points of the 18-coefficient cone decided (both ways; the rest extrapolated)
+AQGC_SHELL_CAP = 1000
 #: points per block: the check kernel's canonical block (eftsieve.stats.accumulate.BLOCK)
 BLOCK = 1 << 16
 THEORIES = ("photon-quartic", "higgs-quartic", "ew-chiral", "transverse-w")
@@ -58,18 +63,20 @@ def demo_gaussian(region, centre: np.ndarray) -> tuple[np.ndarray, float]:
 
 def classify_run(label: str, region, centre: np.ndarray, n: int, baseline: int,
                  shell_cap: int | None = None) -> list[str]:
-    """Facet test + exact solves of the shell points; with ``shell_cap``, only the first
-    shell_cap shell points are solved and the time of the rest is extrapolated from theirs
-    (said in the table)."""
+    """Facet test + the shell decided with learned facets (ours) and with one solve per
+    shell point (beside it); with ``shell_cap``, only the first shell_cap shell points are
+    decided and the time of the rest is extrapolated from theirs (said in the table)."""
+    from eftsieve.bounds.cone_learn import LearnedFacets
     from eftsieve.bounds.cone_region import ConeShell
     from eftsieve.check.verdicts import INSIDE, MARGINAL, OUTSIDE, classify
 
     mean, sd = demo_gaussian(region, centre)
     rng = np.random.default_rng(20)
     solver = ConeShell.from_region(region)
-    t_facets = t_plain = t_shell = 0.0
+    learned = LearnedFacets(region.dim)
+    t_facets = t_plain = t_shell = t_each = 0.0
     counts = np.zeros(3, dtype=np.int64)
-    n_shell = n_solved = n_unsolved = 0
+    n_shell = n_done = n_unsolved = n_solves = n_learned = 0
     for lo in range(0, n, BLOCK):
         pts = mean + sd * rng.normal(size=(min(BLOCK, n - lo), region.dim))
         t0 = time.perf_counter()
@@ -80,16 +87,21 @@ def classify_run(label: str, region, centre: np.ndarray, n: int, baseline: int,
         t_plain += time.perf_counter() - t0
         shell = np.flatnonzero(v.verdict == MARGINAL)
         if shell_cap is not None:
-            shell = shell[:max(0, shell_cap - n_solved)]
+            shell = shell[:max(0, shell_cap - n_done)]
             n_unsolved += int((v.verdict == MARGINAL).sum()) - len(shell)
         n_shell += len(shell)
-        n_solved += len(shell)
+        n_done += len(shell)
         codes = v.verdict.copy()
         if len(shell):
             t0 = time.perf_counter()
-            got, _, _ = solver.decide(pts[shell], lo + shell)
+            got = solver.decide_in_order(pts[shell], lo + shell, 0, learned)
             t_shell += time.perf_counter() - t0
-            codes[shell] = got
+            codes[shell] = got.codes
+            n_solves += got.n_solves
+            n_learned += got.n_learned
+            t0 = time.perf_counter()
+            solver.decide(pts[shell], lo + shell)      # one solve per shell point
+            t_each += time.perf_counter() - t0
         counts += np.bincount(codes, minlength=3)[:3]
     sample = mean + sd * rng.normal(size=(baseline, region.dim))
     solver.decide(sample[:1], np.arange(1))        # compile once, as a user would
@@ -97,18 +109,21 @@ def classify_run(label: str, region, centre: np.ndarray, n: int, baseline: int,
     solver.decide(sample, np.arange(baseline))
     per_solve = (time.perf_counter() - t0) / baseline
     if n_unsolved:
-        t_shell *= (n_solved + n_unsolved) / max(n_solved, 1)
+        t_shell *= (n_done + n_unsolved) / max(n_done, 1)
+        t_each *= (n_done + n_unsolved) / max(n_done, 1)
         n_shell += n_unsolved
     ours = t_facets + t_shell
     base = per_solve * n
-    shell_note = (f" (extrapolated from {n_solved} solves)" if n_unsolved else "")
+    shell_note = (f" (extrapolated from {n_done} shell points)" if n_unsolved else "")
     return [label, f"{region.dim}", f"{n:.0e}",
             f"{len(region.facets)}/{len(region.inner_facets)}",
             f"{n_shell} ({n_shell / n:.1e})", f"{t_facets:.2f} s", f"{t_plain:.2f} s",
             f"{t_shell:.2f} s{shell_note}", f"{n / ours:.2e} points/s",
             f"{per_solve * 1e3:.1f} ms x {n:.0e} = {base:.1e} s (from {baseline} solves)",
             f"{base / ours:.1e}x",
-            f"{counts[INSIDE] / n:.3f}/{counts[MARGINAL] / n:.1e}/{counts[OUTSIDE] / n:.3f}"]
+            f"{counts[INSIDE] / n:.3f}/{counts[MARGINAL] / n:.1e}/{counts[OUTSIDE] / n:.3f}",
+            f"{t_each:.2f} s", f"{n_solves} / {n_learned} of {n_done}",
+            f"{t_each / t_shell:.1f}x" if t_shell > 0 else "-"]
 
 
 def coarse(theory: str):
@@ -142,7 +157,7 @@ def end_to_end(region, centre: np.ndarray, n: int, label: str = "") -> list[str]
     marg = f"{sh.n_marginal} ({sh.marginal_fraction:.1e})" if sh else "0"
     return [label or region.theory, f"{n:.0e}", f"{dt:.1f} s", f"{n / dt:.2e} points/s",
             f"{sh.n_shell if sh else 0} ({sh.shell_fraction if sh else 0:.1e})",
-            f"{sh.n_solves if sh else 0}", marg,
+            f"{sh.n_solves if sh else 0}", f"{sh.n_learned if sh else 0}", marg,
             f"{res.p_inside:.4f} +- {res.p_inside_err:.1e}"]
 
 
@@ -206,13 +221,15 @@ def main() -> None:
                b[-1] == "yes")
     table(f"Classifying points against a positivity cone ({load()}, shared machine)",
           ["cone", "k", "points", "facets out/in", "shell points (fraction)",
-           "facet test", "plain numpy pass", "shell solves", "ours",
-           "one solve per point (extrapolated)", "ratio", "inside/marginal/outside"], rows)
+           "facet test", "plain numpy pass", "shell, learned facets (ours)", "ours",
+           "one solve per point (extrapolated)", "ratio", "inside/marginal/outside",
+           "shell, one solve each", "shell solves / decided by learned facets",
+           "shell ratio"], rows)
     rough = coarse("higgs-quartic")
     table("eftsieve check end to end on a Gaussian card (draws + kernel + statistics, "
           "default budget of 1000 solves)",
           ["region", "draws", "wall time", "rate", "shell points (fraction)", "exact solves",
-           "left marginal (fraction)", "p_inside"],
+           "decided by learned facets", "left marginal (fraction)", "p_inside"],
           [end_to_end(regions["transverse-w"], centre_of(regions["transverse-w"]), n),
            end_to_end(rough, centre_of(rough), n, "higgs-quartic, coarse build (2 rays)")])
     table("Building the transverse-w region from scratch (shell target 1e-3 of the sphere)",

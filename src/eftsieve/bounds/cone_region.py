@@ -12,6 +12,12 @@
   point seeded by its own id, and independent sectors solved one by one
   (:mod:`eftsieve.bounds.cone_sectors`); the check kernel uses it
   (:mod:`eftsieve.check.shell`).
+* :meth:`ConeShell.decide_in_order` is the learning mode the check kernel uses: points
+  in a fixed order, each first tested against the verified facets that earlier
+  ``outside`` verdicts produced (:mod:`eftsieve.bounds.cone_learn`), and solved only
+  when none of them excludes it.  ``learn=True`` gives it to :func:`shell_membership`
+  and :func:`classify_cone`; they default to one solve per point, so that a point's
+  verdict never depends on the other points given with it.
 * :func:`classify_cone` is the fast path for scripts: the facet test against the inner
   and outer cones, then :func:`shell_membership` for the points between them.
 """
@@ -24,6 +30,13 @@ from typing import Any
 import numpy as np
 
 from eftsieve.bounds.cone_build import ConeBuild
+from eftsieve.bounds.cone_learn import (
+    LEARNED_REASON,
+    LearnedFacets,
+    ShellDecisions,
+    facet_forms,
+    unit_rows,
+)
 from eftsieve.bounds.cones import (
     INSIDE,
     MARGINAL,
@@ -110,52 +123,68 @@ def sdp_for(problem: ConeProblem) -> Any:
     return _sdp_for(problem.tensors.tobytes(), problem.coefficients, problem.modes)
 
 
+#: (code, status line, short reason, normal of the verified separating facet or None)
+Decision = tuple[int, str, str, np.ndarray | None]
+
+
 def _extremal_one(problem: ConeProblem, x: np.ndarray) -> tuple[int, str, str]:
+    return _extremal_facet(problem, x)[:3]
+
+
+def _extremal_facet(problem: ConeProblem, x: np.ndarray) -> Decision:
+    """One extremal membership solve; an ``outside`` verdict comes with the normal of its
+    verified dual certificate (a valid outer facet of the whole cone)."""
     sdp = sdp_for(problem)
     res = sdp.membership(x)
     if res.rho is None:
         short = res.status.split(":", 1)[0]
         return (MARGINAL, f"marginal: SDP not solved (status {res.status})",
-                f"SDP not solved (status {short})")
+                f"SDP not solved (status {short})", None)
     unit = x / np.linalg.norm(x)
     ok, lam_rel, _ = verify_rho(problem, unit, res.rho)
     if ok and lam_rel > CONE_BOUNDARY_TOL:
         return INSIDE, f"inside: verified rho, lambda_min/max|rho| = {lam_rel:.3g} " \
-                       f"(solver {res.status})", "verified rho"
+                       f"(solver {res.status})", "verified rho", None
     if res.value < 0 and res.z is not None:
         cert = facet_from_dual(problem, res.z)
         if cert is not None:
             val = float(cert.normal @ unit)
             if val < -CONE_BOUNDARY_TOL:
                 return OUTSIDE, f"outside: verified dual certificate, n.c/|c| = {val:.3g} " \
-                                f"(solver {res.status})", "verified dual certificate"
+                                f"(solver {res.status})", "verified dual certificate", \
+                    cert.normal
     return MARGINAL, f"marginal: within the solver's accuracy of the boundary " \
                      f"(t* = {res.value:.3g}, solver {res.status})", \
-        "within the solver's accuracy of the boundary"
+        "within the solver's accuracy of the boundary", None
 
 
-def _elastic_one(problem: ConeProblem, x: np.ndarray, rng: np.random.Generator,
-                 cells: int, reduction: StateReduction | None) -> tuple[int, str, str]:
+def _elastic_facet(problem: ConeProblem, x: np.ndarray, rng: np.random.Generator,
+                   cells: int, reduction: StateReduction | None) -> Decision:
+    """One elastic decision; an ``outside`` verdict comes with the normal of its violating
+    product state's facet E(u, v) . c >= 0 (valid on the whole elastic cone; the
+    extremal solve tried on the way is used for ``inside`` only, since its dual
+    certificates bound the smaller extremal cone)."""
     unit = x / np.linalg.norm(x)
     m = problem.tensor(unit)
     u, v, e = search_states(m, rng)
     scale = float(np.abs(m).max())
     if e < -CONE_BOUNDARY_TOL * scale:
-        n_uv = facet_from_states(problem, u, v).normal @ unit
+        normal = facet_from_states(problem, u, v).normal
         return (OUTSIDE, f"outside: product state with E/|M| = {e / scale:.3g} "
-                f"(n.c = {n_uv:.3g})", "violating product state")
+                f"(n.c = {normal @ unit:.3g})", "violating product state", normal)
     verdict, why, _ = _extremal_one(problem, x)
     if verdict == INSIDE:
-        return INSIDE, "inside (elastic): " + why.split(": ", 1)[1], "verified rho"
+        return INSIDE, "inside (elastic): " + why.split(": ", 1)[1], "verified rho", None
     proof = prove_elastic(m, cells, reduction=reduction)
     if proof.outcome == "proven":
         return (INSIDE, f"inside: branch-and-bound proof over product states "
-                f"({proof.cells} cells)", "branch-and-bound proof")
+                f"({proof.cells} cells)", "branch-and-bound proof", None)
     if proof.outcome == "violated" and proof.witness is not None:
+        normal = facet_from_states(problem, proof.witness[0], proof.witness[1]).normal
         return (OUTSIDE, f"outside: product state with E = {proof.witness[2]:.3g}",
-                "violating product state")
+                "violating product state", normal)
     return (MARGINAL, f"marginal: elastic positivity undecided within {proof.cells} cells",
-            "elastic positivity undecided within the cell budget")
+            "elastic positivity undecided within the cell budget", None)
 
 
 def problem_of(cone: Region | ConeProblem) -> tuple[ConeProblem, str | None]:
@@ -185,23 +214,31 @@ def decide_point(problem: ConeProblem, family: str, x: np.ndarray, rng: np.rando
     ``SDP not solved (status infeasible_inaccurate)``, ...).  A solve that raises a
     solver or linear-algebra error gives ``marginal`` with that reason, never a verdict.
     """
+    return _decide_point(problem, family, x, rng, elastic_cells, reduction)[:3]
+
+
+def _decide_point(problem: ConeProblem, family: str, x: np.ndarray, rng: np.random.Generator,
+                  elastic_cells: int, reduction: StateReduction | None) -> Decision:
+    """:func:`decide_point` and, for ``outside``, the normal of the verified facet that
+    separates the point (None otherwise)."""
     if not np.isfinite(x).all():
-        return MARGINAL, "marginal: non-finite point", "non-finite point"
+        return MARGINAL, "marginal: non-finite point", "non-finite point", None
     if not np.any(x):
         return (MARGINAL, "marginal: the origin is the cone's apex (on the boundary)",
-                "the cone's apex c = 0")
+                "the cone's apex c = 0", None)
     try:
         if family == "extremal":
-            return _extremal_one(problem, x)
-        return _elastic_one(problem, x, rng, elastic_cells, reduction)
+            return _extremal_facet(problem, x)
+        return _elastic_facet(problem, x, rng, elastic_cells, reduction)
     except _solver_failures() as err:
         name = type(err).__name__
-        return MARGINAL, f"marginal: the solve failed ({name}: {err})", f"solve failed ({name})"
+        return (MARGINAL, f"marginal: the solve failed ({name}: {err})",
+                f"solve failed ({name})", None)
 
 
 def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str | None = None,
                      seed: int = 0, elastic_cells: int = 300_000,
-                     reduction: StateReduction | None = None,
+                     reduction: StateReduction | None = None, learn: bool = False,
                      ) -> tuple[np.ndarray, tuple[str, ...]]:
     """Exact verdicts for points, one solve per point: (codes, statuses).
 
@@ -220,6 +257,12 @@ def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str
         Cell budget of each elastic proof.
     reduction
         The theory's product-state reduction (elastic; optional, checked before use).
+    learn
+        Reuse the separating facets of earlier points (in the given order) on later ones
+        (:meth:`ConeShell.decide_in_order`): fewer solves, the same exact verdicts where
+        both decide, but a point's outcome then depends on the points before it (one it
+        would leave ``marginal`` alone may be ``outside`` by an earlier facet).  Off by
+        default, so that each point's verdict depends on nothing else.
 
     Returns
     -------
@@ -231,9 +274,10 @@ def shell_membership(cone: Region | ConeProblem, points: np.ndarray, family: str
     """
     problem, fam = problem_of(cone)
     pts = np.atleast_2d(np.asarray(points, dtype=float))
-    codes, statuses, _ = ConeShell(problem, family or fam or "", elastic_cells,
-                                   reduction).decide(pts, np.arange(len(pts)), seed)
-    return codes, statuses
+    shell = ConeShell(problem, family or fam or "", elastic_cells, reduction)
+    got = shell.decide_in_order(pts, np.arange(len(pts)), seed,
+                                LearnedFacets(problem.k) if learn else None)
+    return got.codes, got.statuses
 
 
 class ConeShell:
@@ -274,26 +318,70 @@ class ConeShell:
         ``ids`` (e.g. global row numbers) seed each point's product-state search as
         ``default_rng([seed, id])``: a point's verdict depends on nothing else.
         """
+        got = self.decide_in_order(points, ids, seed)
+        return got.codes, got.statuses, got.reasons
+
+    def decide_in_order(self, points: np.ndarray, ids: np.ndarray, seed: int = 0,
+                        learned: LearnedFacets | None = None, max_solves: int | None = None,
+                        ) -> ShellDecisions:
+        """Exact verdicts of ``points`` (m, k) in the given order, reusing certificates.
+
+        With ``learned`` (advanced in place), a point is first tested against the facets
+        learned so far: if one gives n . c/|c| < -CONE_BOUNDARY_TOL it is ``outside``
+        with no solve (status names the earlier point); otherwise it is solved, and the
+        facet of an ``outside`` verdict is learned for the points after it.  The running
+        minimum of n . c/|c| over the learned facets is kept for the rest of the batch
+        and updated once per new facet (vectorised).  ``max_solves`` caps the solves;
+        the points beyond it are still tested against the learned facets, and left
+        ``marginal`` with an empty reason when none decides them.  Without ``learned``
+        and ``max_solves`` this is :meth:`decide`: one solve per point.
+        """
         pts = np.atleast_2d(np.asarray(points, dtype=float))
         if pts.shape[1] != self.problem.k:
             raise ValueError(f"points must have {self.problem.k} columns, got {pts.shape[1]}")
-        codes = np.full(len(pts), MARGINAL, dtype=np.int8)
-        statuses, reasons = [], []
-        for i, (x, pid) in enumerate(zip(pts, np.asarray(ids), strict=True)):
-            rng = np.random.default_rng([int(seed), int(pid)])
-            code, why, short = self._decide_one(x, rng)
-            codes[i] = code
-            statuses.append(why)
-            reasons.append(short)
-        return codes, tuple(statuses), tuple(reasons)
+        ids = np.asarray(ids)
+        m = len(pts)
+        codes = np.full(m, MARGINAL, dtype=np.int8)
+        solved, by_facet = np.zeros(m, dtype=bool), np.zeros(m, dtype=bool)
+        statuses, reasons = [""] * m, [""] * m
+        cap = m if max_solves is None else max(int(max_solves), 0)
+        n_solves = 0
+        # running minimum of n . c/|c| over the learned facets (inf: none yet), and which
+        units = unit_rows(pts)
+        margin, who = np.full(m, np.inf), np.zeros(m, dtype=np.int64)
+        if learned is not None and len(learned) and m:
+            forms = facet_forms(units, learned.normals)
+            who = np.argmin(np.where(np.isnan(forms), np.inf, forms), axis=1)
+            margin = forms[np.arange(m), who]
+        for i in range(m):
+            if learned is not None and margin[i] < -CONE_BOUNDARY_TOL:
+                j = int(who[i])
+                codes[i], by_facet[i], reasons[i] = OUTSIDE, True, LEARNED_REASON
+                statuses[i] = (f"outside: facet learned at row {learned.sources[j]} "
+                               f"(verified {learned.kinds[j]}), n.c/|c| = {margin[i]:.3g}")
+                continue
+            if n_solves >= cap:
+                continue
+            n_solves += 1
+            rng = np.random.default_rng([int(seed), int(ids[i])])
+            code, statuses[i], reasons[i], normal = self._decide_one(pts[i], rng)
+            codes[i], solved[i] = code, True
+            if learned is not None and normal is not None:
+                learned.add(normal, int(ids[i]), "dual certificate"
+                            if self.family == "extremal" else "product state")
+                new = facet_forms(units[i + 1:], learned.normals[-1:])[:, 0]
+                better = new < margin[i + 1:]
+                margin[i + 1:][better] = new[better]
+                who[i + 1:][better] = len(learned) - 1
+        return ShellDecisions(codes, tuple(statuses), tuple(reasons), solved, by_facet)
 
-
-    def _decide_one(self, x: np.ndarray, rng: np.random.Generator) -> tuple[int, str, str]:
+    def _decide_one(self, x: np.ndarray, rng: np.random.Generator) -> Decision:
         """One point: directly, or sector by sector for a product of independent cones
-        (outside if any sector is outside, inside if every sector is inside)."""
+        (outside if any sector is outside, inside if every sector is inside); an
+        ``outside`` verdict comes with its facet's normal in the full coordinates."""
         if len(self.sectors) == 1 or not np.isfinite(x).all():
-            return decide_point(self.problem, self.family, x, rng, self.elastic_cells,
-                                self.reduction)
+            return _decide_point(self.problem, self.family, x, rng, self.elastic_cells,
+                                 self.reduction)
         found: list[tuple[int, str, str]] = []
         for sec in self.sectors:
             xs = x[list(sec.coefficients)]
@@ -301,16 +389,21 @@ class ConeShell:
                 found.append((MARGINAL, "marginal: a sector is at its apex (on the boundary)",
                               "a sector at its apex (on the boundary)"))
                 continue
-            code, why, short = decide_point(sec.problem, self.family, xs, rng,
-                                            self.elastic_cells)
+            code, why, short, normal = _decide_point(sec.problem, self.family, xs, rng,
+                                                     self.elastic_cells, None)
             if code == OUTSIDE:
-                return code, f"{why} [sector {', '.join(sec.problem.coefficients)}]", short
+                full = None
+                if normal is not None:
+                    full = np.zeros(self.problem.k)
+                    full[list(sec.coefficients)] = normal
+                return (code, f"{why} [sector {', '.join(sec.problem.coefficients)}]", short,
+                        full)
             found.append((code, why, short))
         for code, why, short in found:
             if code == MARGINAL:
-                return code, why, short
+                return code, why, short, None
         return INSIDE, "inside: every sector inside (" + "; ".join(w for _, w, _ in found) \
-            + ")", found[0][2]
+            + ")", found[0][2], None
 
 
 def _min_form(cols: list[np.ndarray], a: np.ndarray) -> np.ndarray:
@@ -326,10 +419,14 @@ def _min_form(cols: list[np.ndarray], a: np.ndarray) -> np.ndarray:
 
 
 def classify_cone(region: Region, points: np.ndarray, chunk: int = 1_000_000,
-                  solve_shell: bool = True) -> tuple[np.ndarray, np.ndarray, dict[int, str]]:
+                  solve_shell: bool = True, learn: bool = False,
+                  ) -> tuple[np.ndarray, np.ndarray, dict[int, str]]:
     """Verdicts for many points: facet tests, then exact solves for the shell only.
 
-    Returns (codes, in_shell mask, statuses of the shell points by index).
+    With ``learn``, the shell points are decided in index order reusing the separating
+    facets of earlier ones (:func:`shell_membership`; fewer solves, the order of the
+    points then matters for which are left ``marginal``).  Returns (codes, in_shell mask,
+    statuses of the shell points by index).
     """
     pts = np.asarray(points, dtype=float)
     a_out, _ = region.arrays()
@@ -350,7 +447,7 @@ def classify_cone(region: Region, points: np.ndarray, chunk: int = 1_000_000,
     statuses: dict[int, str] = {}
     if solve_shell and shell.any():
         idx = np.nonzero(shell)[0]
-        sub, why = shell_membership(region, pts[idx])
+        sub, why = shell_membership(region, pts[idx], learn=learn)
         codes[idx] = sub
         statuses = dict(zip(idx.tolist(), why, strict=True))
     return codes, shell, statuses

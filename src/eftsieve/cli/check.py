@@ -224,12 +224,14 @@ def shell_line(result: CheckResult) -> str:
     if sh is None:
         return ""
     text = (f"shell (between inner and outer cones): {sh.n_shell} points "
-            f"({fmt_pct(sh.shell_fraction)}); solved inside {sh.n_inside}, outside "
-            f"{sh.n_outside}, left marginal {sh.n_marginal}")
+            f"({fmt_pct(sh.shell_fraction)}); inside {sh.n_inside}, outside "
+            f"{sh.n_outside} ({sh.n_learned} by learned facets, no solve), left marginal "
+            f"{sh.n_marginal}")
     if sh.reasons:
         text += " (" + "; ".join(f"{r}: {n}" for r, n in sh.reasons[:2]) + ")"
+    text += f"; {sh.n_solves} exact solves"
     if sh.n_marginal:
-        text += (f"; p_inside counts them as inside, so it may be lower by up to "
+        text += (f"; p_inside counts the marginal ones as inside, so it may be lower by up to "
                  f"{fmt_prob(sh.marginal_fraction)}")
     return text
 

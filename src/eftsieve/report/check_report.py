@@ -209,7 +209,8 @@ def shell_block(result: CheckResult) -> list:
         return []
     rows = (("points in the shell", f"{sh.n_shell} ({fmt_pct(sh.shell_fraction)} of the "
                                     "points, weighted)"),
-            ("solved inside", str(sh.n_inside)), ("solved outside", str(sh.n_outside)),
+            ("decided inside", str(sh.n_inside)), ("decided outside", str(sh.n_outside)),
+            ("of them outside by a learned facet (no solve)", str(sh.n_learned)),
             ("left marginal", str(sh.n_marginal)),
             ("exact solves (budget per partition)", f"{sh.n_solves} ({sh.budget})"),
             ("change of p_inside by the solves", fmt_pm(sh.p_correction,
@@ -221,7 +222,10 @@ def shell_block(result: CheckResult) -> list:
                    "exact membership solve each: `inside` only with a verified solution, "
                    "`outside` only with a verified separating certificate; a failed or "
                    "inaccurate solve, or a point beyond the solve budget, stays `marginal` "
-                   "and counts as inside the outer facets in p_inside."),
+                   "and counts as inside the outer facets in p_inside. Each separating "
+                   "certificate is a valid facet of the whole cone, so it is kept and tried "
+                   "on the later points of the same partition (in row order): a point it "
+                   "excludes is `outside` without a solve (a learned facet)."),
               Table(("quantity", "value"), rows)]
     if sh.reasons:
         blocks.append(Table(("why left marginal", "points"),
