@@ -42,6 +42,7 @@ def test_others_move_the_line(cone_regions):
     ("bad_convention.csv", "line 2.convention"),
     ("bad_others.csv", "line 2.others.fS0"),
     ("bad_units.csv", "line 2.units"),
+    ("bad_free_not_a_cone.csv", "line 2.others"),
 ])
 def test_bad_cards_are_refused(name, field):
     with pytest.raises(InputError) as err:
@@ -68,3 +69,27 @@ def test_a_region_that_is_not_a_cone(su2_region):
     assert t.status == "undecided" and t.cut.method == "undecided"
     assert t.allowed[0] < t.sure[0] < t.sure[1] == t.allowed[1] == row.high
     assert sign_rules(su2_region) == ()
+
+
+def test_rows_with_the_others_free(cone_regions):
+    # higgs-quartic: fS0 >= 0, fS0 + fS2 >= 0, fS0 + fS1 + fS2 >= 0 (Remmen & Rodd,
+    # arXiv:1908.09845, from memory).  With fS1 and fS2 free (Fourier-Motzkin by hand, and
+    # tests/bounds/test_projection.py) only fS0 >= 0 remains, and fS1 is free in sign;
+    # alone (others zero) fS1 >= 0.
+    rows = read_interval_card(CARDS / "good_free.csv", get_theory)
+    assert [r.others_free for r in rows] == [True, True, False]
+    assert rows[0].to_dict()["others"] == "free"
+    region = cone_regions("higgs-quartic")
+    fs0, fs1_free, fs1_alone = truncate_rows(rows, {"higgs-quartic": region})
+    assert fs0.allowed == (0.0, 2.0) and fs0.sure == (0.0, 2.0)
+    assert fs0.status == "truncated" and fs0.cut.method == "projection"
+    assert "fS0 >= 0 with every other coefficient" in fs0.cut.notes[0]
+    assert fs1_free.allowed == (-1.0, 2.0) and fs1_free.status == "kept"
+    assert fs1_alone.allowed[0] == pytest.approx(0.0, abs=1e-9)
+
+
+def test_free_rows_need_the_extremal_family(cone_regions):
+    rows = read_interval_card(CARDS / "good_free.csv", get_theory)
+    elastic = get_theory("higgs-quartic").build_region({"families": ["elastic"]})
+    with pytest.raises(InputError, match="extremal family"):
+        truncate_rows(rows[:1], {"higgs-quartic": elastic})

@@ -422,6 +422,11 @@ def test_regions_cover_the_coefficients_of_a_card_or_fit():
     assert THEORY.region_settings_for_coefficients(["fT0", "fS1"]) == {}
     got = THEORY.region_settings_for_coefficients(["fT8", "fT0"])["coordinates"]
     assert got == ["fS0", "fS1", "fS2", "fT0", "fT1", "fT2", "fT8"]
+    # a mixed W-B T-type: every T-type (S + fT0..fT2 + fT7 alone is a flat cone)
+    got = THEORY.region_settings_for_coefficients(["fT7"])["coordinates"]
+    assert sorted(got) == sorted(["fS0", "fS1", "fS2", *(c for c in ops.COEFFICIENTS
+                                                         if c.startswith("fT"))])
+    THEORY.build_region({"coordinates": got})          # builds: not flat (about 7 s)
     assert THEORY.region_settings_for_coefficients(["fM6"]) == {"coordinates": "all"}
     assert parse_coordinates("all") == ops.COEFFICIENTS == parse_coordinates(["all"])
 
@@ -507,3 +512,10 @@ def test_a_fit_moving_a_free_coefficient_is_checked_against_the_projection(tmp_p
     with pytest.raises(InputError, match="fixes it to zero"):
         THEORY.coordinate_map(fit, SimpleNamespace(coordinates=("fT2",),
                                                    convention={"name": "hat-i"}))
+
+
+def test_a_flat_subset_is_refused_in_one_line():
+    # fT0..fT2 with fT5: every verified inner point lies in a proper subspace (a flat
+    # cone); the builder says so instead of failing inside its simplex choice
+    with pytest.raises(InputError, match="no interior point"):
+        THEORY.build_region({"coordinates": ["fT0", "fT1", "fT2", "fT5"]})

@@ -358,7 +358,13 @@ class _Builder:
         (rows of R^-1 for the ray matrix R: c = R lam with lam >= 0)."""
         self.inner_kind = "simplex"
         pts = np.array(self.inner)
-        idx = _large_simplex(self.to_slice(pts))
+        try:
+            idx = _large_simplex(self.to_slice(pts))
+        except ValueError as err:
+            # every verified inner point lies in a proper subspace: the cone is flat (or
+            # the rays missed a direction); no inner set, and no region, is claimed
+            raise SolverError("flat", f"the inner set ({err}: the cone may have no "
+                              "interior)") from err
         rays = pts[idx]                                   # (k, k), on the slice w . c = 1
         inv = np.linalg.inv(rays.T)
         return inv / np.linalg.norm(inv, axis=1, keepdims=True)

@@ -136,9 +136,13 @@ def _intersect(a: tuple[float, float] | None, lo: float, hi: float
 
 def truncate_row(row: IntervalRow, region: Region, *, exact: bool = True
                  ) -> TruncatedInterval:
-    """The part of one published interval that positivity allows."""
-    p0, v = row_line(row, region)
-    cut = line_cut(region, p0, v, exact=exact)
+    """The part of one published interval that positivity allows (a row with the others
+    free: against the cone's projection onto its coefficient, :func:`free_cut`)."""
+    if row.others_free:
+        cut = free_cut(row, region)
+    else:
+        p0, v = row_line(row, region)
+        cut = line_cut(region, p0, v, exact=exact)
     allowed = _intersect(cut.allowed, row.low, row.high)
     sure = _intersect(cut.sure, row.low, row.high)
     width = row.high - row.low
@@ -230,3 +234,63 @@ def with_free_signs(rules: tuple[SignRule, ...], region: Region, names: list[str
             r = replace(r, free_rule=rule, free_residual=res)
         out.append(r)
     return tuple(out)
+
+
+#: the cut method of a row with the other coefficients free
+PROJECTION_CUT = "projection"
+
+
+def free_cut(row: IntervalRow, region: Region) -> LineCut:
+    """The cut of a row whose other coefficients were free: the projection of the theory's
+    whole extremal cone onto the row's coefficient (:mod:`eftsieve.bounds.projection`).
+
+    The coefficient must map (with the row's convention) onto one coordinate of the
+    theory, times a non-zero factor a; the allowed set of x is then the projection's sign
+    rule applied to a x.  A side is "sure" when the projection has proven points there
+    (every positive multiple of a point of a cone is in it).
+
+    Raises
+    ------
+    InputError
+        The theory is not a positivity cone with a full problem, the region's family is
+        not ``extremal``, or the coefficient maps onto several coordinates.
+    """
+    from eftsieve.errors import InputError
+    from eftsieve.limits.mapping import affine_into
+    from eftsieve.theories import get_theory
+
+    where = f"line {row.line}.others"
+    theory = get_theory(row.theory)
+    if not callable(getattr(theory, "problem", None)) or "cone_problem" not in region.settings:
+        raise InputError(None, where, f"'free' needs a positivity cone; {row.theory} is not "
+                         "one", "give the values the other coefficients were held at")
+    if region.settings.get("family") != "extremal":
+        raise InputError(None, where, "a row with the others free is decided with the "
+                         "extremal family (its projection)", "drop --family elastic")
+    full = _full_problem(row.theory).coefficients
+    # the region's convention over all the theory's coefficients (only the map is used)
+    whole = replace(region, coordinates=full, facets=(), inner_facets=(), inner_vertices=())
+    jac, shift = affine_into(whole, row.theory, row.convention, [row.coefficient],
+                             row.kinematics, row.label)
+    v = jac[:, 0]
+    nz = np.flatnonzero(v)
+    if len(nz) != 1 or np.any(shift):
+        raise InputError(None, where, f"{row.coefficient} maps onto "
+                         f"{len(nz)} coordinates of {row.theory}, not one, in convention "
+                         f"{row.convention.name}", "state the row in a convention where "
+                         "the coefficient is one coordinate, or give the others' values")
+    name, a = full[int(nz[0])], float(v[nz[0]])
+    rule, res = _free_sign(row.theory, name)
+    pos, neg = (rule in ("nonnegative", "free"), rule in ("nonpositive", "free"))
+    if a < 0:
+        pos, neg = neg, pos
+    inf = float("inf")
+    if rule == "undecided":
+        allowed, sure, method = (-inf, inf), None, UNDECIDED_CUT
+    else:
+        allowed = (-inf if neg else 0.0, inf if pos else 0.0)
+        sure, method = allowed, PROJECTION_CUT
+    resid = f", facet residual {res:.0e}" if res is not None else ""
+    note = (f"others free: {name} {SIGN_TEXT[rule]} with every other coefficient of "
+            f"{row.theory} free (projection of the extremal cone{resid})")
+    return LineCut(allowed, sure, method, (note,), 0)

@@ -104,13 +104,16 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
     if rows is None:
         rows = read_interval_card(path, get_theory)
     theories = list(dict.fromkeys(r.theory for r in rows))
-    names = {t: list(dict.fromkeys(n for r in rows if r.theory == t
+    # rows with the others free need no region coordinate of theirs (their projection is
+    # of the theory's whole cone), so they do not widen the region
+    names = {t: list(dict.fromkeys(n for r in rows if r.theory == t and not r.others_free
                                    for n in (r.coefficient, *r.others)))
              for t in theories}
     got = {t: regions(t, names[t]) for t in theories}
     regs = {t: r for t, (r, _) in got.items()}
     out = truncate_rows(tuple(rows), regs, exact=exact)
-    signs = {t: with_free_signs(rules, regs[t], names[t]) for t in theories
+    card = {t: [r.coefficient for r in rows if r.theory == t] for t in theories}
+    signs = {t: with_free_signs(rules, regs[t], names[t] + card[t]) for t in theories
              if (rules := sign_rules(regs[t], exact=exact))}
     info = {t: region_info(r, p) for t, (r, p) in got.items()}
     return LimitsResult(str(path), "interval-card", info, out, signs, notes=CARD_NOTES)

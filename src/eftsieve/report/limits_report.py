@@ -25,7 +25,8 @@ LIMITS_OUTPUTS = ("summary.json", "intervals.csv", "report.md", "report.html",
 #: how the ends of an allowed part were decided, for people
 METHOD_TEXT = {"facets": "facets (exact)", "bisection": "bisection (exact membership)",
                "boundary": "facets (end on the cone's boundary)",
-               "undecided": "undecided"}
+               "undecided": "undecided",
+               "projection": "projection (others free; sign of the coefficient)"}
 
 
 def _iv(iv: tuple[float, float] | None, digits: int = 3) -> str:
@@ -47,7 +48,8 @@ def interval_rows(rows: tuple[TruncatedInterval, ...]) -> tuple[tuple[str, ...],
     out = []
     for t in rows:
         r = t.row
-        others = ", ".join(f"{k}={fmt_num(v)}" for k, v in r.others.items()) or "all 0"
+        others = "all free" if r.others_free else (
+            ", ".join(f"{k}={fmt_num(v)}" for k, v in r.others.items()) or "all 0")
         out.append((r.label or r.coefficient, r.coefficient, _iv((r.low, r.high)),
                     f"{fmt_num(100 * r.cl)}%", others, r.convention.name, _iv(t.allowed),
                     _iv(t.sure) if t.sure is not None else "none proven",

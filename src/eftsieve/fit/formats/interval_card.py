@@ -53,6 +53,9 @@ class IntervalRow:
         Its confidence level, a fraction in (0, 1).
     others
         The values the other coefficients were held at (names of the card).
+    others_free
+        The other coefficients were free (profiled or marginalised, the ``others`` cell
+        ``free``): the row is checked against the cone's projection onto its coefficient.
     convention
         The convention the coefficients are stated in, checked against the theory's.
     units, source, label, note
@@ -72,10 +75,12 @@ class IntervalRow:
     label: str = ""
     note: str = ""
     kinematics: dict[str, float] = field(default_factory=dict)
+    others_free: bool = False
 
     def to_dict(self) -> dict[str, Any]:
         return {"line": self.line, "theory": self.theory, "coefficient": self.coefficient,
-                "low": self.low, "high": self.high, "cl": self.cl, "others": self.others,
+                "low": self.low, "high": self.high, "cl": self.cl,
+                "others": "free" if self.others_free else self.others,
                 "convention": self.convention.to_dict(), "units": self.units,
                 "source": self.source, "label": self.label, "note": self.note,
                 "kinematics": self.kinematics}
@@ -256,7 +261,13 @@ def _row(p: Path, n: int, cells: dict[str, str], theory_of: Callable[[str], Any]
     if low > high:
         raise InputError(p, f"{where}.low", f"low {low:g} is above high {high:g}",
                          "swap them")
-    others = parse_assignments(cells.get("others", ""), p, f"{where}.others")
+    others_free = cells.get("others", "").strip().lower() == "free"
+    if others_free and not callable(getattr(th, "problem", None)):
+        raise InputError(p, f"{where}.others", f"'free' needs a positivity-cone theory; "
+                         f"{th.name} is not one", "give the values the other coefficients "
+                         "were held at")
+    others = {} if others_free else parse_assignments(cells.get("others", ""), p,
+                                                       f"{where}.others")
     bad = [k for k in others if k == coef or k not in th.parameter_names]
     if bad:
         raise InputError(p, f"{where}.others.{bad[0]}", "is the row's coefficient or not a "
@@ -269,7 +280,7 @@ def _row(p: Path, n: int, cells: dict[str, str], theory_of: Callable[[str], Any]
     conv = declared_convention(th, cells["convention"], kin, p, f"{where}.convention")
     return IntervalRow(n, th.name, coef, low, high, parse_cl(cells["cl"], p, f"{where}.cl"),
                        others, conv, cells["units"], cells["source"], cells.get("label", ""),
-                       cells.get("note", ""), kin)
+                       cells.get("note", ""), kin, others_free)
 
 
 def declared_convention(theory: Any, raw: str | None, kin: dict[str, float],

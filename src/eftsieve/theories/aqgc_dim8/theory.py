@@ -104,12 +104,17 @@ def parse_free(raw: Any, coords: tuple[str, ...]) -> tuple[str, ...]:
 
 
 def _covering(used: Sequence[str]) -> list[str] | str:
-    """Coordinates of a region that decides points moving ``used``: those themselves, or
-    all 18 once an M-type coefficient is among them (subsets with M-type coefficients are
-    often flat cones without an interior point, while the 18-coefficient cone meets every
-    subspace in that subspace's own cone)."""
+    """Coordinates of a region that decides points moving ``used``: those themselves; all
+    T-type coefficients once a mixed W-B one (fT5, fT6, fT7) is among them; all 18 once an
+    M-type coefficient is.  Subsets with M-type coefficients, and S + fT0..fT2 with fT5,
+    fT6 or fT7 (even all three) but without fT8 and fT9, are flat cones without an
+    interior point (measured), while the larger cone meets every subspace in that
+    subspace's own cone."""
     if any(c.startswith("fM") for c in used):
         return "all"
+    if any(c in ("fT5", "fT6", "fT7") for c in used):
+        return list(dict.fromkeys([*used, *(c for c in ops.COEFFICIENTS
+                                            if c.startswith("fT"))]))
     return list(used)
 
 
