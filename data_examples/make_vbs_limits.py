@@ -21,9 +21,11 @@ HERE = Path(__file__).parent
 #: the demo's theory and convention (the only place they are named)
 THEORY, CONVENTION = "aqgc-dim8", "hat-i"
 LABEL = "INVENTED demo data: fictional experiment 'Borealis', not a measurement"
-#: invented one-coefficient 95% CL intervals, TeV^-4 (coefficient, low, high, others)
+#: invented one-coefficient 95% CL intervals, TeV^-4 (coefficient, low, high, others;
+#: ``free``: the other coefficients profiled, checked against the cone's projection)
 INTERVALS = (("fT0", -0.34, 0.37, ""), ("fT1", -0.21, 0.24, ""), ("fT2", -0.55, 0.71, ""),
-             ("fT2", -0.62, -0.04, "fT0=0.1"), ("fT1", -0.30, 0.85, "fT0=-0.2"))
+             ("fT2", -0.62, -0.04, "fT0=0.1"), ("fT1", -0.30, 0.85, "fT0=-0.2"),
+             ("fT7", -0.45, 0.52, "free"))
 
 
 def write_card(path: Path) -> None:
