@@ -93,3 +93,16 @@ def test_free_rows_need_the_extremal_family(cone_regions):
     elastic = get_theory("higgs-quartic").build_region({"families": ["elastic"]})
     with pytest.raises(InputError, match="extremal family"):
         truncate_rows(rows[:1], {"higgs-quartic": elastic})
+
+
+def test_free_rows_under_the_elastic_family_name_the_card(tmp_path):
+    # the refusal comes from the row, so it names the card file and the row's field
+    from eftsieve.limits.run import limits_from_card
+    from eftsieve.region.build import build_region
+
+    card = CARDS / "good_free.csv"
+    with pytest.raises(InputError) as err:
+        limits_from_card(card, lambda theory, names=(): (
+            build_region(theory, {"families": ["elastic"]}), None))
+    assert err.value.path == str(card) and err.value.field == "line 3.others"
+    assert "extremal family" in err.value.one_line()

@@ -111,7 +111,13 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
              for t in theories}
     got = {t: regions(t, names[t]) for t in theories}
     regs = {t: r for t, (r, _) in got.items()}
-    out = truncate_rows(tuple(rows), regs, exact=exact)
+    try:
+        out = truncate_rows(tuple(rows), regs, exact=exact)
+    except InputError as err:
+        if err.path is None and (err.field or "").startswith("line "):
+            # a row's own problem (e.g. 'others = free' under --family elastic): name the card
+            raise InputError(path, err.field, err.problem, err.hint) from err
+        raise
     card = {t: [r.coefficient for r in rows if r.theory == t] for t in theories}
     signs = {t: with_free_signs(rules, regs[t], names[t] + card[t]) for t in theories
              if (rules := sign_rules(regs[t], exact=exact))}
