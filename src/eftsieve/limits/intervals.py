@@ -266,7 +266,8 @@ def free_cut(row: IntervalRow, region: Region) -> LineCut:
                          "one", "give the values the other coefficients were held at")
     if region.settings.get("family") != "extremal":
         raise InputError(None, where, "a row with the others free is decided with the "
-                         "extremal family (its projection)", "drop --family elastic")
+                         "extremal family (its projection)", "drop --family elastic, or give "
+                         "a --region of the extremal family")
     full = _full_problem(row.theory).coefficients
     # the region's convention over all the theory's coefficients (only the map is used)
     whole = replace(region, coordinates=full, facets=(), inner_facets=(), inner_vertices=())
