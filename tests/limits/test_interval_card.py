@@ -106,3 +106,14 @@ def test_free_rows_under_the_elastic_family_name_the_card(tmp_path):
             build_region(theory, {"families": ["elastic"]}), None))
     assert err.value.path == str(card) and err.value.field == "line 3.others"
     assert "extremal family" in err.value.one_line()
+
+
+def test_a_card_with_free_rows_says_what_they_mean(cone_regions):
+    from eftsieve.limits.run import FREE_NOTE, limits_from_card
+
+    res = limits_from_card(CARDS / "good_free.csv",
+                           lambda theory, names=(): (cone_regions(theory), None))
+    assert FREE_NOTE in res.notes
+    plain = limits_from_card(CARDS / "good.csv",
+                             lambda theory, names=(): (cone_regions(theory), None))
+    assert FREE_NOTE not in plain.notes

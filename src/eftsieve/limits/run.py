@@ -92,6 +92,11 @@ def region_info(region: Region, path: str | None) -> dict[str, Any]:
 CARD_NOTES = ("A one-coefficient interval holds the other coefficients at fixed values "
               "(normally zero): it is a slice, not a fit, and its truncation says nothing "
               "about directions the analysis did not vary.",)
+#: added when a row's other coefficients were free
+FREE_NOTE = ("A row with others 'free' (profiled or marginalised) is checked against the "
+             "projection of the whole cone onto its coefficient: the sign positivity requires "
+             "of it whatever the other coefficients are (extremal family; its facet holds up "
+             "to the stated residual, docs/physics_aqgc.md).")
 
 
 def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = True,
@@ -122,7 +127,8 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
     signs = {t: with_free_signs(rules, regs[t], names[t] + card[t]) for t in theories
              if (rules := sign_rules(regs[t], exact=exact))}
     info = {t: region_info(r, p) for t, (r, p) in got.items()}
-    return LimitsResult(str(path), "interval-card", info, out, signs, notes=CARD_NOTES)
+    notes = CARD_NOTES + ((FREE_NOTE,) if any(r.others_free for r in rows) else ())
+    return LimitsResult(str(path), "interval-card", info, out, signs, notes=notes)
 
 
 def _factor(t: HepTable, k: int) -> float:
