@@ -30,3 +30,18 @@ def test_public_functions_survive_importing_their_sub_packages():
 
     assert callable(eftsieve.check) and callable(eftsieve.impose)
     assert "chpt-su2" in eftsieve.theories()
+
+
+def test_subpackages_named_like_functions_import_with_as():
+    # `import a.b.c as x` looks c up on the *function* eftsieve.check; Python's fallback
+    # then uses its __name__ to find the module in sys.modules (eftsieve._names)
+    import eftsieve as es
+    import eftsieve.check.verdicts as verdicts
+    import eftsieve.impose.core as core
+    import eftsieve.theories.aqgc_dim8 as aqgc
+
+    assert verdicts.__name__ == "eftsieve.check.verdicts"
+    assert core.__name__ == "eftsieve.impose.core"
+    assert aqgc.__name__ == "eftsieve.theories.aqgc_dim8"
+    assert callable(es.check) and es.check.__qualname__ == "check"
+    assert "aqgc-dim8" in es.theories()

@@ -7,7 +7,7 @@ load only when a function needs them.
 import sys
 
 from eftsieve import errors
-from eftsieve._names import PublicModule
+from eftsieve._names import PublicModule, name_for_imports
 from eftsieve._version import __version__
 from eftsieve.api import (
     build_region,
@@ -39,3 +39,4 @@ __all__ = [
 
 # the functions check, impose and theories share their names with sub-packages
 sys.modules[__name__].__class__ = PublicModule
+name_for_imports(sys.modules[__name__])

@@ -6,6 +6,13 @@ makes Python's import system set the attribute ``eftsieve.check`` to the sub-pac
 which would hide the function.  :class:`PublicModule` ignores exactly that assignment;
 the sub-packages stay importable by their dotted names (``sys.modules``), as every
 ``from eftsieve.check.run import ...`` does.
+
+``import eftsieve.check.verdicts as v`` resolves ``eftsieve.check`` to the function and
+then looks for ``verdicts`` on it; Python's fallback for a missing attribute looks the
+module up as ``<__name__ of the object>.verdicts`` in ``sys.modules``
+(:func:`name_for_imports` sets each function's ``__name__`` to the dotted name of its
+sub-package, so that lookup finds it).  ``__qualname__`` stays the plain name, so the
+functions' repr and pickling are unchanged.
 """
 
 from __future__ import annotations
@@ -24,3 +31,12 @@ class PublicModule(types.ModuleType):
         if name in SHADOWED and isinstance(value, types.ModuleType) and name in self.__dict__:
             return
         super().__setattr__(name, value)
+
+
+def name_for_imports(module: types.ModuleType) -> None:
+    """Give each shadowing function of ``module`` the dotted name of its sub-package
+    (module docstring)."""
+    for name in SHADOWED:
+        func = module.__dict__.get(name)
+        if isinstance(func, types.FunctionType):
+            func.__name__ = f"{module.__name__}.{name}"
