@@ -291,6 +291,8 @@ RECORDS: dict[str, Callable[[], dict[str, Any]]] = {
     "contour_repeated_point": lambda: {"contour.yaml": _contour([1, 1, 1, 1], [2, 2, 2, 2])},
     "contour_collinear": lambda: {"contour.yaml": _contour([0, 1, 2, 3], [0, 1, 2, 3])},
     "contour_crossed": lambda: {"contour.yaml": _contour([-1, 1, 1, -1], [-1, 1, -1, 1])},
+    # a figure of eight with lobes of unequal size: its signed area does not vanish
+    "contour_figure_eight": lambda: {"contour.yaml": _contour([-1, 3, 3, -1], [-2, 1, -1, 2])},
     "central_no_error": lambda: {"central.yaml": merge(_central(["fS0", "fS1"], [0.5, 0.2],
                                                                 [0.1, 0.1]), {
         "dependent_variables": [{"header": {"name": "Value"},

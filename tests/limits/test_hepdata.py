@@ -187,3 +187,17 @@ def test_observed_and_expected_columns_are_two_scans(tmp_path, higgs):
     assert obs.table == "Scan fS0 (Type: Observed)"
     assert obs.p_inside == pytest.approx(norm.sf(0.0, MU, SIGMA), abs=1e-6)
     assert expected.p_inside == pytest.approx(0.5, abs=1e-6)
+
+
+@pytest.mark.parametrize(("xs", "ys", "want"), [
+    ([-1, 3, 3, -1], [-2, 1, -1, 2], (0, 2)),           # figure of eight, lobes unequal
+    ([0, 2, 2, 0], [0, 0, 1, 1], None),                  # a rectangle
+    ([0, 2, 2, 0, 0], [0, 0, 1, 1, 0], None),            # the same, closed explicitly
+    ([0, 2, 1, 2, 0], [0, 0, 0.5, 1, 1], None),          # a non-convex simple polygon
+    ([0, 1, 2, 2, 1, 0], [0, 0, 0, 1, 0, 1], None),      # touches itself at (1, 0): no cross
+])
+def test_first_crossing_of_a_contour(xs, ys, want):
+    # the crossing test against hand-drawn polygons (their edges checked by eye)
+    from eftsieve.fit.formats.hepdata import first_crossing
+
+    assert first_crossing(np.column_stack([xs, ys])) == want

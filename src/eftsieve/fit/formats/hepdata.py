@@ -377,6 +377,47 @@ def _check_contour(table: HepTable, x: Variable, y: Variable) -> None:
         raise InputError(table.path, f"{y.where}.values", "the contour encloses no area (its "
                          "points lie on a line, or it crosses itself so that its parts "
                          "cancel)", "give the contour's points in order around it")
+    hit = first_crossing(pts)
+    if hit is not None:
+        i, j = hit
+        raise InputError(table.path, f"{y.where}.values", f"the contour crosses itself (its "
+                         f"edges from point {i + 1} and from point {j + 1} intersect), so its "
+                         "area is not the area inside it", "give one closed contour with its "
+                         "points in order around it (several islands: one table each)")
+
+
+def first_crossing(pts: np.ndarray) -> tuple[int, int] | None:
+    """The first pair (i, j) of non-adjacent edges of a closed polygon that cross properly
+    (edge k runs from point k to point k + 1, the last one back to the first), or None.
+
+    Orientation tests with a relative tolerance: touching or collinear edges do not count,
+    only edges whose end points lie strictly on opposite sides of each other.
+    """
+    p = np.asarray(pts, dtype=float)
+    if len(p) > 1 and np.array_equal(p[0], p[-1]):
+        p = p[:-1]
+    n = len(p)
+    if n < 4:
+        return None
+    a, b = p, np.roll(p, -1, axis=0)
+    scale = float(np.ptp(p[:, 0]) * np.ptp(p[:, 1])) or 1.0
+    tol = 1e-12 * scale
+
+    def orient(o: np.ndarray, u: np.ndarray, v: np.ndarray) -> np.ndarray:
+        return (u[..., 0] - o[..., 0]) * (v[..., 1] - o[..., 1]) - \
+            (u[..., 1] - o[..., 1]) * (v[..., 0] - o[..., 0])
+
+    for i in range(n - 2):
+        j = np.arange(i + 2, n if i > 0 else n - 1)   # edge n-1 is adjacent to edge 0
+        if not len(j):
+            continue
+        d1, d2 = orient(a[i], b[i], a[j]), orient(a[i], b[i], b[j])
+        d3, d4 = orient(a[j], b[j], a[i]), orient(a[j], b[j], b[i])
+        cross = (((d1 > tol) & (d2 < -tol)) | ((d1 < -tol) & (d2 > tol))) & \
+            (((d3 > tol) & (d4 < -tol)) | ((d3 < -tol) & (d4 > tol)))
+        if cross.any():
+            return i, int(j[np.argmax(cross)])
+    return None
 
 
 def _check_scan(table: HepTable, dep: Variable) -> None:
