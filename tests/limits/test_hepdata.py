@@ -201,3 +201,18 @@ def test_first_crossing_of_a_contour(xs, ys, want):
     from eftsieve.fit.formats.hepdata import first_crossing
 
     assert first_crossing(np.column_stack([xs, ys])) == want
+
+
+def test_check_never_skips_a_damaged_correlation_table(tmp_path):
+    # the correlation table names a coefficient the theory does not have: `check` on the
+    # record must refuse it (before, it was skipped and the fit got uncorrelated errors)
+    from eftsieve.fit.formats.hepdata import fit_from_record
+    from eftsieve.theories import get_theory
+
+    corr = np.array([[1.0, 0.5], [0.5, 1.0]])
+    tabs = central_tables(["fS0", "fS1"], [0.2, 0.1], [0.3, 0.4], corr)
+    tabs[1].variables[0].values = ["fS0", "fS0", "fX9", "fX9"]
+    sub = write_record(tmp_path, tabs)
+    theory = get_theory("higgs-quartic")
+    with pytest.raises(InputError, match="fX9"):
+        fit_from_record(sub, theory, Convention("none"))

@@ -532,15 +532,17 @@ def is_record(path: str | Path) -> bool:
 
 
 def fit_from_record(path: str | Path, theory: Any, convention: Any) -> Any:
-    """The Gaussian fit of a record's central-value and covariance tables (the other
-    tables are not read; coefficients the record does not give are held at zero)."""
+    """The Gaussian fit of a record's central-value and covariance tables (scans and
+    contours are left to ``eftsieve limits``; coefficients the record does not give are
+    held at zero).
+
+    Every table is classified as ``eftsieve limits`` classifies it, so a malformed table
+    is refused with its file and field, whatever its layout: a damaged covariance table
+    is never skipped in silence (the fit would then have uncorrelated errors).
+    """
     p = Path(path)
-    found = []
-    for t in read_record(p):
-        try:
-            found.append(_classify_gaussian(t, theory.parameter_names))
-        except InputError:
-            continue
+    found = [t for t in (classify(t, theory.parameter_names) for t in read_record(p))
+             if t.layout in ("central", "covariance", "correlation")]
     if not any(t.layout == "central" for t in found):
         raise InputError(p, "dependent_variables", "no table of central values with errors",
                          "use `eftsieve limits` for scans, contours and intervals")
