@@ -519,3 +519,24 @@ def test_a_flat_subset_is_refused_in_one_line():
     # cone); the builder says so instead of failing inside its simplex choice
     with pytest.raises(InputError, match="no interior point"):
         THEORY.build_region({"coordinates": ["fT0", "fT1", "fT2", "fT5"]})
+
+
+@pytest.mark.slow  # about 15 s: 18 one-coefficient projections of the 18-coefficient cone
+def test_signs_with_every_other_coefficient_free():
+    # the table of docs/physics_aqgc.md ("Other coefficients free"); each sign comes with
+    # a certificate that is re-verified from what is stored and tested on random members
+    # of the cone built without a solver (check_facet_on_cone), and "unconstrained" means
+    # proven points of both signs
+    from eftsieve.bounds.cones import check_facet_on_cone, verify_certificate
+    from eftsieve.bounds.projection import project_cone, sign_with_others_free
+
+    problem = aqgc_problem(ops.COEFFICIENTS)
+    want = {"fS0": "nonnegative", "fM3": "nonpositive", "fT2": "nonnegative",
+            "fT7": "nonnegative", "fT9": "nonnegative"}
+    rng = np.random.default_rng(3)
+    for name in ops.COEFFICIENTS:
+        pc = project_cone(problem, [name])
+        assert sign_with_others_free(pc) == want.get(name, "free"), name
+        for cert in pc.certificates:
+            assert verify_certificate(problem, cert.to_dict(), cert.normal)
+            assert check_facet_on_cone(problem, cert, rng, 32) >= 0
