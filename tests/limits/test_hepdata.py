@@ -216,3 +216,22 @@ def test_check_never_skips_a_damaged_correlation_table(tmp_path):
     theory = get_theory("higgs-quartic")
     with pytest.raises(InputError, match="fX9"):
         fit_from_record(sub, theory, Convention("none"))
+
+
+def test_a_contour_against_a_projection_with_the_others_free(tmp_path):
+    # (fS0, fS1) with fS2 free: only fS0 >= 0 remains (Fourier-Motzkin on Remmen & Rodd,
+    # arXiv:1908.09845, from memory; tests/bounds/test_projection.py), so half of the
+    # square [-1, 1]^2 is allowed; with fS2 = 0 the slice also needs fS0 + fS1 >= 0
+    # (a quarter-square less: 0.25)
+    from eftsieve.bounds.projection import project_cone, projection_region
+    from eftsieve.theories import get_theory
+
+    problem = get_theory("higgs-quartic").problem()
+    region = projection_region("higgs-quartic", project_cone(problem, ["fS0", "fS1"]),
+                               {"name": "none"})
+    sub = write_record(tmp_path, [contour_table("Square", ("f_{S0}", "f_{S1}"),
+                                                [-1, 1, 1, -1], [-1, -1, 1, 1])])
+    res = limits_from_record(sub, "higgs-quartic", NONE, region)
+    (c,) = res.contours
+    assert c.fraction_inside == pytest.approx(0.5, abs=1e-5)
+    assert res.notes[0].startswith("The region is a projection with fS2 free")

@@ -127,7 +127,9 @@ def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = T
     signs = {t: with_free_signs(rules, regs[t], names[t] + card[t]) for t in theories
              if (rules := sign_rules(regs[t], exact=exact))}
     info = {t: region_info(r, p) for t, (r, p) in got.items()}
-    notes = CARD_NOTES + ((FREE_NOTE,) if any(r.others_free for r in rows) else ())
+    notes = CARD_NOTES + ((FREE_NOTE,) if any(r.others_free for r in rows) else ()) + tuple(
+        r.notes[0] for r in regs.values()
+        if isinstance(r.settings, dict) and "projection" in r.settings and r.notes)
     return LimitsResult(str(path), "interval-card", info, out, signs, notes=notes)
 
 
@@ -208,7 +210,12 @@ def limits_from_record(path: str | Path, theory: str, convention: Convention,
                                                  (t.coefficients[0], t.coefficients[1]),
                                                  poly, cut))
     gauss = _gaussian_check(path, found, th, convention, region, draws, seed)
-    notes = ("Every coefficient a table does not vary is held at zero.",
+    proj = region.settings.get("projection") if isinstance(region.settings, dict) else None
+    held = ("Every coefficient a table does not vary is held at zero." if not proj else
+            f"The region is a projection with {', '.join(proj['free'])} free (any value, "
+            "not zero); the other coefficients a table does not vary are held at zero. "
+            + (region.notes[0] if region.notes else ""))
+    notes = (held,
              "Scans become posteriors with a prior flat in the scanned coefficients over "
              "the scanned range (zero outside); contour fractions are fractions of area, "
              "not probabilities.")
