@@ -138,3 +138,32 @@ def test_sign_with_others_free_in_the_limits_table():
     fs0 = next(r for r in rules if r.coefficient == "fS0")
     assert fs0.free_residual is not None and fs0.free_residual <= MAX_RESIDUAL
     assert fs0.to_dict()["with_others_free"] == "nonnegative"
+
+
+@pytest.mark.parametrize(("theory", "keep", "free", "normals"), [
+    # transverse-W extremal facets fT2 >= 0, 4 fT1 + fT2 >= 0, 8 fT0 + 4 fT1 + 3 fT2 >= 0,
+    # 12 fT0 + 4 fT1 + 5 fT2 >= 0 (arXiv:1808.00010, from memory; docs/physics_cones.md):
+    # with fT0 and fT1 free, Fourier-Motzkin leaves fT2 >= 0
+    ("transverse-w", "fT2", "fT0,fT1", [(1.0,)]),
+    # light-by-light c1 = zeta1 + zeta2/2 >= 0, c2 = zeta2/4 >= 0 (hep-th/0602178, from
+    # memory): zeta1 free leaves zeta2 >= 0
+    ("photon-quartic", "zeta2", "all", [(1.0,)]),
+])
+def test_cone_theories_build_projections(theory, keep, free, normals):
+    region = get_theory(theory).build_region({"coordinates": keep, "free": free})
+    assert [tuple(np.round(f.normal, 9)) for f in region.facets] == normals
+    assert region.settings["projection"]["keep"] == [keep]
+
+
+@pytest.mark.parametrize(("settings", "match"), [
+    ({"coordinates": "zeta1", "free": "all"}, "unconstrained"),   # zeta1 free in sign
+    ({"coordinates": "zeta1"}, "only with --free"),
+    ({"free": "zeta2"}, "only with --free"),
+    ({"coordinates": "zeta3", "free": "all"}, "not a coefficient"),
+    ({"coordinates": "zeta1", "free": "zeta1"}, "also in --coordinates"),
+])
+def test_cone_theory_projection_requests_are_checked(settings, match):
+    from eftsieve.errors import InputError
+
+    with pytest.raises(InputError, match=match):
+        get_theory("photon-quartic").build_region(settings)

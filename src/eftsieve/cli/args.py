@@ -137,11 +137,13 @@ def add_region_args(p: argparse.ArgumentParser) -> None:
     p.add_argument("--spins", type=nonnegative_int, default=None, metavar="JMAX",
                    help="spin cut-off of the heavy-state grid (theories with sum rules)")
     p.add_argument("--coordinates", type=csv_list, default=None,
-                   help="region coordinates, e.g. g3t,g4t (theories that offer a choice)")
+                   help="region coordinates, e.g. g3t,g4t (theories that offer a choice; "
+                        "with --free, the one or two kept coefficients)")
     p.add_argument("--free", type=csv_list, default=None, metavar="NAMES",
                    help="coefficients left free (any value) instead of zero, or 'all' for "
                         "every coefficient not in --coordinates: the region is the cone's "
-                        "projection onto one or two --coordinates (theories that offer it)")
+                        "projection onto one or two --coordinates (positivity-cone "
+                        "theories, extremal family)")
     p.add_argument("--sin2-theta-w", type=positive_float, default=None, metavar="X",
                    help="weak mixing angle sin^2(theta_W) of theories with hatted field "
                         "strengths (the default is the theory's; it does not move the cone)")

@@ -38,6 +38,72 @@ CONE_CAUTIONS = (
 )
 
 
+def parse_names(raw: Any, allowed: tuple[str, ...], flag: str,
+                exclude: tuple[str, ...] = ()) -> tuple[str, ...]:
+    """Coefficient names from a setting (``all``, a list or a comma-separated string), in
+    the order of ``allowed``; ``all`` means every allowed name not in ``exclude``.
+    InputError (naming ``flag``) for unknown, duplicate or excluded names."""
+    if raw is None or raw == [] or raw == "":
+        return ()
+    items = [str(x).strip() for x in (raw.split(",") if isinstance(raw, str) else raw)]
+    if items == ["all"]:
+        return tuple(c for c in allowed if c not in exclude)
+    for name in items:
+        if name not in allowed:
+            raise InputError(None, flag, f"'{name}' is not a coefficient of the cone",
+                             f"choose among {','.join(allowed)}, or all")
+        if name in exclude:
+            raise InputError(None, flag, f"'{name}' is also in --coordinates",
+                             "a coefficient is either a coordinate or free")
+    if len(set(items)) != len(items):
+        raise InputError(None, flag, "duplicate coefficient names", "name each once")
+    return tuple(c for c in allowed if c in items)
+
+
+def build_projection(theory: str, problem: ConeProblem, keep: tuple[str, ...],
+                     free: tuple[str, ...], family: str, convention: dict[str, Any],
+                     notes: tuple[str, ...]) -> Region:
+    """The region of the cone of ``problem`` restricted to keep + free (the rest fixed to
+    zero) and projected onto ``keep`` (:mod:`eftsieve.bounds.projection`); InputError
+    with the answer when positivity constrains nothing there, or when the request cannot
+    be built (elastic family, more than two kept coefficients, a failed projection)."""
+    from eftsieve.bounds.projection import project_cone, projection_region
+    from eftsieve.errors import SolverError
+
+    if family != "extremal":
+        raise InputError(None, "--free", "projections are built for the extremal family "
+                         "only", "use --family extremal (the elastic cone's product "
+                         "states are not searched with free coefficients)")
+    if not 1 <= len(keep) <= 2:
+        raise InputError(None, "--coordinates", f"a projection is built onto one or two "
+                         f"coefficients, got {len(keep)}", "give one or two names, "
+                         "e.g. --coordinates fT0,fT1 --free all")
+    names = tuple(c for c in problem.coefficients if c in keep or c in free)
+    idx = [problem.coefficients.index(c) for c in names]
+    sub = ConeProblem(names, problem.modes, problem.tensors[idx])
+    try:
+        pc = project_cone(sub, keep)
+    except SolverError as err:
+        raise InputError(None, "--free", f"the projection of the cone of {','.join(names)} "
+                         f"onto {','.join(keep)} failed ({err})",
+                         "free more coefficients, or --free all") from err
+    if not len(pc.normals):
+        what = "line" if len(keep) == 1 else "plane"
+        whole = not len(pc.inner_normals())
+        raise InputError(None, "--free", (
+            f"positivity leaves {','.join(keep)} unconstrained when {len(free)} "
+            f"coefficients are free: the projection is the whole {what} (proven points "
+            f"in every direction)") if whole else (
+            f"the projection onto {','.join(keep)} has no verified outer facet (its "
+            f"boundary shots failed)"), "fix some of them to zero (a shorter --free "
+            "list), or build the cone itself without --free")
+    fixed = [c for c in problem.coefficients if c not in names]
+    conv = dict(convention)
+    if fixed:
+        conv["fixed_to_zero"] = fixed
+    return projection_region(theory, pc, conv, notes=notes)
+
+
 def problem_from_operators(coefficients: tuple[str, ...], modes: AnyModes,
                            operators: Mapping[str, Density], info: dict[str, Any],
                            ) -> ConeProblem:
@@ -51,7 +117,8 @@ class ConeTheory(Theory):
     """A dimension-8 theory on the positivity-cone engine (subclasses set the attributes)."""
 
     convention_specs: dict[str, ConventionSpec] = {}
-    setting_names: tuple[str, ...] = ("families", "family", "shell_target", "seed",
+    setting_names: tuple[str, ...] = ("families", "family", "shell_target", "seed", "free",
+                                      "coordinates",
                                       "convention")
     cautions: tuple[str, ...] = CONE_CAUTIONS
     kinematic_inputs: dict[str, tuple[str, float | None]] = {}
@@ -90,12 +157,24 @@ class ConeTheory(Theory):
             raise InputError(None, "--family", f"theory '{self.name}' takes one family, got "
                              f"{fams}", "use --family extremal or --family elastic")
         self.check_settings(settings)
+        conv = {"name": "none", "units": "all coefficients in one common unit (e.g. TeV^-4)",
+                "basis": self.basis}
+        problem = self.problem()
+        if settings.get("free") or settings.get("coordinates"):
+            keep = parse_names(settings.get("coordinates"), problem.coefficients,
+                               "--coordinates")
+            free = parse_names(settings.get("free"), problem.coefficients, "--free", keep)
+            if not free or not keep:
+                raise InputError(None, "--free" if keep else "--coordinates",
+                                 f"{self.name} takes --coordinates only with --free (its "
+                                 "region is always on all its coefficients)", "give both, "
+                                 "e.g. --coordinates X --free all, or neither")
+            return build_projection(self.name, problem, keep, free, fams[0], conv,
+                                    CONE_CAUTIONS)
         st = ConeSettings(family=fams[0], shell_target=float(settings.get("shell_target", 1e-3)),
                           seed=int(settings.get("seed", 0)))
         red = self.reduction() if fams[0] == "elastic" else None
-        build = build_cone(self.problem(), st, reduction=red)
-        conv = {"name": "none", "units": "all coefficients in one common unit (e.g. TeV^-4)",
-                "basis": self.basis}
+        build = build_cone(problem, st, reduction=red)
         return cone_region(self.name, build, conv, notes=CONE_CAUTIONS)
 
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:

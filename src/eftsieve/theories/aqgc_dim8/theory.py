@@ -29,7 +29,7 @@ from eftsieve.theories.aqgc_dim8 import conventions as conv
 from eftsieve.theories.aqgc_dim8 import operators as ops
 from eftsieve.theories.aqgc_dim8.references import REFERENCES
 from eftsieve.theories.base import CoordinateMap
-from eftsieve.theories.cone_theory import CONE_CAUTIONS, ConeTheory
+from eftsieve.theories.cone_theory import CONE_CAUTIONS, ConeTheory, build_projection
 
 if TYPE_CHECKING:
     from eftsieve.fit.model import Fit
@@ -234,8 +234,7 @@ class AqgcDim8(ConeTheory):
     operators = ops.make_operators(DEFAULT_SIN2_THETA_W)
     convention_specs = conv.CONVENTIONS
     cautions: tuple[str, ...] = AQGC_CAUTIONS
-    setting_names: tuple[str, ...] = ConeTheory.setting_names + ("coordinates", "sin2_theta_w",
-                                                                 "free")
+    setting_names: tuple[str, ...] = ConeTheory.setting_names + ("sin2_theta_w",)
     basis = ("f_S0..2, f_M0..5, f_M7, f_T0..2, f_T5..9 over Lambda^4 (hep-ph/0606118, "
              "arXiv:1604.03555), convention hat-i; fM6 folded into fM0")
 
@@ -287,39 +286,15 @@ class AqgcDim8(ConeTheory):
     def _projection(self, coords: tuple[str, ...], free: tuple[str, ...], family: str,
                     sin2: float) -> Region:
         """The cone on coords + free projected onto coords (eftsieve.bounds.projection)."""
-        from eftsieve.bounds.projection import project_cone, projection_region
-
-        if family != "extremal":
-            raise InputError(None, "--free", "projections are built for the extremal family "
-                             "only", "use --family extremal (the elastic cone's product "
-                             "states are not searched with free coefficients)")
-        if not 1 <= len(coords) <= 2:
-            raise InputError(None, "--coordinates", f"a projection is built onto one or two "
-                             f"coefficients, got {len(coords)}", "give one or two names, "
-                             "e.g. --coordinates fT0,fT1 --free all")
         names = tuple(c for c in ops.COEFFICIENTS if c in coords or c in free)
-        try:
-            pc = project_cone(aqgc_problem(names, sin2), coords)
-        except SolverError as err:
-            raise InputError(None, "--free", f"the projection of the cone of "
-                             f"{','.join(names)} onto {','.join(coords)} failed ({err})",
-                             "free more coefficients, or --free all") from err
-        if not len(pc.normals):
-            what = "line" if len(coords) == 1 else "plane"
-            whole = not len(pc.inner_normals())
-            raise InputError(None, "--free", (
-                f"positivity leaves {','.join(coords)} unconstrained when {len(free)} "
-                f"coefficients are free: the projection is the whole {what} (proven points "
-                f"in every direction)") if whole else (
-                f"the projection onto {','.join(coords)} has no verified outer facet (its "
-                f"boundary shots failed)"), "fix some of them to zero (a shorter --free "
-                "list), or build the cone itself without --free")
-        convention = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
-                      "units": "all coefficients in one common unit (e.g. TeV^-4)"}
+        convention: dict[str, Any] = {
+            "name": conv.CANONICAL, "sin2_theta_w": sin2,
+            "units": "all coefficients in one common unit (e.g. TeV^-4)"}
         fixed = [c for c in ops.COEFFICIENTS if c not in names]
         if fixed:
             convention["fixed_to_zero"] = fixed
-        return projection_region(self.name, pc, convention, notes=AQGC_CAUTIONS)
+        return build_projection(self.name, aqgc_problem(names, sin2), coords, free, family,
+                                convention, AQGC_CAUTIONS)
 
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         jac = self._fit_jacobian(fit)
