@@ -29,7 +29,12 @@ from eftsieve.theories.aqgc_dim8 import conventions as conv
 from eftsieve.theories.aqgc_dim8 import operators as ops
 from eftsieve.theories.aqgc_dim8.references import REFERENCES
 from eftsieve.theories.base import CoordinateMap
-from eftsieve.theories.cone_theory import CONE_CAUTIONS, ConeTheory, build_projection
+from eftsieve.theories.cone_theory import (
+    CONE_CAUTIONS,
+    ConeTheory,
+    build_projection,
+    parse_names,
+)
 
 if TYPE_CHECKING:
     from eftsieve.fit.model import Fit
@@ -82,25 +87,12 @@ def parse_coordinates(raw: Any) -> tuple[str, ...]:
 
 def parse_free(raw: Any, coords: tuple[str, ...]) -> tuple[str, ...]:
     """The free coefficients from a setting (``all``, a list or a comma-separated string),
-    in the canonical order; InputError for unknown or redundant names and for names that
-    are also coordinates."""
-    if raw is None or raw == [] or raw == "":
-        return ()
-    items = [s.strip() for s in (raw.split(",") if isinstance(raw, str) else raw)]
-    if items == ["all"]:
-        return tuple(c for c in ops.COEFFICIENTS if c not in coords)
-    for name in items:
-        if name == "fM6":
-            raise InputError(None, "--free", "fM6 is redundant (O_M6 = O_M0/2)", "use fM0")
-        if name not in ops.COEFFICIENTS:
-            raise InputError(None, "--free", f"'{name}' is not a coefficient of aqgc-dim8",
-                             f"choose among {','.join(ops.COEFFICIENTS)}, or all")
-        if name in coords:
-            raise InputError(None, "--free", f"'{name}' is also in --coordinates",
-                             "a coefficient is either a coordinate or free")
-    if len(set(items)) != len(items):
-        raise InputError(None, "--free", "duplicate coefficient names", "name each once")
-    return tuple(c for c in ops.COEFFICIENTS if c in items)
+    in the canonical order (:func:`eftsieve.theories.cone_theory.parse_names`); fM6 is
+    refused as redundant."""
+    items = raw.split(",") if isinstance(raw, str) else (raw or [])
+    if any(str(x).strip() == "fM6" for x in items):
+        raise InputError(None, "--free", "fM6 is redundant (O_M6 = O_M0/2)", "use fM0")
+    return parse_names(raw, ops.COEFFICIENTS, "--free", coords)
 
 
 def _covering(used: Sequence[str]) -> list[str] | str:
