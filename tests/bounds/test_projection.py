@@ -167,3 +167,13 @@ def test_cone_theory_projection_requests_are_checked(settings, match):
 
     with pytest.raises(InputError, match=match):
         get_theory("photon-quartic").build_region(settings)
+
+
+def test_the_description_of_a_projection_says_what_is_free():
+    from eftsieve.region.build import describe_region
+
+    region = get_theory("transverse-w").build_region({"coordinates": "fT2",
+                                                      "free": "fT0,fT1"})
+    text = describe_region(region)
+    assert "projection: 2 coefficients free (any value, not zero): fT0, fT1" in text
+    assert "inner set: 1 facet (" in text and "residual <=" in text

@@ -70,9 +70,10 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
         lines.append(f"  projection: {len(proj['free'])} coefficients free (any value, not "
                      f"zero): {', '.join(proj['free'])}; outer facets hold up to a residual "
                      f"<= {proj['max_residual']:.1e} (docs/physics_aqgc.md)")
-        lines.append(f"  inner set: {len(region.inner_facets)} facets (projections of proven "
-                     "points of the full cone; points between the inner and outer facets "
-                     "stay marginal)")
+        n_in = len(region.inner_facets)
+        lines.append(f"  inner set: {n_in} facet{'' if n_in == 1 else 's'} (projections of "
+                     "proven points of the full cone; points between the inner and outer "
+                     "facets stay marginal)")
     elif region.inner_facets:
         lines.append(f"  inner set: {len(region.inner_facets)} facets (reached by explicit "
                      "positive spectra: consistent with every sum rule used)")
