@@ -213,7 +213,7 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
         for delta in (shrink, 10 * shrink, 100 * shrink, 1000 * shrink):
             c_in = (1 - delta) * res.c + delta * cen.c
             proven, _, _ = verify_rho(problem, c_in, (1 - delta) * res.rho + delta * rho0)
-            if proven:
+            if proven and np.any(c_in[ki]):      # the apex of P is no direction
                 points.append(c_in[ki] / np.linalg.norm(c_in[ki]))
                 lifts.append(c_in)
                 break
