@@ -161,6 +161,7 @@ def test_cone_theories_build_projections(theory, keep, free, normals):
     ({"free": "zeta2"}, "only with --free"),
     ({"coordinates": "zeta3", "free": "all"}, "not a coefficient"),
     ({"coordinates": "zeta1", "free": "zeta1"}, "also in --coordinates"),
+    ({"coordinates": "zeta1,zeta2", "free": "all"}, "'all' leaves no coefficient"),
 ])
 def test_cone_theory_projection_requests_are_checked(settings, match):
     from eftsieve.errors import InputError

@@ -47,7 +47,12 @@ def parse_names(raw: Any, allowed: tuple[str, ...], flag: str,
         return ()
     items = [str(x).strip() for x in (raw.split(",") if isinstance(raw, str) else raw)]
     if items == ["all"]:
-        return tuple(c for c in allowed if c not in exclude)
+        rest = tuple(c for c in allowed if c not in exclude)
+        if not rest:
+            raise InputError(None, flag, "'all' leaves no coefficient: every one is already "
+                             "in --coordinates", "keep one or two coefficients, e.g. "
+                             f"--coordinates {allowed[0]} --free all")
+        return rest
     for name in items:
         if name not in allowed:
             raise InputError(None, flag, f"'{name}' is not a coefficient of the cone",
@@ -164,7 +169,7 @@ class ConeTheory(Theory):
             keep = parse_names(settings.get("coordinates"), problem.coefficients,
                                "--coordinates")
             free = parse_names(settings.get("free"), problem.coefficients, "--free", keep)
-            if not free or not keep:
+            if not free or not keep:               # one of the two was not given
                 raise InputError(None, "--free" if keep else "--coordinates",
                                  f"{self.name} takes --coordinates only with --free (its "
                                  "region is always on all its coefficients)", "give both, "
