@@ -113,8 +113,9 @@ def _arc(vectors: np.ndarray) -> tuple[int, int, float] | None:
     """For unit vectors in the plane: the indices of the two ends of the smallest arc that
     holds them all (clockwise end first) and its length; None when no arc shorter than pi
     holds them (they positively span the plane or a line)."""
-    ang = np.sort(np.array([_angle(v) for v in vectors]))
-    order = np.argsort([_angle(v) for v in vectors])
+    raw = np.array([_angle(v) for v in vectors])
+    order = np.argsort(raw)
+    ang = raw[order]
     gaps = np.diff(np.concatenate([ang, [ang[0] + 2 * math.pi]]))
     g = int(np.argmax(gaps))
     length = 2 * math.pi - float(gaps[g])

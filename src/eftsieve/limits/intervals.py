@@ -183,12 +183,11 @@ def sign_rules(region: Region, *, exact: bool = True) -> tuple[SignRule, ...]:
 @lru_cache(maxsize=256)
 def _free_sign(theory: str, name: str) -> tuple[str, float | None]:
     from eftsieve.bounds.projection import project_cone, sign_with_others_free
-    from eftsieve.bounds.sdp import ExtremalSDP
     from eftsieve.errors import SolverError
 
     problem = _full_problem(theory)
     try:
-        pc = project_cone(problem, [name], sdp=_sdp_of(theory, ExtremalSDP))
+        pc = project_cone(problem, [name], sdp=_sdp_of(theory))
     except SolverError:
         return "undecided", None
     rule = sign_with_others_free(pc)
@@ -204,8 +203,11 @@ def _full_problem(theory: str) -> Any:
 
 
 @lru_cache(maxsize=8)
-def _sdp_of(theory: str, make: Any) -> Any:
-    return make(_full_problem(theory))
+def _sdp_of(theory: str) -> Any:
+    """The theory's full extremal programs, compiled once per process."""
+    from eftsieve.bounds.sdp import ExtremalSDP
+
+    return ExtremalSDP(_full_problem(theory))
 
 
 def with_free_signs(rules: tuple[SignRule, ...], region: Region, names: list[str]

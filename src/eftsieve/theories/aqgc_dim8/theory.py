@@ -65,33 +65,43 @@ AQGC_CAUTIONS = CONE_CAUTIONS + (
 ROUNDING_DUST = 1e-13
 
 
+def _convention(used: Sequence[str], sin2: float) -> dict[str, Any]:
+    """The region convention: hat-i at the weak angle, and the coefficients held at zero
+    (those not in ``used``)."""
+    out: dict[str, Any] = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
+                           "units": "all coefficients in one common unit (e.g. TeV^-4)"}
+    fixed = [c for c in ops.COEFFICIENTS if c not in used]
+    if fixed:
+        out["fixed_to_zero"] = fixed
+    return out
+
+
+def _refuse_m6(raw: Any, flag: str) -> None:
+    items = raw.split(",") if isinstance(raw, str) else (raw or [])
+    if any(str(x).strip() == "fM6" for x in items):
+        raise InputError(None, flag, "fM6 is redundant (O_M6 = O_M0/2)",
+                         "use fM0; a card's fM6 is folded into fM0 + fM6/2")
+
+
 def parse_coordinates(raw: Any) -> tuple[str, ...]:
-    """The region's coordinates from a setting (a list or a comma-separated string),
-    in the canonical order; InputError for unknown, duplicate or redundant names."""
-    if raw is None or (isinstance(raw, str) and raw.strip() == "all") or (
-            not isinstance(raw, str) and [str(x).strip() for x in raw] == ["all"]):
+    """The region's coordinates from a setting (``all``, a list or a comma-separated
+    string), in the canonical order (:func:`eftsieve.theories.cone_theory.parse_names`);
+    InputError for unknown, duplicate or redundant (fM6) names and for none at all."""
+    if raw is None:
         return ops.COEFFICIENTS
-    names = [s.strip() for s in (raw.split(",") if isinstance(raw, str) else raw)]
-    for name in names:
-        if name == "fM6":
-            raise InputError(None, "--coordinates", "fM6 is redundant (O_M6 = O_M0/2)",
-                             "use fM0; a card's fM6 is folded into fM0 + fM6/2")
-        if name not in ops.COEFFICIENTS:
-            raise InputError(None, "--coordinates", f"'{name}' is not a coefficient of "
-                             "aqgc-dim8", f"choose among {','.join(ops.COEFFICIENTS)}")
-    if len(set(names)) != len(names) or not names:
-        raise InputError(None, "--coordinates", "empty or duplicate coefficient names",
-                         "name each coefficient once")
-    return tuple(c for c in ops.COEFFICIENTS if c in names)
+    _refuse_m6(raw, "--coordinates")
+    names = parse_names(raw, ops.COEFFICIENTS, "--coordinates")
+    if not names:
+        raise InputError(None, "--coordinates", "no coefficient named",
+                         "name each coefficient once, or all")
+    return names
 
 
 def parse_free(raw: Any, coords: tuple[str, ...]) -> tuple[str, ...]:
     """The free coefficients from a setting (``all``, a list or a comma-separated string),
     in the canonical order (:func:`eftsieve.theories.cone_theory.parse_names`); fM6 is
     refused as redundant."""
-    items = raw.split(",") if isinstance(raw, str) else (raw or [])
-    if any(str(x).strip() == "fM6" for x in items):
-        raise InputError(None, "--free", "fM6 is redundant (O_M6 = O_M0/2)", "use fM0")
+    _refuse_m6(raw, "--free")
     return parse_names(raw, ops.COEFFICIENTS, "--free", coords)
 
 
@@ -264,11 +274,7 @@ class AqgcDim8(ConeTheory):
                              "of them to vanish, or it is a single coefficient", "add more "
                              "coefficients (e.g. fS0,fS1,fS2 with fT0,fT1,fT2); single "
                              "coefficients: the sign table of docs/physics_aqgc.md") from err
-        convention = {"name": conv.CANONICAL, "sin2_theta_w": sin2,
-                      "units": "all coefficients in one common unit (e.g. TeV^-4)"}
-        fixed = [c for c in ops.COEFFICIENTS if c not in coords]
-        if fixed:
-            convention["fixed_to_zero"] = fixed
+        convention = _convention(coords, sin2)
         if len(parts) == 1:
             return cone_region(self.name, parts[0][1], convention, notes=AQGC_CAUTIONS)
         return _product(self.name, problem, [cone_region(self.name, b, convention,
@@ -279,14 +285,8 @@ class AqgcDim8(ConeTheory):
                     sin2: float) -> Region:
         """The cone on coords + free projected onto coords (eftsieve.bounds.projection)."""
         names = tuple(c for c in ops.COEFFICIENTS if c in coords or c in free)
-        convention: dict[str, Any] = {
-            "name": conv.CANONICAL, "sin2_theta_w": sin2,
-            "units": "all coefficients in one common unit (e.g. TeV^-4)"}
-        fixed = [c for c in ops.COEFFICIENTS if c not in names]
-        if fixed:
-            convention["fixed_to_zero"] = fixed
         return build_projection(self.name, aqgc_problem(names, sin2), coords, free, family,
-                                convention, AQGC_CAUTIONS)
+                                _convention(names, sin2), AQGC_CAUTIONS)
 
     def region_settings_for_fit(self, fit: Fit) -> dict[str, Any]:
         jac = self._fit_jacobian(fit)
