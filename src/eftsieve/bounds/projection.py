@@ -254,8 +254,8 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
                          tuple(certs[i] for i in idx), pts, lf, stats)
 
 
-#: the caution every projected region carries (docs/physics_aqgc.md, "Other coefficients
-#: free")
+#: the caution every projected region carries (docs/physics_cones.md, "Projections: other
+#: coefficients free")
 PROJECTION_NOTE = (
     "Projection: the coefficients {free} are free (any value), not zero. A point is "
     "allowed when SOME values of them put it in the cone; a fit's own values of them are "

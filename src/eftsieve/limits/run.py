@@ -96,7 +96,7 @@ CARD_NOTES = ("A one-coefficient interval holds the other coefficients at fixed 
 FREE_NOTE = ("A row with others 'free' (profiled or marginalised) is checked against the "
              "projection of the whole cone onto its coefficient: the sign positivity requires "
              "of it whatever the other coefficients are (extremal family; its facet holds up "
-             "to the stated residual, docs/physics_aqgc.md).")
+             "to the stated residual, docs/physics_cones.md).")
 
 
 def limits_from_card(path: str | Path, regions: RegionSource, *, exact: bool = True,

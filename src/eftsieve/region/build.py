@@ -69,7 +69,7 @@ def describe_region(region: Region, path: str | Path | None = None) -> str:
         proj = region.settings["projection"]
         lines.append(f"  projection: {len(proj['free'])} coefficients free (any value, not "
                      f"zero): {', '.join(proj['free'])}; outer facets hold up to a residual "
-                     f"<= {proj['max_residual']:.1e} (docs/physics_aqgc.md)")
+                     f"<= {proj['max_residual']:.1e} (docs/physics_cones.md)")
         n_in = len(region.inner_facets)
         lines.append(f"  inner set: {n_in} facet{'' if n_in == 1 else 's'} (projections of "
                      "proven points of the full cone; points between the inner and outer "

@@ -96,7 +96,7 @@ def _sign_blocks(result: LimitsResult) -> list[Any]:
                         + ". The last column is the cone's projection onto the coefficient "
                         "(the card's coefficients only; '-': not computed): a facet there "
                         "holds up to its residual r, i.e. unless another coefficient exceeds "
-                        "m/r for a point outside by m (docs/physics_aqgc.md).")]
+                        "m/r for a point outside by m (docs/physics_cones.md).")]
     return blocks
 
 
