@@ -331,6 +331,35 @@ def test_choi_form_is_elastic_positive_but_not_extremal():
     assert prove_elastic(neg.tensors[0]).outcome == "violated"
 
 
+def _choi_padded(eps: float, n: int) -> ConeProblem:
+    """Choi's form on the first three of n modes, plus eps |u|^2 |v|^2 on all n."""
+    m = np.zeros((n, n, n, n))
+    m[:3, :3, :3, :3] = _choi_problem(0.0).tensors[0]
+    for i in range(n):
+        for j in range(n):
+            m[i, j, i, j] += eps
+    return ConeProblem(("c",), tuple(str(i) for i in range(n)), m[None])
+
+
+def test_general_branch_and_bound_stops_at_many_modes():
+    # Choi's elastic-positive, non-extremal form padded with decoupled modes: on 5 modes
+    # the branch and bound still proves it; on 6 it is not run, the answer is undecided
+    # with the reason, and the point stays marginal, never inside
+    from eftsieve.bounds.elastic import MAX_GENERAL_MODES
+
+    assert MAX_GENERAL_MODES == 5
+    assert prove_elastic(_choi_padded(1.0, 5).tensors[0]).outcome == "proven"
+    assert prove_elastic(_choi_padded(0.01, 3).tensors[0]).outcome == "proven"
+    proof = prove_elastic(_choi_padded(0.01, 6).tensors[0])
+    assert (proof.outcome, proof.cells) == ("undecided", 0)
+    assert "6 modes" in proof.note and proof.to_dict()["note"] == proof.note
+    codes, why = shell_membership(_choi_padded(0.01, 6), np.array([[1.0]]), family="elastic")
+    assert codes[0] == MARGINAL and "branch and bound not run on 6 modes" in why[0], why
+    # a violated form is still found outside by the product-state search
+    codes, _ = shell_membership(_choi_padded(-0.05, 6), np.array([[1.0]]), family="elastic")
+    assert codes[0] == OUTSIDE
+
+
 def test_cone_build_rejects_bad_settings(photon_problem):
     with pytest.raises(ValueError, match="family"):
         build_cone(photon_problem, ConeSettings(family="bogus"))

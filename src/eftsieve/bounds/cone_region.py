@@ -183,6 +183,9 @@ def _elastic_facet(problem: ConeProblem, x: np.ndarray, rng: np.random.Generator
         normal = facet_from_states(problem, proof.witness[0], proof.witness[1]).normal
         return (OUTSIDE, f"outside: product state with E = {proof.witness[2]:.3g}",
                 "violating product state", normal)
+    if proof.note:
+        return (MARGINAL, f"marginal: elastic positivity undecided ({proof.note})",
+                "elastic positivity undecided: too many modes for branch and bound", None)
     return (MARGINAL, f"marginal: elastic positivity undecided within {proof.cells} cells",
             "elastic positivity undecided within the cell budget", None)
 
