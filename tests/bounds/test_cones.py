@@ -370,3 +370,20 @@ def test_same_build_gives_the_same_region_hash(photon_problem, photon_region):
     # regression: the build's wall time was stored in the region and changed its hash
     again = cone_region("photon-quartic", build_cone(photon_problem), {"name": "none"})
     assert again.hash == photon_region.hash
+
+
+def test_elastic_build_on_many_modes_says_how_inner_points_are_proven():
+    # fT0..fT2, fT8, fT9 couple the W and B modes (8 of them, no state reduction): the
+    # elastic build finishes, its outer facets are product states, its inner points are
+    # extremal certificates (the extremal cone lies inside the elastic one), and the
+    # region says so; a 4-mode build (higgs-quartic) needs no such note
+    from eftsieve.theories.aqgc_dim8.theory import aqgc_problem
+
+    problem = aqgc_problem(("fT0", "fT1", "fT2", "fT8", "fT9"))
+    assert problem.n == 8
+    build = build_cone(problem, ConeSettings(family="elastic", max_rounds=1))
+    assert build.outer and all(c.kind == "product-state" for c in build.outer)
+    region = cone_region("aqgc-dim8", build, {"name": "hat-i"})
+    assert any("extremal certificates only" in n and "8 modes" in n for n in region.notes)
+    small = build_cone(_problem(higgs), ConeSettings(family="elastic", max_rounds=1))
+    assert "elastic_inner" not in small.stats

@@ -56,6 +56,7 @@ from eftsieve.bounds.cones import (
     verify_rho,
 )
 from eftsieve.bounds.elastic import (
+    MAX_GENERAL_MODES,
     StateReduction,
     prove_elastic,
     search_reduced,
@@ -274,6 +275,18 @@ class _Builder:
         # inside elastic), but not its dual facet (not valid for elastic)
         self._shoot_extremal(d, with_facet=False)
         return lam
+
+    def elastic_stats(self) -> dict[str, str]:
+        """For an elastic build without a state reduction on more modes than the general
+        branch and bound takes: how its inner points are proven (build statistics)."""
+        if self.st.family != "elastic" or self.reduction is not None \
+                or self.p.n <= MAX_GENERAL_MODES:
+            return {}
+        return {"elastic_inner": f"proven by extremal certificates only (the extremal cone "
+                                 f"lies inside the elastic one); the branch and bound over "
+                                 f"product states is not run on {self.p.n} modes (more than "
+                                 f"{MAX_GENERAL_MODES}), so the shell includes the gap "
+                                 f"between the two cones"}
 
     # ---- geometry on the slice ---------------------------------------------------------------
     def to_slice(self, c: np.ndarray) -> np.ndarray:
@@ -516,7 +529,7 @@ def _build_lp(bld: _Builder, t_start: float) -> ConeBuild:
     stats = {"rays": bld.rays, "solves": bld.solves, "rounds": rounds,
              "seconds": time.perf_counter() - t_start, "centre": bld.c0.tolist(),
              "geometry": "lp", "tight_share_last_round": tight_share,
-             "inner_set": bld.inner_kind}
+             "inner_set": bld.inner_kind, **bld.elastic_stats()}
     if bld.hull_error:
         stats["hull_error"] = bld.hull_error
     return ConeBuild(problem, st.family, tuple(bld.facets), np.array(bld.inner),
@@ -549,7 +562,7 @@ def _build_hull(bld: _Builder, t_start: float) -> ConeBuild:
         normals = bld.inner_normals()
     stats = {"rays": bld.rays, "solves": bld.solves, "rounds": rounds,
              "seconds": time.perf_counter() - t_start, "centre": bld.c0.tolist(),
-             "geometry": "hull", "inner_set": bld.inner_kind}
+             "geometry": "hull", "inner_set": bld.inner_kind, **bld.elastic_stats()}
     return ConeBuild(problem, st.family, tuple(bld.facets), np.array(bld.inner),
                      normals, frac, stats)
 

@@ -103,6 +103,8 @@ def cone_region(theory: str, build: ConeBuild, convention: dict[str, Any],
     stats = {k: v for k, v in build.stats.items() if k != "seconds"}
     settings = {"family": build.family, "cone_problem": p.to_dict(),
                 "shell_fraction": list(build.shell_fraction), "build": stats}
+    if build.stats.get("elastic_inner"):
+        notes = (*notes, f"elastic inner points: {build.stats['elastic_inner']}")
     return Region(theory, p.coefficients, convention, tuple(facets), settings,
                   tuple(inner), tuple(tuple(float(x) for x in r) for r in build.inner_rays),
                   notes=notes)
