@@ -209,7 +209,7 @@ class _Builder:
         if res.status not in _OK or res.rho is None:
             return float("nan")
         if with_facet and res.z is not None:
-            cert = facet_from_dual(self.p, res.z)
+            cert = res.cert if res.cert is not None else facet_from_dual(self.p, res.z)
             if cert is not None:
                 self.facets.append(cert)
         for delta in (self.st.shrink, 10 * self.st.shrink, 100 * self.st.shrink,

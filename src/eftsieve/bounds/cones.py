@@ -264,12 +264,21 @@ def facet_from_dual(problem: ConeProblem, z: np.ndarray) -> FacetCertificate | N
     keep = lam > 1e-12 * top
     f = np.column_stack([lam[keep] / top, vec[:, keep].T])
     f[:, 1:][np.abs(f[:, 1:]) < 1e-13] = 0.0
-    f = np.array([[float(f"{x:.12g}") for x in row] for row in f]).reshape(f.shape)
+    f = _round_significant(f, 12)
     cert = _facet_from_factors(problem, f.tolist())
     if cert is None:
         return None
     data = {"Z_sparse": _sparse(f), "scale": cert.data["scale"]}
     return FacetCertificate(cert.normal, cert.kind, cert.lambda_min, cert.repair, data)
+
+
+def _round_significant(x: np.ndarray, digits: int) -> np.ndarray:
+    """x rounded to ``digits`` significant digits (zeros and non-finite values kept)."""
+    out = np.array(x, dtype=float)
+    nz = (out != 0) & np.isfinite(out)
+    scale = 10.0 ** (digits - 1 - np.floor(np.log10(np.abs(out[nz]))))
+    out[nz] = np.round(out[nz] * scale) / scale
+    return out
 
 
 def _facet_from_factors(problem: ConeProblem, factors: list[list[float]],
