@@ -143,7 +143,8 @@ def _extremal_facet(problem: ConeProblem, x: np.ndarray) -> Decision:
         return (MARGINAL, f"marginal: SDP not solved (status {res.status})",
                 f"SDP not solved (status {short})", None)
     unit = x / np.linalg.norm(x)
-    ok, lam_rel, _ = verify_rho(problem, unit, res.rho)
+    ok, lam_rel = res.verified if res.verified is not None else \
+        verify_rho(problem, unit, res.rho)[:2]
     if ok and lam_rel > CONE_BOUNDARY_TOL:
         return INSIDE, f"inside: verified rho, lambda_min/max|rho| = {lam_rel:.3g} " \
                        f"(solver {res.status})", "verified rho", None

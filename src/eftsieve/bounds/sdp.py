@@ -61,6 +61,9 @@ class SDPResult:
     c: np.ndarray | None = None
     #: the verified facet of z when the program already built it (reduced programs)
     cert: Any = None
+    #: verify_rho's (proven, lambda_min relative) for rho at the unit point, when the
+    #: program already checked it (reduced programs)
+    verified: tuple[bool, float] | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {"status": self.status, "value": self.value}
@@ -379,7 +382,6 @@ class _DirectMembership:
         self.settings = clarabel.DefaultSettings()
         self.settings.verbose = False
         self.p = sparse.csc_matrix((nv + 1, nv + 1))
-        self.solver: Any = None
 
     def _blocks(self, vec: np.ndarray) -> list[np.ndarray]:
         out, at = [], 0
@@ -394,12 +396,11 @@ class _DirectMembership:
 
     def solve(self, c: np.ndarray) -> SDPResult:
         b = np.concatenate([self.prog._mr @ c, [1.0], np.zeros(self.nv)])
-        if self.solver is None:
-            self.solver = self.clarabel.DefaultSolver(self.p, self.q, self.a, b, self.cones,
-                                                      self.settings)
-        else:                                   # the same matrices: a new right-hand side
-            self.solver.update(b=b)
-        sol = self.solver.solve()
+        # a new solver per point (no state carried from the last one: the same point
+        # gives the same bits whatever was solved before, in any thread)
+        solver = self.clarabel.DefaultSolver(self.p, self.q, self.a, b, self.cones,
+                                             self.settings)
+        sol = solver.solve()
         status = _CLARABEL_STATUS.get(str(sol.status).split(".")[-1], str(sol.status))
         if status not in _SOLVED:
             return SDPResult(status, float("nan"), None, None)
@@ -474,11 +475,16 @@ class ExtremalSDP:
             self.reduced_fallbacks += 1
         return decisive
 
-    def _proves(self, c: np.ndarray, rho: np.ndarray | None) -> bool:
+    def _check(self, c: np.ndarray, rho: np.ndarray | None) -> tuple[bool, float]:
+        """verify_rho at c/|c|: (proven, lambda_min relative); (False, -1) without rho."""
         if rho is None:
-            return False
+            return False, -1.0
         ok, lam, _ = verify_rho(self.problem, c / np.linalg.norm(c), rho)
-        return bool(ok and lam > CONE_BOUNDARY_TOL)
+        return bool(ok), float(lam)
+
+    def _proves(self, c: np.ndarray, rho: np.ndarray | None) -> bool:
+        ok, lam = self._check(c, rho)
+        return ok and lam > CONE_BOUNDARY_TOL
 
     def membership(self, c: np.ndarray) -> SDPResult:
         """max t with rho = S + t I (module docstring); c is scaled to unit norm."""
@@ -490,7 +496,9 @@ class ExtremalSDP:
             decisive = False
             if res.status in _SOLVED and res.rho is not None:
                 if res.value > 0:
-                    decisive = self._proves(unit, res.rho)
+                    verified = self._check(unit, res.rho)
+                    res = replace(res, verified=verified)
+                    decisive = verified[0] and verified[1] > CONE_BOUNDARY_TOL
                 if not decisive and res.z is not None:
                     res = self._averaged(res)
                     cert = None if res.z is None else facet_from_dual(self.problem, res.z)
