@@ -65,4 +65,9 @@ def cmd_region(args: argparse.Namespace) -> int:
         print(describe_region(region, args.output))
         kin = get_theory(region.theory).region_kinematics(region)
         print(f"  kinematics: {fmt_kinematics(kin)}")
+        # how an elastic build proved its inner points when the branch and bound could
+        # not run (the standing cautions are in the region file and every report)
+        for note in region.notes:
+            if note.startswith("elastic inner points"):
+                print(f"  note: {note}")
     return 0

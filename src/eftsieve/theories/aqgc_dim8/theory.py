@@ -153,9 +153,11 @@ def _product(name: str, problem: ConeProblem, regions: list[Region],
     settings["sectors"] = [{"coordinates": list(r.coordinates),
                             "shell_fraction": r.settings.get("shell_fraction"),
                             "build": r.settings.get("build")} for r in regions]
+    extra = tuple(n for r in regions for n in r.notes if n not in AQGC_CAUTIONS)
     return RegionType(name, problem.coefficients, convention,
                       tuple(perm(f) for f in prod.facets), _reorder_problem(settings, order),
-                      tuple(perm(f) for f in prod.inner_facets), (), notes=AQGC_CAUTIONS)
+                      tuple(perm(f) for f in prod.inner_facets), (),
+                      notes=AQGC_CAUTIONS + tuple(dict.fromkeys(extra)))
 
 
 def _reorder_problem(settings: dict[str, Any], order: list[int]) -> dict[str, Any]:
