@@ -42,9 +42,14 @@ class LearnedFacets:
     """
 
     def __init__(self, k: int) -> None:
-        self.normals = np.zeros((0, k))
+        self._buf = np.zeros((16, k))           # grown by doubling: O(L) copies in all
         self.sources: list[int] = []
         self.kinds: list[str] = []
+
+    @property
+    def normals(self) -> np.ndarray:
+        """(L, k) unit normals, in the order found (a view; do not modify)."""
+        return self._buf[:len(self.sources)]
 
     def __len__(self) -> int:
         return len(self.sources)
@@ -52,7 +57,10 @@ class LearnedFacets:
     def add(self, normal: np.ndarray, source: int, kind: str) -> None:
         """Keep one more verified facet (found at point ``source``)."""
         n = np.asarray(normal, dtype=float)
-        self.normals = np.vstack([self.normals, n / np.linalg.norm(n)])
+        at = len(self.sources)
+        if at == len(self._buf):
+            self._buf = np.vstack([self._buf, np.zeros_like(self._buf)])
+        self._buf[at] = n / np.linalg.norm(n)
         self.sources.append(int(source))
         self.kinds.append(kind)
 
