@@ -67,3 +67,14 @@ def test_check_reads_the_central_values_of_a_record(tmp_path, capsys):
                  "--draws", "20000", "--no-plots"]) == 0
     s = json.loads((out / "summary.json").read_text())
     assert s["n_total"] == 20000 and 0 < s["p_inside"] < 1
+
+
+def test_plot_titles_say_what_the_other_coefficients_are():
+    # a slice holds them at zero; a projection leaves them free (named, shortened)
+    from eftsieve.report.limits_report import _held
+
+    assert _held(("fT0", "fT2"), []) == "other coefficients held at zero"
+    free = [f"fM{i}" for i in range(6)] + ["fT1"]
+    text = _held(("fT0", "fT1"), free)
+    assert text.startswith("free (projection): fM0, fM1, fM2, fM3 and 2 more")
+    assert "fT1" not in text and text.endswith("any others held at zero")

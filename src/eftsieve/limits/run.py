@@ -82,11 +82,13 @@ class LimitsResult:
 
 
 def region_info(region: Region, path: str | None) -> dict[str, Any]:
+    proj = region.settings.get("projection") if isinstance(region.settings, dict) else None
     return {"theory": region.theory, "coordinates": list(region.coordinates),
             "hash": region.hash, "n_facets": len(region.facets),
             "n_inner_facets": len(region.inner_facets),
             "family": region.settings.get("family", ", ".join(sorted(
-                {f.family for f in region.facets}))), "file": path}
+                {f.family for f in region.facets}))), "file": path,
+            "free": list(proj["free"]) if proj else []}
 
 
 CARD_NOTES = ("A one-coefficient interval holds the other coefficients at fixed values "

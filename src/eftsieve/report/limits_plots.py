@@ -68,7 +68,12 @@ def plot_intervals(rows: tuple[TruncatedInterval, ...], path: Path) -> Path:
     return _save(fig, path)
 
 
-def plot_scan_1d(scan: ScanResult, path: Path, units: str = "") -> Path:
+def _sub(held: str) -> str:
+    """A second title line saying what the coefficients not shown are."""
+    return f"\n{held}" if held else ""
+
+
+def plot_scan_1d(scan: ScanResult, path: Path, units: str = "", held: str = "") -> Path:
     """The posterior of a 1-D scan before and after the truncation."""
     plt = _plt()
     g = scan.grid
@@ -85,7 +90,7 @@ def plot_scan_1d(scan: ScanResult, path: Path, units: str = "") -> Path:
                     hatch="//", edgecolor="#9aa4ae", lw=0, label="excluded")
     ax.set_xlabel(scan.coefficients[0] + (f" [{units}]" if units else ""))
     ax.set_ylabel("posterior density")
-    ax.set_title(f"{scan.table}: p_inside = {scan.p_inside:.3g}", fontsize=10)
+    ax.set_title(f"{scan.table}: p_inside = {scan.p_inside:.3g}" + _sub(held), fontsize=10)
     ax.legend(fontsize=8, frameon=False)
     return _save(fig, path)
 
@@ -106,7 +111,7 @@ def _lines(ax: Any, paths: Any, color: str, style: str, label: str) -> None:
                 label=label if k == 0 else None)
 
 
-def plot_scan_2d(scan: ScanResult, cut: PlaneCut, path: Path) -> Path:
+def plot_scan_2d(scan: ScanResult, cut: PlaneCut, path: Path, held: str = "") -> Path:
     """HPD contours of a 2-D scan before (dashed) and after (solid) the truncation."""
     plt = _plt()
     g = scan.grid
@@ -120,13 +125,13 @@ def plot_scan_2d(scan: ScanResult, cut: PlaneCut, path: Path) -> Path:
     ax.set_ylim(*ylim)
     ax.set_xlabel(scan.coefficients[0])
     ax.set_ylabel(scan.coefficients[1])
-    ax.set_title(f"{scan.table}: p_inside = {scan.p_inside:.3g} (hatched: excluded)",
-                 fontsize=10)
+    ax.set_title(f"{scan.table}: p_inside = {scan.p_inside:.3g} (hatched: excluded)"
+                 + _sub(held), fontsize=10)
     ax.legend(fontsize=7, frameon=True, loc="upper right")
     return _save(fig, path)
 
 
-def plot_contour(res: ContourResult, cut: PlaneCut, path: Path) -> Path:
+def plot_contour(res: ContourResult, cut: PlaneCut, path: Path, held: str = "") -> Path:
     """A published contour and its part inside the allowed wedge."""
     plt = _plt()
     pts = np.asarray(res.points)
@@ -145,6 +150,6 @@ def plot_contour(res: ContourResult, cut: PlaneCut, path: Path) -> Path:
     ax.set_ylim(*ylim)
     ax.set_xlabel(res.coefficients[0])
     ax.set_ylabel(res.coefficients[1])
-    ax.set_title(f"{res.table} (hatched: excluded by positivity)", fontsize=10)
+    ax.set_title(f"{res.table} (hatched: excluded by positivity)" + _sub(held), fontsize=10)
     ax.legend(fontsize=8, loc="upper right")
     return _save(fig, path)

@@ -251,13 +251,25 @@ def limits_plots(result: LimitsResult, outdir: Path) -> dict[str, Path]:
     images: dict[str, Path] = {}
     if result.intervals:
         images["intervals"] = lp.plot_intervals(result.intervals, outdir / "intervals.png")
+    free = sorted({c for info in result.regions.values() for c in info.get("free", [])})
     for s in result.scans:
         name = outdir / f"scan_{_slug(s.table)}.png"
-        images[s.table] = (lp.plot_scan_1d(s, name) if len(s.coefficients) == 1
-                           else lp.plot_scan_2d(s, s.cut, name))
+        held = _held(s.coefficients, free)
+        images[s.table] = (lp.plot_scan_1d(s, name, held=held) if len(s.coefficients) == 1
+                           else lp.plot_scan_2d(s, s.cut, name, held=held))
     for k, c in enumerate(result.contours):
         if c.cut is None:
             continue
         images[f"{c.table}::{c.label}"] = lp.plot_contour(
-            c, c.cut, outdir / f"contour_{_slug(c.table)}_{k}.png")
+            c, c.cut, outdir / f"contour_{_slug(c.table)}_{k}.png",
+            held=_held(c.coefficients, free))
     return images
+
+
+def _held(shown: tuple[str, ...], free: list[str]) -> str:
+    """What a plot's other coefficients are: held at zero, or free (a projection)."""
+    if not free:
+        return "other coefficients held at zero"
+    names = [c for c in free if c not in shown]
+    short = ", ".join(names[:4]) + (f" and {len(names) - 4} more" if len(names) > 4 else "")
+    return f"free (projection): {short}; any others held at zero"
