@@ -222,7 +222,7 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
             unbounded += 1                   # no boundary that way: no facet either
             continue
         if res.z is not None:
-            cert = facet_from_dual(problem, res.z)
+            cert = res.cert if res.cert is not None else facet_from_dual(problem, res.z)
             if cert is None:
                 continue
             nk, nf = cert.normal[ki], cert.normal[list(fi)]

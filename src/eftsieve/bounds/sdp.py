@@ -422,9 +422,9 @@ class ExtremalSDP:
     is decisive: a rho that :func:`~eftsieve.bounds.cones.verify_rho` proves, or a dual
     matrix that :func:`~eftsieve.bounds.cones.facet_from_dual` turns into a verified facet
     (that separates the point, for membership).  Otherwise the same program is solved on
-    the sign sectors alone, as without ``reduce``.  :meth:`shoot_free` always uses the
-    sign sectors.  ``reduced_used`` and ``reduced_fallbacks`` count the reduced answers
-    kept and passed over.
+    the sign sectors alone, as without ``reduce``; :meth:`shoot_free` likewise (decisive:
+    a verified facet and a lifted point).  ``reduced_used`` and ``reduced_fallbacks``
+    count the reduced answers kept and passed over.
     """
 
     def __init__(self, problem: ConeProblem, solver: str = "CLARABEL",
@@ -536,17 +536,30 @@ class ExtremalSDP:
         coefficients is measured from its certificate (:mod:`eftsieve.bounds.projection`).
         No SCS fall-back: a shot that fails is reported as failed.
         """
+        if self._fast is not None:
+            res = self._averaged(self._shoot_free_on(self._fast, c0, d, free, cap, time_limit))
+            cert = facet_from_dual(self.problem, res.z) \
+                if res.status in _SOLVED and res.z is not None else None
+            res = replace(res, cert=cert)
+            if self._keep(res, cert is not None and res.c is not None):
+                return res
+        return self._shoot_free_on(self._exact, c0, d, free, cap, time_limit)
+
+    def _shoot_free_on(self, ex: _Programs, c0: np.ndarray, d: np.ndarray,
+                       free: tuple[int, ...], cap: float, time_limit: float | None
+                       ) -> SDPResult:
+        """:meth:`shoot_free` on one block structure (its programs cached per free set)."""
         import cvxpy as cp
 
-        ex = self._exact
-        key = tuple(sorted(int(i) for i in free))
+        key = (id(ex), *sorted(int(i) for i in free))
         if key not in self._free_programs:
             k = self.problem.k
-            sel = np.zeros((k, len(key)))
-            sel[list(key), range(len(key))] = 1.0
+            idx = list(key[1:])
+            sel = np.zeros((k, len(idx)))
+            sel[idx, range(len(idx))] = 1.0
             c0p, dp = cp.Parameter(k), cp.Parameter(k)
             capp, pen = cp.Parameter(nonneg=True), cp.Parameter(nonneg=True)
-            s, lam, f = ex._blocks(), cp.Variable(), cp.Variable(len(key))
+            s, lam, f = ex._blocks(), cp.Variable(), cp.Variable(len(idx))
             psd = [b >> 0 for b in s]
             prob = cp.Problem(cp.Maximize(lam - pen * cp.norm1(f)), [
                 *psd, ex._lhs(s) == ex._mr @ c0p + lam * (ex._mr @ dp)
