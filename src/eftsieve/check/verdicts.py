@@ -59,9 +59,9 @@ class CheckSettings:
         Exact solves allowed **per partition** (one file of a samples source, or the
         whole of a Gaussian summary's draws) for regions that can decide their shell
         (positivity cones, :mod:`eftsieve.check.shell`); shell points beyond it stay
-        ``marginal`` ("shell-solve budget reached").  One solve takes about 0.02 s (4
-        modes) to 0.5 s (6 modes) on one core, so the default 1000 bounds the cost at
-        minutes; 0 solves nothing.
+        ``marginal`` ("shell-solve budget reached").  One exact decision takes about
+        1 ms (4 modes) to 20 ms (12 modes) on one core (``make bench``), so the default
+        1000 bounds the cost at well under a minute; 0 solves nothing.
     """
 
     draws: int = 200_000
