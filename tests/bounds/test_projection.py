@@ -90,6 +90,23 @@ def test_expected_shapes(projections):
     assert not len(projections[("fS1", "fS2")].normals)
 
 
+def test_elastic_projections_equal_the_extremal_ones_here(problem, projections):
+    # the Higgs-sector cone is the same for both families (the three published facets,
+    # Remmen & Rodd, arXiv:1908.09845, from memory), so its elastic projections are the
+    # LP projections too; each facet is a conic combination of product states whose
+    # free part vanishes, re-verified from what it stores
+    from eftsieve.bounds.projection import project_elastic
+
+    for keep, pc in projections.items():
+        pe = project_elastic(problem, list(keep))
+        np.testing.assert_allclose(pe.normals, pc.normals, atol=1e-7)
+        for r, cert in zip(pe.residuals, pe.certificates, strict=True):
+            assert cert.kind == "product-states" and min(cert.data["weights"]) > 0
+            assert verify_certificate(problem, cert.to_dict(), cert.normal)
+            assert r <= 1e-9
+        np.testing.assert_allclose(pe.points, pc.points)   # the extremal proven points
+
+
 def test_facets_carry_certificates_and_residuals(problem, projections):
     for pc in projections.values():
         fi = [NAMES.index(c) for c in pc.free]

@@ -88,24 +88,16 @@ def test_rows_with_the_others_free(cone_regions):
     assert fs1_alone.allowed[0] == pytest.approx(0.0, abs=1e-9)
 
 
-def test_free_rows_need_the_extremal_family(cone_regions):
+def test_free_rows_under_the_elastic_family(cone_regions):
+    # the elastic projection of the Higgs-sector cone gives the same sign rules as the
+    # extremal one (the published cone is both: Remmen & Rodd, arXiv:1908.09845, from
+    # memory), and the note names the family
     rows = read_interval_card(CARDS / "good_free.csv", get_theory)
     elastic = get_theory("higgs-quartic").build_region({"families": ["elastic"]})
-    with pytest.raises(InputError, match="extremal family"):
-        truncate_rows(rows[:1], {"higgs-quartic": elastic})
-
-
-def test_free_rows_under_the_elastic_family_name_the_card(tmp_path):
-    # the refusal comes from the row, so it names the card file and the row's field
-    from eftsieve.limits.run import limits_from_card
-    from eftsieve.region.build import build_region
-
-    card = CARDS / "good_free.csv"
-    with pytest.raises(InputError) as err:
-        limits_from_card(card, lambda theory, names=(): (
-            build_region(theory, {"families": ["elastic"]}), None))
-    assert err.value.path == str(card) and err.value.field == "line 3.others"
-    assert "extremal family" in err.value.one_line()
+    fs0, fs1_free, _ = truncate_rows(rows, {"higgs-quartic": elastic})
+    assert fs0.allowed == (0.0, 2.0) and fs0.cut.method == "projection"
+    assert "projection of the elastic cone" in fs0.cut.notes[0]
+    assert fs1_free.allowed == (-1.0, 2.0) and fs1_free.status == "kept"
 
 
 def test_a_card_with_free_rows_says_what_they_mean(cone_regions):

@@ -308,6 +308,14 @@ def verify_certificate(problem: ConeProblem, cert: dict[str, Any],
     """Recompute a stored facet from its certificate alone and compare the normals."""
     if cert.get("kind") == "product-state":
         again = facet_from_states(problem, np.asarray(cert["u"]), np.asarray(cert["v"]))
+    elif cert.get("kind") == "product-states":          # sum_s w_s E(u_s, v_s), w >= 0
+        w = np.asarray(cert["weights"], dtype=float)
+        if (w < 0).any():
+            return False
+        total = sum(wi * elastic_values(problem, np.asarray(u) / np.linalg.norm(u),
+                                        np.asarray(v) / np.linalg.norm(v))
+                    for wi, u, v in zip(w, cert["u"], cert["v"], strict=True))
+        return bool(np.allclose(total / np.linalg.norm(total), normal, rtol=0, atol=1e-12))
     elif cert.get("kind") == "dual-psd":
         got = _facet_from_factors(problem, dense_factors(cert))
         if got is None:

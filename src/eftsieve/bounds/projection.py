@@ -30,9 +30,16 @@ projection of the cone's centre (:meth:`eftsieve.bounds.sdp.ExtremalSDP.shoot_fr
   tolerance or the penalty of :meth:`~eftsieve.bounds.sdp.ExtremalSDP.shoot_free`, 1e-13 to
   1e-6).  Facets with r above :data:`MAX_RESIDUAL` are dropped, never reported.
 
-Only the ``extremal`` family is projected: the ``elastic`` cone's facets are product
-states, and a product state whose free components vanish is a constrained search that is
-not done here.
+The ``elastic`` cone is projected by :func:`project_elastic`.  Its inner points are those
+of the extremal projection (the extremal cone lies inside the elastic one).  Its outer
+facets are conic combinations of product-state facets E(u, v) . c >= 0 whose free part
+vanishes (to the LP's accuracy, with the same stated residual): along each ray, a linear
+program over the free coefficients and the ray's length keeps every product state found
+so far satisfied, and the product-state search (:func:`eftsieve.bounds.elastic.
+search_states`) at its optimum adds a violated state, until it finds none (Kelley's
+cutting planes, J. Soc. Indust. Appl. Math. 8 (1960) 703).  The LP's dual weights give
+the facet; each state in it is an exact facet of the elastic cone, so the combination is
+one whatever the search missed (a missed state only makes the facet weaker).
 """
 
 from __future__ import annotations
@@ -254,6 +261,132 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
                          tuple(certs[i] for i in idx), pts, lf, stats)
 
 
+#: cutting-plane rounds of one elastic shot (each adds one violated product state)
+ELASTIC_ROUNDS = 80
+
+
+def _combined(problem: ConeProblem, weights: np.ndarray, us: np.ndarray, vs: np.ndarray
+              ) -> FacetCertificate:
+    """The facet sum_s w_s E(u_s, v_s) . c >= 0 (w >= 0), exact for what it stores."""
+    from eftsieve.bounds.cones import elastic_values
+
+    normal = sum(w * elastic_values(problem, u, v) for w, u, v in zip(weights, us, vs,
+                                                                       strict=True))
+    norm = float(np.linalg.norm(normal))
+    return FacetCertificate(normal / norm, "product-states", 0.0, 0.0,
+                            {"weights": [float(w) for w in weights],
+                             "u": [list(map(float, u)) for u in us],
+                             "v": [list(map(float, v)) for v in vs]})
+
+
+def _elastic_shot(problem: ConeProblem, c0: np.ndarray, d: np.ndarray, fi: tuple[int, ...],
+                  states: list[tuple[np.ndarray, np.ndarray, np.ndarray]],
+                  rng: np.random.Generator) -> tuple[float, FacetCertificate | None]:
+    """max lam with E(u, v) . (c0 + lam d + f) >= 0 for the states found (f on ``fi``),
+    states added by the search until none is violated at the optimum: (lam, the facet of
+    the LP's dual weights) or (CAP, None) when the ray leaves every state satisfied."""
+    from scipy.optimize import linprog
+
+    from eftsieve.bounds.cones import elastic_values
+    from eftsieve.bounds.elastic import search_states
+
+    nf = len(fi)
+    res = None
+    for _ in range(ELASTIC_ROUNDS):
+        e = np.array([s[2] for s in states])                        # (S, k)
+        # variables (lam, f): maximise lam, -(e . d) lam - e_F . f <= e . c0
+        a_ub = np.column_stack([-(e @ d), -e[:, list(fi)]])
+        res = linprog(np.concatenate([[-1.0], np.zeros(nf)]), A_ub=a_ub, b_ub=e @ c0,
+                      bounds=[(None, CAP)] + [(None, None)] * nf, method="highs")
+        if res.status != 0:
+            return float("nan"), None
+        lam = float(res.x[0])
+        point = c0 + lam * d
+        point[list(fi)] += res.x[1:]
+        size = float(np.linalg.norm(point))
+        if not size > 1e-12 * float(np.linalg.norm(c0)):
+            break                              # the apex: every state vanishes there
+        m = problem.tensor(point / size)
+        u, v, val = search_states(m, rng, starts=24, sweeps=25)
+        if val >= -1e-10 * float(np.abs(m).max()):
+            break
+        states.append((u, v, elastic_values(problem, u, v)))
+    assert res is not None
+    lam = float(res.x[0])
+    if lam >= CAP * (1 - 1e-9):
+        return CAP, None
+    y = -np.asarray(res.ineqlin.marginals)                          # >= 0
+    use = np.flatnonzero(y > 1e-12 * max(float(y.max()), 1e-300))
+    if not len(use):
+        return lam, None
+    return lam, _combined(problem, y[use], np.array([states[i][0] for i in use]),
+                          np.array([states[i][1] for i in use]))
+
+
+def project_elastic(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
+                    shrink: float = 1e-6, sdp: Any = None, seed: int = 0) -> ProjectedCone:
+    """The projection of the elastic cone of ``problem`` onto ``keep`` (module
+    docstring): the extremal projection's proven points, and facets that are conic
+    combinations of product states with a vanishing free part (residual stated as for
+    :func:`project_cone`)."""
+    from eftsieve.bounds.cones import elastic_values
+
+    inner = project_cone(problem, keep, shots, shrink, sdp)
+    names = problem.coefficients
+    ki = [names.index(c) for c in keep]
+    fi = tuple(i for i in range(problem.k) if i not in ki)
+    rng = np.random.default_rng(seed)
+    eye = np.eye(problem.n)
+    # start from the states of single modes, u = e_i, v = e_j (exact facets M^{ijij} . c)
+    states = [(eye[i], eye[j], elastic_values(problem, eye[i], eye[j]))
+              for i in range(problem.n) for j in range(problem.n)]
+    states = [s for s in states if np.any(s[2])]
+    c0 = np.zeros(problem.k)
+    mean = inner.lifts.mean(axis=0)
+    c0[ki] = mean[ki]
+    if len(ki) == 1:
+        dirs = [np.array([1.0]), np.array([-1.0])]
+    else:
+        th = 2 * math.pi * (np.arange(shots) + 0.5) / shots
+        dirs = list(np.column_stack([np.cos(th), np.sin(th)]))
+    normals, residuals, certs = [], [], []
+    failed = dropped = unbounded = 0
+    for dk in dirs:
+        d = np.zeros(problem.k)
+        d[ki] = dk
+        lam, cert = _elastic_shot(problem, c0, d, fi, states, rng)
+        if not np.isfinite(lam):
+            failed += 1
+            continue
+        if cert is None:
+            unbounded += int(lam >= CAP)
+            continue
+        nk, nf = cert.normal[ki], cert.normal[list(fi)]
+        size = float(np.linalg.norm(nk))
+        r = float(np.abs(nf).sum()) / size if size > 0 else math.inf
+        if r > MAX_RESIDUAL:
+            dropped += 1
+            continue
+        normals.append(nk / size)
+        residuals.append(r)
+        certs.append(cert)
+    nrm = np.array(normals).reshape(-1, len(ki))
+    rs = np.array(residuals)
+    pts, lf = inner.points, inner.lifts
+    for n, r in zip(nrm, rs, strict=True):
+        slack = r * np.abs(lf[:, list(fi)]).max(axis=1) / np.linalg.norm(lf[:, ki], axis=1)
+        if (pts @ n < -slack - 1e-9).any():
+            raise SolverError("inconsistent", f"elastic projection onto {', '.join(keep)}: "
+                              "an outer facet cuts a proven point")
+    idx = _irredundant(nrm, rs)
+    stats = {"shots": len(dirs), "failed_shots": failed, "unbounded_shots": unbounded,
+             "dropped_for_residual": dropped,
+             "max_residual": float(rs[idx].max()) if idx else 0.0, "points": len(pts),
+             "product_states": len(states), "inner_points": "extremal (proven by rho)"}
+    return ProjectedCone(tuple(keep), inner.free, nrm[idx], rs[idx],
+                         tuple(certs[i] for i in idx), pts, lf, stats)
+
+
 #: the caution every projected region carries (docs/physics_cones.md, "Projections: other
 #: coefficients free")
 PROJECTION_NOTE = (
@@ -265,7 +398,7 @@ PROJECTION_NOTE = (
 
 
 def projection_region(theory: str, pc: ProjectedCone, convention: dict[str, Any],
-                      notes: tuple[str, ...] = ()) -> Any:
+                      notes: tuple[str, ...] = (), family: str = "extremal") -> Any:
     """The :class:`eftsieve.region.Region` of a projection: facets ``n . c >= 0`` over the
     kept coefficients with their certificates (on the full problem) and residuals, and the
     conic hull of the proven points as the inner set.  It has no exact shell solver (the
@@ -273,14 +406,14 @@ def projection_region(theory: str, pc: ProjectedCone, convention: dict[str, Any]
     from eftsieve.region.model import Facet, Region
 
     label = f"projection, {len(pc.free)} free"
-    facets = tuple(Facet(tuple(float(x) for x in n), 0.0, "extremal", label, {}, 0.0,
+    facets = tuple(Facet(tuple(float(x) for x in n), 0.0, family, label, {}, 0.0,
                          "verified", {"certificate": c.to_dict(), "free_residual": float(r),
                                       "full_normal": [float(x) for x in c.normal]})
                    for n, r, c in zip(pc.normals, pc.residuals, pc.certificates, strict=True))
-    inner = tuple(Facet(tuple(float(x) for x in n), 0.0, "extremal",
+    inner = tuple(Facet(tuple(float(x) for x in n), 0.0, family,
                         "inner cone (hull of proven points of the projection)", {}, 0.0,
                         "verified", {"kind": "inner"}) for n in pc.inner_normals())
-    settings = {"family": "extremal",
+    settings = {"family": family,
                 "projection": {"keep": list(pc.keep), "free": list(pc.free), **pc.stats}}
     note = PROJECTION_NOTE.format(free=", ".join(pc.free), rmax=pc.stats["max_residual"])
     return Region(theory, pc.keep, {**convention, "free": list(pc.free)}, facets, settings,

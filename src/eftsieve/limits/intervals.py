@@ -181,13 +181,14 @@ def sign_rules(region: Region, *, exact: bool = True) -> tuple[SignRule, ...]:
 
 
 @lru_cache(maxsize=256)
-def _free_sign(theory: str, name: str) -> tuple[str, float | None]:
-    from eftsieve.bounds.projection import project_cone, sign_with_others_free
+def _free_sign(theory: str, name: str, family: str = "extremal") -> tuple[str, float | None]:
+    from eftsieve.bounds.projection import project_cone, project_elastic, sign_with_others_free
     from eftsieve.errors import SolverError
 
     problem = _full_problem(theory)
+    project = project_cone if family == "extremal" else project_elastic
     try:
-        pc = project_cone(problem, [name], sdp=_sdp_of(theory))
+        pc = project(problem, [name], sdp=_sdp_of(theory))
     except SolverError:
         return "undecided", None
     rule = sign_with_others_free(pc)
@@ -214,11 +215,12 @@ def with_free_signs(rules: tuple[SignRule, ...], region: Region, names: list[str
                     ) -> tuple[SignRule, ...]:
     """The rules of ``names`` with their sign when every other coefficient of the theory
     is free (its whole cone projected onto the one coefficient); unchanged for regions
-    that are not extremal positivity cones of a theory with a full problem, and for
+    that are not positivity cones of a theory with a full problem, and for
     coefficients not in ``names`` (computing one costs a few SDPs)."""
     from eftsieve.theories import get_theory
 
-    if region.settings.get("family") != "extremal" or "cone_problem" not in region.settings:
+    family = region.settings.get("family")
+    if family not in ("extremal", "elastic") or "cone_problem" not in region.settings:
         return rules
     try:
         theory = get_theory(region.theory)
@@ -232,7 +234,7 @@ def with_free_signs(rules: tuple[SignRule, ...], region: Region, names: list[str
     out = []
     for r in rules:
         if r.coefficient in names and r.coefficient in full:
-            rule, res = _free_sign(region.theory, r.coefficient)
+            rule, res = _free_sign(region.theory, r.coefficient, str(family))
             r = replace(r, free_rule=rule, free_residual=res)
         out.append(r)
     return tuple(out)
@@ -244,7 +246,8 @@ PROJECTION_CUT = "projection"
 
 def free_cut(row: IntervalRow, region: Region) -> LineCut:
     """The cut of a row whose other coefficients were free: the projection of the theory's
-    whole extremal cone onto the row's coefficient (:mod:`eftsieve.bounds.projection`).
+    whole cone (of the region's family) onto the row's coefficient
+    (:mod:`eftsieve.bounds.projection`).
 
     The coefficient must map (with the row's convention) onto one coordinate of the
     theory, times a non-zero factor a; the allowed set of x is then the projection's sign
@@ -255,7 +258,8 @@ def free_cut(row: IntervalRow, region: Region) -> LineCut:
     ------
     InputError
         The theory is not a positivity cone with a full problem, the region's family is
-        not ``extremal``, or the coefficient maps onto several coordinates.
+        neither ``extremal`` nor ``elastic``, or the coefficient maps onto several
+        coordinates.
     """
     from eftsieve.errors import InputError
     from eftsieve.limits.mapping import affine_into
@@ -266,10 +270,10 @@ def free_cut(row: IntervalRow, region: Region) -> LineCut:
     if not callable(getattr(theory, "problem", None)) or "cone_problem" not in region.settings:
         raise InputError(None, where, f"'free' needs a positivity cone; {row.theory} is not "
                          "one", "give the values the other coefficients were held at")
-    if region.settings.get("family") != "extremal":
-        raise InputError(None, where, "a row with the others free is decided with the "
-                         "extremal family (its projection)", "drop --family elastic, or give "
-                         "a --region of the extremal family")
+    family = str(region.settings.get("family"))
+    if family not in ("extremal", "elastic"):
+        raise InputError(None, where, f"a row with the others free needs the extremal or "
+                         f"the elastic family, not '{family}'", "give --family extremal")
     full = _full_problem(row.theory).coefficients
     # the region's convention over all the theory's coefficients (only the map is used)
     whole = replace(region, coordinates=full, facets=(), inner_facets=(), inner_vertices=())
@@ -283,7 +287,7 @@ def free_cut(row: IntervalRow, region: Region) -> LineCut:
                          f"{row.convention.name}", "state the row in a convention where "
                          "the coefficient is one coordinate, or give the others' values")
     name, a = full[int(nz[0])], float(v[nz[0]])
-    rule, res = _free_sign(row.theory, name)
+    rule, res = _free_sign(row.theory, name, family)
     pos, neg = (rule in ("nonnegative", "free"), rule in ("nonpositive", "free"))
     if a < 0:
         pos, neg = neg, pos
@@ -295,5 +299,5 @@ def free_cut(row: IntervalRow, region: Region) -> LineCut:
         sure, method = allowed, PROJECTION_CUT
     resid = f", facet residual {res:.0e}" if res is not None else ""
     note = (f"others free: {name} {SIGN_TEXT[rule]} with every other coefficient of "
-            f"{row.theory} free (projection of the extremal cone{resid})")
+            f"{row.theory} free (projection of the {family} cone{resid})")
     return LineCut(allowed, sure, method, (note,), 0)

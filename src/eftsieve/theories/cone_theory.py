@@ -71,14 +71,13 @@ def build_projection(theory: str, problem: ConeProblem, keep: tuple[str, ...],
     """The region of the cone of ``problem`` restricted to keep + free (the rest fixed to
     zero) and projected onto ``keep`` (:mod:`eftsieve.bounds.projection`); InputError
     with the answer when positivity constrains nothing there, or when the request cannot
-    be built (elastic family, more than two kept coefficients, a failed projection)."""
-    from eftsieve.bounds.projection import project_cone, projection_region
+    be built (more than two kept coefficients, a failed projection)."""
+    from eftsieve.bounds.projection import project_cone, project_elastic, projection_region
     from eftsieve.errors import SolverError
 
-    if family != "extremal":
-        raise InputError(None, "--free", "projections are built for the extremal family "
-                         "only", "use --family extremal (the elastic cone's product "
-                         "states are not searched with free coefficients)")
+    if family not in ("extremal", "elastic"):
+        raise InputError(None, "--family", f"unknown family '{family}'",
+                         "use --family extremal or --family elastic")
     if not 1 <= len(keep) <= 2:
         raise InputError(None, "--coordinates", f"a projection is built onto one or two "
                          f"coefficients, got {len(keep)}", "give one or two names, "
@@ -87,7 +86,7 @@ def build_projection(theory: str, problem: ConeProblem, keep: tuple[str, ...],
     idx = [problem.coefficients.index(c) for c in names]
     sub = ConeProblem(names, problem.modes, problem.tensors[idx])
     try:
-        pc = project_cone(sub, keep)
+        pc = project_cone(sub, keep) if family == "extremal" else project_elastic(sub, keep)
     except SolverError as err:
         raise InputError(None, "--free", f"the projection of the cone of {','.join(names)} "
                          f"onto {','.join(keep)} failed ({err})",
@@ -106,7 +105,7 @@ def build_projection(theory: str, problem: ConeProblem, keep: tuple[str, ...],
     conv = dict(convention)
     if fixed:
         conv["fixed_to_zero"] = fixed
-    return projection_region(theory, pc, conv, notes=notes)
+    return projection_region(theory, pc, conv, notes=notes, family=family)
 
 
 def problem_from_operators(coefficients: tuple[str, ...], modes: AnyModes,
