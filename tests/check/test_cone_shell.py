@@ -330,3 +330,20 @@ def test_a_point_outside_by_rounding_is_solved_not_declared_outside():
     assert got.tolist() == [1, 2]
     assert res.shell is not None and res.shell.n_shell == 1
     assert res.shell.n_marginal == 1 and res.shell.n_outside == 0
+
+
+def test_fit_verdict_decides_a_mean_in_the_shell_exactly(photon_region):
+    # the looser outer set (a >= 0 only) holds a mean with b < 0, but the quadrant
+    # a >= 0, b >= 0 (hep-th/0602178) does not: the verdict says so from an exact solve,
+    # and the tension against the outer facets (zero) is not passed off as the cone's
+    params = tuple(Parameter(n, Convention("none")) for n in photon.ALT_COEFFICIENTS)
+    fit = Fit("photon-demo", "photon-quartic", params, {}, np.array([0.4, -0.2]),
+              np.diag([0.05, 0.05]) ** 2)
+    res = run_check(fit, photon_region, CheckSettings(draws=2000, seed=1))
+    v = res.verdict
+    assert not v.mean_inside
+    assert "inside every outer facet but outside the cone (exact solve: outside" in v.reason
+    assert v.tension_text.startswith("not computed against the cone itself")
+    # a mean in the shell but inside the quadrant keeps the usual reason
+    inside = run_check(photon_fit(), photon_region, CheckSettings(draws=2000, seed=1))
+    assert inside.verdict.mean_inside and "inside the nearest facet" in inside.verdict.reason

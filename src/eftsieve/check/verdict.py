@@ -28,6 +28,7 @@ from typing import Any
 
 import numpy as np
 
+from eftsieve.check.verdicts import INSIDE, OUTSIDE
 from eftsieve.numbers import fmt_num, fmt_pct, fmt_prob, fmt_sigma
 from eftsieve.region.model import Region
 from eftsieve.stats.tension import Tension
@@ -220,10 +221,37 @@ def tension_text(ten: Tension, facets: tuple[FacetViolation, ...]) -> str:
     return f"{fmt_sigma(ten.sigma)} (p = {fmt_prob(ten.p_value)})"
 
 
+def mean_in_shell(region: Region, mean: np.ndarray) -> tuple[int, str] | None:
+    """For a cone region with an exact solver (:mod:`eftsieve.check.shell`) whose outer
+    facets hold the mean while its inner facets do not: the mean's exact verdict and its
+    status line (one solve); None otherwise.  The facet distances and the tension are
+    computed against the outer facets, so without this a mean outside the cone but
+    inside every outer facet would be called inside."""
+    from eftsieve.check.shell import has_shell_solver, shell_solver
+
+    x = np.atleast_2d(np.asarray(mean, dtype=float))
+    if not has_shell_solver(region) or not np.isfinite(x).all() or not region.facets:
+        return None
+    if not np.all(region.margins(x) >= 0):
+        return None
+    if region.inner_facets and np.all(region.margins(x, inner=True) > 0):
+        return None
+    solver = shell_solver(region)
+    if solver is None:
+        return None
+    codes, statuses, _ = solver.decide(x, np.zeros(1, dtype=np.int64))
+    return int(codes[0]), str(statuses[0])
+
+
 def _reason(label: str, mean_inside: bool, facets: tuple[FacetViolation, ...],
-            p_inside: float, ptext: str) -> str:
+            p_inside: float, ptext: str, exact_mean: tuple[int, str] | None = None) -> str:
     if not facets:
         return "the region has no facets"
+    if exact_mean is not None and exact_mean[0] != INSIDE:
+        what = "outside the cone" if exact_mean[0] == OUTSIDE else \
+            "on the cone's boundary to the solver's accuracy"
+        return (f"the mean lies inside every outer facet but {what} (exact solve: "
+                f"{exact_mean[1]}); {p_inside_clause(ptext)}")
     if mean_inside:
         near = min(facets, key=lambda v: v.distance_sigma)
         return (f"the mean lies {fmt_sigma(near.distance_sigma)} inside the nearest facet, "
@@ -244,9 +272,16 @@ def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
     model, with its ``tension_sigma`` and ``p_inside``, or None)."""
     facets = facet_violations(region, mean, cov, exact, rows, weights)
     mean_inside = bool(np.all(region.margins(np.atleast_2d(mean)) >= 0))
+    exact_mean = mean_in_shell(region, mean) if mean_inside else None
     ptext = p_inside_text(p_inside, p_inside_err, ess)
     label = classify_fit(ten.sigma, p_inside)
-    reason = _reason(label, mean_inside, facets, p_inside, ptext)
+    reason = _reason(label, mean_inside, facets, p_inside, ptext, exact_mean)
+    ttext = tension_text(ten, facets)
+    if exact_mean is not None and exact_mean[0] != INSIDE:
+        mean_inside = False
+        if ten.mahalanobis_min <= MAHALANOBIS_ZERO:
+            ttext = ("not computed against the cone itself: the mean is inside every outer "
+                     "facet (distance 0 to them, a lower bound) but not inside the cone")
     if model is not None:
         soft = classify_fit(float(model["tension_sigma"]), float(model["p_inside"]))
         if soft != label:
@@ -255,5 +290,4 @@ def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
             label = "uncertain"
         else:
             reason += "; the same under the theory-uncertainty model"
-    return FitVerdict(label, reason, ptext, tension_text(ten, facets), mean_inside, facets,
-                      thresholds())
+    return FitVerdict(label, reason, ptext, ttext, mean_inside, facets, thresholds())
