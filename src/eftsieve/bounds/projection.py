@@ -176,6 +176,46 @@ def _irredundant(normals: np.ndarray, residuals: np.ndarray) -> list[int]:
     return [best_near(a), best_near(b)]
 
 
+def _directions(n_keep: int, shots: int) -> list[np.ndarray]:
+    """The shooting directions in the kept plane (both ways along a line)."""
+    if n_keep == 1:
+        return [np.array([1.0]), np.array([-1.0])]
+    th = 2 * math.pi * (np.arange(shots) + 0.5) / shots
+    return list(np.column_stack([np.cos(th), np.sin(th)]))
+
+
+def _keep_facet(kept: list[tuple[np.ndarray, float, FacetCertificate]],
+                cert: FacetCertificate, ki: list[int], fi: tuple[int, ...]) -> int:
+    """Append a full-cone facet's kept part (unit), its residual r = |n_F|_1/|n_K| and the
+    certificate to ``kept``; 1 (dropped) instead when r exceeds MAX_RESIDUAL, else 0."""
+    nk, nf = cert.normal[ki], cert.normal[list(fi)]
+    size = float(np.linalg.norm(nk))
+    r = float(np.abs(nf).sum()) / size if size > 0 else math.inf
+    if r > MAX_RESIDUAL:
+        return 1
+    kept.append((nk / size, r, cert))
+    return 0
+
+
+def _finish(keep: Sequence[str], free: tuple[str, ...], ki: list[int], fi: tuple[int, ...],
+            kept: list[tuple[np.ndarray, float, FacetCertificate]], pts: np.ndarray,
+            lf: np.ndarray, stats: dict[str, Any]) -> ProjectedCone:
+    """Check each kept facet on the proven points (up to its residual and rounding), keep
+    the irredundant ones, and assemble the projection."""
+    nrm = np.array([k[0] for k in kept]).reshape(-1, len(ki))
+    rs = np.array([k[1] for k in kept])
+    for n, r in zip(nrm, rs, strict=True):
+        slack = r * np.abs(lf[:, list(fi)]).max(axis=1) / np.linalg.norm(lf[:, ki], axis=1)
+        if (pts @ n < -slack - 1e-9).any():
+            raise SolverError("inconsistent", f"projection onto {', '.join(keep)}: an "
+                              "outer facet cuts a proven point")
+    idx = _irredundant(nrm, rs)
+    stats = {**stats, "max_residual": float(rs[idx].max()) if idx else 0.0,
+             "points": len(pts)}
+    return ProjectedCone(tuple(keep), free, nrm[idx], rs[idx],
+                         tuple(kept[i][2] for i in idx), pts, lf, stats)
+
+
 def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
                  shrink: float = 1e-6, sdp: Any = None) -> ProjectedCone:
     """The projection of the extremal cone of ``problem`` onto ``keep`` (one or two of its
@@ -204,12 +244,9 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
         raise SolverError(cen.status, "centre SDP: its rho failed verification")
     c0 = np.zeros(problem.k)
     c0[ki] = cen.c[ki]
-    if len(ki) == 1:
-        dirs = [np.array([1.0]), np.array([-1.0])]
-    else:
-        th = 2 * math.pi * (np.arange(shots) + 0.5) / shots
-        dirs = list(np.column_stack([np.cos(th), np.sin(th)]))
-    normals, residuals, certs, points, lifts = [], [], [], [], []
+    dirs = _directions(len(ki), shots)
+    kept: list[tuple[np.ndarray, float, FacetCertificate]] = []
+    points, lifts = [], []
     failed = dropped = unbounded = 0
     for dk in dirs:
         d = np.zeros(problem.k)
@@ -230,35 +267,15 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
             continue
         if res.z is not None:
             cert = res.cert if res.cert is not None else facet_from_dual(problem, res.z)
-            if cert is None:
-                continue
-            nk, nf = cert.normal[ki], cert.normal[list(fi)]
-            size = float(np.linalg.norm(nk))
-            r = float(np.abs(nf).sum()) / size if size > 0 else math.inf
-            if r > MAX_RESIDUAL:
-                dropped += 1
-                continue
-            normals.append(nk / size)
-            residuals.append(r)
-            certs.append(cert)
+            if cert is not None:
+                dropped += _keep_facet(kept, cert, ki, fi)
     if len(points) < 2:
         raise SolverError("failed", f"projection onto {', '.join(keep)}: only {len(points)} "
                           f"of {len(dirs)} shots gave a proven point")
-    pts, lf = np.array(points), np.array(lifts)
-    nrm = np.array(normals).reshape(-1, len(ki))
-    rs = np.array(residuals)
-    for n, r in zip(nrm, rs, strict=True):
-        # the facet holds on every proven point up to its residual (plus rounding)
-        slack = r * np.abs(lf[:, list(fi)]).max(axis=1) / np.linalg.norm(lf[:, ki], axis=1)
-        if (pts @ n < -slack - 1e-9).any():
-            raise SolverError("inconsistent", f"projection onto {', '.join(keep)}: an "
-                              "outer facet cuts a proven point")
-    idx = _irredundant(nrm, rs)
-    stats = {"shots": len(dirs), "failed_shots": failed, "unbounded_shots": unbounded,
-             "dropped_for_residual": dropped,
-             "max_residual": float(rs[idx].max()) if idx else 0.0, "points": len(pts)}
-    return ProjectedCone(tuple(keep), tuple(names[i] for i in fi), nrm[idx], rs[idx],
-                         tuple(certs[i] for i in idx), pts, lf, stats)
+    return _finish(keep, tuple(names[i] for i in fi), ki, fi, kept, np.array(points),
+                   np.array(lifts), {"shots": len(dirs), "failed_shots": failed,
+                                     "unbounded_shots": unbounded,
+                                     "dropped_for_residual": dropped})
 
 
 #: cutting-plane rounds of one elastic shot (each adds one violated product state)
@@ -342,14 +359,9 @@ def project_elastic(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
               for i in range(problem.n) for j in range(problem.n)]
     states = [s for s in states if np.any(s[2])]
     c0 = np.zeros(problem.k)
-    mean = inner.lifts.mean(axis=0)
-    c0[ki] = mean[ki]
-    if len(ki) == 1:
-        dirs = [np.array([1.0]), np.array([-1.0])]
-    else:
-        th = 2 * math.pi * (np.arange(shots) + 0.5) / shots
-        dirs = list(np.column_stack([np.cos(th), np.sin(th)]))
-    normals, residuals, certs = [], [], []
+    c0[ki] = inner.lifts.mean(axis=0)[ki]
+    dirs = _directions(len(ki), shots)
+    kept: list[tuple[np.ndarray, float, FacetCertificate]] = []
     failed = dropped = unbounded = 0
     for dk in dirs:
         d = np.zeros(problem.k)
@@ -360,31 +372,12 @@ def project_elastic(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
             continue
         if cert is None:
             unbounded += int(lam >= CAP)
-            continue
-        nk, nf = cert.normal[ki], cert.normal[list(fi)]
-        size = float(np.linalg.norm(nk))
-        r = float(np.abs(nf).sum()) / size if size > 0 else math.inf
-        if r > MAX_RESIDUAL:
-            dropped += 1
-            continue
-        normals.append(nk / size)
-        residuals.append(r)
-        certs.append(cert)
-    nrm = np.array(normals).reshape(-1, len(ki))
-    rs = np.array(residuals)
-    pts, lf = inner.points, inner.lifts
-    for n, r in zip(nrm, rs, strict=True):
-        slack = r * np.abs(lf[:, list(fi)]).max(axis=1) / np.linalg.norm(lf[:, ki], axis=1)
-        if (pts @ n < -slack - 1e-9).any():
-            raise SolverError("inconsistent", f"elastic projection onto {', '.join(keep)}: "
-                              "an outer facet cuts a proven point")
-    idx = _irredundant(nrm, rs)
-    stats = {"shots": len(dirs), "failed_shots": failed, "unbounded_shots": unbounded,
-             "dropped_for_residual": dropped,
-             "max_residual": float(rs[idx].max()) if idx else 0.0, "points": len(pts),
-             "product_states": len(states), "inner_points": "extremal (proven by rho)"}
-    return ProjectedCone(tuple(keep), inner.free, nrm[idx], rs[idx],
-                         tuple(certs[i] for i in idx), pts, lf, stats)
+        else:
+            dropped += _keep_facet(kept, cert, ki, fi)
+    return _finish(keep, inner.free, ki, fi, kept, inner.points, inner.lifts,
+                   {"shots": len(dirs), "failed_shots": failed, "unbounded_shots": unbounded,
+                    "dropped_for_residual": dropped, "product_states": len(states),
+                    "inner_points": "extremal (proven by rho)"})
 
 
 #: the caution every projected region carries (docs/physics_cones.md, "Projections: other
