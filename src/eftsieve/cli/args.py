@@ -143,7 +143,7 @@ def add_region_args(p: argparse.ArgumentParser) -> None:
                    help="coefficients left free (any value) instead of zero, or 'all' for "
                         "every coefficient not in --coordinates: the region is the cone's "
                         "projection onto one or two --coordinates (positivity-cone "
-                        "theories, extremal family)")
+                        "theories, extremal or elastic family)")
     p.add_argument("--sin2-theta-w", type=positive_float, default=None, metavar="X",
                    help="weak mixing angle sin^2(theta_W) of theories with hatted field "
                         "strengths (the default is the theory's; it does not move the cone)")
