@@ -41,6 +41,21 @@ def test_shell_share_of_the_imposed_samples_matches_the_published_cone():
     # binomial error of 100 solves on the shell share, and a little slack
     err = note["shell_fraction"] * 0.5 / np.sqrt(100)
     assert abs(note["in_cone_estimate"] - truth) < 3 * err + 0.01
+    # the banner leads with it when much of the result is outside the cone itself
+    from eftsieve.report.impose_report import IN_CONE_WARN, impose_banner
+
+    banner = impose_banner(res)
+    if note["in_cone_estimate"] < IN_CONE_WARN:
+        assert banner.label == "outer facets only"
+        assert "not the posterior within the cone" in banner.text
+    else:
+        assert banner.label in ("imposed", "bounds-driven")
+    from dataclasses import replace
+
+    low = replace(res, figures={**res.figures, "cone_shell": {**note,
+                                                               "in_cone_estimate": 0.2}})
+    assert impose_banner(low).label == "outer facets only"
+    assert "about 20% of the result in the cone" in impose_banner(low).text
 
 
 def test_regions_without_a_shell_get_no_note():

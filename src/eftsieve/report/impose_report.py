@@ -29,9 +29,16 @@ MODE_TEXT = {
 }
 
 
+#: below this estimated share of the imposed samples inside a cone itself (exact solves on
+#: a sample of its shell), the banner says the result is truncated to the outer facets only
+IN_CONE_WARN = 0.95
+
+
 def impose_banner(result: ImposeResult) -> Banner:
-    """``imposed``, ``bounds-driven`` (p_inside before below the tiny threshold) or
-    ``not converged`` (a refit that failed its convergence rule)."""
+    """``imposed``, ``bounds-driven`` (p_inside before below the tiny threshold),
+    ``outer facets only`` (a cone whose shell holds much of the result, exact solves
+    putting less than :data:`IN_CONE_WARN` of it in the cone) or ``not converged`` (a
+    refit that failed its convergence rule)."""
     f = result.figures
     p = f.get("p_inside_before")
     ptext = "" if p is None else f"; p_inside without positivity = {fmt_prob(p)}"
@@ -46,6 +53,14 @@ def impose_banner(result: ImposeResult) -> Banner:
         return Banner("not converged", f"the refit chain is not converged by the stated "
                       f"rule ({f.get('convergence_rule', '')}); do not use these samples "
                       "before running longer")
+    est = (f.get("cone_shell") or {}).get("in_cone_estimate")
+    if est is not None and est < IN_CONE_WARN:
+        # the truncation used the cone's outer facets; exact solves on a sample of the
+        # result say how much of it is in the cone itself
+        return Banner("outer facets only", f"positivity imposed with the cone's verified "
+                      f"outer facets ({result.mode}, {n} samples){ptext}; exact solves put "
+                      f"only about {fmt_num(100 * est, 3)}% of the result in the cone "
+                      "itself, so it is not the posterior within the cone")
     if result.driven_by_bounds:
         return Banner("bounds-driven", f"positivity imposed ({result.mode}, {n} samples)"
                       f"{ptext}, below {fmt_prob(TINY_P_INSIDE)}: the truncated result is "
