@@ -133,3 +133,25 @@ def test_reduced_dual_gives_a_verified_separating_facet(aqgc):
         assert verify_certificate(aqgc, cert.to_dict(), cert.normal)
     assert seen >= 4                             # random directions are mostly outside
     assert fast.reduced_fallbacks == 0
+
+
+def test_a_failing_direct_solve_falls_back_to_the_sector_program():
+    # an exception inside the direct Clarabel call is not decisive: the same point is
+    # solved on the sign sectors, with the optimum of the unreduced program
+    from types import SimpleNamespace
+
+    problem = get_theory("transverse-w").problem()
+    fast, plain = ExtremalSDP(problem), ExtremalSDP(problem, reduce=False)
+    assert fast.symmetry_blocks is not None
+    c = np.array([1.0, 0.5, 2.0])
+    fast.membership(c)                           # builds the direct program
+    used = fast.reduced_used
+
+    def broken(*args, **kwargs):
+        raise ValueError("injected")
+
+    direct = fast._fast._direct
+    direct.clarabel = SimpleNamespace(DefaultSolver=broken)
+    got = fast.membership(c)
+    assert fast.reduced_fallbacks == 1 and fast.reduced_used == used
+    assert got.value == pytest.approx(plain.membership(c).value, abs=2e-6)

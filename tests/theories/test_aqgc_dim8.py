@@ -479,9 +479,10 @@ def test_projections_with_every_other_coefficient_free(theory, coef, normals):
 @pytest.mark.parametrize(("coef", "normals"), [("fT7", [(1.0,)]), ("fM3", [(-1.0,)])])
 def test_elastic_projections_with_every_other_coefficient_free(theory, coef, normals):
     # the elastic cone contains the extremal one, so its projections are at least as
-    # large; for fT7 and fM3 the sign survives (a conic combination of product states
-    # with no free part, exact for what it stores), the same as for the extremal family
-    # (docs/physics_aqgc.md, "Other coefficients free")
+    # large; for fT7 and fM3 the sign survives, as for the extremal family.  No published
+    # value is known to us for these signs with every other coefficient free: the check
+    # is that each facet is a conic combination of product states (each an exact facet
+    # of the elastic cone) with no free part, re-verified from what it stores
     from eftsieve.bounds.cones import verify_certificate
     from eftsieve.theories.aqgc_dim8.theory import aqgc_problem
 

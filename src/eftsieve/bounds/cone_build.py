@@ -51,7 +51,6 @@ from eftsieve.bounds.cones import (
     FacetCertificate,
     cross,
     elastic_values,
-    facet_from_dual,
     facet_from_states,
     verify_rho,
 )
@@ -209,7 +208,7 @@ class _Builder:
         if res.status not in _OK or res.rho is None:
             return float("nan")
         if with_facet and res.z is not None:
-            cert = res.cert if res.cert is not None else facet_from_dual(self.p, res.z)
+            cert = res.facet(self.p)
             if cert is not None:
                 self.facets.append(cert)
         for delta in (self.st.shrink, 10 * self.st.shrink, 100 * self.st.shrink,
@@ -406,8 +405,8 @@ class _Builder:
 
 
 #: smallest over largest spread of the inner points on the slice below which the cone is
-#: taken as flat (measured: 8e-15 for fT0..fT2 with fT5, whose cone lies in fT5 = 0;
-#: above 1e-4 for every full-dimensional cone built in the tests)
+#: taken as flat (measured over the test suite: below 1e-13 for a cone that lies in a
+#: hyperplane, 3e-4 and above for every full-dimensional one; docs/physics_aqgc.md)
 FLAT_REL = 1e-9
 
 

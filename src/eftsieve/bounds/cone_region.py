@@ -43,7 +43,6 @@ from eftsieve.bounds.cones import (
     OUTSIDE,
     ConeProblem,
     FacetCertificate,
-    facet_from_dual,
     facet_from_states,
     verify_rho,
 )
@@ -149,7 +148,7 @@ def _extremal_facet(problem: ConeProblem, x: np.ndarray) -> Decision:
         return INSIDE, f"inside: verified rho, lambda_min/max|rho| = {lam_rel:.3g} " \
                        f"(solver {res.status})", "verified rho", None
     if res.value < 0 and res.z is not None:
-        cert = res.cert if res.cert is not None else facet_from_dual(problem, res.z)
+        cert = res.facet(problem)
         if cert is not None:
             val = float(cert.normal @ unit)
             if val < -CONE_BOUNDARY_TOL:

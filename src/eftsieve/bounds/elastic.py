@@ -19,8 +19,8 @@ keeps the two directions apart:
   at all and the answer is "undecided".  Measured on Choi's form (tests/bounds/
   test_cones.py) padded with decoupled modes, eps |u|^2 |v|^2 on all of them: with
   eps = 1 it is proven in 245 cells on 3 modes and 38043 on 5, but 400000 cells (5-8 s)
-  prove nothing on 6 or 8 modes; on the 12 modes of aqgc-dim8 each undecided call took
-  about half a minute, so an elastic build of all 18 coefficients never finished.
+  prove nothing on 6 or 8 modes; on 12 modes each undecided call took about half a
+  minute, so an elastic build on them never finished (docs/physics_cones.md).
 
 Only real u, v are used.  For a real, time-reversal and crossing-symmetric M (every
 theory here: each mode is its own crossing image) that loses nothing: a complex state

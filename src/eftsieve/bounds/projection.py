@@ -51,7 +51,7 @@ from typing import Any
 
 import numpy as np
 
-from eftsieve.bounds.cones import ConeProblem, FacetCertificate, facet_from_dual, verify_rho
+from eftsieve.bounds.cones import ConeProblem, FacetCertificate, verify_rho
 from eftsieve.errors import SolverError
 
 #: largest residual r = |n_F|_1/|n_K| of a kept outer facet (module docstring)
@@ -266,7 +266,7 @@ def project_cone(problem: ConeProblem, keep: Sequence[str], shots: int = 24,
             unbounded += 1                   # no boundary that way: no facet either
             continue
         if res.z is not None:
-            cert = res.cert if res.cert is not None else facet_from_dual(problem, res.z)
+            cert = res.facet(problem)
             if cert is not None:
                 dropped += _keep_facet(kept, cert, ki, fi)
     if len(points) < 2:
@@ -324,7 +324,10 @@ def _elastic_shot(problem: ConeProblem, c0: np.ndarray, d: np.ndarray, fi: tuple
         if not size > 1e-12 * float(np.linalg.norm(c0)):
             break                              # the apex: every state vanishes there
         m = problem.tensor(point / size)
-        u, v, val = search_states(m, rng, starts=24, sweeps=25)
+        try:
+            u, v, val = search_states(m, rng, starts=24, sweeps=25)
+        except np.linalg.LinAlgError:
+            return float("nan"), None           # a failed shot (counted, no facet)
         if val >= -1e-10 * float(np.abs(m).max()):
             break
         states.append((u, v, elastic_values(problem, u, v)))

@@ -68,6 +68,13 @@ class SDPResult:
     def to_dict(self) -> dict[str, Any]:
         return {"status": self.status, "value": self.value}
 
+    def facet(self, problem: ConeProblem) -> Any:
+        """The verified facet of ``z`` (:func:`eftsieve.bounds.cones.facet_from_dual`): the
+        one the program already built, else built now; None without z or a valid one."""
+        if self.cert is not None:
+            return self.cert
+        return None if self.z is None else facet_from_dual(problem, self.z)
+
 
 def orbit_representatives(n: int) -> np.ndarray:
     """Flat indices (into n^2 x n^2) of one entry per orbit under transpose and crossing.
@@ -179,10 +186,10 @@ class _Programs:
             self.parts = list(parts)
             rows_of = _basis_maps(sectors, parts, n2, perm, reps)
         mr = problem.matrices().reshape(problem.k, -1)[:, reps].T           # (rows, k)
-        eye_live = np.zeros((n2, n2))
+        self._eye_live = np.zeros((n2, n2))
         for sec in sectors:
-            eye_live[sec, sec] = 1.0                    # identity on the live pairs only
-        eye = eye_live.ravel()
+            self._eye_live[sec, sec] = 1.0              # identity on the live pairs only
+        eye = self._eye_live.ravel()
         i_rows = (eye + eye[perm])[reps]                                     # (I + I^x) rows
         live = np.nonzero(sum(abs(a).sum(axis=1).A1 for a in rows_of)
                           + np.abs(mr).sum(axis=1) + np.abs(i_rows) > 0)[0]
@@ -237,11 +244,9 @@ class _Programs:
         self._lhs, self._blocks = lhs, blocks
 
     def eye(self) -> np.ndarray:
-        """The identity on the live pairs (dead pairs: eftsieve.bounds.sectors)."""
-        out = np.zeros((self.problem.n ** 2,) * 2)
-        for sec in self.sectors:
-            out[sec, sec] = 1.0
-        return out
+        """The identity on the live pairs (dead pairs: eftsieve.bounds.sectors; built once,
+        do not modify)."""
+        return self._eye_live
 
     def full(self, values: list[Any]) -> np.ndarray | None:
         """The n^2 x n^2 matrix of per-block values (or duals), or None."""
@@ -398,9 +403,13 @@ class _DirectMembership:
         b = np.concatenate([self.prog._mr @ c, [1.0], np.zeros(self.nv)])
         # a new solver per point (no state carried from the last one: the same point
         # gives the same bits whatever was solved before, in any thread)
-        solver = self.clarabel.DefaultSolver(self.p, self.q, self.a, b, self.cones,
-                                             self.settings)
-        sol = solver.solve()
+        try:
+            solver = self.clarabel.DefaultSolver(self.p, self.q, self.a, b, self.cones,
+                                                 self.settings)
+            sol = solver.solve()
+        except (ValueError, RuntimeError, ArithmeticError) as err:
+            # not decisive: the caller solves the point again on the sign sectors
+            return SDPResult(f"solver_error: {err}", float("nan"), None, None)
         status = _CLARABEL_STATUS.get(str(sol.status).split(".")[-1], str(sol.status))
         if status not in _SOLVED:
             return SDPResult(status, float("nan"), None, None)
@@ -418,10 +427,11 @@ class ExtremalSDP:
     With ``reduce`` (the default) and continuous symmetries of M
     (:mod:`eftsieve.bounds.symmetry`), :meth:`membership`, :meth:`shoot` and
     :meth:`centre` first solve the program on the finer blocks those symmetries imply
-    (about six times faster on the 18 aqgc-dim8 coefficients) and keep its answer when it
-    is decisive: a rho that :func:`~eftsieve.bounds.cones.verify_rho` proves, or a dual
-    matrix that :func:`~eftsieve.bounds.cones.facet_from_dual` turns into a verified facet
-    (that separates the point, for membership).  Otherwise the same program is solved on
+    (about six times less solver time on the 12-mode problem of docs/physics_cones.md)
+    and keep its answer when it is decisive: a rho that
+    :func:`~eftsieve.bounds.cones.verify_rho` proves, or a dual matrix that
+    :func:`~eftsieve.bounds.cones.facet_from_dual` turns into a verified facet (that
+    separates the point, for membership).  Otherwise the same program is solved on
     the sign sectors alone, as without ``reduce``; :meth:`shoot_free` likewise (decisive:
     a verified facet and a lifted point).  ``reduced_used`` and ``reduced_fallbacks``
     count the reduced answers kept and passed over.
@@ -430,14 +440,16 @@ class ExtremalSDP:
     def __init__(self, problem: ConeProblem, solver: str = "CLARABEL",
                  reduce: bool = True) -> None:
         from eftsieve.bounds.sectors import sign_charges
-        from eftsieve.bounds.symmetry import symmetry_blocks
+        from eftsieve.bounds.symmetry import lie_generators, symmetry_blocks
 
         self.problem = problem
         self.solver = solver
         # S is block diagonal in the sectors of the pair space (eftsieve.bounds.sectors)
         self.sectors = pair_sectors(problem.tensors)
-        parts = symmetry_blocks(problem.tensors, self.sectors,
-                                sign_charges(problem.tensors)) if reduce else None
+        #: the generators of the continuous symmetries (computed once; none unless reduce)
+        self._gens = lie_generators(problem.tensors) if reduce else []
+        parts = symmetry_blocks(problem.tensors, self.sectors, sign_charges(problem.tensors),
+                                gens=self._gens) if self._gens else None
         #: the finer blocks of the continuous symmetries: (sector, basis) each, or None
         self.symmetry_blocks = parts if parts is not None and len(parts) > len(
             self.sectors) else None
@@ -465,10 +477,10 @@ class ExtremalSDP:
         if res.z is None:
             return res
         if self._commutant is None:
-            self._commutant = Commutant(self.problem.tensors, self.sectors)
+            self._commutant = Commutant(self.problem.tensors, self.sectors, self._gens)
         return replace(res, z=self._commutant.project(res.z))
 
-    def _keep(self, res: SDPResult, decisive: bool) -> bool:
+    def _keep(self, decisive: bool) -> bool:
         if decisive:
             self.reduced_used += 1
         else:
@@ -505,7 +517,7 @@ class ExtremalSDP:
                     decisive = cert is not None and \
                         float(cert.normal @ unit) < -CONE_BOUNDARY_TOL
                     res = replace(res, cert=cert)
-            if self._keep(res, decisive):
+            if self._keep(decisive):
                 return res
         return self._exact.membership(unit)
 
@@ -517,7 +529,7 @@ class ExtremalSDP:
                 if res.status in _SOLVED and res.z is not None else None
             res = replace(res, cert=cert)
             decisive = cert is not None
-            if self._keep(res, decisive):
+            if self._keep(decisive):
                 return res
         return self._exact.shoot(c0, d, cap)
 
@@ -541,7 +553,7 @@ class ExtremalSDP:
             cert = facet_from_dual(self.problem, res.z) \
                 if res.status in _SOLVED and res.z is not None else None
             res = replace(res, cert=cert)
-            if self._keep(res, cert is not None and res.c is not None):
+            if self._keep(cert is not None and res.c is not None):
                 return res
         return self._shoot_free_on(self._exact, c0, d, free, cap, time_limit)
 
@@ -591,7 +603,7 @@ class ExtremalSDP:
             res = self._fast.centre()
             decisive = res.status in _SOLVED and res.c is not None and res.value > 0 \
                 and self._proves(res.c, res.rho)
-            if self._keep(res, decisive):
+            if self._keep(decisive):
                 return res
         return self._exact.centre()
 

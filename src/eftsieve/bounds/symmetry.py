@@ -6,8 +6,9 @@ leaves every M_a unchanged.  Its infinitesimal form is linear in L:
     sum over the four legs of L acting on that index of M_a = 0   (for every a),
 
 so the Lie algebra of such rotations is a null space (:func:`lie_generators`).  For the
-weak-boson and Higgs modes it holds the global SU(2) x U(1) of the unbroken phase and the
-rotations about the beam axis (the forward limit), whatever the coefficients.
+gauge bosons and scalars of an unbroken gauge theory it holds the global gauge group and
+the rotations about the beam axis (the forward limit), whatever the coefficients
+(docs/physics_cones.md).
 
 Together with the sign symmetries (:mod:`eftsieve.bounds.sectors`) they generate a compact
 group K acting on the pair space as g (x) g.  As for the sign symmetries, averaging any
@@ -35,7 +36,8 @@ from __future__ import annotations
 import numpy as np
 
 #: relative size below which a singular value counts as zero (the generators' null space;
-#: on the aqgc-dim8 tensors the zero ones are below 1e-15 and the others above 1e-2)
+#: on the 12-mode tensors of docs/physics_cones.md the zero ones are below 1e-15 and the
+#: others above 1e-2)
 NULL_REL = 1e-6
 #: relative gap below which two eigenvalues of the generic element count as equal
 CLUSTER_REL = 1e-8
@@ -79,7 +81,8 @@ def lie_generators(tensors: np.ndarray, rel: float = NULL_REL) -> list[np.ndarra
 
 
 def symmetry_blocks(tensors: np.ndarray, sectors: list[np.ndarray], charges: np.ndarray,
-                    seed: int = 0) -> list[tuple[int, np.ndarray]] | None:
+                    seed: int = 0, gens: list[np.ndarray] | None = None,
+                    ) -> list[tuple[int, np.ndarray]] | None:
     """Orthonormal bases of the blocks of an invariant rho, or None without continuous
     symmetries (the sign sectors are then the finest blocks this module finds).
 
@@ -93,6 +96,8 @@ def symmetry_blocks(tensors: np.ndarray, sectors: list[np.ndarray], charges: np.
         The sign charges (:func:`eftsieve.bounds.sectors.sign_charges`).
     seed
         Seed of the generic element (fixed: the same problem gives the same blocks).
+    gens
+        The generators (:func:`lie_generators`), when already computed.
 
     Returns
     -------
@@ -101,7 +106,7 @@ def symmetry_blocks(tensors: np.ndarray, sectors: list[np.ndarray], charges: np.
     sector whose eigenvalues do not separate cleanly is kept whole, with the identity as
     its basis; when the group mixes live pairs with dead ones there is no reduction (None).
     """
-    gens = lie_generators(tensors)
+    gens = lie_generators(tensors) if gens is None else gens
     if not gens:
         return None
     n = tensors.shape[-1]
@@ -169,9 +174,12 @@ class Commutant:
     sectors
         The live pairs of each sign sector; the commutant lies on their diagonal blocks
         (it commutes with the sign flips).
+    gens
+        The generators (:func:`lie_generators`), when already computed.
     """
 
-    def __init__(self, tensors: np.ndarray, sectors: list[np.ndarray]) -> None:
+    def __init__(self, tensors: np.ndarray, sectors: list[np.ndarray],
+                 gens: list[np.ndarray] | None = None) -> None:
         from scipy import sparse
 
         n = tensors.shape[-1]
@@ -184,7 +192,7 @@ class Commutant:
         qs = np.concatenate([np.tile(sec, len(sec)) for sec in sectors])
         m = len(ps)
         blocks = []
-        for g in lie_generators(tensors):
+        for g in (lie_generators(tensors) if gens is None else gens):
             gp = sparse.csr_matrix(np.kron(g, eye) + np.kron(eye, g))
             gt = gp.T.tocsr()
             rows, cols, vals = [], [], []
