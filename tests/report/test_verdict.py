@@ -15,7 +15,14 @@ import pytest
 from scipy import stats as sps
 
 import eftsieve as es
-from eftsieve.check.verdict import classify_fit, facet_violations, p_inside_text, tension_text
+from eftsieve.check.verdict import (
+    classify_fit,
+    facet_violations,
+    fit_verdict,
+    p_inside_text,
+    p_inside_upper,
+    tension_text,
+)
 from eftsieve.cli.check import summary_lines
 from eftsieve.region.model import Region
 from eftsieve.report.check_report import check_document
@@ -79,6 +86,32 @@ def test_thresholds_are_the_two_and_three_sigma_tails():
     assert classify_fit(0.0, 0.02) == "tension"
     assert classify_fit(3.0, 0.5) == "excluded"
     assert classify_fit(0.0, 0.001) == "excluded"
+
+
+def test_a_label_rests_on_p_inside_beyond_its_error():
+    """The thresholds are applied to p + 2 err (a one-sided 97.7% upper end, common
+    practice), and for p = 0 to at least the rule-of-three bound 3/n at 95% (Hanley &
+    Lippman-Hand 1983), so that sampling error alone cannot make a fit excluded."""
+    from eftsieve.stats.tension import tension
+
+    tail3 = sps.norm.sf(3.0)  # Phi(-3) = 0.00135, the excluded threshold
+    assert p_inside_upper(1.15e-4, 2.1e-3, 5e4) == pytest.approx(1.15e-4 + 4.2e-3)
+    assert p_inside_upper(0.0, 0.0, 1000) == pytest.approx(0.003)
+    assert p_inside_upper(0.0, 0.0, 1e5) == pytest.approx(3e-5)
+    assert p_inside_upper(0.9, 0.2, 100) == 1.0
+    assert classify_fit(0.0, p_inside_upper(0.0, 0.0, 1000)) == "tension"
+    assert classify_fit(0.0, p_inside_upper(0.0, 0.0, 1e5)) == "excluded"
+    # a mean inside (no tension) with a small p_inside: the error decides the word
+    reg = region(((1, 0), 0.0),)
+    mean, cov = np.array([1.0, 0.0]), np.eye(2)
+    ten = tension(mean, cov, reg, np.random.default_rng(0))
+    vague = fit_verdict(reg, mean, cov, ten, 1.15e-4, 2.1e-3, 5e4, exact=True)
+    assert vague.label == "tension"
+    assert "below the excluded threshold 0.00135 but its upper end" in vague.reason
+    assert vague.to_dict()["p_inside_upper"] == pytest.approx(1.15e-4 + 4.2e-3)
+    sharp = fit_verdict(reg, mean, cov, ten, 1.15e-4, 1e-5, 5e4, exact=True)
+    assert sharp.label == "excluded" and sharp.p_inside_upper < tail3
+    assert "upper end" not in sharp.reason
 
 
 def test_facet_probability_is_the_gaussian_tail_along_the_normal():

@@ -102,6 +102,9 @@ class FitVerdict:
         Every facet, most violated first.
     thresholds
         The thresholds the label was decided with.
+    p_inside_upper
+        The upper end of p_inside that the thresholds are applied to
+        (:func:`p_inside_upper`); None where it was not computed.
     """
 
     label: str
@@ -111,11 +114,13 @@ class FitVerdict:
     mean_inside: bool
     facets: tuple[FacetViolation, ...] = ()
     thresholds: dict[str, float] = field(default_factory=dict)
+    p_inside_upper: float | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {"label": self.label, "reason": self.reason,
                 "p_inside_text": self.p_inside_text, "tension_text": self.tension_text,
-                "mean_inside": self.mean_inside, "thresholds": dict(self.thresholds)}
+                "mean_inside": self.mean_inside, "thresholds": dict(self.thresholds),
+                "p_inside_upper": self.p_inside_upper}
 
 
 _ERFC = np.frompyfunc(math.erfc, 1, 1)
@@ -136,13 +141,34 @@ def thresholds() -> dict[str, float]:
 
 
 def classify_fit(sigma: float, p_inside: float) -> str:
-    """``consistent``, ``tension`` or ``excluded`` from a tension significance and p_inside."""
+    """``consistent``, ``tension`` or ``excluded`` from a tension significance and p_inside
+    (pass the upper end of p_inside, :func:`p_inside_upper`, so that a label rests on more
+    than the sampling error)."""
     th = thresholds()
     if sigma >= VERDICT_EXCLUDED_SIGMA or p_inside < th["excluded_p_inside"]:
         return "excluded"
     if sigma >= VERDICT_TENSION_SIGMA or p_inside < th["tension_p_inside"]:
         return "tension"
     return "consistent"
+
+
+#: p_inside's error bars that the thresholds allow for: the label compares p + 2 err (a
+#: one-sided 97.7% upper end for a Gaussian error; common practice) with them
+P_INSIDE_ERR_SIGMA = 2.0
+
+
+def p_inside_upper(p: float, err: float, ess: float) -> float:
+    """The upper end of p_inside that the verdict's thresholds are applied to:
+    ``p + 2 err``, and for p = 0 at least the rule-of-three bound 3/n at 95% that
+    :func:`p_inside_text` prints (Hanley & Lippman-Hand, JAMA 249 (1983) 1743).
+
+    A p_inside whose point estimate is below a threshold but whose error bar reaches
+    past it (a sample fraction from few rows, or a Gaussian probability corrected by
+    sampled shell solves) does not decide the label on its own."""
+    up = p + P_INSIDE_ERR_SIGMA * max(err, 0.0) if math.isfinite(err) else 1.0
+    if p <= 0.0:
+        up = max(up, 3.0 / max(ess, 1.0))
+    return float(min(max(up, p), 1.0))
 
 
 def _json_float(x: float) -> float | str:
@@ -274,8 +300,14 @@ def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
     mean_inside = bool(np.all(region.margins(np.atleast_2d(mean)) >= 0))
     exact_mean = mean_in_shell(region, mean) if mean_inside else None
     ptext = p_inside_text(p_inside, p_inside_err, ess)
-    label = classify_fit(ten.sigma, p_inside)
+    upper = p_inside_upper(p_inside, p_inside_err, ess)
+    label = classify_fit(ten.sigma, upper)
     reason = _reason(label, mean_inside, facets, p_inside, ptext, exact_mean)
+    by_point = classify_fit(ten.sigma, p_inside)
+    if by_point != label:
+        th = thresholds()["excluded_p_inside" if by_point == "excluded" else "tension_p_inside"]
+        reason += (f"; p_inside is below the {by_point} threshold {fmt_prob(th)} but its "
+                   f"upper end p + 2 err = {fmt_prob(upper)} is not, so the label is {label}")
     ttext = tension_text(ten, facets)
     if exact_mean is not None and exact_mean[0] != INSIDE:
         mean_inside = False
@@ -283,11 +315,12 @@ def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
             ttext = ("not computed against the cone itself: the mean is inside every outer "
                      "facet (distance 0 to them, a lower bound) but not inside the cone")
     if model is not None:
-        soft = classify_fit(float(model["tension_sigma"]), float(model["p_inside"]))
+        soft = classify_fit(float(model["tension_sigma"]), p_inside_upper(
+            float(model["p_inside"]), float(model.get("p_inside_err") or 0.0), ess))
         if soft != label:
             reason = (f"{label} with hard facets but {soft} within the theory uncertainty "
                       f"of the bounds; {reason}")
             label = "uncertain"
         else:
             reason += "; the same under the theory-uncertainty model"
-    return FitVerdict(label, reason, ptext, ttext, mean_inside, facets, thresholds())
+    return FitVerdict(label, reason, ptext, ttext, mean_inside, facets, thresholds(), upper)

@@ -313,6 +313,9 @@ def verdict_footer(thresholds: dict[str, float]) -> list:
                      f"or p_inside below {fmt_prob(thresholds['excluded_p_inside'])}.",
                      "`uncertain`: the verdict with hard facets differs from the verdict "
                      "under the theory-uncertainty model of the bounds.",
+                     "p_inside enters with its error: the thresholds are applied to p + 2 "
+                     "err (for p = 0, at least the rule-of-three bound 3/n), so sampling "
+                     "error alone never makes a fit tense or excluded.",
                      "Sigma is the one-sided Gaussian equivalent of the tension p-value; the "
                      "thresholds are the usual two- and three-sigma conventions (common "
                      "practice)."))]
