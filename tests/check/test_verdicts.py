@@ -49,7 +49,7 @@ def test_inner_test_skips_outside_rows_without_changing_any_verdict():
     assert (want == OUTSIDE).any() and (want == INSIDE).any() and (want == MARGINAL).any()
 
 
-@pytest.mark.parametrize(("k", "m"), [(7, 40), (18, 183)])
+@pytest.mark.parametrize(("k", "m"), [(7, 40), (18, 183), (9, 300)])  # 300: a 16-bit index
 def test_blas_screen_gives_the_elementwise_bits(k, m):
     """Many coordinates: the BLAS screen (one product per tile, then the element-wise
     margin of the winning facet) gives the element-wise values and facets bit for bit,

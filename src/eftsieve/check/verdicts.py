@@ -161,6 +161,9 @@ class Verdicts:
 FEW_FACETS = 8
 #: cells (rows x facets) of one tile of the many-facet path (2 MiB: within the L2/L3 cache)
 TILE_CELLS = 1 << 18
+#: cells of one single-precision tile of the BLAS screen (4 MiB; 4096-5800 rows at 181
+#: facets ran fastest, benchmarks/bench_cones.py)
+TILE_CELLS_SINGLE = 1 << 20
 #: facets with at most this many nonzero coefficients on average (and fewer than the
 #: dimension, so that there are zeros to skip) take the per-facet path whatever their
 #: number (sparse facets, e.g. of a product of independent cones)
@@ -229,67 +232,90 @@ def _min_margin_blas(y: np.ndarray, a: np.ndarray, b: np.ndarray, with_arg: bool
     """The element-wise minimum margin and its facet, bit for bit, with the facet found by
     one single-precision BLAS product per tile.
 
-    The screen rounds y, a and b to float32 and multiplies them with ``sgemm``, which may
-    sum in any order.  Its margins lie within
+    The screen rounds y, a and b to float32 and forms the (facets x rows) tile of margins
+    with one ``sgemm``, b entering as a (k+1)-th term (so that no pass subtracts it), in
+    any order of summation.  Its margins lie within
     E = gamma_(k+6) (|y|_1 max|a| + max|b|) + (k+2) 2^-149 of the exact ones
     (gamma_n = n u / (1 - n u) with the float32 unit roundoff u = 2^-24; Higham, "Accuracy
     and Stability of Numerical Algorithms", 2nd ed., Sec. 3.1, the bound for a sum in any
-    order, from memory; the six extra u cover the three conversions, their products and
-    the subtraction of b, and the last term the absolute error of subnormal products),
-    and so do the element-wise double margins (a smaller bound).  Where the smallest
-    screened margin beats the next by more than 4E (5E is used, for the rounding of E
-    itself), its facet is therefore the element-wise argmin, and the margin is then
-    recomputed element-wise in double for that facet alone.  The other rows (near-ties,
-    non-finite values, and rows so large that float32 could overflow) take the
-    element-wise path.  The result does not depend on the batch.  Single precision halves
-    the product's time and the memory the reductions stream through
-    (benchmarks/bench_cones.py); the double screen it replaced gave the same bits.
+    order, from memory; k+1 terms, and the extra u cover the three conversions and their
+    products, the last term the absolute error of subnormal products), and so do the
+    element-wise double margins (a smaller bound).  A row whose screened margins have one
+    facet at or below min + 5E (the threshold rounded up to float32; 4E would do) has
+    that facet as its element-wise argmin, and its margin is then recomputed element-wise
+    in double for that facet alone.  The facet is found without an argmin: a count and an
+    index-weighted sum of the (facet <= threshold) mask along the facet axis, both
+    contiguous reductions.  The other rows (near-ties, non-finite values, and rows so
+    large that float32 could overflow) take the element-wise path, together, after the
+    tiles.  The result does not depend on the batch.  Single precision halves the
+    product's time and the memory the reductions stream through, and the (facets x rows)
+    layout turns the per-row reductions over the short facet axis into element-wise ones
+    (about 1.4x the former (rows x facets) argmin at 181 facets in 18 coordinates;
+    benchmarks/bench_cones.py); the double screen before them gave the same bits.
     """
     n, k = y.shape
+    nf = len(b)
     best = np.empty(n)
     arg = np.empty(n, dtype=np.intp)
     u = 2.0 ** -24
     gamma = (k + 6) * u / (1 - (k + 6) * u)
     tiny = (k + 2) * 2.0 ** -149
     amax, bmax = float(np.abs(a).max()), float(np.abs(b).max())
-    at32 = np.ascontiguousarray(a.T, dtype=np.float32)
-    b32 = b.astype(np.float32)
+    aug = np.empty((nf, k + 1), dtype=np.float32)
+    aug[:, :k] = a
+    aug[:, k] = -b
+    # the count and the index sum of a row with one candidate fit this type exactly
+    # (rows with more candidates are not used, so their wrap-around is harmless)
+    idt = np.uint8 if nf < 1 << 8 else np.uint16 if nf < 1 << 16 else np.uint32
+    index = np.arange(nf, dtype=idt)[:, None]
     # |y|_1 max|a| + max|b| below this cannot overflow float32 (max 3.4e38) on the way
     safe = 1e36
     ones = np.ones(k)
-    step = max(512, 2 * TILE_CELLS // len(b))
+    step = max(512, TILE_CELLS_SINGLE // nf)
+    ya = np.empty((min(step, n), k + 1), dtype=np.float32)
+    ya[:, k] = 1.0
+    rest = []
     for lo in range(0, n, step):
         hi = min(n, lo + step)
         yt = y[lo:hi]
         # |y|_1 by a BLAS product (a row sum of 18 terms is slow in numpy); its own
         # rounding, a few units of 1e-16, is covered by the 5E margin below
         size = (np.abs(yt) @ ones) * amax + bmax
+        yw = ya[:hi - lo]
         with np.errstate(over="ignore", invalid="ignore"):
-            tile = yt.astype(np.float32) @ at32
-        tile -= b32
-        rows = np.arange(hi - lo)
-        am = tile.argmin(axis=1)
-        v1 = tile[rows, am].astype(float)
-        tile[rows, am] = np.inf
-        v2 = tile.min(axis=1).astype(float)
-        err = gamma * size + tiny
+            yw[:, :k] = yt
+            tile = aug @ yw.T
+            v1 = tile.min(axis=0)
+            thr = (v1 + 5.0 * (gamma * size + tiny)).astype(np.float32)
+        thr = np.nextafter(thr, np.float32(np.inf))   # rounded up: never more rows pass
+        mask = (tile <= thr).view(np.uint8)
+        count = np.add.reduce(mask, axis=0, dtype=idt)
         with np.errstate(invalid="ignore"):           # non-finite rows: not ok, below
-            ok = (v2 - v1 > 5.0 * err) & np.isfinite(v1) & np.isfinite(v2) & (size < safe)
-        sel = am[ok]
-        ys = yt[ok]
-        asel = a[sel]
-        m = ys[:, 0] * asel[:, 0]
+            ok = (count == 1) & np.isfinite(v1) & (size < safe)
+        sel = np.add.reduce(mask * index, axis=0, dtype=idt)
+        rows: slice | np.ndarray
+        if ok.all():
+            rows, ys = slice(lo, hi), yt
+        else:
+            okr = np.flatnonzero(ok)
+            rest.append(lo + np.flatnonzero(~ok))
+            sel = sel[okr]
+            rows, ys = lo + okr, yt[okr]
+        sel = sel.astype(np.intp)
+        terms = (ys * a[sel]).T          # the products, then summed in column order
+        m = terms[0].copy()
         for c in range(1, k):
-            m += ys[:, c] * asel[:, c]
+            m += terms[c]
         m -= b[sel]
-        best[lo:hi][ok] = m
-        arg[lo:hi][ok] = sel
-        if not ok.all():
-            bad = np.flatnonzero(~ok)
-            bv, ba = _min_margin_elementwise(yt[bad], a, b, True)
+        best[rows] = m
+        arg[rows] = sel
+    if rest:
+        bad = np.concatenate(rest)
+        if len(bad):
+            bv, ba = _min_margin_elementwise(y[bad], a, b, True)
             assert ba is not None
-            best[lo + bad] = bv
-            arg[lo + bad] = ba
+            best[bad] = bv
+            arg[bad] = ba
     return best, arg.astype(np.int32) if with_arg else None
 
 
@@ -334,7 +360,10 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND, *,
     if y.ndim != 2 or y.shape[1] != region.dim:
         raise ValueError(f"points must have shape (n, {region.dim}), got {y.shape}")
     a, b = region.arrays()
-    cols = _columns(y)
+    ai, bi = region.arrays(inner=True) if region.inner_facets else (a, b)
+    # contiguous columns serve the facet-by-facet path only (18 copies of a block cost
+    # about a tenth of the many-facet path's time)
+    cols = _columns(y) if _few_facets(a, b) or _few_facets(ai, bi) else None
     lazy = not all_worst and _few_facets(a, b)
     outer, worst = _min_margin(y, a, b, with_arg=not lazy, cols=cols)
     verdict = np.full(len(y), MARGINAL, dtype=np.int8)
@@ -343,7 +372,6 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND, *,
     if region.inner_facets:
         # a point outside a verified outer facet is outside, whatever the inner facets say
         # (the inner set lies within the outer one): the inner test runs on the rest only
-        ai, bi = region.arrays(inner=True)
         if 2 * np.count_nonzero(out) < len(y):
             # most rows remain: evaluate every row (a gather and a scatter would cost
             # more than the rows they save) and overrule the outside ones
@@ -353,8 +381,8 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND, *,
             inner = np.full(len(y), -np.inf)
             rest = np.flatnonzero(~out)
             if len(rest):
-                inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False,
-                                          cols=[c[rest] for c in cols])[0]
+                inner[rest] = _min_margin(y[rest], ai, bi, with_arg=False, cols=None
+                                          if cols is None else [c[rest] for c in cols])[0]
     else:
         inner = outer
     verdict[inner > band] = INSIDE
@@ -365,7 +393,8 @@ def classify(y: np.ndarray, region: Region, band: float = MARGINAL_BAND, *,
         worst = np.full(len(y), -1, dtype=np.int32)
         need = np.flatnonzero((verdict != INSIDE) | (outer < 0))
         if len(need):
-            _, sub = _min_margin(y[need], a, b, cols=[c[need] for c in cols])
+            _, sub = _min_margin(y[need], a, b, cols=None if cols is None
+                                 else [c[need] for c in cols])
             if sub is not None:
                 worst[need] = sub
     return Verdicts(verdict, outer, worst, outer >= 0)
