@@ -52,6 +52,17 @@ def test_bad_cards_are_refused(name, field):
     assert "\n" not in e.one_line()
 
 
+def test_an_others_cell_without_names_gets_its_three_forms(tmp_path):
+    # a newcomer's "0" for "the others at zero": refused with the three forms the cell takes
+    card = tmp_path / "zero.csv"
+    card.write_text("theory,coefficient,low,high,cl,others,convention,units,source\n"
+                    "aqgc-dim8,fT0,-0.5,0.6,95,0,hat-i,TeV^-4,invented test row\n")
+    with pytest.raises(InputError) as err:
+        read_interval_card(card, get_theory)
+    assert err.value.field == "line 2.others"
+    assert "leave it empty" in err.value.hint and "'free'" in err.value.hint
+
+
 @pytest.mark.parametrize("text,value", [("95", 0.95), ("95%", 0.95), ("0.68", 0.68),
                                         ("99.7", 0.997)])
 def test_confidence_levels(text, value):

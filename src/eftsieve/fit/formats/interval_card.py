@@ -121,15 +121,20 @@ def parse_cl(text: str, path: Path, where: str) -> float:
     return frac
 
 
-def parse_assignments(text: str, path: Path, where: str) -> dict[str, float]:
+#: the fix for a malformed ``others`` cell: its three forms
+OTHERS_FIX = ("leave it empty for every other coefficient at 0, write 'free' if they were "
+              "free, or give NAME=VALUE pairs such as fT1=0; fT2=0.1")
+
+
+def parse_assignments(text: str, path: Path, where: str,
+                      fix: str = "write e.g. fT1=0; fT2=0") -> dict[str, float]:
     """``a=0; b=0.1`` -> {"a": 0.0, "b": 0.1} (empty text: {})."""
     out: dict[str, float] = {}
     for item in text.replace(",", ";").split(";"):
         if not item.strip():
             continue
         if "=" not in item:
-            raise InputError(path, where, f"expected NAME=VALUE, got {item.strip()!r}",
-                             "write e.g. fT1=0; fT2=0")
+            raise InputError(path, where, f"expected NAME=VALUE, got {item.strip()!r}", fix)
         k, v = (s.strip() for s in item.split("=", 1))
         if not k:
             raise InputError(path, where, f"no name before '=' in {item.strip()!r}",
@@ -267,7 +272,7 @@ def _row(p: Path, n: int, cells: dict[str, str], theory_of: Callable[[str], Any]
                          f"{th.name} is not one", "give the values the other coefficients "
                          "were held at")
     others = {} if others_free else parse_assignments(cells.get("others", ""), p,
-                                                       f"{where}.others")
+                                                       f"{where}.others", OTHERS_FIX)
     bad = [k for k in others if k == coef or k not in th.parameter_names]
     if bad:
         raise InputError(p, f"{where}.others.{bad[0]}", "is the row's coefficient or not a "
