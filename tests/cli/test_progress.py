@@ -53,3 +53,33 @@ def test_the_local_check_reports_every_row_to_the_bar() -> None:
     fit = gaussian_fit([1.0, 2.0], [[0.1, 0.0], [0.0, 0.1]])
     run_check(fit, region(((0, 1), 1.0)), CheckSettings(draws=30_000), progress=Count())
     assert seen == {"total": 30_000, "rows": 30_000}
+
+
+def test_a_long_region_build_says_what_it_builds_and_for_how_long() -> None:
+    import contextlib
+    import threading
+
+    from eftsieve.cli.progress import Heartbeat, heartbeat
+
+    stream = FakeTty()
+    ticks = threading.Event()
+
+    class Stream(FakeTty):
+        def write(self, s: str) -> int:
+            n = stream.write(s)
+            if "..." in stream.getvalue():
+                ticks.set()
+            return n
+
+    with Heartbeat("building the toy region", stream=Stream(), delay=0.01, interval=0.01):
+        assert ticks.wait(5.0), "the line appears once the delay is over"
+    text = stream.getvalue()
+    assert text.startswith("\rbuilding the toy region ... 0 s")
+    assert text.endswith("\r"), "the line is erased at the end"
+    quick = FakeTty()
+    with Heartbeat("building the toy region", stream=quick, delay=60.0):
+        pass
+    assert quick.getvalue() == "", "a short build prints nothing"
+    assert isinstance(heartbeat("x", quiet=True, stream=FakeTty()), contextlib.nullcontext)
+    assert isinstance(heartbeat("x", stream=io.StringIO()), contextlib.nullcontext)
+    assert isinstance(heartbeat("x", stream=FakeTty()), Heartbeat)

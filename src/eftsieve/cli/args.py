@@ -341,12 +341,15 @@ def region_for(fit: Fit, args: argparse.Namespace, outdir: Path) -> tuple[Region
     """The region from --region, or built from the fit (with --family and --pion-mass,
     see :func:`region_overrides`) and saved as ``outdir/region.json``."""
     from eftsieve.api import region_for as _region_for
+    from eftsieve.cli.progress import heartbeat
 
     allow = getattr(args, "allow_kinematics_mismatch", False)
     overrides = region_overrides(fit, args)
-    if not overrides:
-        return _region_for(fit, args.region, outdir, allow_mismatch=allow)
-    return _built_region(fit, overrides, outdir, allow), str(Path(outdir) / "region.json")
+    quiet = bool(getattr(args, "quiet", False)) or args.region is not None
+    with heartbeat(f"building the {fit.theory} region", quiet):
+        if not overrides:
+            return _region_for(fit, args.region, outdir, allow_mismatch=allow)
+        return _built_region(fit, overrides, outdir, allow), str(Path(outdir) / "region.json")
 
 
 def is_card(path: str | Path) -> bool:
@@ -441,7 +444,7 @@ def _built_region(fit: Fit, overrides: dict[str, Any], outdir: Path, allow: bool
         for text in th.region_default_notices(fit):
             warnings.warn(InputNotice(text), stacklevel=2)
     settings = {**th.region_settings_for_fit(fit), **overrides}
-    region = build_region_named(fit.theory, settings)
+    region = build_region_named(fit.theory, settings, quiet=True)  # region_for shows it
     problems = th.kinematics_mismatch(fit, region)
     if problems and not allow:
         raise InputError(fit.source, "--pion-mass", "the region asked for disagrees with "
@@ -453,15 +456,19 @@ def _built_region(fit: Fit, overrides: dict[str, Any], outdir: Path, allow: bool
     return region
 
 
-def build_region_named(theory: str, settings: dict[str, Any], executor: Any = None) -> Region:
+def build_region_named(theory: str, settings: dict[str, Any], executor: Any = None,
+                       quiet: bool = False) -> Region:
     """:func:`eftsieve.api.build_region`, with an error about a region setting naming the
-    command-line flag that gave it (``--pion-mass`` for ``pion_masses_mev``)."""
+    command-line flag that gave it (``--pion-mass`` for ``pion_masses_mev``); a build
+    that takes more than two seconds says so on a terminal's stderr (unless ``quiet``)."""
     from eftsieve.api import build_region
+    from eftsieve.cli.progress import heartbeat
     from eftsieve.errors import InputError
 
     flags = {v: "--" + k.replace("_", "-") for k, v in REGION_SETTINGS.items()}
     try:
-        return build_region(theory, executor=executor, **settings)
+        with heartbeat(f"building the {theory} region", quiet):
+            return build_region(theory, executor=executor, **settings)
     except InputError as err:
         if err.path is None and err.field in flags:
             raise InputError(None, flags[err.field], err.problem, err.hint) from err

@@ -71,6 +71,7 @@ class _Regions:
             self.given[r.theory] = (r, f)
             self.files[r.theory] = f
         self.family, self.stage, self.outdir = args.family, stage, outdir
+        self.quiet = bool(args.quiet or args.json)
 
     def refuse_unused(self, theories: set[str]) -> None:
         """A --region file whose theory no row or record uses was read for nothing: refuse
@@ -85,7 +86,7 @@ class _Regions:
 
     def __call__(self, theory: str, coefficients: Sequence[str] = ()
                  ) -> tuple[Region, str | None]:
-        from eftsieve.region.build import build_region
+        from eftsieve.cli.args import build_region_named
         from eftsieve.theories import get_theory
 
         if theory in self.given:
@@ -93,7 +94,7 @@ class _Regions:
         settings: dict[str, Any] = {"families": self.family} if self.family else {}
         # the theory's default region, widened to cover the card's coefficients
         settings.update(get_theory(theory).region_settings_for_coefficients(coefficients))
-        region = build_region(theory, settings)
+        region = build_region_named(theory, settings, quiet=self.quiet)
         name = f"region_{theory}.json"
         region.save(self.stage / name)
         self.given[theory] = (region, str(self.outdir / name))

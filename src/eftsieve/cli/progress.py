@@ -1,14 +1,19 @@
-"""A progress bar for long checks: shown on a terminal only, and only after a delay.
+"""Progress on a terminal, only after a delay: a bar for long checks, a clock for long
+region builds.
 
 :class:`DelayedBar` is told the total number of rows (when known) and every block
 classified; it opens a tqdm bar on stderr once the check has run for
 :data:`DELAY_S` seconds, so short checks print nothing extra.  The CLI enables it only
 when stderr is a terminal and neither ``--quiet`` nor ``--json`` is given.
+:class:`Heartbeat` says what is being built and for how long (a region build of many
+coordinates takes up to minutes and reports nothing on the way); the same rules apply.
 """
 
 from __future__ import annotations
 
+import contextlib
 import sys
+import threading
 import time
 from typing import Any, TextIO
 
@@ -68,3 +73,51 @@ def progress_for(quiet: bool, as_json: bool, stream: TextIO | None = None) -> De
     if quiet or as_json or not getattr(stream, "isatty", lambda: False)():
         return None
     return DelayedBar(stream=stream)
+
+
+class Heartbeat:
+    """``building the aqgc-dim8 region ... 12 s`` on one line of ``stream`` from
+    ``delay`` seconds on, redrawn every ``interval`` seconds by a daemon thread, erased
+    when the block ends (a context manager)."""
+
+    def __init__(self, what: str, stream: TextIO | None = None, delay: float = DELAY_S,
+                 interval: float = 1.0, clock: Any = time.monotonic) -> None:
+        self.what = what
+        self.stream = stream if stream is not None else sys.stderr
+        self.delay, self.interval, self.clock = delay, interval, clock
+        self.stop = threading.Event()
+        self.width = 0
+        self.thread = threading.Thread(target=self._run, daemon=True)
+
+    def _run(self) -> None:
+        t0 = self.clock()
+        if self.stop.wait(self.delay):
+            return
+        while True:
+            line = f"{self.what} ... {self.clock() - t0:.0f} s"
+            self.stream.write("\r" + line.ljust(self.width))
+            self.stream.flush()
+            self.width = len(line)
+            if self.stop.wait(self.interval):
+                return
+
+    def __enter__(self) -> Heartbeat:
+        self.thread.start()
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        self.stop.set()
+        self.thread.join()
+        if self.width:
+            self.stream.write("\r" + " " * self.width + "\r")
+            self.stream.flush()
+
+
+def heartbeat(what: str, quiet: bool = False, stream: TextIO | None = None
+              ) -> contextlib.AbstractContextManager[Any]:
+    """A :class:`Heartbeat` when ``stream`` (stderr) is a terminal and output is not
+    suppressed, else a block that shows nothing."""
+    stream = stream if stream is not None else sys.stderr
+    if quiet or not getattr(stream, "isatty", lambda: False)():
+        return contextlib.nullcontext()
+    return Heartbeat(what, stream)

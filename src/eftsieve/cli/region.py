@@ -51,7 +51,7 @@ def cmd_region(args: argparse.Namespace) -> int:
     targets = {"-o": args.output, **({"--plot": args.plot} if args.plot else {})}
     with output_files(targets) as stage:  # both files, or the previous ones
         region = build_region_named(args.theory, region_settings_from_args(args),
-                                    executor=executor)
+                                    executor=executor, quiet=args.json)
         region.save(stage["-o"])
         if args.plot:
             from eftsieve.report.plots import save_region_plot
