@@ -120,3 +120,20 @@ def test_a_card_with_free_rows_says_what_they_mean(cone_regions):
     plain = limits_from_card(CARDS / "good.csv",
                              lambda theory, names=(): (cone_regions(theory), None))
     assert FREE_NOTE not in plain.notes
+
+
+def test_a_single_kept_point_reads_only_that_point(cone_regions):
+    # e.g. fM0 alone in aqgc-dim8 (excluded for either sign): [-3, 3] keeps only 0; the
+    # terminal and the report write it as such, as the plot does, not as '[0, 0]'
+    import dataclasses
+
+    from eftsieve.limits.run import LimitsResult
+    from eftsieve.report.limits_report import interval_rows, limits_lines
+
+    rows = read_interval_card(CARDS / "good.csv", get_theory)
+    t, _ = truncate_rows(rows, {"higgs-quartic": cone_regions("higgs-quartic")})
+    point = dataclasses.replace(t, allowed=(-0.0, 0.0), sure=(0.0, 0.0), status="truncated",
+                                fraction_allowed=0.0)
+    text = "\n".join(limits_lines(LimitsResult("card.csv", "interval-card", {}, (point,))))
+    assert "only 0 " in text and "[0, 0]" not in text
+    assert interval_rows((point,))[0][6:8] == ("only 0", "only 0")

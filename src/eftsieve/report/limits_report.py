@@ -32,6 +32,8 @@ METHOD_TEXT = {"facets": "facets (exact)", "bisection": "bisection (exact member
 def _iv(iv: tuple[float, float] | None, digits: int = 3) -> str:
     if iv is None:
         return "excluded"
+    if iv[0] == iv[1]:          # one point kept (e.g. a coefficient excluded for either sign)
+        return f"only {fmt_num(iv[0] + 0.0, digits)}"
     return f"[{fmt_num(iv[0], digits)}, {fmt_num(iv[1], digits)}]"
 
 
