@@ -195,3 +195,33 @@ def test_solver_noise_in_a_normal_does_not_erase_a_projected_bound() -> None:
     for n in ([1.0, 0.25], [0.0, 1.0]):
         n = np.array(n) / np.linalg.norm(n)
         assert np.isclose(np.abs(plane.a @ n), 1.0, atol=1e-6).any()
+
+
+def test_the_lp_wedge_equals_the_bisected_projection() -> None:
+    """The projection of a cone on a pair of coordinates from nine LPs (four charts) has
+    the boundary rays that bisection between feasible and infeasible ray directions finds
+    (an independent construction: a grid of ray-feasibility LPs, bisected to 1e-10 rad),
+    for wedges, half-planes and the whole plane."""
+    from eftsieve.report.plot_project import _cone_projection_grid, _wedge_by_lp
+
+    rng = np.random.default_rng(4)
+    kinds = set()
+    cones = []
+    for trial in range(12):
+        d = 4 + trial % 3
+        centre = rng.normal(size=d)
+        normals = rng.normal(size=(3 + trial, d))
+        normals += (1.0 - normals @ centre / (centre @ centre))[:, None] * centre  # c holds
+        cones.append(normals)
+    # x0, x2, x3 >= 0 and x1 + x2 + x3 >= 0: the shadow on (x0, x1) is the half-plane x0 >= 0
+    cones.append(np.array([[1.0, 0, 0, 0], [0, 0, 1, 0], [0, 0, 0, 1], [0, 1, 1, 1]]))
+    for normals in cones:
+        d = normals.shape[1]
+        for pair in ((0, 1), (1, d - 1)):
+            fast, grid = _wedge_by_lp(normals, pair), _cone_projection_grid(normals, pair)
+            assert fast is not None and len(fast.b) == len(grid.b)
+            kinds.add(len(grid.b) if len(grid.b) == 0 else
+                      "half-plane" if np.allclose(grid.a[0], grid.a[1], atol=1e-6) else "wedge")
+            for n in fast.a:
+                assert np.isclose(np.abs(grid.a @ n), 1.0, atol=1e-7).any()
+    assert kinds == {0, "half-plane", "wedge"}, kinds
