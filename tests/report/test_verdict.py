@@ -114,6 +114,28 @@ def test_a_label_rests_on_p_inside_beyond_its_error():
     assert "upper end" not in sharp.reason
 
 
+def test_undecided_shell_points_that_could_change_the_word_make_it_uncertain():
+    """Shell points left undecided count as inside, so p_inside is an upper bound; when
+    the word at p_inside minus their share differs, the verdict is 'uncertain'
+    (docs/verdict.md), with both words and the range in the reason."""
+    from types import SimpleNamespace
+
+    from eftsieve.stats.tension import tension
+
+    reg = region(((1, 0), 0.0),)
+    mean, cov = np.array([1.0, 0.0]), np.eye(2)
+    ten = tension(mean, cov, reg, np.random.default_rng(0))
+    shell = SimpleNamespace(marginal_fraction=0.0349, n_marginal=6973, budget=1000)
+    v = fit_verdict(reg, mean, cov, ten, 0.0395, 3.1e-4, 2e5, exact=True, shell=shell)
+    assert v.label == "uncertain"
+    assert v.reason.startswith("consistent if the 6973 shell points left undecided are "
+                               "inside the cone, tension if they are outside")
+    assert "between 0.0046 and 0.0395" in v.reason and "--shell-solves" in v.reason
+    few = SimpleNamespace(marginal_fraction=0.001, n_marginal=200, budget=1000)
+    assert fit_verdict(reg, mean, cov, ten, 0.0395, 3.1e-4, 2e5, exact=True,
+                       shell=few).label == "consistent", "a share that cannot flip the word"
+
+
 def test_facet_probability_is_the_gaussian_tail_along_the_normal():
     """P(a.x < b) for x ~ N(m, C) is Phi((b - a.m)/sqrt(a C a)); checked by scipy draws."""
     reg = region(((0, 1), 1.0), ((1, 2), 3.0))
@@ -147,3 +169,19 @@ def test_infinite_tension_says_why():
     assert "degenerate covariance" in tension_text(ten, degenerate)
     far = facet_violations(reg, np.array([0.0, -60.0]), np.eye(2), True)
     assert "underflows" in tension_text(ten, far)
+
+
+def test_a_solver_facet_is_named_by_its_inequality():
+    """A cone's facets carry a solver's certificate; the sentence names the facet by its
+    inequality, not by the certificate ('dual PSD matrix of rank 4')."""
+    from eftsieve.stats.tension import tension
+    from eftsieve.theories import get_theory
+
+    reg = get_theory("photon-quartic").build_region({})
+    a, _ = reg.arrays()
+    mean = -0.3 * a[0] + 0.05 * a[1]          # past the first facet (invented point)
+    cov = 0.01 * np.eye(reg.dim)
+    ten = tension(mean, cov, reg, np.random.default_rng(0))
+    v = fit_verdict(reg, mean, cov, ten, 0.0, 0.0, 1e5, exact=True)
+    assert "outside the extremal facet " in v.reason and ">= 0" in v.reason
+    assert "PSD" not in v.reason

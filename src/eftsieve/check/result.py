@@ -173,7 +173,7 @@ class CheckResult:
         return fit_verdict(self.region, self.mean_region, self.cov_region, self.tension,
                            self.p_inside, self.p_inside_err, self.ess, exact=exact,
                            rows=self.plot_region_coords, weights=self.plot_weights,
-                           model=tu)
+                           model=tu, shell=self.shell)
 
     @property
     def truncation_model(self) -> str:

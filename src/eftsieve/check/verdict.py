@@ -61,6 +61,10 @@ class FacetViolation:
         The probability (or weighted row fraction) that violates the facet, and its error.
     method
         ``exact`` (Gaussian through an affine map) or ``rows`` (subsample fraction).
+    numerical
+        Whether the facet is a solver's certificate (it carries one in its ``extra``), so
+        that its channel describes the certificate, not a scattering channel: sentences
+        then name the facet by its inequality.
     """
 
     index: int
@@ -72,6 +76,7 @@ class FacetViolation:
     p_violate: float
     p_violate_err: float
     method: str
+    numerical: bool = False
 
     def to_dict(self) -> dict[str, Any]:
         return {"index": self.index, "label": self.label, "family": self.family,
@@ -203,13 +208,23 @@ def facet_violations(region: Region, mean: np.ndarray, cov: np.ndarray, exact: b
         method = "rows"
     facets = tuple(FacetViolation(i, f.label(), f.family, f.channel,
                                   f.inequality(region.coordinates),
-                                  float(dist[i]), float(p[i]), float(err[i]), method)
+                                  float(dist[i]), float(p[i]), float(err[i]), method,
+                                  "certificate" in f.extra)
                    for i, f in enumerate(region.facets))
     return tuple(sorted(facets, key=lambda v: (-v.p_violate, v.distance_sigma)))
 
 
+#: a numerical facet's inequality longer than this is named by its index in sentences
+SENTENCE_INEQUALITY = 80
+
+
 def short_name(v: FacetViolation) -> str:
-    """``the pi0 pi0 facet (second-derivative)``."""
+    """``the pi0 pi0 facet (second-derivative)``; a solver's facet by its inequality,
+    ``the extremal facet fT7 (+ 15 terms below 1e-06 of the largest) >= 0`` (or its index
+    when the inequality is long)."""
+    if v.numerical:
+        what = v.inequality if len(v.inequality) <= SENTENCE_INEQUALITY else str(v.index)
+        return f"the {v.family} facet {what}"
     return f"the {v.channel} facet ({v.family})" if v.channel else f"facet {v.index} ({v.family})"
 
 
@@ -293,9 +308,11 @@ def _reason(label: str, mean_inside: bool, facets: tuple[FacetViolation, ...],
 def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
                 p_inside: float, p_inside_err: float, ess: float, *, exact: bool,
                 rows: np.ndarray | None = None, weights: np.ndarray | None = None,
-                model: dict[str, Any] | None = None) -> FitVerdict:
+                model: dict[str, Any] | None = None, shell: Any = None) -> FitVerdict:
     """The fit verdict of a check (``model``: the statistics under a theory-uncertainty
-    model, with its ``tension_sigma`` and ``p_inside``, or None)."""
+    model, with its ``tension_sigma`` and ``p_inside``, or None; ``shell``: the check's
+    :class:`eftsieve.check.shell.ShellSummary`, whose points left marginal p_inside counts
+    as inside: when the verdict with them outside differs, the label is ``uncertain``)."""
     facets = facet_violations(region, mean, cov, exact, rows, weights)
     mean_inside = bool(np.all(region.margins(np.atleast_2d(mean)) >= 0))
     exact_mean = mean_in_shell(region, mean) if mean_inside else None
@@ -314,7 +331,17 @@ def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
         if ten.mahalanobis_min <= MAHALANOBIS_ZERO:
             ttext = ("not computed against the cone itself: the mean is inside every outer "
                      "facet (distance 0 to them, a lower bound) but not inside the cone")
-    if model is not None:
+    undecided = getattr(shell, "marginal_fraction", 0.0) or 0.0
+    if undecided > 0 and label != "uncertain":
+        low = max(p_inside - undecided, 0.0)
+        worst = classify_fit(ten.sigma, p_inside_upper(low, p_inside_err, ess))
+        if worst != label:
+            reason = (f"{label} if the {shell.n_marginal} shell points left undecided are "
+                      f"inside the cone, {worst} if they are outside (p_inside between "
+                      f"{fmt_prob(low)} and {fmt_prob(p_inside)}); raise --shell-solves "
+                      f"(now {shell.budget} per partition) to decide more; {reason}")
+            label = "uncertain"
+    if model is not None and label != "uncertain":
         soft = classify_fit(float(model["tension_sigma"]), p_inside_upper(
             float(model["p_inside"]), float(model.get("p_inside_err") or 0.0), ess))
         if soft != label:

@@ -312,7 +312,8 @@ def verdict_footer(thresholds: dict[str, float]) -> list:
                      f"`excluded`: tension from {fmt_num(thresholds['excluded_sigma'])} sigma, "
                      f"or p_inside below {fmt_prob(thresholds['excluded_p_inside'])}.",
                      "`uncertain`: the verdict with hard facets differs from the verdict "
-                     "under the theory-uncertainty model of the bounds.",
+                     "under the theory-uncertainty model of the bounds, or would differ if "
+                     "the shell points left undecided were outside the cone.",
                      "p_inside enters with its error: the thresholds are applied to p + 2 "
                      "err (for p = 0, at least the rule-of-three bound 3/n), so sampling "
                      "error alone never makes a fit tense or excluded.",
