@@ -78,8 +78,8 @@ def fmt_kinematics(kin: dict) -> str:
         if k.endswith("_mev"):
             txt = ", ".join(fmt_num(x, 6) for x in vals)
             parts.append(f"{k[:-4]} = {txt} MeV")
-        elif k in ("convention", "families", "truncation_model") or not parts:
+        elif all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in vals):
+            parts.append(f"{k} = {', '.join(fmt_num(x, 6) for x in vals)}")
+        else:                                         # words: convention, families, units
             tail.append(f"{k.replace('_', ' ')} {', '.join(str(x) for x in vals)}")
-        else:
-            parts.append(f"{k} = {', '.join(str(x) for x in vals)}")
     return "; ".join(p for p in (", ".join(parts), *tail) if p)

@@ -109,3 +109,13 @@ def test_kinematics_line_skips_empty_lists():
                            "pion_mass_mev": 139.57})
     assert "fixed" not in line and ";  ;" not in line
     assert line == "pion_mass = 139.57 MeV; name hat-i; units TeV^-4"
+
+
+def test_kinematics_line_writes_numbers_as_numbers():
+    # a number that is not a mass (the weak angle of aqgc-dim8) is 'name = value' with six
+    # significant digits, like the masses, not 'sin2 theta w 0.2230518910035465'
+    from eftsieve.numbers import fmt_kinematics
+
+    line = fmt_kinematics({"sin2_theta_w": 0.2230518910035465, "units": "TeV^-4",
+                           "convention": "hat-i"})
+    assert line == "sin2_theta_w = 0.223052; units TeV^-4; convention hat-i"
