@@ -56,6 +56,8 @@ def test_shell_share_of_the_imposed_samples_matches_the_published_cone():
                                                                "in_cone_estimate": 0.2}})
     assert impose_banner(low).label == "outer facets only"
     assert "about 20% of the result in the cone" in impose_banner(low).text
+    # the probability the truncation removed is that of the outer facets, and says so
+    assert "p_inside of the outer facets without positivity" in impose_banner(low).text
 
 
 def test_regions_without_a_shell_get_no_note():

@@ -54,6 +54,10 @@ def impose_banner(result: ImposeResult) -> Banner:
                       f"rule ({f.get('convergence_rule', '')}); do not use these samples "
                       "before running longer")
     est = (f.get("cone_shell") or {}).get("in_cone_estimate")
+    if est is not None and p is not None:
+        # the truncation used the outer facets: so does the probability it removed (a
+        # check decides the shell and so gives a smaller p_inside)
+        ptext = ptext.replace("; p_inside without", "; p_inside of the outer facets without")
     if est is not None and est < IN_CONE_WARN:
         # the truncation used the cone's outer facets; exact solves on a sample of the
         # result say how much of it is in the cone itself
