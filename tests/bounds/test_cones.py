@@ -387,3 +387,16 @@ def test_elastic_build_on_many_modes_says_how_inner_points_are_proven():
     assert any("extremal certificates only" in n and "8 modes" in n for n in region.notes)
     small = build_cone(_problem(higgs), ConeSettings(family="elastic", max_rounds=1))
     assert "elastic_inner" not in small.stats
+
+
+def test_derived_values_are_computed_once_and_not_pickled():
+    import pickle
+
+    prob = ConeProblem(("a",), ("x",), np.ones((1, 1, 1, 1, 1)))
+    calls = []
+    assert prob.derived("v", lambda: calls.append(1) or 5) == 5
+    assert prob.derived("v", lambda: calls.append(1) or 6) == 5
+    assert calls == [1]
+    back = pickle.loads(pickle.dumps(prob))
+    assert back.derived("v", lambda: 7) == 7          # recomputed after unpickling
+    assert np.array_equal(back.tensors, prob.tensors)

@@ -155,3 +155,34 @@ def test_a_failing_direct_solve_falls_back_to_the_sector_program():
     got = fast.membership(c)
     assert fast.reduced_fallbacks == 1 and fast.reduced_used == used
     assert got.value == pytest.approx(plain.membership(c).value, abs=2e-6)
+
+
+@pytest.mark.parametrize("theory", ["transverse-w", "higgs-quartic"])
+def test_commutant_is_the_dense_null_space_of_the_commutators(theory):
+    """The commutant's sparse construction against a dense one: the matrices X on the
+    sectors' diagonal blocks with [X, g x 1 + 1 x g] = 0 for every generator g, found as
+    the null space of the commutator map written out with np.kron (common practice)."""
+    prob = get_theory(theory).problem()
+    secs = pair_sectors(prob.tensors)
+    gens = lie_generators(prob.tensors)
+    assert gens                            # both theories have continuous symmetries
+    com = Commutant(prob.tensors, secs, gens)
+    n2 = prob.n ** 2
+    ps = np.concatenate([np.repeat(s, len(s)) for s in secs])
+    qs = np.concatenate([np.tile(s, len(s)) for s in secs])
+    cols = []
+    for p_, q_ in zip(ps, qs, strict=True):
+        x = np.zeros((n2, n2))
+        x[p_, q_] = 1.0
+        cols.append(np.concatenate([(x @ big - big @ x).ravel() for big in
+                                    (np.kron(g, np.eye(prob.n)) + np.kron(np.eye(prob.n), g)
+                                     for g in gens)]))
+    sing = np.linalg.svd(np.array(cols).T, compute_uv=False)
+    dense_dim = int(np.count_nonzero(sing <= 1e-10 * sing.max())) + len(ps) - len(sing)
+    assert com.dim == dense_dim
+    for j in range(com.dim):
+        x = np.zeros((n2, n2))
+        x[ps, qs] = com.basis[:, j]
+        for g in gens:
+            big = np.kron(g, np.eye(prob.n)) + np.kron(np.eye(prob.n), g)
+            assert np.abs(x @ big - big @ x).max() < 1e-10

@@ -120,8 +120,10 @@ def _sdp_for(key: bytes, coefficients: tuple[str, ...], modes: tuple[str, ...]) 
 
 
 def sdp_for(problem: ConeProblem) -> Any:
-    """The (cached) :class:`eftsieve.bounds.sdp.ExtremalSDP` of a problem."""
-    return _sdp_for(problem.tensors.tobytes(), problem.coefficients, problem.modes)
+    """The (cached) :class:`eftsieve.bounds.sdp.ExtremalSDP` of a problem: kept with the
+    problem object, and shared by equal problems (keyed by the tensors' bytes)."""
+    return problem.derived("extremal_sdp", lambda: _sdp_for(
+        problem.tensors.tobytes(), problem.coefficients, problem.modes))
 
 
 #: (code, status line, short reason, normal of the verified separating facet or None)

@@ -35,6 +35,7 @@ Certificates (checked here, independently of any solver status):
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -95,6 +96,19 @@ class ConeProblem:
     @property
     def n(self) -> int:
         return len(self.modes)
+
+    def derived(self, key: str, make: Callable[[], Any]) -> Any:
+        """``make()``, computed once per problem object and kept with it (the tensors are
+        never modified after construction).  Per-point solvers ask for their programs and
+        masks here instead of re-deriving them from the tensors (a 3 MB copy and hash for
+        the 18 aqgc-dim8 coefficients) at every point.  Not pickled."""
+        memo = self.__dict__.setdefault("_derived", {})
+        if key not in memo:
+            memo[key] = make()
+        return memo[key]
+
+    def __getstate__(self) -> dict[str, Any]:
+        return {k: v for k, v in self.__dict__.items() if k != "_derived"}
 
     def matrices(self) -> np.ndarray:
         """M_a as (k, n^2, n^2) matrices."""
@@ -283,9 +297,7 @@ def _round_significant(x: np.ndarray, digits: int) -> np.ndarray:
 
 def _facet_from_factors(problem: ConeProblem, factors: list[list[float]],
                         ) -> FacetCertificate | None:
-    from eftsieve.bounds.sectors import dead_pairs
-
-    dead = dead_pairs(problem.tensors)
+    dead = _dead_pairs(problem)
     zc = certificate_matrix(factors, dead)
     # every rho of the cone vanishes on dead pairs, so only Zc on the live pairs matters
     live = ~dead
@@ -346,10 +358,9 @@ def check_facet_on_cone(problem: ConeProblem, cert: FacetCertificate,
     for ``dual-psd`` and E(u, v) for ``product-state``.  Returns the smallest value
     relative to the form's size (an independent check of the certificate).
     """
-    from eftsieve.bounds.sectors import dead_pairs
 
     n2 = problem.n ** 2
-    dead = dead_pairs(problem.tensors)
+    dead = _dead_pairs(problem)
     g = rng.normal(size=(draws, n2, 3))
     g[:, dead, :] = 0.0                             # members of the cone vanish there
     rho = g @ np.swapaxes(g, 1, 2)
@@ -367,6 +378,18 @@ def check_facet_on_cone(problem: ConeProblem, cert: FacetCertificate,
     return float((vals / scale).min())
 
 
+def _dead_pairs(problem: ConeProblem) -> np.ndarray:
+    """:func:`eftsieve.bounds.sectors.dead_pairs` of the problem, computed once (read-only)."""
+    from eftsieve.bounds.sectors import dead_pairs
+
+    def make() -> np.ndarray:
+        dead = dead_pairs(problem.tensors)
+        dead.flags.writeable = False
+        return dead
+
+    return problem.derived("dead_pairs", make)
+
+
 def verify_rho(problem: ConeProblem, c: np.ndarray, rho: np.ndarray,
                ) -> tuple[bool, float, np.ndarray]:
     """Prove M(c) in C from a numerical rho: (proven, lambda_min relative, exact rho').
@@ -379,14 +402,13 @@ def verify_rho(problem: ConeProblem, c: np.ndarray, rho: np.ndarray,
     itself (1e-12 of its largest entry, the tolerance of ``dead_pairs``) and are set to
     zero, and lambda_min is taken on the live pairs.
     """
-    from eftsieve.bounds.sectors import dead_pairs
 
     m = as_matrix(problem.tensor(c))
     r0 = 0.5 * (rho + rho.T)
     resid = m - r0 - cross(r0)
     resid = 0.5 * (resid + cross(resid))
     rp = r0 + 0.5 * resid
-    dead = dead_pairs(problem.tensors)
+    dead = _dead_pairs(problem)
     if dead.any():
         mask = dead[:, None] | dead[None, :]
         moved = np.where(mask, rp, 0.0)

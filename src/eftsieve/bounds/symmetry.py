@@ -33,6 +33,8 @@ a verdict, not give a wrong one.
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 #: relative size below which a singular value counts as zero (the generators' null space;
@@ -155,6 +157,17 @@ def _clusters(w: np.ndarray, tol: float) -> list[np.ndarray] | None:
     return [np.asarray(g) for g in np.split(np.arange(len(w)), cuts)]
 
 
+def _csr_rows(mat: Any, which: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The stored entries of rows ``which`` of a CSR matrix, row after row: (position in
+    ``which``, column, value) each."""
+    starts = mat.indptr[which]
+    counts = mat.indptr[which + 1] - starts
+    owner = np.repeat(np.arange(len(which)), counts)
+    first = np.repeat(np.cumsum(counts) - counts, counts)
+    at = np.repeat(starts, counts) + (np.arange(int(counts.sum())) - first)
+    return owner, mat.indices[at], mat.data[at]
+
+
 class Commutant:
     """The matrices on the live pairs that commute with the group (an orthonormal basis),
     and the orthogonal projection onto them, which is the average over the group.
@@ -195,17 +208,13 @@ class Commutant:
         for g in (lie_generators(tensors) if gens is None else gens):
             gp = sparse.csr_matrix(np.kron(g, eye) + np.kron(eye, g))
             gt = gp.T.tocsr()
-            rows, cols, vals = [], [], []
-            # [X, G] for X = e_p e_q^T: e_p G[q, :] - G[:, p] e_q^T
-            for u, (p_, q_) in enumerate(zip(ps, qs, strict=True)):
-                r = gp.getrow(q_)
-                rows.append(p_ * n2 + r.indices)
-                vals.append(r.data)
-                cols.append(np.full(len(r.indices), u))
-                c = gt.getrow(p_)
-                rows.append(c.indices * n2 + q_)
-                vals.append(-c.data)
-                cols.append(np.full(len(c.indices), u))
+            # [X, G] for X = e_p e_q^T: e_p G[q, :] - G[:, p] e_q^T, for every unknown u
+            # at once (row q of G, then row p of G^T)
+            u1, j1, v1 = _csr_rows(gp, qs)
+            u2, i2, v2 = _csr_rows(gt, ps)
+            rows = [ps[u1] * n2 + j1, i2 * n2 + qs[u2]]
+            cols = [u1, u2]
+            vals = [v1, -v2]
             blocks.append(sparse.csr_matrix(
                 (np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
                 shape=(n2 * n2, m)))
