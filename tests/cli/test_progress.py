@@ -83,3 +83,33 @@ def test_a_long_region_build_says_what_it_builds_and_for_how_long() -> None:
     assert isinstance(heartbeat("x", quiet=True, stream=FakeTty()), contextlib.nullcontext)
     assert isinstance(heartbeat("x", stream=io.StringIO()), contextlib.nullcontext)
     assert isinstance(heartbeat("x", stream=FakeTty()), Heartbeat)
+
+
+def test_a_long_build_tells_how_to_reuse_the_region(tmp_path, capsys, monkeypatch):
+    """After a region build of REUSE_HINT_S seconds or more, check names the saved region
+    and how to pass it; the region it names is the one the run used, and a run given it
+    with --region builds nothing and prints no hint (threshold lowered to 0 s here)."""
+    import json
+    import shutil
+    from pathlib import Path
+
+    import eftsieve.cli.progress as progress
+    from eftsieve.cli.main import main
+
+    assert progress.reuse_hint("toy", progress.REUSE_HINT_S - 0.1, "r.json") is None
+    cases = Path(__file__).parents[1] / "report" / "verdict_cases"
+    monkeypatch.setattr(progress, "REUSE_HINT_S", 0.0)
+    out = tmp_path / "o"
+    args = ["check", str(cases / "tension.yaml"), "--draws", "2000", "--no-plots"]
+    assert main([*args, "-o", str(out)]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    hint = [ln for ln in lines if "to skip that next time" in ln]
+    assert len(hint) == 1
+    assert f"copy {out / 'region.json'} out of the output folder" in hint[0]
+    kept = tmp_path / "kept_region.json"
+    shutil.copy(out / "region.json", kept)
+    assert main([*args, "-o", str(tmp_path / "o2"), "--region", str(kept)]) == 0
+    assert "to skip that next time" not in capsys.readouterr().out
+    first = json.loads((out / "summary.json").read_text())
+    again = json.loads((tmp_path / "o2" / "summary.json").read_text())
+    assert first["p_inside"] == again["p_inside"]

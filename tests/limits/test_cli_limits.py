@@ -14,10 +14,15 @@ from tests.limits.records import central_tables, contour_table, scan_1d_table, w
 CARD = Path(__file__).with_name("cards") / "good.csv"
 
 
-def test_limits_on_an_interval_card(tmp_path, capsys):
+def test_limits_on_an_interval_card(tmp_path, capsys, monkeypatch):
+    import eftsieve.cli.progress as progress
+
+    monkeypatch.setattr(progress, "REUSE_HINT_S", 0.0)     # every build counts as long
     out = tmp_path / "out"
     assert main(["limits", str(CARD), "-o", str(out)]) == 0
     text = capsys.readouterr().out
+    # the hint names the region file the run saved (and that a later run may pass)
+    assert f"copy {out / 'region_higgs-quartic.json'} out of the output folder" in text
     assert "2 of 2 intervals truncated" in text and "signs alone (higgs-quartic)" in text
     for f in ("summary.json", "report.html", "report.md", "intervals.csv", "intervals.png",
               "region_higgs-quartic.json"):

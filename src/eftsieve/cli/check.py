@@ -8,6 +8,7 @@ exit code.  No physics or statistics happen here.
 from __future__ import annotations
 
 import argparse
+import time
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -144,6 +145,7 @@ def cmd_check_many(args: argparse.Namespace) -> int:
 
 def cmd_check_one(args: argparse.Namespace) -> int:
     from eftsieve.check.run import run_check
+    from eftsieve.cli.progress import reuse_hint
     from eftsieve.io.outset import output_set
     from eftsieve.report.check_report import corner_cap_text, flagged_file_text
     from eftsieve.report.outputs import CHECK_OUTPUTS, write_check_outputs
@@ -153,7 +155,9 @@ def cmd_check_one(args: argparse.Namespace) -> int:
     settings = _settings(args)
     unc = uncertainty_from_args(args)
     with output_set(outdir, input_files(fit, args), known=CHECK_OUTPUTS) as stage:
+        t_region = time.monotonic()
         region, rpath = region_for(fit, args, stage)
+        t_region = time.monotonic() - t_region
         if args.region is None:  # built and saved into the set: record its final place
             rpath = str(outdir / "region.json")
         flag_dir = stage if (not fit.is_gaussian or args.flagged) else None
@@ -180,6 +184,8 @@ def cmd_check_one(args: argparse.Namespace) -> int:
             print(f"  {corner_cap_text(len(fit.names))}")
         if flag_dir is not None and settings.flagged_limit is not None:
             print(f"  {flagged_file_text(result)}".replace("`", ""))
+        if args.region is None and (hint := reuse_hint(region.theory, t_region, rpath)):
+            print(f"  {hint}")
     if args.fail_below is not None and result.p_inside < args.fail_below:
         if not args.quiet and not args.json:
             print(f"  p_inside {fmt_prob(result.p_inside)} < --fail-below {args.fail_below:g}")

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import sys
+import time
 from pathlib import Path
 from typing import Any
 
@@ -70,6 +71,7 @@ def settings_from_args(args: argparse.Namespace) -> Any:
 
 
 def cmd_impose(args: argparse.Namespace) -> int:
+    from eftsieve.cli.progress import reuse_hint
     from eftsieve.impose.api import impose
     from eftsieve.io.outset import output_set
     from eftsieve.report.outputs import IMPOSE_OUTPUTS, write_impose_outputs
@@ -80,7 +82,9 @@ def cmd_impose(args: argparse.Namespace) -> int:
     unc = uncertainty_from_args(args)
     with output_set(outdir, input_files(fit, args, args.data),
                     known=IMPOSE_OUTPUTS) as stage:
+        t_region = time.monotonic()
         region, rpath = region_for(fit, args, stage)
+        t_region = time.monotonic() - t_region
         if args.region is None:  # built and saved into the set: record its final place
             rpath = str(outdir / "region.json")
         result = impose(fit, region, settings=settings, uncertainty=unc, data=args.data,
@@ -89,6 +93,8 @@ def cmd_impose(args: argparse.Namespace) -> int:
                                        csv=args.csv, plots=not args.no_plots)
     if not args.quiet:
         print("\n".join(impose_lines(fit.name, result, summary, outdir)))
+        if args.region is None and (hint := reuse_hint(region.theory, t_region, rpath)):
+            print(f"  {hint}")
     if result.driven_by_bounds:
         print(f"eftsieve impose: warning: p_inside before the truncation is "
               f"{fmt_prob(summary['p_inside_before'])}, below {fmt_prob(TINY_P_INSIDE)}: the "

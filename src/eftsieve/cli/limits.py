@@ -9,6 +9,7 @@ physics or statistics happen here.
 from __future__ import annotations
 
 import argparse
+import time
 from collections.abc import Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -71,6 +72,8 @@ class _Regions:
             self.given[r.theory] = (r, f)
             self.files[r.theory] = f
         self.family, self.stage, self.outdir = args.family, stage, outdir
+        #: seconds each region built here took (for the hint to reuse it)
+        self.seconds: dict[str, float] = {}
         self.quiet = bool(args.quiet or args.json)
 
     def refuse_unused(self, theories: set[str]) -> None:
@@ -94,8 +97,10 @@ class _Regions:
         settings: dict[str, Any] = {"families": self.family} if self.family else {}
         # the theory's default region, widened to cover the card's coefficients
         settings.update(get_theory(theory).region_settings_for_coefficients(coefficients))
+        t0 = time.monotonic()
         region = build_region_named(theory, settings, quiet=self.quiet)
         name = f"region_{theory}.json"
+        self.seconds[theory] = time.monotonic() - t0
         region.save(self.stage / name)
         self.given[theory] = (region, str(self.outdir / name))
         return self.given[theory]
@@ -121,6 +126,11 @@ def cmd_limits(args: argparse.Namespace) -> int:
         print(json.dumps(result.to_dict(), indent=1, sort_keys=True, default=str))
     elif not args.quiet:
         print("\n".join(limits_lines(result, outdir)))
+        from eftsieve.cli.progress import reuse_hint
+
+        for theory, seconds in regions.seconds.items():
+            if hint := reuse_hint(theory, seconds, regions.given[theory][1]):
+                print(f"  {hint}")
     return 0
 
 

@@ -121,3 +121,17 @@ def heartbeat(what: str, quiet: bool = False, stream: TextIO | None = None
     if quiet or not getattr(stream, "isatty", lambda: False)():
         return contextlib.nullcontext()
     return Heartbeat(what, stream)
+
+
+#: a region build at least this long (seconds) is worth keeping: the CLI says how
+REUSE_HINT_S = 10.0
+
+
+def reuse_hint(theory: str, seconds: float, path: str) -> str | None:
+    """The line that tells how to skip a long region build next time (None when the build
+    was quick).  The region sits inside the run's output folder, which a later run may not
+    use as an input folder, hence 'copy'."""
+    if seconds < REUSE_HINT_S:
+        return None
+    return (f"the {theory} region took {seconds:.0f} s to build; to skip that next time, "
+            f"copy {path} out of the output folder and pass it with --region")
