@@ -101,7 +101,7 @@ class ConeProblem:
         """``make()``, computed once per problem object and kept with it (the tensors are
         never modified after construction).  Per-point solvers ask for their programs and
         masks here instead of re-deriving them from the tensors (a 3 MB copy and hash for
-        the 18 aqgc-dim8 coefficients) at every point.  Not pickled."""
+        18 coefficients on 12 modes) at every point.  Not pickled."""
         memo = self.__dict__.setdefault("_derived", {})
         if key not in memo:
             memo[key] = make()
