@@ -15,6 +15,7 @@ import pytest
 from scipy import stats as sps
 
 import eftsieve as es
+from eftsieve.bounds.cone_region import BOUNDARY_REASON
 from eftsieve.check.verdict import (
     classify_fit,
     facet_violations,
@@ -125,7 +126,9 @@ def test_undecided_shell_points_that_could_change_the_word_make_it_uncertain():
     reg = region(((1, 0), 0.0),)
     mean, cov = np.array([1.0, 0.0]), np.eye(2)
     ten = tension(mean, cov, reg, np.random.default_rng(0))
-    shell = SimpleNamespace(marginal_fraction=0.0349, n_marginal=6973, budget=1000)
+    shell = SimpleNamespace(marginal_fraction=0.0349, n_marginal=6973, budget=1000,
+                            n_solves=1000, reasons=(("shell-solve budget reached", 6950),
+                                                    (BOUNDARY_REASON, 23)))
     v = fit_verdict(reg, mean, cov, ten, 0.0395, 3.1e-4, 2e5, exact=True, shell=shell)
     assert v.label == "uncertain"
     assert v.reason.startswith("consistent if the 6973 shell points left undecided are "
@@ -134,6 +137,29 @@ def test_undecided_shell_points_that_could_change_the_word_make_it_uncertain():
     few = SimpleNamespace(marginal_fraction=0.001, n_marginal=200, budget=1000)
     assert fit_verdict(reg, mean, cov, ten, 0.0395, 3.1e-4, 2e5, exact=True,
                        shell=few).label == "consistent", "a share that cannot flip the word"
+
+
+def test_shell_solves_that_end_on_the_boundary_are_not_sold_as_more_budget():
+    """When most exact solves of the shell ended within the solver's accuracy of the
+    boundary (a fit whose coordinates lie on a face of the cone, where no solve proves a
+    point inside or out: measured for fM0, fM1, fT0, fT1 against the 18-coefficient
+    aqgc-dim8 cone, 298 of 300 solves), the reason says so instead of asking for a larger
+    --shell-solves budget."""
+    from types import SimpleNamespace
+
+    from eftsieve.stats.tension import tension
+
+    reg = region(((1, 0), 0.0),)
+    mean, cov = np.array([1.0, 0.0]), np.eye(2)
+    ten = tension(mean, cov, reg, np.random.default_rng(0))
+    shell = SimpleNamespace(marginal_fraction=0.165, n_marginal=33094, budget=300,
+                            n_solves=300, reasons=(("shell-solve budget reached", 32796),
+                                                   (BOUNDARY_REASON, 298)))
+    v = fit_verdict(reg, mean, cov, ten, 0.166, 3e-4, 2e5, exact=True, shell=shell)
+    assert v.label == "uncertain"
+    assert ("298 of the 300 exact shell solves ended on the cone's boundary within the solver's "
+            "accuracy, which more solves do not settle") in v.reason
+    assert "--shell-solves" not in v.reason
 
 
 def test_facet_probability_is_the_gaussian_tail_along_the_normal():

@@ -539,7 +539,7 @@ def test_a_fit_moving_a_free_coefficient_is_checked_against_the_projection(tmp_p
 def test_a_flat_subset_is_refused_in_one_line():
     # fT0..fT2 with fT5: every verified inner point lies in a proper subspace (a flat
     # cone); the builder says so instead of failing inside its simplex choice
-    with pytest.raises(InputError, match="no interior point"):
+    with pytest.raises(InputError, match="no point with a certificate of positive margin"):
         THEORY.build_region({"coordinates": ["fT0", "fT1", "fT2", "fT5"]})
 
 

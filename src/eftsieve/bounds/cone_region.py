@@ -126,6 +126,11 @@ def sdp_for(problem: ConeProblem) -> Any:
         problem.tensors.tobytes(), problem.coefficients, problem.modes))
 
 
+#: the short reason of a point whose exact solve ends within the solver's accuracy of the
+#: cone's boundary: neither a proof inside nor a certificate outside (more solves of the
+#: same point give the same answer)
+BOUNDARY_REASON = "within the solver's accuracy of the boundary"
+
 #: (code, status line, short reason, normal of the verified separating facet or None)
 Decision = tuple[int, str, str, np.ndarray | None]
 
@@ -157,9 +162,8 @@ def _extremal_facet(problem: ConeProblem, x: np.ndarray) -> Decision:
                 return OUTSIDE, f"outside: verified dual certificate, n.c/|c| = {val:.3g} " \
                                 f"(solver {res.status})", "verified dual certificate", \
                     cert.normal
-    return MARGINAL, f"marginal: within the solver's accuracy of the boundary " \
-                     f"(t* = {res.value:.3g}, solver {res.status})", \
-        "within the solver's accuracy of the boundary", None
+    return MARGINAL, f"marginal: {BOUNDARY_REASON} " \
+                     f"(t* = {res.value:.3g}, solver {res.status})", BOUNDARY_REASON, None
 
 
 def _elastic_facet(problem: ConeProblem, x: np.ndarray, rng: np.random.Generator,

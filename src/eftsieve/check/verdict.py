@@ -305,6 +305,20 @@ def _reason(label: str, mean_inside: bool, facets: tuple[FacetViolation, ...],
             f"{p_inside_clause(ptext)}")
 
 
+def more_solves(shell: Any) -> str:
+    """What more shell solves would do: decide more points, unless most of the solves run
+    so far ended on the cone's boundary within the solver's accuracy (a fit whose
+    coordinates lie on a face of the cone, where no solve proves a point inside or out)."""
+    from eftsieve.bounds.cone_region import BOUNDARY_REASON
+
+    on_edge = sum(n for r, n in shell.reasons if r == BOUNDARY_REASON)
+    if shell.n_solves and 2 * on_edge >= shell.n_solves:
+        return (f"{on_edge} of the {shell.n_solves} exact shell solves ended on the cone's "
+                "boundary within the solver's accuracy, which more solves do not settle: the "
+                "fit's coordinates may lie on a face of the cone (docs/verdict.md)")
+    return f"raise --shell-solves (now {shell.budget} per partition) to decide more"
+
+
 def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
                 p_inside: float, p_inside_err: float, ess: float, *, exact: bool,
                 rows: np.ndarray | None = None, weights: np.ndarray | None = None,
@@ -338,8 +352,8 @@ def fit_verdict(region: Region, mean: np.ndarray, cov: np.ndarray, ten: Tension,
         if worst != label:
             reason = (f"{label} if the {shell.n_marginal} shell points left undecided are "
                       f"inside the cone, {worst} if they are outside (p_inside between "
-                      f"{fmt_prob(low)} and {fmt_prob(p_inside)}); raise --shell-solves "
-                      f"(now {shell.budget} per partition) to decide more; {reason}")
+                      f"{fmt_prob(low)} and {fmt_prob(p_inside)}); {more_solves(shell)}; "
+                      f"{reason}")
             label = "uncertain"
     if model is not None and label != "uncertain":
         soft = classify_fit(float(model["tension_sigma"]), p_inside_upper(

@@ -109,9 +109,10 @@ def _covering(used: Sequence[str]) -> list[str] | str:
     """Coordinates of a region that decides points moving ``used``: those themselves; all
     T-type coefficients once a mixed W-B one (fT5, fT6, fT7) is among them; all 18 once an
     M-type coefficient is.  Subsets with M-type coefficients, and S + fT0..fT2 with fT5,
-    fT6 or fT7 (even all three) but without fT8 and fT9, are flat cones without an
-    interior point (measured), while the larger cone meets every subspace in that
-    subspace's own cone."""
+    fT6 or fT7 (even all three) but without fT8 and fT9, have no point with a
+    certificate of positive margin (measured: the centre program's rho fails
+    verification; the cone is flat or lies on a face where every certificate is
+    singular), while the larger cone meets every subspace in that subspace's own cone."""
     if any(c.startswith("fM") for c in used):
         return "all"
     if any(c in ("fT5", "fT6", "fT7") for c in used):
@@ -272,10 +273,12 @@ class AqgcDim8(ConeTheory):
                      for sec in _independent_sectors(problem)]
         except SolverError as err:
             raise InputError(None, "--coordinates", f"the cone of {','.join(coords)} alone "
-                             f"has no interior point ({err}): positivity forces a combination "
-                             "of them to vanish, or it is a single coefficient", "add more "
-                             "coefficients (e.g. fS0,fS1,fS2 with fT0,fT1,fT2); single "
-                             "coefficients: the sign table of docs/physics_aqgc.md") from err
+                             f"has no point with a certificate of positive margin ({err}): it "
+                             "is flat, lies on a face where every certificate is singular, or "
+                             "is a single coefficient", "use --coordinates all with M-type "
+                             "coefficients, or add more (e.g. fS0,fS1,fS2 with fT0,fT1,fT2); "
+                             "single coefficients: the sign table of docs/physics_aqgc.md"
+                             ) from err
         convention = _convention(coords, sin2)
         if len(parts) == 1:
             return cone_region(self.name, parts[0][1], convention, notes=AQGC_CAUTIONS)
