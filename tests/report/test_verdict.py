@@ -115,10 +115,8 @@ def test_a_label_rests_on_p_inside_beyond_its_error():
     assert "upper end" not in sharp.reason
 
 
-def test_undecided_shell_points_that_could_change_the_word_make_it_uncertain():
-    """Shell points left undecided count as inside, so p_inside is an upper bound; when
-    the word at p_inside minus their share differs, the verdict is 'uncertain'
-    (docs/verdict.md), with both words and the range in the reason."""
+def _verdict_with_shell(p_inside: float, p_err: float, **shell: object):
+    """The verdict of a mean inside a one-facet region with a shell summary ``shell``."""
     from types import SimpleNamespace
 
     from eftsieve.stats.tension import tension
@@ -126,17 +124,25 @@ def test_undecided_shell_points_that_could_change_the_word_make_it_uncertain():
     reg = region(((1, 0), 0.0),)
     mean, cov = np.array([1.0, 0.0]), np.eye(2)
     ten = tension(mean, cov, reg, np.random.default_rng(0))
-    shell = SimpleNamespace(marginal_fraction=0.0349, n_marginal=6973, budget=1000,
-                            n_solves=1000, reasons=(("shell-solve budget reached", 6950),
-                                                    (BOUNDARY_REASON, 23)))
-    v = fit_verdict(reg, mean, cov, ten, 0.0395, 3.1e-4, 2e5, exact=True, shell=shell)
+    return fit_verdict(reg, mean, cov, ten, p_inside, p_err, 2e5, exact=True,
+                       shell=SimpleNamespace(**shell))
+
+
+def test_undecided_shell_points_that_could_change_the_word_make_it_uncertain():
+    """Shell points left undecided count as inside, so p_inside is an upper bound; when
+    the word at p_inside minus their share differs, the verdict is 'uncertain'
+    (docs/verdict.md), with both words and the range in the reason."""
+    v = _verdict_with_shell(0.0395, 3.1e-4, marginal_fraction=0.0349, n_marginal=6973,
+                            budget=1000, n_solves=1000,
+                            reasons=(("shell-solve budget reached", 6950),
+                                     (BOUNDARY_REASON, 23)))
     assert v.label == "uncertain"
     assert v.reason.startswith("consistent if the 6973 shell points left undecided are "
                                "inside the cone, tension if they are outside")
     assert "between 0.0046 and 0.0395" in v.reason and "--shell-solves" in v.reason
-    few = SimpleNamespace(marginal_fraction=0.001, n_marginal=200, budget=1000)
-    assert fit_verdict(reg, mean, cov, ten, 0.0395, 3.1e-4, 2e5, exact=True,
-                       shell=few).label == "consistent", "a share that cannot flip the word"
+    few = _verdict_with_shell(0.0395, 3.1e-4, marginal_fraction=0.001, n_marginal=200,
+                              budget=1000)
+    assert few.label == "consistent", "a share that cannot flip the word"
 
 
 def test_shell_solves_that_end_on_the_boundary_are_not_sold_as_more_budget():
@@ -145,20 +151,13 @@ def test_shell_solves_that_end_on_the_boundary_are_not_sold_as_more_budget():
     point inside or out: measured for fM0, fM1, fT0, fT1 against the 18-coefficient
     aqgc-dim8 cone, 298 of 300 solves), the reason says so instead of asking for a larger
     --shell-solves budget."""
-    from types import SimpleNamespace
-
-    from eftsieve.stats.tension import tension
-
-    reg = region(((1, 0), 0.0),)
-    mean, cov = np.array([1.0, 0.0]), np.eye(2)
-    ten = tension(mean, cov, reg, np.random.default_rng(0))
-    shell = SimpleNamespace(marginal_fraction=0.165, n_marginal=33094, budget=300,
-                            n_solves=300, reasons=(("shell-solve budget reached", 32796),
-                                                   (BOUNDARY_REASON, 298)))
-    v = fit_verdict(reg, mean, cov, ten, 0.166, 3e-4, 2e5, exact=True, shell=shell)
+    v = _verdict_with_shell(0.166, 3e-4, marginal_fraction=0.165, n_marginal=33094,
+                            budget=300, n_solves=300,
+                            reasons=(("shell-solve budget reached", 32796),
+                                     (BOUNDARY_REASON, 298)))
     assert v.label == "uncertain"
-    assert ("298 of the 300 exact shell solves ended on the cone's boundary within the solver's "
-            "accuracy, which more solves do not settle") in v.reason
+    assert ("298 of the 300 exact shell solves ended on the cone's boundary within the "
+            "solver's accuracy, which more solves do not settle") in v.reason
     assert "--shell-solves" not in v.reason
 
 
