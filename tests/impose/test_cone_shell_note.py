@@ -58,6 +58,24 @@ def test_shell_share_of_the_imposed_samples_matches_the_published_cone():
     assert "about 20% of the result in the cone" in impose_banner(low).text
     # the probability the truncation removed is that of the outer facets, and says so
     assert "p_inside of the outer facets without positivity" in impose_banner(low).text
+    # the undecided ones counted outside, then inside, bracket the estimate
+    lo_share, hi_share = note["in_cone_range"]
+    assert lo_share <= note["in_cone_estimate"] <= hi_share
+    # most solves undecided (a fit on a face of a cone: measured for an invented aqgc-dim8
+    # fit of fM0, fM1, fT0, fT1, 99 of 100): the few decided ones say little, so the
+    # banner and the shell line give the range, not an estimate from one point
+    from eftsieve.report.impose_report import cone_shell_text
+
+    face = {**note, "shell_fraction": 1.0, "checked": 100, "inside": 0, "outside": 1,
+            "marginal": 99, "in_cone_estimate": 0.0, "in_cone_range": [0.0, 0.99]}
+    banner = impose_banner(replace(res, figures={**res.figures, "cone_shell": face}))
+    assert banner.label == "outer facets only"
+    assert ("exact solves of 100 samples of its shell left 99 undecided (within the "
+            "solver's accuracy of the boundary), so between about 0% and 99% of the result "
+            "lies in the cone itself: it is not proven to be the posterior") in banner.text
+    line = cone_shell_text(face)
+    assert "between about 0% and 99% of the imposed samples" in line
+    assert "about 0% of the imposed" not in line
 
 
 def test_regions_without_a_shell_get_no_note():

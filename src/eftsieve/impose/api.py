@@ -123,8 +123,9 @@ def cone_shell_note(res: ImposeResult, region: Region, cmap: Any, seed: int,
     """For a positivity cone, the truncation uses its verified outer facets: samples in the
     shell (outside the inner cone) may lie outside the cone itself.  Up to ``solves`` of
     them, drawn at random, are decided exactly, and the share of the imposed samples that
-    lie in the cone is estimated (``figures["cone_shell"]``).  Regions without a shell are
-    returned unchanged."""
+    lie in the cone is estimated from the decided ones (``figures["cone_shell"]``,
+    ``in_cone_estimate``), with the range that counting the undecided ones outside, then
+    inside, gives (``in_cone_range``).  Regions without a shell are returned unchanged."""
     if "cone_problem" not in region.settings or not region.inner_facets:
         return res
     from eftsieve.bounds.cone_region import ConeShell
@@ -136,7 +137,8 @@ def cone_shell_note(res: ImposeResult, region: Region, cmap: Any, seed: int,
     sure = (y @ ai.T - bi >= 0).all(axis=1)
     shell_w = float(w[~sure].sum() / w.sum())
     note: dict[str, Any] = {"shell_fraction": shell_w, "checked": 0, "inside": 0,
-                            "outside": 0, "marginal": 0, "in_cone_estimate": 1.0}
+                            "outside": 0, "marginal": 0, "in_cone_estimate": 1.0,
+                            "in_cone_range": [1.0, 1.0]}
     rows = np.flatnonzero(~sure)
     if len(rows):
         rng = np.random.default_rng([seed, 7])
@@ -144,10 +146,13 @@ def cone_shell_note(res: ImposeResult, region: Region, cmap: Any, seed: int,
         codes, _, _ = ConeShell.from_region(region).decide(y[pick], pick, seed=seed)
         n_in, n_out = int((codes == INSIDE).sum()), int((codes == OUTSIDE).sum())
         decided = n_in + n_out
-        note.update(checked=len(pick), inside=n_in, outside=n_out,
-                    marginal=len(pick) - decided,
+        n_marg = len(pick) - decided
+        # the undecided counted outside, then inside: the share in the cone lies between
+        note.update(checked=len(pick), inside=n_in, outside=n_out, marginal=n_marg,
                     in_cone_estimate=(1.0 - shell_w) + shell_w * (n_in / decided)
-                    if decided else None)
+                    if decided else None,
+                    in_cone_range=[(1.0 - shell_w) + shell_w * n_in / len(pick),
+                                   (1.0 - shell_w) + shell_w * (n_in + n_marg) / len(pick)])
     return replace(res, figures={**res.figures, "cone_shell": note})
 
 

@@ -34,6 +34,13 @@ MODE_TEXT = {
 IN_CONE_WARN = 0.95
 
 
+def mostly_undecided(note: dict) -> bool:
+    """Whether at least half of the shell samples solved for a cone's note stayed undecided
+    (:func:`eftsieve.impose.api.cone_shell_note`)."""
+    marg = int(note.get("marginal", 0))
+    return marg > 0 and 2 * marg >= int(note.get("checked", 0))
+
+
 def impose_banner(result: ImposeResult) -> Banner:
     """``imposed``, ``bounds-driven`` (p_inside before below the tiny threshold),
     ``outer facets only`` (a cone whose shell holds much of the result, exact solves
@@ -53,11 +60,26 @@ def impose_banner(result: ImposeResult) -> Banner:
         return Banner("not converged", f"the refit chain is not converged by the stated "
                       f"rule ({f.get('convergence_rule', '')}); do not use these samples "
                       "before running longer")
-    est = (f.get("cone_shell") or {}).get("in_cone_estimate")
-    if est is not None and p is not None:
+    shell = f.get("cone_shell") or {}
+    est = shell.get("in_cone_estimate")
+    low, high = shell.get("in_cone_range") or (est, est)
+    # most of the solved shell samples undecided (e.g. on a face of the cone, where no
+    # solve proves a point inside or out): the estimate from the few decided ones says
+    # little, the range says what is known
+    marg = int(shell.get("marginal", 0))
+    undecided = mostly_undecided(shell)
+    if (est is not None or undecided) and p is not None:
         # the truncation used the outer facets: so does the probability it removed (a
         # check decides the shell and so gives a smaller p_inside)
         ptext = ptext.replace("; p_inside without", "; p_inside of the outer facets without")
+    if undecided and low is not None and high is not None and low < IN_CONE_WARN:
+        return Banner("outer facets only", f"positivity imposed with the cone's verified "
+                      f"outer facets ({result.mode}, {n} samples){ptext}; exact solves of "
+                      f"{shell.get('checked')} samples of its shell left {marg} undecided "
+                      "(within the solver's accuracy of the boundary), so between about "
+                      f"{fmt_num(100 * low, 3)}% and {fmt_num(100 * high, 3)}% of the result "
+                      "lies in the cone itself: it is not proven to be the posterior within "
+                      "the cone")
     if est is not None and est < IN_CONE_WARN:
         # the truncation used the cone's outer facets; exact solves on a sample of the
         # result say how much of it is in the cone itself
@@ -137,8 +159,14 @@ def diagnostics_block(result: ImposeResult) -> list:
 def cone_shell_text(note: dict) -> str:
     """One sentence on the samples of a cone's shell (eftsieve.impose.api.cone_shell_note)."""
     est = note.get("in_cone_estimate")
-    share = ("" if est is None else f"; about {fmt_num(100 * est, 3)}% of the imposed "
-             "samples lie in the cone")
+    rng = note.get("in_cone_range")
+    if mostly_undecided(note) and rng:
+        # the few decided ones say little: only the range
+        share = (f"; between about {fmt_num(100 * rng[0], 3)}% and {fmt_num(100 * rng[1], 3)}% of "
+                 "the imposed samples lie in the cone (the undecided ones outside, inside)")
+    else:
+        share = ("" if est is None else f"; about {fmt_num(100 * est, 3)}% of the imposed "
+                 "samples lie in the cone")
     return (f"truncated to the cone's verified outer facets: "
             f"{fmt_num(100 * note['shell_fraction'], 3)}% of the samples lie between its "
             f"inner and outer facets, where exact solves of {note['checked']} of them found "
