@@ -34,6 +34,7 @@ def test_shell_share_of_the_imposed_samples_matches_the_published_cone():
     note = res.figures["cone_shell"]
     assert 0 < note["shell_fraction"] <= 1 and note["checked"] == 100
     assert note["inside"] + note["outside"] + note["marginal"] == 100
+    assert 0 <= note["on_boundary"] <= note["marginal"]
     # the truth from the published inequalities, for every imposed sample
     rr = res.samples @ ops.REMMEN_RODD_FROM_F.T                       # (C1, C2, C3)
     forms = np.column_stack([rr[:, 1], rr[:, 0] + rr[:, 1], rr.sum(axis=1)])
@@ -67,7 +68,8 @@ def test_shell_share_of_the_imposed_samples_matches_the_published_cone():
     from eftsieve.report.impose_report import cone_shell_text
 
     face = {**note, "shell_fraction": 1.0, "checked": 100, "inside": 0, "outside": 1,
-            "marginal": 99, "in_cone_estimate": 0.0, "in_cone_range": [0.0, 0.99]}
+            "marginal": 99, "on_boundary": 99, "in_cone_estimate": 0.0,
+            "in_cone_range": [0.0, 0.99]}
     banner = impose_banner(replace(res, figures={**res.figures, "cone_shell": face}))
     assert banner.label == "outer facets only"
     assert ("exact solves of 100 samples of its shell left 99 undecided (within the "

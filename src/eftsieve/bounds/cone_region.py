@@ -131,6 +131,13 @@ def sdp_for(problem: ConeProblem) -> Any:
 #: same point give the same answer)
 BOUNDARY_REASON = "within the solver's accuracy of the boundary"
 
+
+def mostly_undecided(n_undecided: int, n_solved: int) -> bool:
+    """Whether at least half of ``n_solved`` exact solves left their point undecided: the
+    few decided ones then say little (e.g. a fit on a face of the cone, where no solve
+    proves a point inside or out), and more solves of the same kind would not help."""
+    return n_undecided > 0 and 2 * n_undecided >= n_solved
+
 #: (code, status line, short reason, normal of the verified separating facet or None)
 Decision = tuple[int, str, str, np.ndarray | None]
 

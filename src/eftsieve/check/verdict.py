@@ -309,10 +309,10 @@ def more_solves(shell: Any) -> str:
     """What more shell solves would do: decide more points, unless most of the solves run
     so far ended on the cone's boundary within the solver's accuracy (a fit whose
     coordinates lie on a face of the cone, where no solve proves a point inside or out)."""
-    from eftsieve.bounds.cone_region import BOUNDARY_REASON
+    from eftsieve.bounds.cone_region import BOUNDARY_REASON, mostly_undecided
 
     on_edge = sum(n for r, n in shell.reasons if r == BOUNDARY_REASON)
-    if shell.n_solves and 2 * on_edge >= shell.n_solves:
+    if mostly_undecided(on_edge, shell.n_solves):
         return (f"{on_edge} of the {shell.n_solves} exact shell solves ended on the cone's "
                 "boundary within the solver's accuracy, which more solves do not settle: the "
                 "fit's coordinates may lie on a face of the cone (docs/verdict.md)")

@@ -128,7 +128,7 @@ def cone_shell_note(res: ImposeResult, region: Region, cmap: Any, seed: int,
     inside, gives (``in_cone_range``).  Regions without a shell are returned unchanged."""
     if "cone_problem" not in region.settings or not region.inner_facets:
         return res
-    from eftsieve.bounds.cone_region import ConeShell
+    from eftsieve.bounds.cone_region import BOUNDARY_REASON, ConeShell
     from eftsieve.bounds.cones import INSIDE, OUTSIDE
 
     y = cmap(np.asarray(res.samples, dtype=float))
@@ -137,18 +137,20 @@ def cone_shell_note(res: ImposeResult, region: Region, cmap: Any, seed: int,
     sure = (y @ ai.T - bi >= 0).all(axis=1)
     shell_w = float(w[~sure].sum() / w.sum())
     note: dict[str, Any] = {"shell_fraction": shell_w, "checked": 0, "inside": 0,
-                            "outside": 0, "marginal": 0, "in_cone_estimate": 1.0,
+                            "outside": 0, "marginal": 0, "on_boundary": 0,
+                            "in_cone_estimate": 1.0,
                             "in_cone_range": [1.0, 1.0]}
     rows = np.flatnonzero(~sure)
     if len(rows):
         rng = np.random.default_rng([seed, 7])
         pick = np.sort(rng.choice(rows, size=min(solves, len(rows)), replace=False))
-        codes, _, _ = ConeShell.from_region(region).decide(y[pick], pick, seed=seed)
+        codes, _, why = ConeShell.from_region(region).decide(y[pick], pick, seed=seed)
         n_in, n_out = int((codes == INSIDE).sum()), int((codes == OUTSIDE).sum())
         decided = n_in + n_out
         n_marg = len(pick) - decided
         # the undecided counted outside, then inside: the share in the cone lies between
         note.update(checked=len(pick), inside=n_in, outside=n_out, marginal=n_marg,
+                    on_boundary=sum(r == BOUNDARY_REASON for r in why),
                     in_cone_estimate=(1.0 - shell_w) + shell_w * (n_in / decided)
                     if decided else None,
                     in_cone_range=[(1.0 - shell_w) + shell_w * n_in / len(pick),

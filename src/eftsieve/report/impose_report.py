@@ -34,11 +34,12 @@ MODE_TEXT = {
 IN_CONE_WARN = 0.95
 
 
-def mostly_undecided(note: dict) -> bool:
-    """Whether at least half of the shell samples solved for a cone's note stayed undecided
-    (:func:`eftsieve.impose.api.cone_shell_note`)."""
-    marg = int(note.get("marginal", 0))
-    return marg > 0 and 2 * marg >= int(note.get("checked", 0))
+def _mostly_undecided(note: dict) -> bool:
+    """Whether at least half of the shell samples solved for a cone's note
+    (:func:`eftsieve.impose.api.cone_shell_note`) stayed undecided."""
+    from eftsieve.bounds.cone_region import mostly_undecided
+
+    return mostly_undecided(int(note.get("marginal", 0)), int(note.get("checked", 0)))
 
 
 def impose_banner(result: ImposeResult) -> Banner:
@@ -62,24 +63,24 @@ def impose_banner(result: ImposeResult) -> Banner:
                       "before running longer")
     shell = f.get("cone_shell") or {}
     est = shell.get("in_cone_estimate")
-    low, high = shell.get("in_cone_range") or (est, est)
-    # most of the solved shell samples undecided (e.g. on a face of the cone, where no
-    # solve proves a point inside or out): the estimate from the few decided ones says
-    # little, the range says what is known
-    marg = int(shell.get("marginal", 0))
-    undecided = mostly_undecided(shell)
+    rng = shell.get("in_cone_range")
+    # most of the solved shell samples undecided: the estimate from the few decided ones
+    # says little, the range says what is known
+    undecided = _mostly_undecided(shell)
     if (est is not None or undecided) and p is not None:
         # the truncation used the outer facets: so does the probability it removed (a
         # check decides the shell and so gives a smaller p_inside)
         ptext = ptext.replace("; p_inside without", "; p_inside of the outer facets without")
-    if undecided and low is not None and high is not None and low < IN_CONE_WARN:
+    if undecided and rng and rng[0] < IN_CONE_WARN:
+        marg, edge = int(shell["marginal"]), int(shell.get("on_boundary", 0))
+        why = ("" if not edge else " (within the solver's accuracy of the boundary)"
+               if edge == marg else f" ({edge} within the solver's accuracy of the boundary)")
         return Banner("outer facets only", f"positivity imposed with the cone's verified "
                       f"outer facets ({result.mode}, {n} samples){ptext}; exact solves of "
-                      f"{shell.get('checked')} samples of its shell left {marg} undecided "
-                      "(within the solver's accuracy of the boundary), so between about "
-                      f"{fmt_num(100 * low, 3)}% and {fmt_num(100 * high, 3)}% of the result "
-                      "lies in the cone itself: it is not proven to be the posterior within "
-                      "the cone")
+                      f"{shell['checked']} samples of its shell left {marg} undecided{why}, "
+                      f"so between about {fmt_num(100 * rng[0], 3)}% and "
+                      f"{fmt_num(100 * rng[1], 3)}% of the result lies in the cone itself: "
+                      "it is not proven to be the posterior within the cone")
     if est is not None and est < IN_CONE_WARN:
         # the truncation used the cone's outer facets; exact solves on a sample of the
         # result say how much of it is in the cone itself
@@ -160,7 +161,7 @@ def cone_shell_text(note: dict) -> str:
     """One sentence on the samples of a cone's shell (eftsieve.impose.api.cone_shell_note)."""
     est = note.get("in_cone_estimate")
     rng = note.get("in_cone_range")
-    if mostly_undecided(note) and rng:
+    if _mostly_undecided(note) and rng:
         # the few decided ones say little: only the range
         share = (f"; between about {fmt_num(100 * rng[0], 3)}% and {fmt_num(100 * rng[1], 3)}% of "
                  "the imposed samples lie in the cone (the undecided ones outside, inside)")
